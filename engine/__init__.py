@@ -1,0 +1,25 @@
+"""Degreewise numeric engine: polynomial calibration curves on numpy and scipy only.
+
+``Calibration(x, y, max_order=None, weights=None)`` factorises the data once;
+its methods and the functions below hand out per-order results (frozen
+dataclasses from ``engine.results``). ``fit(x, y, order, weights=None)`` is the
+shortest way to one order's coefficients.
+"""
+
+from .calibration import Calibration, default_max_order
+from .diagnostics import curve_checks, point_diagnostics
+from .errors import CalibrationError, DataError, OptionError, OrderError, WeightError
+from .prediction import inverse, predict
+from .selection import RULES, choose_order, forward_steps, mandel_test
+
+__all__ = [
+    "Calibration", "CalibrationError", "DataError", "OptionError", "OrderError", "RULES", "WeightError",
+    "choose_order", "curve_checks", "default_max_order", "fit", "forward_steps", "inverse", "mandel_test",
+    "point_diagnostics", "predict",
+]
+
+
+def fit(x, y, order, weights=None):
+    """Least-squares polynomial of ``order``: an ``OrderFit`` with ``coefficients`` and
+    ``std_errors`` in raw powers of x (intercept first), ``residual_sd`` and ``r_squared``."""
+    return Calibration(x, y, max_order=order, weights=weights).fit(order)

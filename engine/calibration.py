@@ -1,0 +1,335 @@
+"""One calibration: the data, one factorisation up to the max order, every nested fit.
+
+The basis is z^0 .. z^K with z = (u - c)/h, u = x * 2^-ex (an exact power-of-two
+scaling that keeps |u| < 1), c the midpoint and h the half-range of u, so that
+z runs over [-1, 1]. Rows are scaled by sqrt(w) for weighted least squares.
+One Householder QR, Z = QR, gives every order k <= K: the leading k+1 columns of
+Q and block of R are the factorisation of order k, and the sequential (Type I)
+sum of squares of term j is (Q'y)_j^2 (e.g. Seber & Lee, Linear Regression
+Analysis, 2nd ed., Wiley 2003, sec. 4.2 and 11.1). Raw power coefficients and
+their standard errors are refined as described in ``refine``. y is scaled by an
+exact power of two as well, so that huge and tiny magnitudes neither overflow
+nor underflow in sums of squares.
+"""
+
+from __future__ import annotations
+
+import math
+import operator
+from functools import cached_property
+
+import numpy as np
+from scipy.linalg import solve_triangular
+
+from . import doubledouble as dd
+from .distributions import f_sf, t_two_sided
+from .errors import DataError, OrderError
+from .refine import conversion_matrix, refine
+from .results import FTest, LackOfFit, OrderFit, OrderStats, SequentialRow, SequentialTable
+from .weighting import Weighting
+
+DEFAULT_MAX_ORDER = 4
+
+
+def _vector(values, name: str) -> np.ndarray:
+    try:
+        a = np.asarray(values, dtype=float)
+    except (TypeError, ValueError):
+        raise DataError(f"{name} must hold numbers only", argument=name) from None
+    if a.ndim != 1:
+        raise DataError(f"{name} must be one-dimensional, not of shape {a.shape}", argument=name)
+    bad = np.flatnonzero(~np.isfinite(a))
+    if bad.size:
+        i = int(bad[0])
+        raise DataError(
+            f"{name}[{i}] is {a[i]!r}: every value must be a finite number", argument=name, index=i
+        )
+    return a
+
+
+def _whole(value, name: str) -> int:
+    try:
+        k = operator.index(value)
+    except TypeError:
+        if isinstance(value, float) and value.is_integer():
+            k = int(value)
+        else:
+            raise OrderError(f"{name} must be a whole number, not {value!r}", argument=name) from None
+    return k
+
+
+def order_limit(n_points: int, n_distinct: int) -> int:
+    """Highest order the data can fit with one residual degree of freedom."""
+    return min(n_distinct - 1, n_points - 2)
+
+
+def default_max_order(n_points: int, n_distinct: int) -> int:
+    """min(4, m - 2, n - 3): the largest model keeps one df for lack of fit and two for the residual."""
+    return min(DEFAULT_MAX_ORDER, n_distinct - 2, n_points - 3)
+
+
+class Calibration:
+    """Points (x, y), optional weights, factorised once up to ``max_order``.
+
+    ``max_order`` defaults to min(4, m - 2, n - 3) with m distinct x values and
+    n points. ``weights`` is None, an array of positive numbers, or one of the
+    schemes "1/x", "1/x^2", "1/y", "1/y^2".
+    """
+
+    def __init__(self, x, y, max_order=None, weights=None):
+        x = _vector(x, "x")
+        y = _vector(y, "y")
+        if x.size != y.size:
+            raise DataError(
+                f"x has {x.size} values and y has {y.size}: give one y for every x", argument="y"
+            )
+        n = x.size
+        if n < 3:
+            raise DataError(
+                f"only {n} point{'s' if n != 1 else ''}: a calibration curve needs at least 3",
+                argument="x",
+            )
+        groups, inverse = np.unique(x, return_inverse=True)
+        m = groups.size
+        if m == 1:
+            raise DataError(
+                f"all {n} x values are equal ({x[0]!r}): a curve needs at least 2 distinct x values",
+                argument="x",
+            )
+        self.weighting = Weighting(weights, x, y)
+        if max_order is None:
+            k = default_max_order(n, m)
+            if k < 1:
+                raise OrderError(
+                    f"{n} points at {m} distinct x values are too few to choose an order: "
+                    "it takes at least 3 distinct x values and 4 points",
+                    argument="max_order",
+                )
+        else:
+            k = _whole(max_order, "max_order")
+            self.check_order(k, "max_order", n, m)
+        self.x, self.y = x, y
+        self.n_points, self.n_distinct, self.max_order = n, m, k
+        self._groups, self._group_of = groups, inverse
+
+        w = self.weighting.values
+        self.sqrt_w = np.ones(n) if w is None else np.sqrt(w)
+        self._ex = math.frexp(float(np.max(np.abs(x))))[1]
+        ymax = float(np.max(np.abs(y)))
+        self._ey = math.frexp(ymax)[1] if ymax > 0 else 0
+        u = np.ldexp(x, -self._ex)
+        self._ys = np.ldexp(y, -self._ey)
+        umin, umax = float(u.min()), float(u.max())
+        self.centre = (umin + umax) / 2
+        self.half_width = (umax - umin) / 2
+        self._u = u
+        z = (u - self.centre) / self.half_width
+        zw = np.vander(z, k + 1, increasing=True) * self.sqrt_w[:, None]
+        self._q, self._r = np.linalg.qr(zw)
+        self._yw = self._ys * self.sqrt_w
+        self._qty = self._q.T @ self._yw
+        self._r_inv = solve_triangular(self._r, np.eye(k + 1))
+        self._leverage = np.cumsum(self._q**2, axis=1)
+        sw2 = self.sqrt_w**2
+        mean = np.sum(sw2 * self._ys) / np.sum(sw2)
+        self._tss = float(np.sum(sw2 * (self._ys - mean) ** 2))
+        gmean = np.bincount(inverse, sw2 * self._ys) / np.bincount(inverse, sw2)
+        self._ss_pure = float(np.sum(sw2 * (self._ys - gmean[inverse]) ** 2))
+        self._t = conversion_matrix(self.centre, self.half_width, k)
+        self._solved: dict[int, tuple] = {}
+        self._stats: dict[int, OrderStats] = {}
+        self._fits: dict[int, OrderFit] = {}
+
+    # -- orders ---------------------------------------------------------------------------
+
+    @staticmethod
+    def check_order(order: int, name: str, n: int, m: int) -> None:
+        if order < 1:
+            raise OrderError(f"{name} must be at least 1, not {order}", argument=name)
+        if order > order_limit(n, m):
+            raise OrderError(
+                f"{name} {order} needs at least {order + 1} distinct x values and {order + 2} points; "
+                f"there are {m} and {n}",
+                argument=name,
+            )
+
+    def resolve_order(self, order, name: str = "order") -> int:
+        """Validate an order against this calibration's max order."""
+        k = _whole(order, name)
+        if k < 0 or k > self.max_order:
+            raise OrderError(
+                f"{name} {k} is outside 0..{self.max_order}, the orders this calibration was fitted to",
+                argument=name,
+            )
+        return k
+
+    # -- scaled-basis pieces used by the other modules --------------------------------------
+
+    def scaled_x(self, x) -> np.ndarray:
+        """z for raw x."""
+        return (np.ldexp(np.asarray(x, dtype=float), -self._ex) - self.centre) / self.half_width
+
+    def raw_x(self, z) -> np.ndarray:
+        """raw x for z."""
+        return np.ldexp(np.asarray(z, dtype=float) * self.half_width + self.centre, self._ex)
+
+    def scaled_coefficients(self, order: int) -> np.ndarray:
+        """a with fitted y = sum_j a_j z^j (in the units of y)."""
+        p = order + 1
+        return np.ldexp(self._r_inv[:p, :p] @ self._qty[:p], self._ey)
+
+    def r_factor(self, order: int) -> np.ndarray:
+        return self._r[: order + 1, : order + 1]
+
+    def leverage(self, order: int) -> np.ndarray:
+        return self._leverage[:, order]
+
+    def weighted_residuals(self, order: int) -> np.ndarray:
+        """sqrt(w) (y - fitted) in the units of y.
+
+        The max-order residual comes from the refined solution; a lower order adds
+        back the components of the dropped terms, e_k = e_K + sum_{j>k} q_j (Q'y)_j.
+        """
+        return np.ldexp(self._residuals_scaled(order), self._ey)
+
+    def _residuals_scaled(self, order: int) -> np.ndarray:
+        e = self._refined(self.max_order)[2]
+        return e + self._q[:, order + 1:] @ self._qty[order + 1:]
+
+    # -- refined solution ---------------------------------------------------------------------
+
+    @cached_property
+    def _powers(self):
+        hi, lo = dd.powers(self._u, self.max_order)
+        return dd.mul_double(hi, lo, self.sqrt_w[:, None])
+
+    def _refined(self, order: int):
+        """Raw coefficients (scaled units), diagonal of (V'WV)^-1, and the weighted residual.
+
+        One refinement with right-hand sides [y | 0] and [0 | -I] gives the
+        solution and the columns of (V'WV)^-1 together.
+        """
+        if order not in self._solved:
+            p, n = order + 1, self.n_points
+            v_hi, v_lo = self._powers
+            y_hi, y_lo = dd.two_prod(self._ys, self.sqrt_w)
+            rhs_hi = np.zeros((p + 1, n))
+            rhs_lo = np.zeros((p + 1, n))
+            rhs_hi[0], rhs_lo[0] = y_hi, y_lo
+            c = np.zeros((p + 1, p))
+            c[1:] = -np.eye(p)
+            (b_hi, b_lo), (e_hi, e_lo) = refine(
+                v_hi[:, :p], v_lo[:, :p], self._q[:, :p], self._r_inv[:p, :p], self._t[:p, :p],
+                rhs_hi, rhs_lo, c,
+            )
+            coef = b_hi[0] + b_lo[0]
+            diag = np.maximum(np.diag(b_hi[1:]) + np.diag(b_lo[1:]), 0.0)
+            e = e_hi[0] + e_lo[0]
+            self._solved[order] = coef, diag, e
+        return self._solved[order]
+
+    def _rss(self, order: int) -> float:
+        e = self._residuals_scaled(order)
+        return float(e @ e)
+
+    # -- statistics ---------------------------------------------------------------------------
+
+    def _lack_of_fit(self, rss: float, p: int) -> LackOfFit | None:
+        df_pe = self.n_points - self.n_distinct
+        df_lof = self.n_distinct - p
+        if df_pe < 1 or df_lof < 1:
+            return None
+        ss_lof = max(rss - self._ss_pure, 0.0)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            f = (ss_lof / df_lof) / (self._ss_pure / df_pe)
+        scale = 4.0**self._ey
+        return LackOfFit(
+            ss_lof * scale, df_lof, self._ss_pure * scale, df_pe,
+            FTest(float(f), df_lof, df_pe, float(f_sf(f, df_lof, df_pe))),
+        )
+
+    def stats(self, order) -> OrderStats:
+        """Goodness-of-fit figures of ``order`` (0 .. max_order)."""
+        k = self.resolve_order(order)
+        if k in self._stats:
+            return self._stats[k]
+        n, p = self.n_points, k + 1
+        df = n - p
+        rss = self._rss(k)
+        e = self._residuals_scaled(k)
+        h = self._leverage[:, k]
+        with np.errstate(divide="ignore", invalid="ignore"):
+            press = float(np.sum((e / (1.0 - h)) ** 2)) if np.all(h < 1 - 1e-12) else math.nan
+            r2 = 1.0 - rss / self._tss
+            ey2 = 2 * self._ey
+            log_rss = (math.log(rss) if rss > 0 else -math.inf) + ey2 * math.log(2.0)
+            log_w = float(np.sum(np.log(self.sqrt_w**2)))
+            llf = -0.5 * n * (math.log(2 * math.pi) + log_rss - math.log(n) + 1) + 0.5 * log_w
+            npar = p + 1
+            aic = -2 * llf + 2 * npar
+            aicc = aic + 2 * npar * (npar + 1) / (n - npar - 1) if n - npar - 1 > 0 else math.nan
+            bic = -2 * llf + npar * math.log(n)
+            overall = None
+            if k >= 1:
+                f = ((self._tss - rss) / k) / (rss / df)
+                overall = FTest(float(f), k, df, float(f_sf(f, k, df)))
+            s = self._ldexp(math.sqrt(rss / df), self._ey)
+            stats = OrderStats(
+                order=k, n_points=n, df_resid=df, rss=self._ldexp(rss, ey2), residual_sd=s,
+                r_squared=float(r2), adj_r_squared=float(1.0 - (1.0 - r2) * (n - 1) / df),
+                press=self._ldexp(press, ey2), predicted_r_squared=float(1.0 - press / self._tss),
+                aicc=float(aicc), bic=float(bic), overall=overall, lack_of_fit=self._lack_of_fit(rss, p),
+            )
+        self._stats[k] = stats
+        return stats
+
+    @staticmethod
+    def _ldexp(value: float, e: int) -> float:
+        return float(np.ldexp(value, e))
+
+    def fit(self, order) -> OrderFit:
+        """Coefficients of ``order`` in raw powers of x, with standard errors, t and p."""
+        k = self.resolve_order(order)
+        if k in self._fits:
+            return self._fits[k]
+        stats = self.stats(k)
+        p = k + 1
+        coef, diag, _ = self._refined(k)
+        s_scaled = math.sqrt(self._rss(k) / stats.df_resid)
+        exps = self._ey - self._ex * np.arange(p)
+        coef = np.ldexp(coef, exps)
+        se = np.ldexp(s_scaled * np.sqrt(diag), exps)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            t = np.where(se > 0, coef / se, np.where(coef == 0, math.nan, np.copysign(math.inf, coef)))
+        pv = t_two_sided(t, stats.df_resid)
+        fit = OrderFit(k, tuple(map(float, coef)), tuple(map(float, se)), tuple(map(float, t)),
+                       tuple(map(float, pv)), stats)
+        self._fits[k] = fit
+        return fit
+
+    def sequential_table(self) -> SequentialTable:
+        """Type I ANOVA of the max-order model: each term against the max-order residual."""
+        k = self.max_order
+        st = self.stats(k)
+        rss = self._rss(k)
+        scale = 4.0**self._ey
+        ms_resid = rss / st.df_resid
+        rows = []
+        for j in range(1, k + 1):
+            ss = float(self._qty[j] ** 2)
+            with np.errstate(divide="ignore", invalid="ignore"):
+                f = ss / ms_resid
+            rows.append(SequentialRow(j, ss * scale, FTest(float(f), 1, st.df_resid, float(f_sf(f, 1, st.df_resid)))))
+        return SequentialTable(k, tuple(rows), st.rss, st.df_resid, st.lack_of_fit,
+                               self._tss * scale, self.n_points - 1)
+
+    def step_test(self, order: int) -> FTest:
+        """Extra-sum-of-squares F test of the term x^order against the model of order - 1."""
+        k = self.resolve_order(order)
+        if k < 1:
+            raise OrderError("order must be at least 1 for a step test", argument="order")
+        rss = self._rss(k)
+        df = self.n_points - k - 1
+        with np.errstate(divide="ignore", invalid="ignore"):
+            f = float(self._qty[k] ** 2) / (rss / df)
+        return FTest(float(f), 1, df, float(f_sf(f, 1, df)))

@@ -1,0 +1,219 @@
+"""Diagnostics of one order: per standard, and checks of the whole curve.
+
+Per standard (weighted residuals e_i = sqrt(w_i)(y_i - f(x_i)), leverage h_i):
+internally studentized r_i = e_i / (s sqrt(1 - h_i)); externally studentized
+t_i = r_i sqrt((df - 1) / (df - r_i^2)); Cook's D_i = r_i^2 h_i / (p (1 - h_i))
+(Cook & Weisberg, Residuals and Influence in Regression, Chapman & Hall 1982,
+ch. 2 and 3). Outliers: Bonferroni p = n * P(|T_(df-1)| > |t_i|) below alpha;
+influential: D_i above the median of F(p, n - p) (a common practice threshold,
+Cook & Weisberg 1982). Back-calculated x solves f(x) = y_i, up to a quarter of
+the range beyond either end, nearest the standard's own x.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+from scipy import stats as sstats
+from scipy import special
+
+from .calibration import Calibration
+from .curve import Curve
+from .distributions import f_quantile, normal_two_sided, t_two_sided
+from .prediction import roots_of
+from .results import Check, PointDiagnostics
+from .selection import check_alpha, fmt_p, mandel_test
+
+BACK_CALC_EXTEND = 0.25
+
+
+def _studentized(cal: Calibration, curve: Curve):
+    e = cal.weighted_residuals(curve.order)
+    h = cal.leverage(curve.order)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        r = e / (curve.s * np.sqrt(1.0 - h))
+        df = curve.df
+        t = r * np.sqrt((df - 1) / (df - r**2)) if df > 1 else np.full_like(r, np.nan)
+        cook = r**2 * h / ((curve.order + 1) * (1.0 - h))
+    return e, h, r, t, cook
+
+
+def _bonferroni(t: np.ndarray, df: int, n: int) -> np.ndarray:
+    if df < 2:
+        return np.full(t.shape, np.nan)
+    return np.minimum(1.0, n * t_two_sided(t, df - 1))
+
+
+def point_diagnostics(cal: Calibration, order: int, alpha: float = 0.05) -> PointDiagnostics:
+    """Fitted, residual, studentized residuals, leverage, Cook's D, back-calculated x per standard."""
+    alpha = check_alpha(alpha)
+    curve = Curve(cal, order)
+    e, h, r, t, cook = _studentized(cal, curve)
+    fitted = cal.y - e / cal.sqrt_w
+    resid = cal.y - fitted
+    n, p = cal.n_points, curve.order + 1
+    bonf = _bonferroni(t, curve.df, n)
+    cook_cut = float(f_quantile(0.5, p, n - p))
+    roots = roots_of(curve, cal.y, -1 - 2 * BACK_CALC_EXTEND, 1 + 2 * BACK_CALC_EXTEND)
+    z_own = cal.scaled_x(cal.x)
+    back = np.full(n, np.nan)
+    notes = []
+    for i in range(n):
+        words = []
+        zs = roots[i]
+        if zs.size:
+            back[i] = float(cal.raw_x(zs[np.argmin(np.abs(zs - z_own[i]))]))
+            if zs.size > 1:
+                words.append("several x give this response; the one nearest the standard is shown")
+        else:
+            words.append("no x near the calibrated range gives this response")
+        if bonf[i] < alpha:
+            words.append(f"outlier (externally studentized {t[i]:.3g}, Bonferroni p = {fmt_p(bonf[i])})")
+        if cook[i] > cook_cut:
+            words.append(f"influential (Cook's distance {cook[i]:.3g} > {cook_cut:.3g})")
+        if h[i] > 1 - 1e-10:
+            words.append("leverage 1: this standard alone fixes the curve here")
+        if cal.x[i] == 0:
+            words.append("deviation % not defined at x = 0")
+        notes.append("; ".join(words))
+    with np.errstate(divide="ignore", invalid="ignore"):
+        dev = np.where(cal.x != 0, 100.0 * (back - cal.x) / np.abs(cal.x), np.nan)
+    columns = (fitted, resid, r, t, h, cook, back, dev)
+    return PointDiagnostics(*(tuple(float(v) for v in c) for c in columns), tuple(notes))
+
+
+def runs_test(residuals_by_x: np.ndarray) -> tuple[float, float, int]:
+    """Wald-Wolfowitz runs test of residual signs (zero counts as positive).
+
+    z = (R - mu) / sigma with mu = 2 n1 n2 / N + 1 and
+    sigma^2 = 2 n1 n2 (2 n1 n2 - N) / (N^2 (N - 1)), normal approximation
+    without continuity correction (Wald & Wolfowitz, Ann. Math. Stat. 11 (1940) 147-162).
+    Returns z, two-sided p and the number of runs.
+    """
+    pos = residuals_by_x >= 0
+    runs = int(1 + np.count_nonzero(pos[1:] != pos[:-1]))
+    n1 = int(np.count_nonzero(pos))
+    n2 = pos.size - n1
+    big_n = pos.size
+    if n1 == 0 or n2 == 0:
+        return math.nan, math.nan, runs
+    mu = 2.0 * n1 * n2 / big_n + 1
+    var = 2.0 * n1 * n2 * (2.0 * n1 * n2 - big_n) / (big_n**2 * (big_n - 1))
+    if var <= 0:
+        return math.nan, math.nan, runs
+    z = (runs - mu) / math.sqrt(var)
+    return z, float(normal_two_sided(z)), runs
+
+
+def durbin_watson(residuals_by_x: np.ndarray) -> float:
+    """DW = sum (e_t - e_(t-1))^2 / sum e_t^2 (Durbin & Watson, Biometrika 37 (1950) 409-428)."""
+    d = np.diff(residuals_by_x)
+    return float(d @ d / (residuals_by_x @ residuals_by_x))
+
+
+def breusch_pagan(residuals: np.ndarray, z: np.ndarray, order: int) -> tuple[float, float]:
+    """Koenker's studentized Breusch-Pagan LM = n R^2 of e^2 on 1, z, ..., z^order; chi2(order).
+
+    Breusch & Pagan, Econometrica 47 (1979) 1287-1294; Koenker, J. Econometrics 17 (1981) 107-112.
+    """
+    e2 = residuals**2
+    basis = np.vander(z, order + 1, increasing=True)
+    coef, *_ = np.linalg.lstsq(basis, e2, rcond=None)
+    fitted = basis @ coef
+    tss = float(np.sum((e2 - e2.mean()) ** 2))
+    if tss == 0:
+        return math.nan, math.nan
+    lm = e2.size * float(np.sum((fitted - e2.mean()) ** 2)) / tss
+    return lm, float(special.chdtrc(order, lm))
+
+
+def _verdict(p: float, alpha: float, bad: str, good: str) -> tuple[str, str]:
+    if p != p:
+        return "n/a", ""
+    return ("warning", bad) if p < alpha else ("ok", good)
+
+
+def curve_checks(cal: Calibration, order: int, alpha: float = 0.05, point_labels=None) -> tuple[Check, ...]:
+    """Lack of fit, Mandel, runs, Durbin-Watson, Shapiro-Wilk, Breusch-Pagan, monotonicity, outliers, influence.
+
+    ``point_labels`` names the points in details (default "point 1", "point 2", ...).
+    """
+    alpha = check_alpha(alpha)
+    labels = list(point_labels) if point_labels is not None else [f"point {i + 1}" for i in range(cal.n_points)]
+    curve = Curve(cal, order)
+    e, h, r, t, cook = _studentized(cal, curve)
+    n, p = cal.n_points, curve.order + 1
+    by_x = np.argsort(cal.x, kind="stable")
+    out = []
+
+    lof = curve.stats.lack_of_fit
+    if lof is None:
+        out.append(Check("lack of fit", math.nan, math.nan, "n/a",
+                         "needs replicated x and more distinct x values than coefficients"))
+    else:
+        v, d = _verdict(lof.test.p_value, alpha, "the curve misses the level means by more than replicate scatter",
+                        "the curve agrees with the level means within replicate scatter")
+        out.append(Check("lack of fit", lof.test.statistic, lof.test.p_value, v,
+                         f"F({lof.test.df_num}, {lof.test.df_den}); {d}"))
+
+    if cal.max_order >= 2:
+        mt = mandel_test(cal)
+        v, d = _verdict(mt.p_value, alpha, "the quadratic term is significant: a straight line is not adequate",
+                        "a straight line is adequate against a quadratic")
+        out.append(Check("Mandel linear vs quadratic", mt.statistic, mt.p_value, v, f"F(1, {mt.df_den}); {d}"))
+    else:
+        out.append(Check("Mandel linear vs quadratic", math.nan, math.nan, "n/a", "needs a max order of 2 or more"))
+
+    z, pz, runs = runs_test(e[by_x])
+    v, d = _verdict(pz, alpha, "residual signs cluster along x: the curve shape may be wrong",
+                    "residual signs alternate as expected by chance")
+    out.append(Check("runs of residual signs", z, pz, v, f"{runs} runs in x order; {d}" if pz == pz else
+                     "all residuals have the same sign"))
+
+    dw = durbin_watson(e[by_x]) if np.any(e != 0) else math.nan
+    if dw != dw:
+        out.append(Check("Durbin-Watson", dw, math.nan, "n/a", "residuals are all zero"))
+    else:
+        far = not 1.5 <= dw <= 2.5
+        out.append(Check("Durbin-Watson", dw, math.nan, "warning" if far else "ok",
+                         "residuals in x order; values outside 1.5 to 2.5 suggest correlated residuals "
+                         "(rule of thumb, common practice)"))
+
+    if n >= 3 and np.ptp(e) > 0:
+        w_stat, w_p = sstats.shapiro(e)
+        v, d = _verdict(float(w_p), alpha, "residuals depart from a normal distribution",
+                        "no evidence against normal residuals")
+        out.append(Check("Shapiro-Wilk", float(w_stat), float(w_p), v, d))
+    else:
+        out.append(Check("Shapiro-Wilk", math.nan, math.nan, "n/a", "needs 3 or more distinct residuals"))
+
+    if curve.order >= 1:
+        lm, bp = breusch_pagan(e, cal.scaled_x(cal.x), curve.order)
+        v, d = _verdict(bp, alpha, "residual spread changes with x: consider weights such as 1/x or 1/x^2",
+                        "no evidence that the residual spread changes with x")
+        out.append(Check("Breusch-Pagan", lm, bp, v, f"chi2({curve.order}); {d}"))
+
+    turns = curve.turning_points()
+    if turns.size:
+        xs = ", ".join(f"{v:.6g}" for v in cal.raw_x(turns))
+        out.append(Check("monotonic over the range", float(turns.size), math.nan, "warning",
+                         f"the curve turns at x = {xs}: a reading may map to more than one x"))
+    else:
+        rising = curve.value(1.0) > curve.value(-1.0)
+        out.append(Check("monotonic over the range", 0.0, math.nan, "ok",
+                         f"{'increasing' if rising else 'decreasing'} from x = {curve.x_min:.6g} to {curve.x_max:.6g}"))
+
+    bonf = _bonferroni(t, curve.df, n)
+    flagged = np.flatnonzero(bonf < alpha)
+    smallest = float(np.nanmin(bonf)) if np.any(np.isfinite(bonf)) else math.nan
+    out.append(Check("outliers", float(flagged.size), smallest, "warning" if flagged.size else "ok",
+                     (", ".join(labels[i] for i in flagged) if flagged.size else "none")
+                     + f" (externally studentized residual, Bonferroni at {alpha:g}; p-value is the smallest)"))
+
+    cut = float(f_quantile(0.5, p, n - p))
+    infl = np.flatnonzero(cook > cut)
+    out.append(Check("influential points", float(infl.size), math.nan, "warning" if infl.size else "ok",
+                     (", ".join(labels[i] for i in infl) if infl.size else "none")
+                     + f" (Cook's distance above {cut:.3g}, the median of F({p}, {n - p}))"))
+    return tuple(out)

@@ -1,0 +1,31 @@
+"""Tail probabilities and quantiles through scipy.special (the fast ufuncs behind scipy.stats)."""
+
+from __future__ import annotations
+
+import numpy as np
+from scipy import special
+
+
+def f_sf(f, df_num, df_den):
+    """P(F > f) for Snedecor's F(df_num, df_den); nan for a nan statistic."""
+    return special.fdtrc(df_num, df_den, np.maximum(f, 0.0))
+
+
+def t_two_sided(t, df):
+    """P(|T| > |t|) for Student's t with df degrees of freedom."""
+    return 2.0 * special.stdtr(df, -np.abs(t))
+
+
+def t_quantile(p, df):
+    """Quantile of Student's t: P(T <= q) = p."""
+    return special.stdtrit(df, p)
+
+
+def f_quantile(p, df_num, df_den):
+    """Quantile of F: P(F <= q) = p."""
+    return special.fdtri(df_num, df_den, p)
+
+
+def normal_two_sided(z):
+    """P(|Z| > |z|) for the standard normal."""
+    return special.erfc(np.abs(z) / np.sqrt(2.0))

@@ -1,0 +1,118 @@
+"""Double-double arithmetic on numpy arrays, in plain IEEE double.
+
+A double-double number is an unevaluated sum ``hi + lo`` with ``|lo| <= ulp(hi)/2``,
+about 32 significant digits. The error-free transformations are those of
+Knuth (TwoSum) and Dekker (Split, TwoProduct): T. J. Dekker, "A floating-point
+technique for extending the available precision", Numer. Math. 18 (1971) 224-242.
+Nothing here relies on fused multiply-add or on an extended ``long double``,
+so the results are the same on every platform. Splitting assumes
+``|a| < 2**996`` (no overflow of ``a * 134217729``).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+_SPLITTER = 134217729.0  # 2**27 + 1
+
+
+def two_sum(a, b):
+    """``s + e == a + b`` exactly, ``s = fl(a + b)`` (Knuth)."""
+    s = a + b
+    bb = s - a
+    e = (a - (s - bb)) + (b - bb)
+    return s, e
+
+
+def _fast_two_sum(a, b):
+    """``s + e == a + b`` exactly, for ``|a| >= |b|`` (Dekker)."""
+    s = a + b
+    e = b - (s - a)
+    return s, e
+
+
+def _split(a):
+    c = _SPLITTER * a
+    hi = c - (c - a)
+    return hi, a - hi
+
+
+def two_prod(a, b, a_split=None):
+    """``p + e == a * b`` exactly, ``p = fl(a * b)`` (Dekker); ``a_split`` may give split(a)."""
+    p = a * b
+    ah, al = _split(a) if a_split is None else a_split
+    bh, bl = _split(b)
+    e = ((ah * bh - p) + ah * bl + al * bh) + al * bl
+    return p, e
+
+
+def split(a):
+    """Dekker's split: a == hi + lo with hi and lo of at most 26 significant bits."""
+    return _split(a)
+
+
+def add(ah, al, bh, bl):
+    """Double-double sum (the accurate variant, QD library ``ieee_add``)."""
+    s, e = two_sum(ah, bh)
+    t, f = two_sum(al, bl)
+    e = e + t
+    s, e = _fast_two_sum(s, e)
+    e = e + f
+    return _fast_two_sum(s, e)
+
+
+def mul(ah, al, bh, bl):
+    """Double-double product."""
+    p, e = two_prod(ah, bh)
+    e = e + (ah * bl + al * bh)
+    return _fast_two_sum(p, e)
+
+
+def mul_double(ah, al, b):
+    """Double-double times a plain double."""
+    p, e = two_prod(ah, b)
+    e = e + al * b
+    return _fast_two_sum(p, e)
+
+
+def add_double(ah, al, b):
+    """Double-double plus a plain double."""
+    s, e = two_sum(ah, b)
+    return _fast_two_sum(s, e + al)
+
+
+def accurate_sum(hi, lo):
+    """Sums of ``hi + lo`` along the last axis, as a double-double pair.
+
+    Two passes of error-free extraction (ExtractVector of S. M. Rump, T. Ogita and
+    S. Oishi, "Accurate floating-point summation part I: faithful rounding",
+    SIAM J. Sci. Comput. 31 (2008) 189-224): with sigma = 2^(M + ceil(log2 max|p|)),
+    2^M >= n + 2, the high parts q = (sigma + p) - sigma sum exactly in any order.
+    What is left after two passes is about 2^-100 of the largest term, and is
+    added in plain double together with ``lo``. One sigma serves each index of
+    the first axis (so each right-hand side keeps its own scale).
+    """
+    n = hi.shape[-1]
+    shift = int(np.ceil(np.log2(n + 2)))
+    shape = (hi.shape[0],) + (1,) * (hi.ndim - 1)
+    rest = hi
+    exact = []
+    for _ in range(2):
+        top = np.maximum.reduce(np.abs(rest).reshape(hi.shape[0], -1), axis=1)
+        sigma = np.ldexp(1.0, np.frexp(top)[1] + shift).reshape(shape)
+        q = (sigma + rest) - sigma
+        rest = rest - q
+        exact.append(q.sum(axis=-1))
+    s, e = two_sum(exact[0], exact[1])
+    return _fast_two_sum(s, e + (rest.sum(axis=-1) + lo.sum(axis=-1)))
+
+
+def powers(x, order):
+    """Columns ``x**0 .. x**order`` as double-double arrays of shape (n, order+1)."""
+    x = np.asarray(x, dtype=float)
+    hi = np.empty((x.size, order + 1))
+    lo = np.empty_like(hi)
+    hi[:, 0], lo[:, 0] = 1.0, 0.0
+    for k in range(1, order + 1):
+        hi[:, k], lo[:, k] = mul_double(hi[:, k - 1], lo[:, k - 1], x)
+    return hi, lo

@@ -1,0 +1,185 @@
+"""Forward prediction (x -> y) and inverse prediction (reading -> x) with intervals.
+
+Forward: y0 = f(x0); the mean's interval is y0 +- t s sqrt(g'g) with g = R^-T z0,
+the prediction interval of one new reading y0 +- t s sqrt(1/w0 + g'g)
+(Draper & Smith, Applied Regression Analysis, 3rd ed., sec. 3.1).
+
+Inverse: for a reading that is the mean of m replicates, the x estimate solves
+f(x) = reading within the calibrated range; its interval is the set of x whose
+prediction band for a mean of m readings, f(x) +- t s sqrt(1/(m w(x)) + g'g),
+contains the reading (inverting the band; for order 1 this is Fieller's
+interval: E. C. Fieller, J. R. Stat. Soc. Suppl. 7 (1940) 1-64; see also
+Draper & Smith sec. 3.2). Bounds are sought up to half the range beyond either
+end; a band that does not close there leaves that bound open.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from .calibration import Calibration
+from .curve import EXTEND, Curve, check_level, illinois
+from .errors import DataError, OptionError
+from .results import InverseEstimate, Prediction
+
+
+def _finite(values, name: str) -> np.ndarray:
+    a = np.atleast_1d(np.asarray(values, dtype=float)).ravel()
+    bad = np.flatnonzero(~np.isfinite(a))
+    if bad.size:
+        i = int(bad[0])
+        raise DataError(f"{name}[{i}] is {a[i]!r}: every value must be a finite number", argument=name, index=i)
+    return a
+
+
+def _range_words(curve: Curve) -> str:
+    return f"[{curve.x_min:.6g}, {curve.x_max:.6g}]"
+
+
+def predict(cal: Calibration, new_x, order: int, level: float = 0.95) -> tuple[Prediction, ...]:
+    """Fitted value, mean interval and prediction interval at each new x."""
+    level = check_level(level)
+    x0 = _finite(new_x, "new_x")
+    curve = Curve(cal, order)
+    z0 = cal.scaled_x(x0)
+    fitted = curve.value(z0)
+    var_mean = curve.mean_variance(z0)
+    var_new = curve.s**2 * cal.weighting.variance_factor(x0, fitted)
+    t = curve.t_value(level)
+    half_mean = t * np.sqrt(var_mean)
+    half_pred = t * np.sqrt(var_new + var_mean)
+    out = []
+    for i, x in enumerate(x0):
+        notes = []
+        if x < curve.x_min or x > curve.x_max:
+            notes.append(f"x outside the calibrated range {_range_words(curve)}: extrapolation")
+        if not np.isfinite(half_pred[i]):
+            notes.append(f"weights '{cal.weighting.label}' give no weight for a reading here")
+        out.append(Prediction(float(x), float(fitted[i]), float(fitted[i] - half_mean[i]),
+                              float(fitted[i] + half_mean[i]), float(fitted[i] - half_pred[i]),
+                              float(fitted[i] + half_pred[i]), "; ".join(notes)))
+    return tuple(out)
+
+
+def _replicates(replicates, count: int) -> np.ndarray:
+    m = np.atleast_1d(np.asarray(replicates, dtype=float)).ravel()
+    if m.size == 1:
+        m = np.full(count, m[0])
+    if m.size != count:
+        raise OptionError(f"replicates has {m.size} values for {count} readings; give one number or one per reading",
+                          argument="replicates")
+    bad = np.flatnonzero(~((m >= 1) & (m == np.round(m))))
+    if bad.size:
+        raise OptionError(f"replicates must be a whole number of at least 1, not {m[bad[0]]!r}",
+                          argument="replicates", index=int(bad[0]))
+    return m
+
+
+def _crossings(values: np.ndarray, z: np.ndarray, lo: float, hi: float):
+    """Grid cells [i, i+1] within [lo, hi] where ``values`` (readings x grid) changes sign."""
+    inside = (z >= lo) & (z <= hi)
+    s = np.sign(values)
+    change = (s[:, :-1] * s[:, 1:] <= 0) & (s[:, :-1] != 0) & inside[:-1] & inside[1:]
+    return change
+
+
+def roots_of(curve: Curve, readings: np.ndarray, z_lo: float, z_hi: float) -> list[np.ndarray]:
+    """For each reading, every z in [z_lo, z_hi] with f(z) = reading, sorted."""
+    z, f, _ = curve.grid
+    g = f[None, :] - readings[:, None]
+    change = _crossings(g, z, z_lo, z_hi)
+    rows, cells = np.nonzero(change)
+    found = illinois(lambda zz: curve.value(zz) - readings[rows], z[cells], z[cells + 1],
+                     g[rows, cells], g[rows, cells + 1]) if rows.size else np.empty(0)
+    # the ends of [z_lo, z_hi] fall between grid nodes: test them directly
+    result = []
+    for i, y0 in enumerate(readings):
+        zs = list(found[rows == i])
+        for end in (z_lo, z_hi):
+            if curve.value(end) == y0:
+                zs.append(end)
+        zs = np.unique(np.asarray(zs, dtype=float))
+        result.append(zs[(zs >= z_lo) & (zs <= z_hi)])
+    return result
+
+
+def _band_edges(curve: Curve, cal: Calibration, y0: np.ndarray, m: np.ndarray, z_hat: np.ndarray, t: float):
+    """Lower and upper z of the band component holding z_hat (nan where it stays open).
+
+    gap(z) = (f(z) - y0)^2 - t^2 (s^2 / (m w(z)) + Var f(z)) is negative at z_hat;
+    each edge is bracketed by z_hat and the nearest grid node where gap > 0.
+    """
+    z, f, vm = curve.grid
+
+    def gap(zz, y, mm):
+        vf = cal.weighting.variance_factor(cal.raw_x(zz), y)
+        g = (curve.value(zz) - y) ** 2 - t**2 * (curve.s**2 * vf / mm + curve.mean_variance(zz))
+        return np.where(np.isfinite(g), g, np.inf)
+
+    vf = cal.weighting.variance_factor(cal.raw_x(z)[None, :], np.broadcast_to(y0[:, None], (y0.size, z.size)))
+    g = (f[None, :] - y0[:, None]) ** 2 - t**2 * (curve.s**2 * vf / m[:, None] + vm[None, :])
+    g = np.where(np.isfinite(g), g, np.inf)
+    g_hat = gap(z_hat, y0, m)
+    before = (g > 0) & (z[None, :] < z_hat[:, None])
+    after = (g > 0) & (z[None, :] > z_hat[:, None])
+    edges = []
+    for mask, pick in ((before, lambda b: z.size - 1 - np.argmax(b[:, ::-1], axis=1)),
+                       (after, lambda b: np.argmax(b, axis=1))):
+        has = mask.any(axis=1)
+        edge = np.full(y0.size, np.nan)
+        if has.any():
+            j = pick(mask[has])
+            rows = np.flatnonzero(has)
+            zj, gj = z[j], g[rows, j]
+            ends = (zj, z_hat[has], gj, g_hat[has]) if mask is before else (z_hat[has], zj, g_hat[has], gj)
+            edge[has] = illinois(lambda zz: gap(zz, y0[has], m[has]), *ends)
+        edges.append(edge)
+    return edges[0], edges[1]
+
+
+def inverse(cal: Calibration, readings, order: int, replicates=1, level: float = 0.95) -> tuple[InverseEstimate, ...]:
+    """x estimate and interval for each reading (the mean of ``replicates`` readings)."""
+    level = check_level(level)
+    y0 = _finite(readings, "reading")
+    m = _replicates(replicates, y0.size)
+    curve = Curve(cal, order)
+    t = curve.t_value(level)
+    roots = roots_of(curve, y0, -1.0, 1.0)
+    f_ends = curve.value(np.array([-1.0, 1.0]))
+    lo_resp, hi_resp = float(min(f_ends)), float(max(f_ends))
+    turning = curve.turning_points()
+    z_hat = np.full(y0.size, np.nan)
+    notes = [""] * y0.size
+    for i, zs in enumerate(roots):
+        if zs.size == 1:
+            z_hat[i] = zs[0]
+        elif zs.size > 1:
+            xs = ", ".join(f"{v:.6g}" for v in cal.raw_x(zs))
+            notes[i] = f"several x in the calibrated range give this reading ({xs}): the curve is not monotonic"
+        elif turning.size == 0:
+            side = "above" if (y0[i] > hi_resp) else "below"
+            notes[i] = (f"reading {side} the calibrated response range [{lo_resp:.6g}, {hi_resp:.6g}]: "
+                        "no estimate outside the calibrated range")
+        else:
+            notes[i] = "no x within the calibrated range gives this reading"
+    ok = np.flatnonzero(np.isfinite(z_hat))
+    lower_z, upper_z = np.full(y0.size, np.nan), np.full(y0.size, np.nan)
+    if ok.size:
+        lower_z[ok], upper_z[ok] = _band_edges(curve, cal, y0[ok], m[ok], z_hat[ok], t)
+    out = []
+    for i in range(y0.size):
+        note = notes[i]
+        if np.isfinite(z_hat[i]):
+            parts = []
+            for bound, name in ((lower_z[i], "lower"), (upper_z[i], "upper")):
+                if not np.isfinite(bound):
+                    parts.append(f"{name} bound open: the prediction band does not close within "
+                                 f"{EXTEND:.0%} of the range beyond the calibrated range")
+                elif bound < -1 or bound > 1:
+                    parts.append(f"{name} bound lies beyond the calibrated range")
+            note = "; ".join(parts)
+        x_hat, lo, hi = (float(v) if np.isfinite(v) else math.nan for v in cal.raw_x([z_hat[i], lower_z[i], upper_z[i]]))
+        out.append(InverseEstimate(float(y0[i]), x_hat, lo, hi, note))
+    return tuple(out)

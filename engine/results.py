@@ -1,0 +1,169 @@
+"""Plain, immutable result objects handed out by the engine.
+
+Not-applicable values are ``nan`` (for example a predicted R-squared when a
+standard has leverage 1, or a lack-of-fit test without replicates).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+from .distributions import t_quantile
+
+
+@dataclass(frozen=True)
+class FTest:
+    """An F test: statistic with (df_num, df_den) degrees of freedom and its p-value."""
+
+    statistic: float
+    df_num: int
+    df_den: int
+    p_value: float
+
+    def significant(self, alpha: float) -> bool:
+        return self.p_value < alpha
+
+
+@dataclass(frozen=True)
+class LackOfFit:
+    """Residual split into lack of fit and pure error (replicated x)."""
+
+    ss_lack_of_fit: float
+    df_lack_of_fit: int
+    ss_pure_error: float
+    df_pure_error: int
+    test: FTest
+
+
+@dataclass(frozen=True)
+class OrderStats:
+    """Goodness-of-fit figures of one order (weighted where weights are given).
+
+    AICc and BIC use the Gaussian log-likelihood with k = order + 2 parameters
+    (the coefficients and sigma): AIC = -2 ln L + 2k, AICc = AIC + 2k(k+1)/(n-k-1)
+    (Hurvich & Tsai, Biometrika 76 (1989) 297-307), BIC = -2 ln L + k ln n
+    (Schwarz, Ann. Statist. 6 (1978) 461-464). Predicted R-squared is
+    1 - PRESS/TSS with PRESS = sum (e_i / (1 - h_ii))^2 (Allen, Technometrics 16
+    (1974) 125-127).
+    """
+
+    order: int
+    n_points: int
+    df_resid: int
+    rss: float
+    residual_sd: float
+    r_squared: float
+    adj_r_squared: float
+    press: float
+    predicted_r_squared: float
+    aicc: float
+    bic: float
+    overall: FTest | None
+    lack_of_fit: LackOfFit | None
+
+
+@dataclass(frozen=True)
+class OrderFit:
+    """Coefficients of one order in raw powers of x, intercept first."""
+
+    order: int
+    coefficients: tuple[float, ...]
+    std_errors: tuple[float, ...]
+    t_values: tuple[float, ...]
+    p_values: tuple[float, ...]
+    stats: OrderStats
+
+    @property
+    def residual_sd(self) -> float:
+        return self.stats.residual_sd
+
+    @property
+    def r_squared(self) -> float:
+        return self.stats.r_squared
+
+    def interval(self, level: float = 0.95) -> tuple[tuple[float, float], ...]:
+        """Two-sided confidence interval of each coefficient at ``level``."""
+        q = t_quantile(0.5 + level / 2, self.stats.df_resid)
+        return tuple((b - q * s, b + q * s) for b, s in zip(self.coefficients, self.std_errors))
+
+
+@dataclass(frozen=True)
+class SequentialRow:
+    """One term of the sequential (Type I) table, tested against the max-order residual."""
+
+    term: int
+    ss: float
+    test: FTest
+
+
+@dataclass(frozen=True)
+class SequentialTable:
+    """Sequential ANOVA of the max-order model."""
+
+    max_order: int
+    terms: tuple[SequentialRow, ...]
+    ss_resid: float
+    df_resid: int
+    lack_of_fit: LackOfFit | None
+    ss_total: float
+    df_total: int
+
+
+@dataclass(frozen=True)
+class OrderChoice:
+    """The order a rule picks, and why, in words."""
+
+    order: int
+    rule: str
+    alpha: float
+    reason: str
+
+
+@dataclass(frozen=True)
+class Prediction:
+    """Forward prediction at one new x."""
+
+    x: float
+    fitted: float
+    mean_lower: float
+    mean_upper: float
+    pred_lower: float
+    pred_upper: float
+    note: str
+
+
+@dataclass(frozen=True)
+class InverseEstimate:
+    """x estimate for one reading (mean of ``replicates`` readings) and its interval."""
+
+    reading: float
+    x: float
+    lower: float
+    upper: float
+    note: str
+
+
+@dataclass(frozen=True)
+class PointDiagnostics:
+    """Per-standard diagnostics, one entry per point in input order."""
+
+    fitted: tuple[float, ...]
+    residual: tuple[float, ...]
+    studentized: tuple[float, ...]
+    externally_studentized: tuple[float, ...]
+    leverage: tuple[float, ...]
+    cooks_distance: tuple[float, ...]
+    back_calculated: tuple[float, ...]
+    deviation_percent: tuple[float, ...]
+    notes: tuple[str, ...]
+
+
+@dataclass(frozen=True)
+class Check:
+    """One check of the curve: statistic, p-value (nan if none), verdict, detail."""
+
+    name: str
+    statistic: float
+    p_value: float
+    verdict: str
+    detail: str

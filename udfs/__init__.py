@@ -1,0 +1,3 @@
+"""Degreewise worksheet functions (the CALIB_* family)."""
+
+VERSION = "0.1.0"
