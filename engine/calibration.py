@@ -42,7 +42,7 @@ def _vector(values, name: str) -> np.ndarray:
     if bad.size:
         i = int(bad[0])
         raise DataError(
-            f"{name}[{i}] is {a[i]!r}: every value must be a finite number", argument=name, index=i
+            f"{name}[{i}] is {float(a[i])!r}: every value must be a finite number", argument=name, index=i
         )
     return a
 
@@ -93,7 +93,7 @@ class Calibration:
         m = groups.size
         if m == 1:
             raise DataError(
-                f"all {n} x values are equal ({x[0]!r}): a curve needs at least 2 distinct x values",
+                f"all {n} x values are equal ({float(x[0])!r}): a curve needs at least 2 distinct x values",
                 argument="x",
             )
         self.weighting = Weighting(weights, x, y)
@@ -295,12 +295,13 @@ class Calibration:
         stats = self.stats(k)
         p = k + 1
         coef, diag, _ = self._refined(k)
-        s_scaled = math.sqrt(self._rss(k) / stats.df_resid)
-        exps = self._ey - self._ex * np.arange(p)
-        coef = np.ldexp(coef, exps)
-        se = np.ldexp(s_scaled * np.sqrt(diag), exps)
+        se = math.sqrt(self._rss(k) / stats.df_resid) * np.sqrt(diag)
         with np.errstate(divide="ignore", invalid="ignore"):
             t = np.where(se > 0, coef / se, np.where(coef == 0, math.nan, np.copysign(math.inf, coef)))
+        # back to the units of x and y; t (a ratio) is taken before, so it survives over- or underflow
+        exps = self._ey - self._ex * np.arange(p)
+        with np.errstate(over="ignore", under="ignore"):
+            coef, se = np.ldexp(coef, exps), np.ldexp(se, exps)
         pv = t_two_sided(t, stats.df_resid)
         fit = OrderFit(k, tuple(map(float, coef)), tuple(map(float, se)), tuple(map(float, t)),
                        tuple(map(float, pv)), stats)

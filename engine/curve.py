@@ -17,6 +17,8 @@ from .errors import OptionError
 # beyond each end of the calibrated range only for interval bounds
 _GRID = 1201
 EXTEND = 0.5
+# brackets in z (which spans 2 over the calibrated range) are closed to this width
+_Z_TOLERANCE = 2.0**-47
 
 
 def check_level(level) -> float:
@@ -86,36 +88,34 @@ class Curve:
         return self._grid
 
 
-def illinois(func, lo, hi, f_lo, f_hi, steps: int = 80):
+def illinois(func, lo, hi, f_lo, f_hi, steps: int = 60):
     """Vectorised regula falsi with the Illinois modification on brackets [lo, hi].
 
-    f_lo and f_hi have opposite signs (or one is zero). Converges superlinearly
-    (Dowell & Jarratt, BIT 11 (1971) 168-174); stops when every bracket is within
-    a few ulps.
+    f_lo and f_hi have opposite signs (or one is zero); ``func`` maps an array of
+    points (one per bracket) to values. Converges superlinearly (Dowell & Jarratt,
+    BIT 11 (1971) 168-174). A bracket is done when it is narrower than 2^-47
+    (z spans 2 over the calibrated range) or its estimate moved less than that.
     """
-    lo, hi = np.array(lo, dtype=float), np.array(hi, dtype=float)
-    f_lo, f_hi = np.array(f_lo, dtype=float), np.array(f_hi, dtype=float)
-    side = np.zeros(lo.shape)
+    s, t = np.array(lo, dtype=float), np.array(hi, dtype=float)
+    fs, ft = np.array(f_lo, dtype=float), np.array(f_hi, dtype=float)
+    side = np.zeros(s.shape)
+    best = np.where(np.abs(fs) <= np.abs(ft), s, t)
+    live = (t - s > _Z_TOLERANCE) & (fs != 0) & (ft != 0)
     for _ in range(steps):
-        denom = f_hi - f_lo
-        with np.errstate(divide="ignore", invalid="ignore"):
-            mid = np.where(denom != 0, hi - f_hi * (hi - lo) / denom, (lo + hi) / 2)
-        mid = np.where((mid > lo) & (mid < hi), mid, (lo + hi) / 2)
-        done = (hi - lo) <= 4 * np.spacing(np.maximum(np.abs(lo), np.abs(hi))) + 1e-300
-        done |= (f_lo == 0) | (f_hi == 0)
-        if np.all(done):
+        if not live.any():
             break
-        f_mid = func(mid)
-        left = np.sign(f_mid) == np.sign(f_lo)
-        # replace lo where f_mid has f_lo's sign, else hi; halve the kept end's value when it repeats
-        new_lo = np.where(left & ~done, mid, lo)
-        new_hi = np.where(~left & ~done, mid, hi)
-        f_hi = np.where(left & ~done & (side == 1), f_hi / 2, f_hi)
-        f_lo = np.where(~left & ~done & (side == -1), f_lo / 2, f_lo)
-        side = np.where(done, side, np.where(left, 1, -1))
-        f_lo = np.where(left & ~done, f_mid, f_lo)
-        f_hi = np.where(~left & ~done, f_mid, f_hi)
-        lo, hi = new_lo, new_hi
-    exact_lo = f_lo == 0
-    exact_hi = f_hi == 0
-    return np.where(exact_lo, lo, np.where(exact_hi, hi, np.where(np.abs(f_lo) < np.abs(f_hi), lo, hi)))
+        with np.errstate(divide="ignore", invalid="ignore"):
+            r = (fs * t - ft * s) / (fs - ft)
+        r = np.where((r > s) & (r < t), r, (s + t) / 2)
+        fr = func(r)
+        keep_s = live & (fr * ft > 0)  # r replaces t
+        keep_t = live & (fs * fr > 0)  # r replaces s
+        fs = np.where(keep_s & (side == -1), fs / 2, fs)
+        ft = np.where(keep_t & (side == 1), ft / 2, ft)
+        t, ft = np.where(keep_s, r, t), np.where(keep_s, fr, ft)
+        s, fs = np.where(keep_t, r, s), np.where(keep_t, fr, fs)
+        side = np.where(keep_s, -1, np.where(keep_t, 1, side))
+        moved = np.abs(r - best)
+        best = np.where(live, r, best)
+        live &= (fr != 0) & (moved > _Z_TOLERANCE) & (t - s > _Z_TOLERANCE)
+    return best

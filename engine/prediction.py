@@ -30,7 +30,7 @@ def _finite(values, name: str) -> np.ndarray:
     bad = np.flatnonzero(~np.isfinite(a))
     if bad.size:
         i = int(bad[0])
-        raise DataError(f"{name}[{i}] is {a[i]!r}: every value must be a finite number", argument=name, index=i)
+        raise DataError(f"{name}[{i}] is {float(a[i])!r}: every value must be a finite number", argument=name, index=i)
     return a
 
 
@@ -72,7 +72,7 @@ def _replicates(replicates, count: int) -> np.ndarray:
                           argument="replicates")
     bad = np.flatnonzero(~((m >= 1) & (m == np.round(m))))
     if bad.size:
-        raise OptionError(f"replicates must be a whole number of at least 1, not {m[bad[0]]!r}",
+        raise OptionError(f"replicates must be a whole number of at least 1, not {float(m[bad[0]])!r}",
                           argument="replicates", index=int(bad[0]))
     return m
 
@@ -109,7 +109,8 @@ def _band_edges(curve: Curve, cal: Calibration, y0: np.ndarray, m: np.ndarray, z
     """Lower and upper z of the band component holding z_hat (nan where it stays open).
 
     gap(z) = (f(z) - y0)^2 - t^2 (s^2 / (m w(z)) + Var f(z)) is negative at z_hat;
-    each edge is bracketed by z_hat and the nearest grid node where gap > 0.
+    each edge is bracketed by the nearest grid node where gap > 0 and its
+    neighbour towards z_hat (or z_hat itself).
     """
     z, f, vm = curve.grid
 
@@ -125,15 +126,19 @@ def _band_edges(curve: Curve, cal: Calibration, y0: np.ndarray, m: np.ndarray, z
     before = (g > 0) & (z[None, :] < z_hat[:, None])
     after = (g > 0) & (z[None, :] > z_hat[:, None])
     edges = []
-    for mask, pick in ((before, lambda b: z.size - 1 - np.argmax(b[:, ::-1], axis=1)),
-                       (after, lambda b: np.argmax(b, axis=1))):
+    for mask, lower in ((before, True), (after, False)):
         has = mask.any(axis=1)
         edge = np.full(y0.size, np.nan)
         if has.any():
-            j = pick(mask[has])
             rows = np.flatnonzero(has)
-            zj, gj = z[j], g[rows, j]
-            ends = (zj, z_hat[has], gj, g_hat[has]) if mask is before else (z_hat[has], zj, g_hat[has], gj)
+            # outer node: the nearest node outside the band; inner: its neighbour towards z_hat, or z_hat
+            j = z.size - 1 - np.argmax(mask[has][:, ::-1], axis=1) if lower else np.argmax(mask[has], axis=1)
+            k = j + 1 if lower else j - 1
+            zh = z_hat[has]
+            use_node = (z[k] < zh) if lower else (z[k] > zh)
+            z_in = np.where(use_node, z[k], zh)
+            g_in = np.where(use_node, g[rows, k], g_hat[has])
+            ends = (z[j], z_in, g[rows, j], g_in) if lower else (z_in, z[j], g_in, g[rows, j])
             edge[has] = illinois(lambda zz: gap(zz, y0[has], m[has]), *ends)
         edges.append(edge)
     return edges[0], edges[1]

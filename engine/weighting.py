@@ -45,7 +45,7 @@ class Weighting:
             if bad.size:
                 i = int(bad[0])
                 raise WeightError(
-                    f"weights '{key}' needs every {var} > 0, but {var}[{i}] is {base[i]!r}",
+                    f"weights '{key}' needs every {var} > 0, but {var}[{i}] is {float(base[i])!r}",
                     argument="weights",
                     index=i,
                 )
@@ -62,7 +62,7 @@ class Weighting:
             if bad.size:
                 i = int(bad[0])
                 raise WeightError(
-                    f"weights[{i}] is {w[i]!r}: every weight must be a positive finite number",
+                    f"weights[{i}] is {float(w[i])!r}: every weight must be a positive finite number",
                     argument="weights",
                     index=i,
                 )
@@ -71,7 +71,7 @@ class Weighting:
         if bad.size:
             i = int(bad[0])
             raise WeightError(
-                f"weights[{i}] works out as {self.values[i]!r}: every weight must be a "
+                f"weights[{i}] works out as {float(self.values[i])!r}: every weight must be a "
                 "positive finite number",
                 argument="weights",
                 index=i,

@@ -1,0 +1,119 @@
+"""Every bad input raises a typed engine error with an exact message."""
+
+import math
+
+import numpy as np
+import pytest
+
+import engine
+from engine import DataError, OptionError, OrderError, WeightError
+
+X = [1.0, 2.0, 3.0, 4.0, 5.0, 6.0]
+Y = [1.1, 2.0, 2.9, 4.2, 5.0, 6.1]
+
+
+@pytest.mark.parametrize("x,y,kind,message", [
+    ([1, 2, 3], [1, 2], DataError, "x has 3 values and y has 2: give one y for every x"),
+    ([1, 2], [1, 2], DataError, "only 2 points: a calibration curve needs at least 3"),
+    ([1], [1], DataError, "only 1 point: a calibration curve needs at least 3"),
+    ([2, 2, 2, 2], [1, 2, 3, 4], DataError,
+     "all 4 x values are equal (2.0): a curve needs at least 2 distinct x values"),
+    ([1, 2, math.nan, 4], [1, 2, 3, 4], DataError, "x[2] is nan: every value must be a finite number"),
+    ([1, 2, 3, 4], [1, math.inf, 3, 4], DataError, "y[1] is inf: every value must be a finite number"),
+    ([1, 2, 3], [1, 2, 3], OrderError,
+     "3 points at 3 distinct x values are too few to choose an order: it takes at least 3 distinct x values "
+     "and 4 points"),
+    ([[1, 2], [3, 4]], [1, 2, 3, 4], DataError, "x must be one-dimensional, not of shape (2, 2)"),
+    (["a", "b", "c"], [1, 2, 3], DataError, "x must hold numbers only"),
+])
+def test_bad_data(x, y, kind, message):
+    with pytest.raises(kind) as err:
+        engine.Calibration(x, y)
+    assert str(err.value) == message
+
+
+def test_error_carries_argument_and_index():
+    with pytest.raises(DataError) as err:
+        engine.Calibration([1, 2, 3, 4], [1, 2, math.nan, 4])
+    assert (err.value.argument, err.value.index) == ("y", 2)
+
+
+@pytest.mark.parametrize("order,message", [
+    (0, "max_order must be at least 1, not 0"),
+    (6, "max_order 6 needs at least 7 distinct x values and 8 points; there are 6 and 6"),
+    (2.5, "max_order must be a whole number, not 2.5"),
+    ("two", "max_order must be a whole number, not 'two'"),
+])
+def test_bad_max_order(order, message):
+    with pytest.raises(OrderError) as err:
+        engine.Calibration(X, Y, max_order=order)
+    assert str(err.value) == message
+
+
+def test_order_the_data_cannot_support():
+    with pytest.raises(OrderError) as err:
+        engine.fit([1, 2, 3, 4], [1, 2, 3, 5], 3)
+    assert str(err.value) == "max_order 3 needs at least 4 distinct x values and 5 points; there are 4 and 4"
+    cal = engine.Calibration(X, Y, max_order=2)
+    with pytest.raises(OrderError) as err:
+        cal.fit(3)
+    assert str(err.value) == "order 3 is outside 0..2, the orders this calibration was fitted to"
+
+
+@pytest.mark.parametrize("weights,message", [
+    ([1, 1, 1], "weights has 3 values but there are 6 points; give one weight per point"),
+    ([1, 1, 0, 1, 1, 1], "weights[2] is 0.0: every weight must be a positive finite number"),
+    ([1, 1, 1, -2, 1, 1], "weights[3] is -2.0: every weight must be a positive finite number"),
+    ([1, 1, 1, 1, math.nan, 1], "weights[4] is nan: every weight must be a positive finite number"),
+    ("1/z", "weights: unknown scheme '1/z'; use one of '1/x', '1/x^2', '1/y', '1/y^2' or a range of "
+            "positive numbers"),
+])
+def test_bad_weights(weights, message):
+    with pytest.raises(WeightError) as err:
+        engine.Calibration(X, Y, weights=weights)
+    assert str(err.value) == message
+
+
+def test_scheme_needs_positive_values():
+    with pytest.raises(WeightError) as err:
+        engine.Calibration([0.0] + X[1:], Y, weights="1/x^2")
+    assert str(err.value) == "weights '1/x^2' needs every x > 0, but x[0] is 0.0"
+
+
+@pytest.mark.parametrize("call,message", [
+    (lambda c: engine.choose_order(c, "best"),
+     "rule 'best' is not known; use one of 'seqf', 'forward', 'aicc', 'bic', 'press'"),
+    (lambda c: engine.choose_order(c, alpha=5), "alpha must be between 0 and 0.5 (for example 0.05), not 5"),
+    (lambda c: engine.predict(c, [1.0], 1, level=95),
+     "level must be between 0 and 1 (for example 0.95), not 95"),
+    (lambda c: engine.inverse(c, [2.0], 1, replicates=0),
+     "replicates must be a whole number of at least 1, not 0.0"),
+    (lambda c: engine.inverse(c, [2.0, 3.0], 1, replicates=[1, 2, 3]),
+     "replicates has 3 values for 2 readings; give one number or one per reading"),
+])
+def test_bad_options(call, message):
+    cal = engine.Calibration(X, Y, max_order=2)
+    with pytest.raises(OptionError) as err:
+        call(cal)
+    assert str(err.value) == message
+
+
+def test_huge_and_tiny_magnitudes_keep_their_digits():
+    """Scaling by powers of two is exact: t statistics do not change (common practice check)."""
+    rng = np.random.default_rng(2)
+    x = np.repeat(np.linspace(1, 9, 5), 2)
+    y = 1 + 2 * x + 0.1 * x**2 + rng.normal(0, 0.05, x.size)
+    base = engine.fit(x, y, 2)
+    for sx, sy in [(2.0**200, 2.0**-300), (2.0**-500, 2.0**400)]:
+        other = engine.fit(x * sx, y * sy, 2)
+        np.testing.assert_allclose(other.t_values, base.t_values, rtol=1e-13)
+        assert other.coefficients[2] == pytest.approx(base.coefficients[2] * sy / sx**2, rel=1e-13)
+
+
+def test_a_million_points():
+    x = np.tile(np.linspace(0.0, 100.0, 10), 100_000)
+    y = 0.5 + 0.25 * x + np.tile(np.linspace(-1, 1, 7), 142858)[: x.size] * 0.01
+    cal = engine.Calibration(x, y, max_order=3)
+    assert cal.n_points == 1_000_000
+    assert engine.choose_order(cal).order >= 1
+    assert cal.fit(1).coefficients[1] == pytest.approx(0.25, rel=1e-5)

@@ -1,0 +1,93 @@
+"""Invariants of least squares (hypothesis property tests; textbook facts, common practice)."""
+
+import numpy as np
+import pytest
+from hypothesis import HealthCheck, assume, given, settings
+from hypothesis import strategies as st
+
+import engine
+
+SETTINGS = settings(max_examples=60, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+
+
+@st.composite
+def calibrations(draw):
+    levels = draw(st.integers(5, 9))
+    reps = draw(st.integers(1, 3))
+    x0 = draw(st.floats(-50, 50))
+    span = draw(st.floats(0.5, 200))
+    x = np.repeat(np.linspace(x0, x0 + span, levels), reps)
+    coefs = draw(st.lists(st.floats(-5, 5), min_size=2, max_size=4))
+    noise = draw(st.floats(0.01, 2.0))
+    seed = draw(st.integers(0, 2**31 - 1))
+    z = (x - x.mean()) / span
+    y = np.polynomial.polynomial.polyval(z, coefs) * 10 + np.random.default_rng(seed).normal(0, noise, x.size)
+    return x, y
+
+
+@SETTINGS
+@given(calibrations())
+def test_rss_never_rises_with_order(data):
+    x, y = data
+    cal = engine.Calibration(x, y)
+    rss = [cal.stats(k).rss for k in range(cal.max_order + 1)]
+    for lower, higher in zip(rss, rss[1:]):
+        assert higher <= lower * (1 + 1e-12) + 1e-300
+
+
+@SETTINGS
+@given(calibrations())
+def test_sequential_ss_add_up_to_regression_ss(data):
+    x, y = data
+    table = engine.Calibration(x, y).sequential_table()
+    regression = table.ss_total - table.ss_resid
+    assert sum(r.ss for r in table.terms) == pytest.approx(regression, rel=1e-9, abs=1e-12 * table.ss_total)
+
+
+@SETTINGS
+@given(calibrations(), st.integers(0, 2**31 - 1), st.sampled_from(["seqf", "forward", "aicc", "bic", "press"]))
+def test_row_order_does_not_matter(data, seed, rule):
+    x, y = data
+    perm = np.random.default_rng(seed).permutation(x.size)
+    a, b = engine.Calibration(x, y), engine.Calibration(x[perm], y[perm])
+    ca, cb = engine.choose_order(a, rule), engine.choose_order(b, rule)
+    assume(_clear(a, 0.05))
+    assert ca.order == cb.order
+    fa, fb = a.fit(ca.order), b.fit(cb.order)
+    np.testing.assert_allclose(fa.coefficients, fb.coefficients, rtol=1e-9, atol=1e-12 * np.max(np.abs(y)))
+    assert fa.r_squared == pytest.approx(fb.r_squared, rel=1e-12, abs=1e-13)
+
+
+def _clear(cal, alpha):
+    """No sequential p-value within 1e-6 of alpha, so that rounding cannot flip the choice."""
+    return all(abs(r.test.p_value - alpha) > 1e-6 for r in cal.sequential_table().terms)
+
+
+@SETTINGS
+@given(calibrations(), st.floats(0.001, 1000), st.floats(-100, 100), st.floats(0.001, 1000), st.floats(-100, 100))
+def test_affine_rescaling_of_x_and_y(data, ax, bx, ay, by):
+    x, y = data
+    a = engine.Calibration(x, y)
+    b = engine.Calibration(ax * x + bx, ay * y + by)
+    assume(_clear(a, 0.05))
+    assert engine.choose_order(a).order == engine.choose_order(b).order
+    for ra, rb in zip(a.sequential_table().terms, b.sequential_table().terms):
+        assert rb.test.p_value == pytest.approx(ra.test.p_value, rel=1e-6, abs=1e-12)
+    for k in range(1, a.max_order + 1):
+        assert b.stats(k).r_squared == pytest.approx(a.stats(k).r_squared, rel=1e-10, abs=1e-12)
+    # a line transforms exactly: slope ay/ax times, intercept ay*b0 + by - slope*bx
+    fa, fb = a.fit(1), b.fit(1)
+    slope = fa.coefficients[1] * ay / ax
+    assert fb.coefficients[1] == pytest.approx(slope, rel=1e-9)
+    assert fb.coefficients[0] == pytest.approx(ay * fa.coefficients[0] + by - slope * bx,
+                                               rel=1e-8, abs=1e-9 * (abs(by) + ay * np.max(np.abs(y))))
+    assert fb.std_errors[1] == pytest.approx(fa.std_errors[1] * ay / ax, rel=1e-9)
+
+
+@SETTINGS
+@given(calibrations(), st.integers(-60, 60), st.integers(-60, 60))
+def test_power_of_two_scaling_is_exact_in_t_values(data, ex, ey):
+    x, y = data
+    a = engine.Calibration(x, y).fit(2)
+    b = engine.Calibration(np.ldexp(x, ex), np.ldexp(y, ey)).fit(2)
+    np.testing.assert_allclose(b.t_values, a.t_values, rtol=1e-12)
