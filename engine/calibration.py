@@ -19,7 +19,7 @@ import operator
 from functools import cached_property
 
 import numpy as np
-from scipy.linalg import solve_triangular
+from scipy.linalg import lapack
 
 from . import doubledouble as dd
 from .distributions import f_sf, t_two_sided
@@ -56,6 +56,24 @@ def _whole(value, name: str) -> int:
         else:
             raise OrderError(f"{name} must be a whole number, not {value!r}", argument=name) from None
     return k
+
+
+def _householder_qr(a: np.ndarray):
+    """Reduced Householder QR through LAPACK dgeqrf/dorgqr (the routines behind numpy.linalg.qr)."""
+    packed, tau, _, info = lapack.dgeqrf(a)
+    if info != 0:
+        raise RuntimeError(f"LAPACK dgeqrf failed ({info})")
+    q, _, info = lapack.dorgqr(packed[:, : a.shape[1]], tau)
+    if info != 0:
+        raise RuntimeError(f"LAPACK dorgqr failed ({info})")
+    return q, np.triu(packed[: a.shape[1]])
+
+
+def _triangular_inverse(r: np.ndarray) -> np.ndarray:
+    inv, info = lapack.dtrtri(r, lower=0)
+    if info != 0:
+        raise RuntimeError(f"LAPACK dtrtri failed ({info})")
+    return np.triu(inv)
 
 
 def order_limit(n_points: int, n_distinct: int) -> int:
@@ -125,10 +143,10 @@ class Calibration:
         self._u = u
         z = (u - self.centre) / self.half_width
         zw = np.vander(z, k + 1, increasing=True) * self.sqrt_w[:, None]
-        self._q, self._r = np.linalg.qr(zw)
+        self._q, self._r = _householder_qr(zw)
         self._yw = self._ys * self.sqrt_w
         self._qty = self._q.T @ self._yw
-        self._r_inv = solve_triangular(self._r, np.eye(k + 1))
+        self._r_inv = _triangular_inverse(self._r)
         self._leverage = np.cumsum(self._q**2, axis=1)
         sw2 = self.sqrt_w**2
         mean = np.sum(sw2 * self._ys) / np.sum(sw2)
@@ -178,8 +196,8 @@ class Calibration:
         p = order + 1
         return np.ldexp(self._r_inv[:p, :p] @ self._qty[:p], self._ey)
 
-    def r_factor(self, order: int) -> np.ndarray:
-        return self._r[: order + 1, : order + 1]
+    def r_factor_inverse(self, order: int) -> np.ndarray:
+        return self._r_inv[: order + 1, : order + 1]
 
     def leverage(self, order: int) -> np.ndarray:
         return self._leverage[:, order]

@@ -13,12 +13,12 @@ from .calibration import Calibration
 from .distributions import t_quantile
 from .errors import OptionError
 
-# grid over z for locating roots and band edges; the curve is used up to EXTEND
-# beyond each end of the calibrated range only for interval bounds
-_GRID = 1201
+# grid over z for locating roots and band edges: 400 cells across the calibrated
+# range [-1, 1] (its ends are nodes), and the curve is used up to EXTEND (in units
+# of the range) beyond each end, only for interval bounds and back-calculation
+_CELLS = 400
 EXTEND = 0.5
-# brackets in z (which spans 2 over the calibrated range) are closed to this width
-_Z_TOLERANCE = 2.0**-47
+_Z_TOLERANCE = 2.0**-50
 
 
 def check_level(level) -> float:
@@ -31,6 +31,15 @@ def check_level(level) -> float:
     return v
 
 
+def curve_of(cal: Calibration, order) -> "Curve":
+    """The curve of ``order``, made once per calibration and order."""
+    k = cal.resolve_order(order)
+    cache = cal.__dict__.setdefault("_curves", {})
+    if k not in cache:
+        cache[k] = Curve(cal, k)
+    return cache[k]
+
+
 class Curve:
     """Order ``order`` of ``cal``: y(z) = sum_j a_j z^j and Var(mean y(z)) = s^2 |z' R^-1|^2."""
 
@@ -38,7 +47,12 @@ class Curve:
         self.cal = cal
         self.order = cal.resolve_order(order)
         self.a = cal.scaled_coefficients(self.order)
-        self.r_inv = cal._r_inv[: self.order + 1, : self.order + 1]
+        r_inv = cal.r_factor_inverse(self.order)
+        self.r_inv = r_inv
+        # Var(mean f(z)) / s^2 = b(z)' C b(z) with C = R^-1 R^-T: a polynomial in z of degree 2k
+        c = r_inv @ r_inv.T
+        p = self.order + 1
+        self._var_poly = np.array([np.trace(np.fliplr(c), offset=p - 1 - d) for d in range(2 * p - 1)])
         self.stats = cal.stats(self.order)
         self.s = self.stats.residual_sd
         self.df = self.stats.df_resid
@@ -50,16 +64,15 @@ class Curve:
         return np.vander(np.atleast_1d(np.asarray(z, dtype=float)), self.order + 1, increasing=True)
 
     def value(self, z) -> np.ndarray:
-        return np.polynomial.polynomial.polyval(z, self.a)
+        return horner(self.a, z)
 
     def slope(self, z) -> np.ndarray:
         """dy/dz."""
-        return np.polynomial.polynomial.polyval(z, np.polynomial.polynomial.polyder(self.a))
+        return horner(self.a[1:] * np.arange(1, self.a.size), z)
 
     def mean_variance(self, z) -> np.ndarray:
         """Var of the fitted mean at z, in units of y squared."""
-        g = self.basis(z) @ self.r_inv
-        return self.s**2 * np.einsum("ij,ij->i", g, g).reshape(np.shape(z))
+        return self.s**2 * np.maximum(horner(self._var_poly, z), 0.0)
 
     def t_value(self, level: float) -> float:
         return float(t_quantile(0.5 + level / 2, self.df))
@@ -83,39 +96,51 @@ class Curve:
     def grid(self):
         """z nodes over the extended range, with the curve and mean variance there."""
         if self._grid is None:
-            z = np.linspace(-1 - EXTEND, 1 + EXTEND, _GRID)
+            step = 2.0 / _CELLS
+            outside = int(round(2 * EXTEND / step))
+            z = np.concatenate([-1 - step * np.arange(outside, 0, -1), np.linspace(-1.0, 1.0, _CELLS + 1),
+                                1 + step * np.arange(1, outside + 1)])
             self._grid = z, self.value(z), self.mean_variance(z)
         return self._grid
 
 
-def illinois(func, lo, hi, f_lo, f_hi, steps: int = 60):
-    """Vectorised regula falsi with the Illinois modification on brackets [lo, hi].
+def horner(coefficients, z):
+    """sum_j c_j z^j by Horner's rule (coefficients lowest power first)."""
+    z = np.asarray(z, dtype=float)
+    out = np.full(z.shape, coefficients[-1], dtype=float)
+    for c in coefficients[-2::-1]:
+        out = out * z + c
+    return out
 
-    f_lo and f_hi have opposite signs (or one is zero); ``func`` maps an array of
-    points (one per bracket) to values. Converges superlinearly (Dowell & Jarratt,
-    BIT 11 (1971) 168-174). A bracket is done when it is narrower than 2^-47
-    (z spans 2 over the calibrated range) or its estimate moved less than that.
+
+def sign_changes(values: np.ndarray, z: np.ndarray, lo: float, hi: float):
+    """Cells [z_j, z_j+1] inside [lo, hi] where a row of ``values`` (on the grid z) changes sign.
+
+    A zero counts as positive, so a root on a node is found once. Returns row and
+    cell indices.
     """
-    s, t = np.array(lo, dtype=float), np.array(hi, dtype=float)
-    fs, ft = np.array(f_lo, dtype=float), np.array(f_hi, dtype=float)
-    side = np.zeros(s.shape)
-    best = np.where(np.abs(fs) <= np.abs(ft), s, t)
-    live = (t - s > _Z_TOLERANCE) & (fs != 0) & (ft != 0)
+    up = values >= 0
+    inside = (z[:-1] >= lo) & (z[1:] <= hi)
+    return np.nonzero((up[:, :-1] != up[:, 1:]) & inside[None, :])
+
+
+def secant_in_cells(func, lo, hi, f_lo, f_hi, steps: int = 12):
+    """Vectorised secant iteration kept inside each small bracketing cell [lo, hi].
+
+    Started from the cell's ends, it converges superlinearly on a smooth function
+    (the cells are 1/200 of the range wide); each iterate is clipped to its cell
+    and a flat step falls back to the midpoint. Returns the iterate with the
+    smaller |func|.
+    """
+    a, b = np.array(lo, dtype=float), np.array(hi, dtype=float)
+    fa, fb = np.array(f_lo, dtype=float), np.array(f_hi, dtype=float)
+    lo, hi = a.copy(), b.copy()
     for _ in range(steps):
-        if not live.any():
-            break
         with np.errstate(divide="ignore", invalid="ignore"):
-            r = (fs * t - ft * s) / (fs - ft)
-        r = np.where((r > s) & (r < t), r, (s + t) / 2)
-        fr = func(r)
-        keep_s = live & (fr * ft > 0)  # r replaces t
-        keep_t = live & (fs * fr > 0)  # r replaces s
-        fs = np.where(keep_s & (side == -1), fs / 2, fs)
-        ft = np.where(keep_t & (side == 1), ft / 2, ft)
-        t, ft = np.where(keep_s, r, t), np.where(keep_s, fr, ft)
-        s, fs = np.where(keep_t, r, s), np.where(keep_t, fr, fs)
-        side = np.where(keep_s, -1, np.where(keep_t, 1, side))
-        moved = np.abs(r - best)
-        best = np.where(live, r, best)
-        live &= (fr != 0) & (moved > _Z_TOLERANCE) & (t - s > _Z_TOLERANCE)
-    return best
+            c = np.where(fb == 0, b, b - fb * (b - a) / (fb - fa))
+        c = np.where(np.isfinite(c), np.clip(c, lo, hi), (lo + hi) / 2)
+        done = np.abs(c - b) <= _Z_TOLERANCE
+        a, fa, b, fb = b, fb, c, func(c)
+        if done.all():
+            break
+    return np.where(np.abs(fb) <= np.abs(fa), b, a)

@@ -19,7 +19,7 @@ from scipy import stats as sstats
 from scipy import special
 
 from .calibration import Calibration
-from .curve import Curve
+from .curve import Curve, curve_of
 from .distributions import f_quantile, normal_two_sided, t_two_sided
 from .prediction import roots_of
 from .results import Check, PointDiagnostics
@@ -48,25 +48,27 @@ def _bonferroni(t: np.ndarray, df: int, n: int) -> np.ndarray:
 def point_diagnostics(cal: Calibration, order: int, alpha: float = 0.05) -> PointDiagnostics:
     """Fitted, residual, studentized residuals, leverage, Cook's D, back-calculated x per standard."""
     alpha = check_alpha(alpha)
-    curve = Curve(cal, order)
+    curve = curve_of(cal, order)
     e, h, r, t, cook = _studentized(cal, curve)
     fitted = cal.y - e / cal.sqrt_w
     resid = cal.y - fitted
     n, p = cal.n_points, curve.order + 1
     bonf = _bonferroni(t, curve.df, n)
     cook_cut = float(f_quantile(0.5, p, n - p))
-    roots = roots_of(curve, cal.y, -1 - 2 * BACK_CALC_EXTEND, 1 + 2 * BACK_CALC_EXTEND)
-    z_own = cal.scaled_x(cal.x)
+    rows, zs = roots_of(curve, cal.y, -1 - 2 * BACK_CALC_EXTEND, 1 + 2 * BACK_CALC_EXTEND)
+    count = np.bincount(rows, minlength=n)
     back = np.full(n, np.nan)
+    # the root nearest each standard's own x
+    distance = np.abs(zs - cal.scaled_x(cal.x)[rows])
+    order = np.lexsort((distance, rows))
+    first = order[np.r_[True, rows[order][1:] != rows[order][:-1]]] if rows.size else order
+    back[rows[first]] = cal.raw_x(zs[first])
     notes = []
     for i in range(n):
         words = []
-        zs = roots[i]
-        if zs.size:
-            back[i] = float(cal.raw_x(zs[np.argmin(np.abs(zs - z_own[i]))]))
-            if zs.size > 1:
-                words.append("several x give this response; the one nearest the standard is shown")
-        else:
+        if count[i] > 1:
+            words.append("several x give this response; the one nearest the standard is shown")
+        elif count[i] == 0:
             words.append("no x near the calibrated range gives this response")
         if bonf[i] < alpha:
             words.append(f"outlier (externally studentized {t[i]:.3g}, Bonferroni p = {fmt_p(bonf[i])})")
@@ -141,7 +143,7 @@ def curve_checks(cal: Calibration, order: int, alpha: float = 0.05, point_labels
     """
     alpha = check_alpha(alpha)
     labels = list(point_labels) if point_labels is not None else [f"point {i + 1}" for i in range(cal.n_points)]
-    curve = Curve(cal, order)
+    curve = curve_of(cal, order)
     e, h, r, t, cook = _studentized(cal, curve)
     n, p = cal.n_points, curve.order + 1
     by_x = np.argsort(cal.x, kind="stable")

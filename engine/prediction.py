@@ -20,7 +20,7 @@ import math
 import numpy as np
 
 from .calibration import Calibration
-from .curve import EXTEND, Curve, check_level, illinois
+from .curve import EXTEND, Curve, check_level, curve_of, secant_in_cells, sign_changes
 from .errors import DataError, OptionError
 from .results import InverseEstimate, Prediction
 
@@ -42,7 +42,7 @@ def predict(cal: Calibration, new_x, order: int, level: float = 0.95) -> tuple[P
     """Fitted value, mean interval and prediction interval at each new x."""
     level = check_level(level)
     x0 = _finite(new_x, "new_x")
-    curve = Curve(cal, order)
+    curve = curve_of(cal, order)
     z0 = cal.scaled_x(x0)
     fitted = curve.value(z0)
     var_mean = curve.mean_variance(z0)
@@ -77,40 +77,28 @@ def _replicates(replicates, count: int) -> np.ndarray:
     return m
 
 
-def _crossings(values: np.ndarray, z: np.ndarray, lo: float, hi: float):
-    """Grid cells [i, i+1] within [lo, hi] where ``values`` (readings x grid) changes sign."""
-    inside = (z >= lo) & (z <= hi)
-    s = np.sign(values)
-    change = (s[:, :-1] * s[:, 1:] <= 0) & (s[:, :-1] != 0) & inside[:-1] & inside[1:]
-    return change
-
-
-def roots_of(curve: Curve, readings: np.ndarray, z_lo: float, z_hi: float) -> list[np.ndarray]:
-    """For each reading, every z in [z_lo, z_hi] with f(z) = reading, sorted."""
+def roots_of(curve: Curve, readings: np.ndarray, z_lo: float, z_hi: float):
+    """Every z in [z_lo, z_hi] (grid nodes) with f(z) = reading: (reading index, z), sorted."""
     z, f, _ = curve.grid
     g = f[None, :] - readings[:, None]
-    change = _crossings(g, z, z_lo, z_hi)
-    rows, cells = np.nonzero(change)
-    found = illinois(lambda zz: curve.value(zz) - readings[rows], z[cells], z[cells + 1],
-                     g[rows, cells], g[rows, cells + 1]) if rows.size else np.empty(0)
-    # the ends of [z_lo, z_hi] fall between grid nodes: test them directly
-    result = []
-    for i, y0 in enumerate(readings):
-        zs = list(found[rows == i])
-        for end in (z_lo, z_hi):
-            if curve.value(end) == y0:
-                zs.append(end)
-        zs = np.unique(np.asarray(zs, dtype=float))
-        result.append(zs[(zs >= z_lo) & (zs <= z_hi)])
-    return result
+    rows, cells = sign_changes(g, z, z_lo, z_hi)
+    zs = secant_in_cells(lambda zz: curve.value(zz) - readings[rows], z[cells], z[cells + 1],
+                         g[rows, cells], g[rows, cells + 1])
+    # a root exactly on the lower end node is not seen as a change within the range
+    first = np.searchsorted(z, z_lo)
+    on_end = np.flatnonzero((g[:, first] == 0) & (first + 1 < z.size) & (g[:, min(first + 1, z.size - 1)] >= 0))
+    if on_end.size:
+        rows, zs = np.concatenate([rows, on_end]), np.concatenate([zs, np.full(on_end.size, z[first])])
+    order = np.lexsort((zs, rows))
+    return rows[order], zs[order]
 
 
 def _band_edges(curve: Curve, cal: Calibration, y0: np.ndarray, m: np.ndarray, z_hat: np.ndarray, t: float):
     """Lower and upper z of the band component holding z_hat (nan where it stays open).
 
     gap(z) = (f(z) - y0)^2 - t^2 (s^2 / (m w(z)) + Var f(z)) is negative at z_hat;
-    each edge is bracketed by the nearest grid node where gap > 0 and its
-    neighbour towards z_hat (or z_hat itself).
+    each edge lies in the cell between the nearest grid node where gap > 0 and
+    its neighbour towards z_hat (or z_hat itself).
     """
     z, f, vm = curve.grid
 
@@ -123,23 +111,22 @@ def _band_edges(curve: Curve, cal: Calibration, y0: np.ndarray, m: np.ndarray, z
     g = (f[None, :] - y0[:, None]) ** 2 - t**2 * (curve.s**2 * vf / m[:, None] + vm[None, :])
     g = np.where(np.isfinite(g), g, np.inf)
     g_hat = gap(z_hat, y0, m)
-    before = (g > 0) & (z[None, :] < z_hat[:, None])
-    after = (g > 0) & (z[None, :] > z_hat[:, None])
     edges = []
-    for mask, lower in ((before, True), (after, False)):
+    for lower in (True, False):
+        mask = (g > 0) & ((z[None, :] < z_hat[:, None]) if lower else (z[None, :] > z_hat[:, None]))
         has = mask.any(axis=1)
         edge = np.full(y0.size, np.nan)
         if has.any():
             rows = np.flatnonzero(has)
-            # outer node: the nearest node outside the band; inner: its neighbour towards z_hat, or z_hat
             j = z.size - 1 - np.argmax(mask[has][:, ::-1], axis=1) if lower else np.argmax(mask[has], axis=1)
             k = j + 1 if lower else j - 1
             zh = z_hat[has]
             use_node = (z[k] < zh) if lower else (z[k] > zh)
             z_in = np.where(use_node, z[k], zh)
             g_in = np.where(use_node, g[rows, k], g_hat[has])
-            ends = (z[j], z_in, g[rows, j], g_in) if lower else (z_in, z[j], g_in, g[rows, j])
-            edge[has] = illinois(lambda zz: gap(zz, y0[has], m[has]), *ends)
+            edge[has] = secant_in_cells(lambda zz: gap(zz, y0[has], m[has]),
+                                        np.minimum(z[j], z_in), np.maximum(z[j], z_in),
+                                        np.where(lower, g[rows, j], g_in), np.where(lower, g_in, g[rows, j]))
         edges.append(edge)
     return edges[0], edges[1]
 
@@ -149,21 +136,22 @@ def inverse(cal: Calibration, readings, order: int, replicates=1, level: float =
     level = check_level(level)
     y0 = _finite(readings, "reading")
     m = _replicates(replicates, y0.size)
-    curve = Curve(cal, order)
+    curve = curve_of(cal, order)
     t = curve.t_value(level)
-    roots = roots_of(curve, y0, -1.0, 1.0)
+    rows, zs = roots_of(curve, y0, -1.0, 1.0)
+    count = np.bincount(rows, minlength=y0.size)
     f_ends = curve.value(np.array([-1.0, 1.0]))
     lo_resp, hi_resp = float(min(f_ends)), float(max(f_ends))
-    turning = curve.turning_points()
     z_hat = np.full(y0.size, np.nan)
+    single = count[rows] == 1
+    z_hat[rows[single]] = zs[single]
     notes = [""] * y0.size
-    for i, zs in enumerate(roots):
-        if zs.size == 1:
-            z_hat[i] = zs[0]
-        elif zs.size > 1:
-            xs = ", ".join(f"{v:.6g}" for v in cal.raw_x(zs))
+    monotonic = curve.turning_points().size == 0
+    for i in np.flatnonzero(count != 1):
+        if count[i] > 1:
+            xs = ", ".join(f"{v:.6g}" for v in cal.raw_x(zs[rows == i]))
             notes[i] = f"several x in the calibrated range give this reading ({xs}): the curve is not monotonic"
-        elif turning.size == 0:
+        elif monotonic:
             side = "above" if (y0[i] > hi_resp) else "below"
             notes[i] = (f"reading {side} the calibrated response range [{lo_resp:.6g}, {hi_resp:.6g}]: "
                         "no estimate outside the calibrated range")

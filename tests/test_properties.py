@@ -55,7 +55,7 @@ def test_row_order_does_not_matter(data, seed, rule):
     assert ca.order == cb.order
     fa, fb = a.fit(ca.order), b.fit(cb.order)
     np.testing.assert_allclose(fa.coefficients, fb.coefficients, rtol=1e-9, atol=1e-12 * np.max(np.abs(y)))
-    assert fa.r_squared == pytest.approx(fb.r_squared, rel=1e-12, abs=1e-13)
+    assert fa.r_squared == pytest.approx(fb.r_squared, rel=1e-9, abs=1e-12)
 
 
 def _clear(cal, alpha):
@@ -67,6 +67,8 @@ def _clear(cal, alpha):
 @given(calibrations(), st.floats(0.001, 1000), st.floats(-100, 100), st.floats(0.001, 1000), st.floats(-100, 100))
 def test_affine_rescaling_of_x_and_y(data, ax, bx, ay, by):
     x, y = data
+    # shifts far larger than the spread would round the data itself away
+    assume(abs(bx) <= 100 * ax * np.ptp(x) and abs(by) <= 100 * ay * np.ptp(y))
     a = engine.Calibration(x, y)
     b = engine.Calibration(ax * x + bx, ay * y + by)
     assume(_clear(a, 0.05))

@@ -1,0 +1,57 @@
+"""Engine speed: one calibration's worth of work against a statsmodels pipeline, side by side.
+
+Run: python benchmarks/bench_engine.py   (needs the test extra: statsmodels, pandas)
+"""
+
+from __future__ import annotations
+
+import statistics
+import sys
+import time
+from pathlib import Path
+
+import numpy as np
+
+sys.path.insert(0, str(Path(__file__).resolve().parent))
+import workloads  # noqa: E402
+
+import engine  # noqa: E402
+from conftest_free import load_filip  # noqa: E402
+
+
+def median_time(func, *args, repeat=200):
+    for _ in range(min(20, repeat)):
+        func(*args)
+    times = []
+    for _ in range(repeat):
+        t0 = time.perf_counter()
+        func(*args)
+        times.append(time.perf_counter() - t0)
+    return statistics.median(times)
+
+
+def main():
+    data = workloads.typical()
+    assert workloads.degreewise_engine(*data) == workloads.statsmodels_pipeline(*data)
+    ours = median_time(workloads.degreewise_engine, *data, repeat=400)
+    ref = median_time(workloads.statsmodels_pipeline, *data, repeat=60)
+    print("typical calibration (8 levels x 3 replicates, max order 4): order choice, all tables,")
+    print("10 predictions, 10 inverse predictions, residual diagnostics and checks")
+    print(f"  degreewise engine     {ours * 1e3:8.3f} ms per calibration (median)")
+    print(f"  statsmodels pipeline  {ref * 1e3:8.3f} ms per calibration (median)")
+    print(f"  ratio                 {ref / ours:8.1f} x faster")
+    x, y = load_filip()
+    filip = median_time(lambda: engine.Calibration(x, y, max_order=10).fit(10), repeat=100)
+    print(f"Filip (82 points, order 10) fit with refined coefficients and standard errors: {filip * 1e3:.3f} ms")
+    n = 1_000_000
+    big_x = np.tile(np.linspace(0, 100, 10), n // 10)
+    big_y = 1 + 0.5 * big_x + np.random.default_rng(0).normal(0, 0.1, n)
+    t0 = time.perf_counter()
+    cal = engine.Calibration(big_x, big_y)
+    engine.choose_order(cal)
+    cal.fit(1)
+    print(f"one million points, max order 4, order choice and coefficients: {time.perf_counter() - t0:.2f} s")
+
+
+if __name__ == "__main__":
+    main()
