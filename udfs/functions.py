@@ -1,0 +1,368 @@
+"""The CALIB_* worksheet functions.
+
+Each takes cell values as the spreadsheet hands them over and returns a 2-D
+list of cells (rows), a plain number (CALIB_ORDER) or text. Numbers go out as
+full doubles, not-applicable cells as None (empty). Bad input gives one cell of
+plain text that names the argument, the position and what to do; nothing
+raises into the spreadsheet.
+
+Under weights, a new reading's variance is sigma^2 / w0: for a scheme, w0 is
+the scheme at the new point (1/x0 or 1/x0^2; for 1/y and 1/y^2 the predicted y
+in CALIB_PREDICT and the reading in CALIB_INVERSE); for a range of weights, 1/w0
+is interpolated linearly in x between the standards' mean 1/w per level and held
+constant beyond them.
+"""
+
+from __future__ import annotations
+
+import functools
+import math
+import platform
+
+import numpy as np
+import scipy
+import xlwings as xw
+
+import engine
+
+from . import VERSION
+from .coercion import CellError, flatten, number_option, numbers_or_blank, text_option
+from .labels import CAUTION, HEADERS, term
+from .prepared import RESULTS, calibration, prepare
+
+DOC = {
+    "x": "known x of the standards (concentrations): a row or column; blank rows are skipped",
+    "y": "responses of the standards, same size as x",
+    "max_order": "highest order considered (default min(4, distinct x - 2, points - 3))",
+    "alpha": "significance level of the tests (default 0.05)",
+    "rule": "how to choose the order: seqf (default), forward, aicc, bic or press",
+    "weights": "weights, one per row, or one of 1/x, 1/x^2, 1/y, 1/y^2 (default none)",
+    "order": "order of the curve (default: the order the seqf rule picks)",
+    "level": "confidence level of intervals (default 0.95)",
+    "new_x": "x values to predict responses at",
+    "reading": "sample readings to turn into x (each the mean of `replicates` readings)",
+    "replicates": "how many readings each reading averages (default 1)",
+    "name": "which table: predict, inverse or residuals (or orders, seqf, coefs, stats, checks)",
+}
+
+
+def _cell(v):
+    """A float for the sheet, or None where not applicable."""
+    if v is None:
+        return None
+    v = float(v)
+    return v if math.isfinite(v) else None
+
+
+def _guarded(single: bool = False):
+    """Turn CellError (and any engine error) into one cell of text; never a traceback."""
+
+    def wrap(f):
+        @functools.wraps(f)
+        def inner(*args, **kwargs):
+            try:
+                return f(*args, **kwargs)
+            except CellError as err:
+                message = str(err)
+            except engine.CalibrationError as err:
+                message = err.message
+            except Exception as err:  # noqa: BLE001 - a cell must never show a traceback
+                message = f"internal error ({type(err).__name__}: {err}); please report it with the workbook"
+            return message if single else [[message]]
+
+        return inner
+
+    return wrap
+
+
+def _cached(name: str, prep, options: tuple, compute):
+    rows = RESULTS.get((name, prep.key, options), compute)
+    return [list(r) for r in rows] if isinstance(rows, list) else rows
+
+
+def _max_order(v):
+    return number_option(v, "max_order", None, 0.5, 1e6, "a whole number such as 3", whole=True)
+
+
+def _alpha(v):
+    return number_option(v, "alpha", 0.05, 0.0, 0.5, "a level such as 0.05")
+
+
+def _level(v):
+    return number_option(v, "level", 0.95, 0.0, 1.0, "a level such as 0.95")
+
+
+def _order(v):
+    return number_option(v, "order", None, 0.5, 1e6, "a whole number such as 2, or the CALIB_ORDER cell",
+                         whole=True)
+
+
+def _fitted(prep, order):
+    """The calibration to use and the order, with the reason when the order was chosen here."""
+    if order is None:
+        cal = calibration(prep)
+        choice = engine.choose_order(cal)
+        return cal, choice.order, choice.reason
+    n, m = prep.x.size, np.unique(prep.x).size
+    try:
+        cal = calibration(prep)
+        if order <= cal.max_order:
+            return cal, order, "given as the order argument"
+    except CellError:
+        pass
+    engine.Calibration.check_order(order, "order", n, m)
+    return calibration(prep, max_order=order), order, "given as the order argument"
+
+
+@xw.func
+@xw.arg("x", doc=DOC["x"])
+@xw.arg("y", doc=DOC["y"])
+@xw.arg("max_order", doc=DOC["max_order"])
+@xw.arg("alpha", doc=DOC["alpha"])
+@xw.arg("rule", doc=DOC["rule"])
+@xw.arg("weights", doc=DOC["weights"])
+@_guarded(single=True)
+def calib_order(x, y, max_order=None, alpha=None, rule=None, weights=None):
+    """The chosen order of the calibration polynomial (one number)."""
+    prep = prepare(x, y, weights)
+    k, a = _max_order(max_order), _alpha(alpha)
+    r = text_option(rule, "rule", "seqf", engine.RULES)
+    return _cached("order", prep, (k, a, r), lambda: engine.choose_order(calibration(prep, k), r, a).order)
+
+
+@xw.func
+@xw.arg("x", doc=DOC["x"])
+@xw.arg("y", doc=DOC["y"])
+@xw.arg("max_order", doc=DOC["max_order"])
+@xw.arg("alpha", doc=DOC["alpha"])
+@xw.arg("weights", doc=DOC["weights"])
+@_guarded()
+def calib_orders(x, y, max_order=None, alpha=None, weights=None):
+    """Header, then one row per order 1..max: df, SD, R², adjusted and predicted R², AICc, BIC, p-values, rules."""
+    prep = prepare(x, y, weights)
+    k, a = _max_order(max_order), _alpha(alpha)
+
+    def compute():
+        cal = calibration(prep, k)
+        table = cal.sequential_table()
+        picks = {rule: engine.choose_order(cal, rule, a).order for rule in engine.RULES}
+        rows = [list(HEADERS["orders"])]
+        for order in range(1, cal.max_order + 1):
+            st = cal.stats(order)
+            lof = st.lack_of_fit
+            rows.append([order, st.df_resid, _cell(st.residual_sd), _cell(st.r_squared), _cell(st.adj_r_squared),
+                         _cell(st.predicted_r_squared), _cell(st.aicc), _cell(st.bic),
+                         _cell(table.terms[order - 1].test.p_value), _cell(cal.step_test(order).p_value),
+                         _cell(lof.test.p_value) if lof else None,
+                         ", ".join(r for r in engine.RULES if picks[r] == order) or None])
+        return rows
+
+    return _cached("orders", prep, (k, a), compute)
+
+
+@xw.func
+@xw.arg("x", doc=DOC["x"])
+@xw.arg("y", doc=DOC["y"])
+@xw.arg("max_order", doc=DOC["max_order"])
+@xw.arg("weights", doc=DOC["weights"])
+@_guarded()
+def calib_seqf(x, y, max_order=None, weights=None):
+    """Header, then the sequential (Type I) ANOVA table: one row per term, residual, lack of fit, pure error, total."""
+    prep = prepare(x, y, weights)
+    k = _max_order(max_order)
+
+    def compute():
+        table = calibration(prep, k).sequential_table()
+        rows = [list(HEADERS["seqf"])]
+        for r in table.terms:
+            rows.append([term(r.term), 1, _cell(r.ss), _cell(r.ss), _cell(r.test.statistic), _cell(r.test.p_value)])
+        rows.append(["residual", table.df_resid, _cell(table.ss_resid), _cell(table.ss_resid / table.df_resid),
+                     None, None])
+        lof = table.lack_of_fit
+        if lof is not None:
+            rows.append(["lack of fit", lof.df_lack_of_fit, _cell(lof.ss_lack_of_fit),
+                         _cell(lof.ss_lack_of_fit / lof.df_lack_of_fit), _cell(lof.test.statistic),
+                         _cell(lof.test.p_value)])
+            rows.append(["pure error", lof.df_pure_error, _cell(lof.ss_pure_error),
+                         _cell(lof.ss_pure_error / lof.df_pure_error), None, None])
+        rows.append(["total", table.df_total, _cell(table.ss_total), None, None, None])
+        return rows
+
+    return _cached("seqf", prep, (k,), compute)
+
+
+@xw.func
+@xw.arg("x", doc=DOC["x"])
+@xw.arg("y", doc=DOC["y"])
+@xw.arg("order", doc=DOC["order"])
+@xw.arg("level", doc=DOC["level"])
+@xw.arg("weights", doc=DOC["weights"])
+@_guarded()
+def calib_coefs(x, y, order=None, level=None, weights=None):
+    """Header, then one row per term (intercept, x, x^2 ...): coefficient, std error, t, p-value, lower, upper."""
+    prep = prepare(x, y, weights)
+    k, lev = _order(order), _level(level)
+
+    def compute():
+        cal, chosen, _ = _fitted(prep, k)
+        fit = cal.fit(chosen)
+        rows = [list(HEADERS["coefs"])]
+        for j, (b, se, t, p, (lo, hi)) in enumerate(zip(fit.coefficients, fit.std_errors, fit.t_values,
+                                                        fit.p_values, fit.interval(lev))):
+            rows.append([term(j), _cell(b), _cell(se), _cell(t), _cell(p), _cell(lo), _cell(hi)])
+        return rows
+
+    return _cached("coefs", prep, (k, lev), compute)
+
+
+@xw.func
+@xw.arg("x", doc=DOC["x"])
+@xw.arg("y", doc=DOC["y"])
+@xw.arg("order", doc=DOC["order"])
+@xw.arg("weights", doc=DOC["weights"])
+@_guarded()
+def calib_stats(x, y, order=None, weights=None):
+    """Header, then label/value rows: points, order and why, residual SD, R² family, AICc, BIC, F, lack of fit, range."""
+    prep = prepare(x, y, weights)
+    k = _order(order)
+
+    def compute():
+        cal, chosen, why = _fitted(prep, k)
+        st = cal.stats(chosen)
+        lof = st.lack_of_fit
+        return [list(HEADERS["stats"]),
+                ["points used", prep.x.size], ["points skipped", prep.skipped], ["order", chosen],
+                ["why this order", why], ["residual df", st.df_resid], ["residual SD", _cell(st.residual_sd)],
+                ["R²", _cell(st.r_squared)], ["adjusted R²", _cell(st.adj_r_squared)],
+                ["predicted R²", _cell(st.predicted_r_squared)], ["AICc", _cell(st.aicc)], ["BIC", _cell(st.bic)],
+                ["F", _cell(st.overall.statistic)], ["p-value", _cell(st.overall.p_value)],
+                ["lack-of-fit p", _cell(lof.test.p_value) if lof else None],
+                ["x min", _cell(prep.x.min())], ["x max", _cell(prep.x.max())],
+                ["weights", cal.weighting.label], ["caution", CAUTION]]
+
+    return _cached("stats", prep, (k,), compute)
+
+
+def _aligned(cells_arg, name: str):
+    cells = flatten(cells_arg, name)
+    values, blank = numbers_or_blank(cells)
+    return values, np.flatnonzero(~blank), len(cells.values)
+
+
+@xw.func
+@xw.arg("x", doc=DOC["x"])
+@xw.arg("y", doc=DOC["y"])
+@xw.arg("new_x", doc=DOC["new_x"])
+@xw.arg("order", doc=DOC["order"])
+@xw.arg("level", doc=DOC["level"])
+@xw.arg("weights", doc=DOC["weights"])
+@_guarded()
+def calib_predict(x, y, new_x, order=None, level=None, weights=None):
+    """One row per new_x cell (no header): predicted y, mean lower/upper, prediction lower/upper, note."""
+    prep = prepare(x, y, weights)
+    k, lev = _order(order), _level(level)
+    values, filled, size = _aligned(new_x, "new_x")
+
+    def compute():
+        cal, chosen, _ = _fitted(prep, k)
+        rows = [[None] * 6 for _ in range(size)]
+        for i, p in zip(filled, engine.predict(cal, values[filled], chosen, lev)):
+            rows[i] = [_cell(p.fitted), _cell(p.mean_lower), _cell(p.mean_upper), _cell(p.pred_lower),
+                       _cell(p.pred_upper), p.note or None]
+        return rows
+
+    return _cached("predict", prep, (k, lev, values.tobytes()), compute)
+
+
+@xw.func
+@xw.arg("x", doc=DOC["x"])
+@xw.arg("y", doc=DOC["y"])
+@xw.arg("reading", doc=DOC["reading"])
+@xw.arg("replicates", doc=DOC["replicates"])
+@xw.arg("order", doc=DOC["order"])
+@xw.arg("level", doc=DOC["level"])
+@xw.arg("weights", doc=DOC["weights"])
+@_guarded()
+def calib_inverse(x, y, reading, replicates=None, order=None, level=None, weights=None):
+    """One row per reading cell (no header): x estimate, lower, upper, note."""
+    prep = prepare(x, y, weights)
+    reps = number_option(replicates, "replicates", 1, 0.5, 1e9, "a whole number such as 3", whole=True)
+    k, lev = _order(order), _level(level)
+    values, filled, size = _aligned(reading, "reading")
+
+    def compute():
+        cal, chosen, _ = _fitted(prep, k)
+        rows = [[None] * 4 for _ in range(size)]
+        for i, e in zip(filled, engine.inverse(cal, values[filled], chosen, reps, lev)):
+            rows[i] = [_cell(e.x), _cell(e.lower), _cell(e.upper), e.note or None]
+        return rows
+
+    return _cached("inverse", prep, (reps, k, lev, values.tobytes()), compute)
+
+
+@xw.func
+@xw.arg("x", doc=DOC["x"])
+@xw.arg("y", doc=DOC["y"])
+@xw.arg("order", doc=DOC["order"])
+@xw.arg("weights", doc=DOC["weights"])
+@_guarded()
+def calib_residuals(x, y, order=None, weights=None):
+    """One row per input row (no header; blank where skipped): fitted, residual, studentized, leverage, Cook's D,
+    back-calculated x, deviation %, note."""
+    prep = prepare(x, y, weights)
+    k = _order(order)
+
+    def compute():
+        cal, chosen, _ = _fitted(prep, k)
+        d = engine.point_diagnostics(cal, chosen)
+        rows = [[None] * 8 for _ in range(prep.n_input)]
+        for j, i in enumerate(prep.used):
+            rows[i] = [_cell(d.fitted[j]), _cell(d.residual[j]), _cell(d.studentized[j]), _cell(d.leverage[j]),
+                       _cell(d.cooks_distance[j]), _cell(d.back_calculated[j]), _cell(d.deviation_percent[j]),
+                       d.notes[j] or None]
+        return rows
+
+    return _cached("residuals", prep, (k,), compute)
+
+
+@xw.func
+@xw.arg("x", doc=DOC["x"])
+@xw.arg("y", doc=DOC["y"])
+@xw.arg("order", doc=DOC["order"])
+@xw.arg("alpha", doc=DOC["alpha"])
+@xw.arg("weights", doc=DOC["weights"])
+@_guarded()
+def calib_checks(x, y, order=None, alpha=None, weights=None):
+    """Header, then one row per check of the curve: check, statistic, p-value, verdict, detail."""
+    prep = prepare(x, y, weights)
+    k, a = _order(order), _alpha(alpha)
+
+    def compute():
+        cal, chosen, _ = _fitted(prep, k)
+        labels = [prep.label(i) for i in range(prep.x.size)]
+        rows = [list(HEADERS["checks"])]
+        for c in engine.curve_checks(cal, chosen, a, labels):
+            rows.append([c.name, _cell(c.statistic), _cell(c.p_value), c.verdict, c.detail or None])
+        rows.append(["caution", None, None, None, CAUTION])
+        return rows
+
+    return _cached("checks", prep, (k, a), compute)
+
+
+@xw.func
+@xw.arg("name", doc=DOC["name"])
+@_guarded()
+def calib_labels(name):
+    """The header row of a table, e.g. CALIB_LABELS("predict") for the headerless CALIB_PREDICT."""
+    key = text_option(name, "name", "", tuple(HEADERS))
+    if not key:
+        raise CellError("name: give the table's name, one of " + ", ".join(f"'{h}'" for h in HEADERS))
+    return [list(HEADERS[key])]
+
+
+@xw.func
+@_guarded(single=True)
+def calib_version():
+    """Version of the add-in and of its numeric libraries."""
+    return (f"degreewise {VERSION}; numpy {np.__version__}; scipy {scipy.__version__}; "
+            f"Python {platform.python_version()}")

@@ -1,0 +1,136 @@
+"""From cell arguments to a (cached) engine calibration.
+
+Blank x or y skips the pair; everything else that is not a number is a
+CellError naming the argument and position. Calibrations are cached by the
+content of x, y and weights and by the max order (never by object identity),
+least recently used first out, so that the functions of one sheet share one
+factorisation and a changed cell is never served stale.
+"""
+
+from __future__ import annotations
+
+from collections import OrderedDict
+from dataclasses import dataclass
+
+import numpy as np
+
+import engine
+
+from .coercion import ERROR_TEXTS, CellError, Cells, describe, flatten, is_blank, is_omitted, numbers_or_blank
+
+CACHE_SIZE = 128
+SCHEMES = ("1/x", "1/x^2", "1/y", "1/y^2")
+
+
+@dataclass(frozen=True)
+class Prepared:
+    """The usable points of x and y and where they sit in the input ranges."""
+
+    x_cells: Cells
+    used: np.ndarray  # input positions of the points used
+    x: np.ndarray
+    y: np.ndarray
+    weights: object  # None, a scheme name or an array over the used points
+    key: tuple
+
+    @property
+    def n_input(self) -> int:
+        return len(self.x_cells.values)
+
+    @property
+    def skipped(self) -> int:
+        return self.n_input - self.used.size
+
+    def label(self, point: int) -> str:
+        """Name of engine point ``point`` in the input range (e.g. 'row 7')."""
+        return f"{self.x_cells.axis} {int(self.used[point]) + 1}"
+
+
+def _weights(weights, x_cells: Cells, used: np.ndarray, x: np.ndarray, y: np.ndarray):
+    if is_omitted(weights):
+        return None, b""
+    single = weights
+    while isinstance(single, (list, tuple)) and len(single) == 1:
+        single = single[0]
+    if isinstance(single, str) and single.strip().upper() not in ERROR_TEXTS:
+        key = single.strip().lower().replace(" ", "")
+        if key not in SCHEMES:
+            raise CellError(f"weights: '{single}' is not a weighting; use one of "
+                            + ", ".join(f"'{s}'" for s in SCHEMES) + " or a range of positive numbers")
+        which = key[2]
+        values = x if which == "x" else y
+        bad = np.flatnonzero(~(values > 0))
+        if bad.size:
+            i = int(used[bad[0]])
+            raise CellError(f"{which}, {x_cells.axis} {i + 1} of {len(x_cells.values)}: weights '{key}' "
+                            f"need every {which} > 0, but this {which} is {values[bad[0]]:g}")
+        return key, key.encode()
+    cells = flatten(weights, "weights")
+    if len(cells.values) != len(x_cells.values):
+        raise CellError(f"weights has {len(cells.values)} cells and x has {len(x_cells.values)}: "
+                        "give one weight per row, or one of " + ", ".join(f"'{s}'" for s in SCHEMES))
+    w = np.empty(used.size)
+    for j, i in enumerate(used):
+        v = cells.values[i]
+        if is_blank(v):
+            raise CellError(f"{cells.where(i)}: the weight is blank for a point that is used; enter a weight")
+        why = describe(v)
+        if why is not None:
+            raise CellError(f"{cells.where(i)}: {why}; enter a positive number")
+        if not float(v) > 0:
+            raise CellError(f"{cells.where(i)}: the weight {float(v):g} is not positive; enter a positive number")
+        w[j] = float(v)
+    return w, w.tobytes()
+
+
+def prepare(x, y, weights=None) -> Prepared:
+    x_cells, y_cells = flatten(x, "x"), flatten(y, "y")
+    if len(x_cells.values) != len(y_cells.values):
+        raise CellError(f"x has {len(x_cells.values)} cells and y has {len(y_cells.values)}: "
+                        "give ranges of the same size")
+    xv, x_blank = numbers_or_blank(x_cells)
+    yv, y_blank = numbers_or_blank(y_cells)
+    used = np.flatnonzero(~(x_blank | y_blank))
+    xu, yu = xv[used], yv[used]
+    w, wkey = _weights(weights, x_cells, used, xu, yu)
+    return Prepared(x_cells, used, xu, yu, w, (xu.tobytes(), yu.tobytes(), wkey))
+
+
+class LRU:
+    """A small least-recently-used cache."""
+
+    def __init__(self, size: int):
+        self.size = size
+        self._items: OrderedDict = OrderedDict()
+
+    def get(self, key, make):
+        try:
+            self._items.move_to_end(key)
+            return self._items[key]
+        except KeyError:
+            value = make()
+            self._items[key] = value
+            if len(self._items) > self.size:
+                self._items.popitem(last=False)
+            return value
+
+    def clear(self):
+        self._items.clear()
+
+
+CALIBRATIONS = LRU(CACHE_SIZE)
+RESULTS = LRU(4 * CACHE_SIZE)
+
+
+def calibration(prep: Prepared, max_order=None) -> engine.Calibration:
+    """The engine calibration of these points, factorised once per content and max order."""
+    def make():
+        try:
+            return engine.Calibration(prep.x, prep.y, max_order=max_order, weights=prep.weights)
+        except engine.DataError as err:
+            extra = f" ({prep.skipped} of {prep.n_input} rows skipped as blank)" if prep.skipped else ""
+            raise CellError(f"{err.message}{extra}") from None
+        except engine.CalibrationError as err:
+            raise CellError(err.message) from None
+
+    return CALIBRATIONS.get((prep.key, max_order), make)
