@@ -37,6 +37,12 @@ def _validate(args) -> int:
     return 0 if ok else 1
 
 
+def _addin(args) -> int:
+    from .addin import run
+
+    return run(args.config)
+
+
 def main(argv=None) -> int:
     parser = argparse.ArgumentParser(prog="degreewise", description="Polynomial calibration curves: order, "
                                      "coefficients, intervals, checks.")
@@ -45,6 +51,9 @@ def main(argv=None) -> int:
     p.set_defaults(run=_demo)
     p = sub.add_parser("validate", help="accuracy report against the NIST StRD reference datasets")
     p.set_defaults(run=_validate)
+    p = sub.add_parser("addin", help="write the xlwings settings for the desktop add-in and print the steps")
+    p.add_argument("--config", help="settings file to write (default: the xlwings user settings file)")
+    p.set_defaults(run=_addin)
     args = parser.parse_args(argv)
     return args.run(args)
 

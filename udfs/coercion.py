@@ -73,7 +73,7 @@ def describe(v) -> str | None:
             float(text)
         except ValueError:
             return f"the text '{text}' is not a number"
-        return f"the text '{text}' is a number stored as text; enter it as a number"
+        return f"the text '{text}' is a number stored as text"
     return f"a value of type {type(v).__name__} is not a number"
 
 
@@ -94,6 +94,10 @@ def flatten(value, name: str) -> Cells:
 
 def numbers_or_blank(cells: Cells) -> tuple[np.ndarray, np.ndarray]:
     """Values (nan where blank) and the blank mask; any other non-number is a CellError."""
+    if all(type(v) is float for v in cells.values):  # the usual case: every cell a number
+        out = np.array(cells.values, dtype=float)
+        if np.isfinite(out).all():
+            return out, np.zeros(out.size, dtype=bool)
     out = np.empty(len(cells.values))
     blank = np.zeros(len(cells.values), dtype=bool)
     for i, v in enumerate(cells.values):

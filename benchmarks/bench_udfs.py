@@ -1,0 +1,66 @@
+"""Worksheet functions: a cache-hit call, and one calibration's whole family cold, against statsmodels.
+
+Run: python benchmarks/bench_udfs.py   (needs the test extra: statsmodels, pandas)
+"""
+
+from __future__ import annotations
+
+import statistics
+import sys
+import time
+from pathlib import Path
+
+sys.path.insert(0, str(Path(__file__).resolve().parent))
+import workloads  # noqa: E402
+
+import udfs  # noqa: E402
+from udfs.prepared import CALIBRATIONS, RESULTS  # noqa: E402
+
+
+def column(values):
+    return [[float(v)] for v in values]
+
+
+def family(xs, ys, new_x, readings):
+    order = udfs.calib_order(xs, ys)
+    udfs.calib_orders(xs, ys)
+    udfs.calib_seqf(xs, ys)
+    udfs.calib_coefs(xs, ys, order)
+    udfs.calib_predict(xs, ys, new_x, order)
+    udfs.calib_inverse(xs, ys, readings, None, order)
+    udfs.calib_residuals(xs, ys, order)
+    udfs.calib_checks(xs, ys, order)
+
+
+def cold(*args):
+    CALIBRATIONS.clear()
+    RESULTS.clear()
+    family(*args)
+
+
+def median(func, *args, repeat):
+    for _ in range(10):
+        func(*args)
+    times = []
+    for _ in range(repeat):
+        t0 = time.perf_counter()
+        func(*args)
+        times.append(time.perf_counter() - t0)
+    return statistics.median(times)
+
+
+def main():
+    x, y, new_x, readings = workloads.typical()
+    cells = (column(x), column(y), column(new_x), column(readings))
+    family(*cells)
+    hit = median(udfs.calib_coefs, cells[0], cells[1], repeat=2000)
+    ours = median(cold, *cells, repeat=300)
+    ref = median(workloads.statsmodels_pipeline, x, y, new_x, readings, repeat=60)
+    print(f"cache-hit CALIB_COEFS call (24 points)        {hit * 1e6:8.1f} us (median)")
+    print(f"whole family cold, one calibration            {ours * 1e3:8.3f} ms (median)")
+    print(f"statsmodels pipeline, same work               {ref * 1e3:8.3f} ms (median)")
+    print(f"ratio                                         {ref / ours:8.1f} x faster")
+
+
+if __name__ == "__main__":
+    main()
