@@ -37,6 +37,12 @@ def _validate(args) -> int:
     return 0 if ok else 1
 
 
+def _refresh(args) -> int:
+    from .refresh import run
+
+    return run(args.paths, check=args.check, backup=args.backup, jobs=args.jobs)
+
+
 def _addin(args) -> int:
     from .addin import run
 
@@ -51,6 +57,12 @@ def main(argv=None) -> int:
     p.set_defaults(run=_demo)
     p = sub.add_parser("validate", help="accuracy report against the NIST StRD reference datasets")
     p.set_defaults(run=_validate)
+    p = sub.add_parser("refresh", help="recompute every CALIB_* cell of workbooks, in place")
+    p.add_argument("paths", nargs="+", help="workbooks (.xlsx, .xlsm) or folders searched recursively")
+    p.add_argument("--check", action="store_true", help="compute and report what would change; write nothing")
+    p.add_argument("--backup", action="store_true", help="keep the original beside each refreshed workbook")
+    p.add_argument("--jobs", type=int, default=1, help="refresh this many workbooks in parallel processes")
+    p.set_defaults(run=_refresh)
     p = sub.add_parser("addin", help="write the xlwings settings for the desktop add-in and print the steps")
     p.add_argument("--config", help="settings file to write (default: the xlwings user settings file)")
     p.set_defaults(run=_addin)

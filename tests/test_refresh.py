@@ -1,0 +1,269 @@
+"""Headless refresh of whole workbooks: values equal the functions', nothing else changes, bad files refused."""
+
+import io
+import shutil
+import subprocess
+import zipfile
+from pathlib import Path
+
+import numpy as np
+import openpyxl
+import pytest
+from openpyxl.chart import Reference, ScatterChart, Series
+from openpyxl.workbook.defined_name import DefinedName
+
+import udfs
+from udfs.package import MAX_PART
+from udfs.refresh import lock_file, refresh_file, run
+
+RNG = np.random.default_rng(31)
+X = np.repeat([1.0, 2.0, 5.0, 10.0, 20.0, 40.0], 2)
+Y = 5.0 + 12.0 * X - 0.08 * X**2 + RNG.normal(0, 0.6, X.size)
+
+
+def column(values):
+    return [[float(v)] for v in values]
+
+
+def build(path: Path, vba: bool = False) -> Path:
+    """Invented calibration workbook: a data sheet with a space in its name, a chart, a defined name,
+    formulas on the same and on another sheet."""
+    wb = openpyxl.Workbook()
+    ws = wb.active
+    ws.title = "Run 2"
+    ws["A1"], ws["B1"] = "conc", "signal"
+    for i, (a, b) in enumerate(zip(X, Y), start=2):
+        ws.cell(i, 1, float(a))
+        ws.cell(i, 2, float(b))
+    ws["D1"] = "=CALIB_ORDER(A2:A13,B2:B13)"
+    ws["D3"] = "=CALIB_COEFS($A$2:$A$13,$B$2:$B$13,D1)"
+    ws["D10"] = "=CALIB_PREDICT(A2:A13,B2:B13,A2:A4,D1,0.9)"
+    ws["K1"] = "=CALIB_VERSION()"
+    wb.defined_names["standards_x"] = DefinedName("standards_x", attr_text="'Run 2'!$A$2:$A$13")
+    chart = ScatterChart()
+    chart.series.append(Series(Reference(ws, min_col=2, min_row=2, max_row=13),
+                               Reference(ws, min_col=1, min_row=2, max_row=13)))
+    ws.add_chart(chart, "M2")
+    other = wb.create_sheet("Summary")
+    other["A1"] = "=CALIB_SEQF(standards_x,'Run 2'!B2:B13)"
+    other["H1"] = "=CALIB_STATS('Run 2'!A2:A13,'Run 2'!B2:B13,'Run 2'!D1)"
+    other["A20"] = "=ROUND(CALIB_ORDER('Run 2'!A2:A13,'Run 2'!B2:B13),0)"
+    other["A22"] = "=CALIB_INVERSE('Run 2'!A:A,'Run 2'!B:B,100)"
+    wb.save(path)
+    if vba:
+        with zipfile.ZipFile(path, "a") as z:
+            z.writestr("xl/vbaProject.bin", b"\xd0\xcf\x11\xe0 not a real project, never executed")
+    return path
+
+
+def entries(path):
+    with zipfile.ZipFile(path) as z:
+        return {i.filename: z.read(i) for i in z.infolist()}
+
+
+def values(path, sheet, top_left, rows, cols):
+    ws = openpyxl.load_workbook(path, data_only=True)[sheet]
+    cell = ws[top_left]
+    return [[ws.cell(cell.row + i, cell.column + j).value for j in range(cols)] for i in range(rows)]
+
+
+def standards(path):
+    """x and y as the workbook holds them (openpyxl writes 16 significant digits, so read them back)."""
+    rows = values(path, "Run 2", "A2", 12, 2)
+    return [[r[0]] for r in rows], [[r[1]] for r in rows]
+
+
+def test_refresh_stores_what_the_functions_return(tmp_path):
+    path = build(tmp_path / "book.xlsx")
+    before = entries(path)
+    report = refresh_file(path)
+    assert report.error is None
+    assert sorted(report.refreshed) == sorted(["Run 2!D1", "Run 2!D3", "Run 2!D10", "Run 2!K1",
+                                               "Summary!A1", "Summary!H1", "Summary!A22"])
+    assert report.left_alone == [("Summary!A20", "the formula mixes CALIB_* with other functions or operators")]
+    xs, ys = standards(path)
+    assert values(path, "Run 2", "D1", 1, 1) == [[udfs.calib_order(xs, ys)]]
+    assert values(path, "Run 2", "D3", 4, 7) == udfs.calib_coefs(xs, ys, 2)
+    assert values(path, "Run 2", "D10", 3, 6) == udfs.calib_predict(xs, ys, xs[:3], 2, 0.9)
+    assert values(path, "Summary", "A1", 9, 6) == [[v for v in r] + [None] * (6 - len(r))
+                                                   for r in udfs.calib_seqf(xs, ys)]
+    stats = udfs.calib_stats(xs, ys, 2)
+    assert values(path, "Summary", "H1", len(stats), 2) == stats
+    # whole columns carry the header text, exactly as the spreadsheet would pass it
+    assert values(path, "Summary", "A22", 1, 1) == [[
+        "x, row 1 of 13: the text 'conc' is not a number; enter a number or clear the cell"]]
+    # formulas unchanged, arrays marked dynamic
+    wb = openpyxl.load_workbook(path)
+    assert wb["Run 2"]["D1"].value == "=CALIB_ORDER(A2:A13,B2:B13)"
+    assert wb["Run 2"]["D3"].value.text == "=CALIB_COEFS($A$2:$A$13,$B$2:$B$13,D1)"
+    assert wb["Run 2"]["D3"].value.ref == "D3:J6"
+    assert wb["Summary"]["A20"].value == "=ROUND(CALIB_ORDER('Run 2'!A2:A13,'Run 2'!B2:B13),0)"
+    after = entries(path)
+    changed = {n for n in after if before.get(n) != after[n]}
+    assert changed == {"xl/worksheets/sheet1.xml", "xl/worksheets/sheet2.xml", "xl/workbook.xml",
+                       "xl/metadata.xml", "xl/_rels/workbook.xml.rels", "[Content_Types].xml"}
+    assert set(before) - set(after) == set()
+    assert b'fullCalcOnLoad="1"' in after["xl/workbook.xml"]
+    assert b'<c r="D3" cm="1" t="str"><f t="array" ref="D3:J6">' in after["xl/worksheets/sheet1.xml"]
+    assert b"XLDAPR" in after["xl/metadata.xml"]
+    # a second refresh changes nothing at all
+    assert not refresh_file(path, check=True).changed
+    refresh_file(path)
+    assert entries(path) == after
+
+
+def test_only_changed_cells_differ_in_the_sheet_xml(tmp_path):
+    path = build(tmp_path / "book.xlsx")
+    before = entries(path)["xl/worksheets/sheet1.xml"].decode()
+    refresh_file(path)
+    after = entries(path)["xl/worksheets/sheet1.xml"].decode()
+    head = before[: before.index("<sheetData>")]
+    assert after.startswith(head.replace('<dimension ref="A1:K13"', '<dimension ref="A1:K13"'))
+    assert after[after.index("</sheetData>"):] == before[before.index("</sheetData>"):]
+    for row in ("<row r=\"2\">", "<row r=\"7\">", "<row r=\"13\">"):
+        start = before.index(row)
+        original_a = before[start: before.index("</c>", start) + 4]
+        assert original_a in after
+
+
+def test_xlsm_keeps_its_vba_project(tmp_path):
+    path = build(tmp_path / "book.xlsm", vba=True)
+    vba = entries(path)["xl/vbaProject.bin"]
+    assert refresh_file(path).error is None
+    assert entries(path)["xl/vbaProject.bin"] == vba
+
+
+def _edit_formula(path, old, new):
+    """Change a formula's text in the sheet XML, keeping its stored array range (as an edit in the program)."""
+    sheet = entries(path)["xl/worksheets/sheet1.xml"].decode()
+    assert old in sheet
+    _rewrite(path, {"xl/worksheets/sheet1.xml": sheet.replace(old, new).encode()})
+
+
+def test_results_that_grow_and_shrink(tmp_path):
+    path = build(tmp_path / "book.xlsx")
+    refresh_file(path)
+    xs, ys = standards(path)
+    _edit_formula(path, "CALIB_PREDICT(A2:A13,B2:B13,A2:A4,D1,0.9)", "CALIB_PREDICT(A2:A13,B2:B13,A2:A8,D1,0.9)")
+    refresh_file(path)
+    assert values(path, "Run 2", "D10", 7, 6) == udfs.calib_predict(xs, ys, xs[:7], 2, 0.9)
+    assert openpyxl.load_workbook(path)["Run 2"]["D10"].value.ref == "D10:I16"
+    _edit_formula(path, "CALIB_PREDICT(A2:A13,B2:B13,A2:A8,D1,0.9)", "CALIB_PREDICT(A2:A13,B2:B13,A2:A3,D1,0.9)")
+    refresh_file(path)
+    got = values(path, "Run 2", "D10", 7, 6)
+    assert got[:2] == udfs.calib_predict(xs, ys, xs[:2], 2, 0.9)
+    assert got[2:] == [[None] * 6] * 5
+    assert openpyxl.load_workbook(path)["Run 2"]["D10"].value.ref == "D10:I11"
+
+
+def _rewrite(path, replace):
+    data = entries(path)
+    data.update(replace)
+    with zipfile.ZipFile(path, "w", zipfile.ZIP_DEFLATED) as z:
+        for name, content in data.items():
+            z.writestr(name, content)
+
+
+def test_blocked_result_overwrites_nothing(tmp_path):
+    path = build(tmp_path / "book.xlsx")
+    wb = openpyxl.load_workbook(path)
+    wb["Run 2"]["F5"] = "my note"
+    wb.save(path)
+    report = refresh_file(path)
+    assert report.blocked == [("Run 2!D3", "the result (4 x 7) would cover F5, which is not empty; "
+                                           "nothing was overwritten")]
+    assert values(path, "Run 2", "F5", 1, 1) == [["my note"]]
+    assert values(path, "Run 2", "D3", 1, 1) == [["#SPILL!"]]
+    assert not report.ok
+
+
+def test_cycle_is_reported_not_looped(tmp_path):
+    path = build(tmp_path / "book.xlsx")
+    wb = openpyxl.load_workbook(path)
+    ws = wb["Summary"]
+    ws["P1"] = "=CALIB_ORDER('Run 2'!A2:A13,'Run 2'!B2:B13,Q1)"
+    ws["Q1"] = "=CALIB_ORDER('Run 2'!A2:A13,'Run 2'!B2:B13,P1)"
+    wb.save(path)
+    report = refresh_file(path)
+    reasons = dict(report.failed)
+    assert set(reasons) == {"Summary!P1", "Summary!Q1"}
+    assert reasons["Summary!P1"].startswith("circular reference: Summary!")
+    assert "Run 2!D3" in report.refreshed
+
+
+def test_check_writes_nothing_and_backup_keeps_the_original(tmp_path):
+    path = build(tmp_path / "book.xlsx")
+    original = path.read_bytes()
+    report = refresh_file(path, check=True)
+    assert report.changed and path.read_bytes() == original
+    report = refresh_file(path, backup=True)
+    assert report.backup.read_bytes() == original
+    assert path.read_bytes() != original
+
+
+def test_open_workbook_is_refused(tmp_path):
+    path = build(tmp_path / "book.xlsx")
+    (tmp_path / "~$book.xlsx").write_bytes(b"owner")
+    original = path.read_bytes()
+    report = refresh_file(path)
+    assert report.error == ("the workbook is open in a spreadsheet program (~$book.xlsx is present); "
+                            "close it and try again")
+    assert path.read_bytes() == original
+    assert lock_file(path).name == "~$book.xlsx"
+
+
+def _bomb_xml():
+    return (b'<?xml version="1.0"?><!DOCTYPE lolz [<!ENTITY lol "lol"><!ENTITY lol2 "&lol;&lol;&lol;">]>'
+            b'<worksheet xmlns="http://schemas.openxmlformats.org/spreadsheetml/2006/main"><sheetData>'
+            b'<row r="1"><c r="A1" t="str"><v>&lol2;</v></c></row></sheetData></worksheet>')
+
+
+@pytest.mark.parametrize("make,message", [
+    (lambda p, good: p.write_bytes(b"just some text, not a workbook"), "not a workbook package (zip): "),
+    (lambda p, good: p.write_bytes(good[: len(good) // 2]), "not a workbook package (zip): "),
+    (lambda p, good: (p.write_bytes(good), _rewrite(p, {"xl/worksheets/sheet1.xml": _bomb_xml()})),
+     "unsafe XML in xl/worksheets/sheet1.xml: "),
+    (lambda p, good: (p.write_bytes(good), _rewrite(p, {"xl/junk.bin": b"\0" * (MAX_PART + 1)})),
+     "part xl/junk.bin unpacks to"),
+])
+def test_hostile_or_broken_files_are_refused_untouched(tmp_path, make, message):
+    good = build(tmp_path / "good.xlsx").read_bytes()
+    path = tmp_path / "bad.xlsx"
+    make(path, good)
+    original = path.read_bytes()
+    report = refresh_file(path)
+    assert report.error.startswith(message)
+    assert "\n" not in report.error
+    assert path.read_bytes() == original
+    assert run([str(path)]) == 1
+
+
+def test_folders_are_searched_and_exit_code_reflects_success(tmp_path, capsys):
+    (tmp_path / "a" / "b").mkdir(parents=True)
+    build(tmp_path / "a" / "one.xlsx")
+    book = build(tmp_path / "a" / "b" / "two.xlsx")
+    wb = openpyxl.load_workbook(book)
+    del wb["Summary"]["A20"]
+    wb.save(book)
+    code = run([str(tmp_path)], jobs=2)
+    out = capsys.readouterr().out
+    assert "two.xlsx: 7 cells refreshed, 0 blocked, 0 left alone, 0 failed" in out
+    assert "one.xlsx: 7 cells refreshed, 0 blocked, 1 left alone, 0 failed" in out
+    assert code == 1
+    assert run([str(book)]) == 0
+
+
+@pytest.mark.skipif(shutil.which("soffice") is None, reason="LibreOffice (soffice) is not installed")
+def test_a_spreadsheet_program_reads_the_cached_numbers(tmp_path):
+    path = build(tmp_path / "book.xlsx")
+    refresh_file(path)
+    out = tmp_path / "csv"
+    subprocess.run(["soffice", "--headless", "--convert-to", "csv", "--outdir", str(out), str(path)],
+                   check=True, capture_output=True, timeout=180)
+    text = (out / "book.csv").read_text()
+    coefs = udfs.calib_coefs(*standards(path), 2)
+    rows = [line.split(",") for line in text.splitlines()]
+    assert rows[2][3] == "term" and rows[3][3] == "intercept"
+    assert float(rows[3][4]) == pytest.approx(coefs[1][1], rel=1e-9)
+    assert float(rows[4][4]) == pytest.approx(coefs[2][1], rel=1e-9)
+    assert rows[0][3] == "2"

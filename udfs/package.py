@@ -1,0 +1,396 @@
+"""A workbook file as a zip package: safe reading, cell values, and surgical edits of sheet XML.
+
+Every part is read with limits (entry count, unpacked size, compression ratio)
+and every XML part is parsed with defusedxml, which refuses DTDs and entity
+declarations, so a hostile file cannot expand or reach outside. Nothing in a
+workbook is ever executed. Sheet XML is edited as text inside <sheetData>,
+row by row, so every byte outside the cells that change stays as it was.
+"""
+
+from __future__ import annotations
+
+import posixpath
+import re
+import zipfile
+from dataclasses import dataclass, field
+from xml.sax.saxutils import escape
+
+from defusedxml import ElementTree as SafeET
+from defusedxml.common import DefusedXmlException
+
+from .formula import cell_name, parse_cell
+
+MAIN = "http://schemas.openxmlformats.org/spreadsheetml/2006/main"
+REL = "http://schemas.openxmlformats.org/officeDocument/2006/relationships"
+PKG_REL = "http://schemas.openxmlformats.org/package/2006/relationships"
+METADATA_REL = "http://schemas.openxmlformats.org/officeDocument/2006/relationships/sheetMetadata"
+METADATA_TYPE = "application/vnd.openxmlformats-officedocument.spreadsheetml.sheetMetadata+xml"
+DYNAMIC_URI = "{bdbb8cdc-fa1e-496e-a857-3c3f30c029c3}"
+METADATA_XML = (
+    '<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n'
+    f'<metadata xmlns="{MAIN}" xmlns:xda="http://schemas.microsoft.com/office/spreadsheetml/2017/dynamicarray">'
+    '<metadataTypes count="1"><metadataType name="XLDAPR" minSupportedVersion="120000" copy="1" pasteAll="1" '
+    'pasteValues="1" merge="1" splitFirst="1" rowColShift="1" clearFormats="1" clearComments="1" assign="1" '
+    'coerce="1" cellMeta="1"/></metadataTypes><futureMetadata name="XLDAPR" count="1"><bk><extLst>'
+    f'<ext uri="{DYNAMIC_URI}"><xda:dynamicArrayProperties fDynamic="1" fCollapsed="0"/></ext></extLst></bk>'
+    '</futureMetadata><cellMetadata count="1"><bk><rc t="1" v="0"/></bk></cellMetadata></metadata>'
+)
+
+MAX_ENTRIES = 10_000
+MAX_PART = 256 * 2**20
+MAX_TOTAL = 1024 * 2**20
+MAX_RATIO = 200
+
+
+class PackageError(Exception):
+    """The file cannot be refreshed safely; the message is one line for the user."""
+
+
+def _q(tag: str) -> str:
+    return f"{{{MAIN}}}{tag}"
+
+
+def parse_xml(name: str, data: bytes):
+    try:
+        return SafeET.fromstring(data, forbid_dtd=True)
+    except DefusedXmlException as err:
+        raise PackageError(f"unsafe XML in {name}: {type(err).__name__} (DTDs and entities are not allowed)") from None
+    except SafeET.ParseError as err:
+        raise PackageError(f"broken XML in {name}: {err}") from None
+
+
+def read_package(path) -> tuple[list[zipfile.ZipInfo], dict[str, bytes]]:
+    """Every entry of the zip at ``path`` with its unpacked bytes, within the limits."""
+    try:
+        with zipfile.ZipFile(path) as z:
+            infos = z.infolist()
+            if len(infos) > MAX_ENTRIES:
+                raise PackageError(f"the package has {len(infos)} parts; refusing more than {MAX_ENTRIES}")
+            total = 0
+            for info in infos:
+                if info.file_size > MAX_PART:
+                    raise PackageError(f"part {info.filename} unpacks to {info.file_size} bytes; "
+                                       f"refusing parts over {MAX_PART // 2**20} MiB")
+                if info.file_size > 2**20 and info.file_size > MAX_RATIO * max(info.compress_size, 1):
+                    raise PackageError(f"part {info.filename} is compressed {info.file_size // max(info.compress_size, 1)}"
+                                       " to 1; refusing what looks like a zip bomb")
+                total += info.file_size
+            if total > MAX_TOTAL:
+                raise PackageError(f"the package unpacks to {total} bytes; refusing more than {MAX_TOTAL // 2**20} MiB")
+            parts = {}
+            for info in infos:
+                data = z.read(info)
+                if len(data) != info.file_size:
+                    raise PackageError(f"part {info.filename} does not unpack to its declared size")
+                parts[info.filename] = data
+            return infos, parts
+    except zipfile.BadZipFile as err:
+        raise PackageError(f"not a workbook package (zip): {err}") from None
+    except (EOFError, OSError, zipfile.LargeZipFile, NotImplementedError, RuntimeError) as err:
+        raise PackageError(f"the package cannot be read: {err}") from None
+    except ValueError as err:
+        raise PackageError(f"the package cannot be read: {err}") from None
+
+
+def write_package(path, infos: list[zipfile.ZipInfo], parts: dict[str, bytes], extra: list[str]) -> None:
+    """Write the parts in their original order (then ``extra`` new ones) with their original entry data."""
+    with zipfile.ZipFile(path, "w") as z:
+        for info in infos:
+            z.writestr(info, parts[info.filename])
+        for name in extra:
+            z.writestr(zipfile.ZipInfo(name, date_time=(2026, 1, 1, 0, 0, 0)), parts[name],
+                       compress_type=zipfile.ZIP_DEFLATED)
+
+
+@dataclass
+class Sheet:
+    name: str
+    part: str
+    values: dict = field(default_factory=dict)  # (row, col) -> value
+    formulas: dict = field(default_factory=dict)  # (row, col) -> (text, attributes of <f>)
+    styles: dict = field(default_factory=dict)  # (row, col) -> s attribute
+    max_row: int = 0
+
+
+def _rels(parts: dict[str, bytes], part: str) -> dict[str, tuple[str, str]]:
+    folder, base = posixpath.split(part)
+    name = posixpath.join(folder, "_rels", base + ".rels")
+    if name not in parts:
+        return {}
+    out = {}
+    for rel in parse_xml(name, parts[name]):
+        target = rel.get("Target", "")
+        full = target.lstrip("/") if target.startswith("/") else posixpath.normpath(posixpath.join(folder, target))
+        out[rel.get("Id")] = (rel.get("Type", ""), full)
+    return out
+
+
+def _text(el) -> str:
+    return "".join(t.text or "" for t in el.iter(_q("t")))
+
+
+class Workbook:
+    """The parts of one workbook that a refresh reads: sheets, names, shared strings, cell values."""
+
+    def __init__(self, parts: dict[str, bytes]):
+        self.parts = parts
+        root = _rels(parts, "")
+        office = [t for (kind, t) in root.values() if kind.endswith("/officeDocument")]
+        if not office or office[0] not in parts:
+            raise PackageError("not a spreadsheet workbook: no workbook part")
+        self.workbook_part = office[0]
+        book = parse_xml(self.workbook_part, parts[self.workbook_part])
+        rels = _rels(parts, self.workbook_part)
+        self.workbook_rels = rels
+        strings_part = next((t for kind, t in rels.values() if kind.endswith("/sharedStrings")), None)
+        self.shared = ([_text(si) for si in parse_xml(strings_part, parts[strings_part]).iter(_q("si"))]
+                       if strings_part in parts else [])
+        self.sheets: dict[str, Sheet] = {}
+        order = []
+        for sh in book.iter(_q("sheet")):
+            rid = sh.get(f"{{{REL}}}id")
+            kind, target = rels.get(rid, ("", ""))
+            if kind.endswith("/worksheet") and target in parts:
+                self.sheets[sh.get("name")] = Sheet(sh.get("name"), target)
+                order.append(sh.get("name"))
+        self.sheet_order = order
+        self.names = {}
+        for dn in book.iter(_q("definedName")):
+            scope = dn.get("localSheetId")
+            sheet = order[int(scope)] if scope is not None and int(scope) < len(order) else None
+            self.names[(sheet, dn.get("name", "").upper())] = (dn.text or "").strip()
+        for sheet in self.sheets.values():
+            self._read_cells(sheet)
+
+    def _read_cells(self, sheet: Sheet) -> None:
+        root = parse_xml(sheet.part, self.parts[sheet.part])
+        data = root.find(_q("sheetData"))
+        if data is None:
+            return
+        row_no = 0
+        for row in data.iter(_q("row")):
+            row_no = int(row.get("r", row_no + 1))
+            col_no = 0
+            for c in row.iter(_q("c")):
+                ref = c.get("r")
+                r, col = parse_cell(ref) if ref else (row_no, col_no + 1)
+                col_no = col
+                key = (r, col)
+                if c.get("s") is not None:
+                    sheet.styles[key] = c.get("s")
+                f = c.find(_q("f"))
+                if f is not None:
+                    sheet.formulas[key] = (f.text or "", dict(f.attrib))
+                value = self._value(c)
+                if value is not None:
+                    sheet.values[key] = value
+                    sheet.max_row = max(sheet.max_row, r)
+
+    def _value(self, c):
+        t = c.get("t", "n")
+        if t == "inlineStr":
+            el = c.find(_q("is"))
+            return _text(el) if el is not None else None
+        v = c.find(_q("v"))
+        if v is None or v.text is None:
+            return None
+        text = v.text
+        if t == "s":
+            return self.shared[int(text)]
+        if t == "b":
+            return text.strip() == "1"
+        if t in ("e", "str", "d"):
+            return text
+        try:
+            return float(text)
+        except ValueError:
+            return text
+
+
+_ATTR = re.compile(r'([\w:]+)\s*=\s*("[^"]*"|\'[^\']*\')')
+
+
+def _attrs(text: str) -> dict[str, str]:
+    return {k: v[1:-1] for k, v in _ATTR.findall(text)}
+
+
+class SheetText:
+    """The XML text of one worksheet with its rows split out for editing.
+
+    Rows and cells are located by regular expressions over <sheetData> only
+    (cells cannot nest and their text is escaped, so this is exact for
+    well-formed XML); untouched rows are written back verbatim.
+    """
+
+    def __init__(self, xml: str):
+        m = re.search(r"<(\w+:)?worksheet\b", xml)
+        self.p = (m.group(1) or "") if m else ""
+        p = re.escape(self.p)
+        data = re.search(rf"<{p}sheetData\b[^>]*?(?:/>|>(.*?)</{p}sheetData>)", xml, re.S)
+        if data is None:
+            raise PackageError("the worksheet has no sheetData element")
+        self.head = xml[: data.start()]
+        self.tail = xml[data.end():]
+        self.open_tag = re.match(rf"<{p}sheetData\b[^>]*?", data.group(0)).group(0).rstrip("/") + ">"
+        self.rows: dict[int, list] = {}  # row -> [open tag attrs text, {col: cell xml}, changed]
+        self.order: list[int] = []
+        self._cell = re.compile(rf"<{p}c\b([^>]*?)(?:/>|>(.*?)</{p}c>)", re.S)
+        row_no = 0
+        for rm in re.finditer(rf"<{p}row\b([^>]*?)(?:/>|>(.*?)</{p}row>)", data.group(1) or "", re.S):
+            attrs = _attrs(rm.group(1))
+            row_no = int(attrs.get("r", row_no + 1))
+            cells, col_no = {}, 0
+            for cm in self._cell.finditer(rm.group(2) or ""):
+                ca = _attrs(cm.group(1))
+                col_no = parse_cell(ca["r"])[1] if "r" in ca else col_no + 1
+                cells[col_no] = cm.group(0)
+            self.rows[row_no] = [rm.group(1), cells, False, rm.group(0)]
+            self.order.append(row_no)
+
+    def cell_attrs(self, row: int, col: int) -> dict[str, str]:
+        xml = self.rows.get(row, [None, {}])[1].get(col)
+        if xml is None:
+            return {}
+        return _attrs(self._cell.match(xml).group(1))
+
+    def set_cell(self, row: int, col: int, xml: str | None) -> None:
+        if row not in self.rows:
+            self.rows[row] = [f' r="{row}"', {}, True, ""]
+            self.order.append(row)
+        entry = self.rows[row]
+        if xml is None:
+            entry[1].pop(col, None)
+        else:
+            entry[1][col] = xml
+        entry[2] = True
+
+    def _dimension(self, head: str) -> str:
+        """head with the <dimension> widened to cover every cell now in the sheet."""
+        m = re.search(r'(<(?:\w+:)?dimension\b[^>]*?\bref=")([^"]*)(")', head)
+        if m is None:
+            return head
+        top, left, bottom, right = None, None, 0, 0
+        for r in self.order:
+            cols = self.rows[r][1]
+            if cols:
+                top = r if top is None else min(top, r)
+                bottom = max(bottom, r)
+                left = min(cols) if left is None else min(left, min(cols))
+                right = max(right, max(cols))
+        if top is None:
+            return head
+        start, *end = m.group(2).split(":")
+        try:
+            r0, c0 = parse_cell(start.replace("$", ""))
+            r1, c1 = parse_cell((end[0] if end else start).replace("$", ""))
+        except ValueError:
+            return head
+        top, left, bottom, right = min(top, r0), min(left, c0), max(bottom, r1), max(right, c1)
+        ref = f"{cell_name(top, left)}:{cell_name(bottom, right)}"
+        return head[: m.start(2)] + ref + head[m.end(2):]
+
+    def render(self) -> str:
+        out = [self._dimension(self.head), self.open_tag]
+        for r in sorted(self.order):
+            attrs, cells, changed, original = self.rows[r]
+            if not changed:
+                out.append(original)
+                continue
+            attrs = re.sub(r'\s+spans\s*=\s*"[^"]*"', "", attrs)
+            if cells:
+                out.append(f"<{self.p}row{attrs}>" + "".join(cells[c] for c in sorted(cells)) + f"</{self.p}row>")
+            elif "s=" in attrs or "ht=" in attrs or "hidden=" in attrs:
+                out.append(f"<{self.p}row{attrs}/>")
+        out.append(f"</{self.p}sheetData>")
+        return "".join(out) + self.tail
+
+    def cell_xml(self, row: int, col: int, value, style: str | None, formula: str | None = None,
+                 array_ref: str | None = None, cm: str | None = None) -> str:
+        """XML of one cell holding ``value`` (and a formula for an anchor)."""
+        p = self.p
+        attrs = f' r="{cell_name(row, col)}"' + (f' s="{style}"' if style is not None else "")
+        f = ""
+        if formula is not None:
+            if array_ref:
+                f = f'<{p}f t="array" ref="{array_ref}">{escape(formula)}</{p}f>'
+            else:
+                f = f"<{p}f>{escape(formula)}</{p}f>"
+            if cm:
+                attrs += f' cm="{cm}"'
+        if value is None:
+            body = f
+        elif isinstance(value, bool):
+            attrs += ' t="b"'
+            body = f + f"<{p}v>{int(value)}</{p}v>"
+        elif isinstance(value, (int, float)):
+            body = f + f"<{p}v>{value!r}</{p}v>"
+        elif isinstance(value, str) and value.startswith("#") and value.upper() in ("#SPILL!",):
+            attrs += ' t="e"'
+            body = f + f"<{p}v>{escape(value)}</{p}v>"
+        else:
+            attrs += ' t="str"'
+            body = f + f"<{p}v>{escape(str(value))}</{p}v>"
+        return f"<{p}c{attrs}>{body}</{p}c>" if body else f"<{p}c{attrs}/>"
+
+
+def set_full_calc_on_load(xml: str) -> str:
+    """workbook.xml with <calcPr fullCalcOnLoad="1">, everything else kept as it was."""
+    m = re.search(r"<(\w+:)?calcPr\b([^>]*?)(/?)>", xml)
+    if m:
+        if re.search(r'\bfullCalcOnLoad\s*=\s*"(1|true)"', m.group(2)):
+            return xml
+        attrs = re.sub(r'\s+fullCalcOnLoad\s*=\s*"[^"]*"', "", m.group(2)).rstrip()
+        return xml[: m.start()] + f'<{m.group(1) or ""}calcPr{attrs} fullCalcOnLoad="1"{m.group(3)}>' + xml[m.end():]
+    p = (re.search(r"<(\w+:)?workbook\b", xml).group(1) or "")
+    for anchor in ("definedNames", "externalReferences", "functionGroups", "sheets"):
+        end = re.search(rf"</{re.escape(p)}{anchor}>|<{re.escape(p)}{anchor}\b[^>]*/>", xml)
+        if end:
+            return xml[: end.end()] + f'<{p}calcPr fullCalcOnLoad="1"/>' + xml[end.end():]
+    raise PackageError("workbook.xml has no sheets element")
+
+
+def dynamic_array_metadata(parts: dict[str, bytes], workbook_part: str, rels: dict) -> tuple[str | None, list[str]]:
+    """The cm index that marks a dynamic array, adding the metadata part when the workbook has none.
+
+    Returns the index (None when existing metadata has no dynamic-array record) and
+    the names of parts added.
+    """
+    existing = next((t for kind, t in rels.values() if kind == METADATA_REL), None)
+    if existing and existing in parts:
+        root = parse_xml(existing, parts[existing])
+        types = [t.get("name") for t in root.iter(_q("metadataType"))]
+        if "XLDAPR" not in types:
+            return None, []
+        t_index = types.index("XLDAPR") + 1
+        future = next((fm for fm in root.iter(_q("futureMetadata")) if fm.get("name") == "XLDAPR"), None)
+        dynamic = set()
+        if future is not None:
+            for i, bk in enumerate(future.findall(_q("bk"))):
+                for el in bk.iter():
+                    if el.tag.endswith("dynamicArrayProperties") and el.get("fDynamic") == "1" \
+                            and el.get("fCollapsed", "0") == "0":
+                        dynamic.add(i)
+        cell_meta = root.find(_q("cellMetadata"))
+        for i, bk in enumerate(cell_meta.findall(_q("bk")) if cell_meta is not None else []):
+            rc = bk.find(_q("rc"))
+            if rc is not None and int(rc.get("t", 0)) == t_index and int(rc.get("v", -1)) in dynamic:
+                return str(i + 1), []
+        return None, []
+    folder = posixpath.dirname(workbook_part)
+    name = posixpath.join(folder, "metadata.xml")
+    parts[name] = METADATA_XML.encode()
+    rels_name = posixpath.join(folder, "_rels", posixpath.basename(workbook_part) + ".rels")
+    text = parts[rels_name].decode("utf-8")
+    ids = set(re.findall(r'Id="([^"]+)"', text))
+    n = 1
+    while f"rId{n}" in ids:
+        n += 1
+    text = re.sub(r"</(\w+:)?Relationships>",
+                  lambda m: f'<{m.group(1) or ""}Relationship Id="rId{n}" Type="{METADATA_REL}" '
+                            f'Target="metadata.xml"/></{m.group(1) or ""}Relationships>', text, count=1)
+    parts[rels_name] = text.encode("utf-8")
+    types = parts["[Content_Types].xml"].decode("utf-8")
+    types = re.sub(r"</(\w+:)?Types>", lambda m: f'<{m.group(1) or ""}Override PartName="/{name}" '
+                   f'ContentType="{METADATA_TYPE}"/></{m.group(1) or ""}Types>', types, count=1)
+    parts["[Content_Types].xml"] = types.encode("utf-8")
+    return "1", [name]

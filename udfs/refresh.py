@@ -1,0 +1,320 @@
+"""`degreewise refresh`: recompute every CALIB_* cell of a workbook and store the results in place.
+
+Each CALIB_* formula is evaluated through the same ``udfs`` functions the
+spreadsheet calls, in dependency order. The anchor keeps its formula; a result
+of more than one cell is stored as a dynamic-array formula over the range it
+covers (with the metadata that marks it dynamic); cells the previous result
+covered and the new one does not are cleared; a result that would cover a
+non-empty cell is not written (the anchor shows #SPILL!, as the spreadsheet
+program would). Only the changed cells' XML, the workbook's calculation flag
+(full recalculation on open) and, when needed, the dynamic-array metadata part
+change; every other part stays byte for byte. The file is written to a
+temporary file in the same folder and replaced atomically.
+"""
+
+from __future__ import annotations
+
+import graphlib
+import os
+import shutil
+import sys
+import tempfile
+import time
+from dataclasses import dataclass, field
+from pathlib import Path
+
+from . import functions
+from .formula import MENTION, Area, Call, Unsupported, areas_of, cell_name, parse_call, reference
+from .package import (PackageError, SheetText, Workbook, dynamic_array_metadata, read_package,
+                      set_full_calc_on_load, write_package)
+
+SUFFIXES = (".xlsx", ".xlsm")
+CALLABLE = {f"CALIB_{n.upper()}": getattr(functions, f"calib_{n}") for n in (
+    "order", "orders", "seqf", "coefs", "stats", "predict", "inverse", "residuals", "checks", "labels", "version")}
+
+
+@dataclass
+class Report:
+    """What a refresh did to one workbook."""
+
+    path: Path
+    refreshed: list[str] = field(default_factory=list)
+    blocked: list[tuple[str, str]] = field(default_factory=list)
+    left_alone: list[tuple[str, str]] = field(default_factory=list)
+    failed: list[tuple[str, str]] = field(default_factory=list)
+    changed: bool = False
+    error: str | None = None
+    backup: Path | None = None
+
+    @property
+    def ok(self) -> bool:
+        return self.error is None and not (self.blocked or self.left_alone or self.failed)
+
+    def lines(self, check: bool = False) -> list[str]:
+        if self.error:
+            return [f"{self.path}: not refreshed: {self.error}"]
+        verb = "would refresh" if check else "refreshed"
+        head = (f"{self.path}: {len(self.refreshed)} cells {verb}, {len(self.blocked)} blocked, "
+                f"{len(self.left_alone)} left alone, {len(self.failed)} failed")
+        if check:
+            head += "; " + ("values would change" if self.changed else "nothing would change")
+        out = [head]
+        out += [f"  blocked {c}: {why}" for c, why in self.blocked]
+        out += [f"  left alone {c}: {why}" for c, why in self.left_alone]
+        out += [f"  failed {c}: {why}" for c, why in self.failed]
+        if self.backup:
+            out.append(f"  original kept as {self.backup}")
+        return out
+
+
+@dataclass
+class Formula:
+    sheet: str
+    row: int
+    col: int
+    text: str
+    attrs: dict
+    call: Call | None = None
+    previous: Area | None = None
+
+    @property
+    def where(self) -> str:
+        return f"{self.sheet}!{cell_name(self.row, self.col)}"
+
+
+def lock_file(path: Path) -> Path | None:
+    """The lock file a spreadsheet program keeps beside an open workbook, if present."""
+    for name in (f"~${path.name}", f".~lock.{path.name}#"):
+        candidate = path.with_name(name)
+        if candidate.exists():
+            return candidate
+    return None
+
+
+def _block(values: dict, area: Area, sheet_rows: int):
+    """Cell values of ``area`` as the spreadsheet passes them: a scalar for one cell, else rows."""
+    bottom = area.bottom if area.top is not None else max(sheet_rows, 1)
+    top = area.top if area.top is not None else 1
+    rows = [[values.get((r, c)) for c in range(area.left, area.right + 1)] for r in range(top, bottom + 1)]
+    return rows[0][0] if len(rows) == 1 and len(rows[0]) == 1 else rows
+
+
+class Refresher:
+    def __init__(self, parts: dict[str, bytes]):
+        self.parts = parts
+        self.book = Workbook(parts)
+        self.formulas: list[Formula] = []
+        for sheet in self.book.sheets.values():
+            for (r, c), (text, attrs) in sheet.formulas.items():
+                if MENTION.search(text or ""):
+                    self.formulas.append(Formula(sheet.name, r, c, text, attrs))
+                elif attrs.get("t") == "shared" and not text:
+                    master = self._shared_master(sheet, attrs.get("si"))
+                    if master and MENTION.search(master):
+                        self.formulas.append(Formula(sheet.name, r, c, "", attrs))
+
+    @staticmethod
+    def _shared_master(sheet, si):
+        for text, attrs in sheet.formulas.values():
+            if attrs.get("t") == "shared" and attrs.get("si") == si and text:
+                return text
+        return None
+
+    def _evaluate(self, call: Call, sheet: str):
+        args = []
+        for a in call.args:
+            if isinstance(a, Area):
+                if a.sheet not in self.book.sheets:
+                    raise Unsupported(f"the sheet '{a.sheet}' does not exist in the workbook")
+                target = self.book.sheets[a.sheet]
+                args.append(_block(target.values, a, target.max_row))
+            elif isinstance(a, Call):
+                inner = self._evaluate(a, sheet)
+                args.append(inner[0][0] if isinstance(inner, list) and len(inner) == 1 and len(inner[0]) == 1
+                            else inner)
+            else:
+                args.append(a)
+        return CALLABLE[call.name](*args)
+
+    def run(self, report: Report) -> tuple[dict[str, bytes], list[str]]:
+        """Compute every CALIB_* cell; return the changed parts and the names of new parts."""
+        by_cell = {}
+        for f in self.formulas:
+            if f.attrs.get("t") == "shared":
+                report.left_alone.append((f.where, "a shared (filled) formula: enter the formula in each cell"))
+                continue
+            try:
+                f.call = parse_call(f.text, f.sheet, self.book.names)
+            except Unsupported as why:
+                report.left_alone.append((f.where, str(why)))
+                continue
+            if f.attrs.get("t") == "array" and f.attrs.get("ref"):
+                f.previous = reference(f.attrs["ref"], f.sheet)
+            by_cell[(f.sheet, f.row, f.col)] = f
+        graph = {}
+        for key, f in by_cell.items():
+            reads = list(areas_of(f.call))
+            graph[key] = {k for k, g in by_cell.items() if k != key and any(
+                a.contains(g.sheet, g.row, g.col) or (g.previous is not None and a.overlaps(g.previous))
+                for a in reads)}
+        order, dead = self._order(graph, by_cell, report)
+        edits: dict[str, SheetText] = {}
+        cm = None
+        added: list[str] = []
+        for key in order:
+            f = by_cell[key]
+            if any(dep in dead for dep in graph[key]):
+                report.failed.append((f.where, "it reads a CALIB_* cell that could not be computed"))
+                dead.add(key)
+                continue
+            try:
+                result = self._evaluate(f.call, f.sheet)
+            except Unsupported as why:
+                report.left_alone.append((f.where, str(why)))
+                dead.add(key)
+                continue
+            rows = result if isinstance(result, list) else [[result]]
+            if len(rows) > 1 or len(rows[0]) > 1:
+                if cm is None:
+                    cm, added = dynamic_array_metadata(self.parts, self.book.workbook_part, self.book.workbook_rels)
+                    if cm is None:
+                        report.failed.append((f.where, "the workbook's metadata has no dynamic-array record"))
+                        dead.add(key)
+                        continue
+            self._write(f, rows, cm, edits, report)
+        changed = {}
+        for part, text in edits.items():
+            changed[part] = text.render().encode("utf-8")
+        if edits:
+            wb = self.parts[self.book.workbook_part].decode("utf-8")
+            changed[self.book.workbook_part] = set_full_calc_on_load(wb).encode("utf-8")
+        return changed, added
+
+    @staticmethod
+    def _order(graph, by_cell, report):
+        dead = set()
+        sorter = graphlib.TopologicalSorter(graph)
+        try:
+            return list(sorter.static_order()), dead
+        except graphlib.CycleError as err:
+            cycle = err.args[1]
+            names = " -> ".join(by_cell[k].where for k in cycle)
+            for k in set(cycle):
+                report.failed.append((by_cell[k].where, f"circular reference: {names}"))
+                dead.add(k)
+            rest = {k: v - dead for k, v in graph.items() if k not in dead}
+            order, more = Refresher._order(rest, by_cell, report)
+            return order, dead | more
+
+    def _write(self, f: Formula, rows, cm, edits, report: Report) -> None:
+        sheet = self.book.sheets[f.sheet]
+        text = edits.get(sheet.part)
+        if text is None:
+            text = edits[sheet.part] = SheetText(self.parts[sheet.part].decode("utf-8"))
+        height, width = len(rows), max(len(r) for r in rows)
+        new = Area(f.sheet, f.row, f.col, f.row + height - 1, f.col + width - 1)
+        old_cells = set()
+        if f.previous is not None and f.previous.top is not None:
+            old_cells = {(r, c) for r in range(f.previous.top, f.previous.bottom + 1)
+                         for c in range(f.previous.left, f.previous.right + 1)}
+        blocked_by = [cell_name(r, c) for r in range(new.top, new.bottom + 1) for c in range(new.left, new.right + 1)
+                      if (r, c) != (f.row, f.col) and (r, c) not in old_cells
+                      and ((r, c) in sheet.values or (r, c) in sheet.formulas)]
+        formula_text = f.text
+        if blocked_by:
+            report.blocked.append((f.where, f"the result ({height} x {width}) would cover {blocked_by[0]}, "
+                                            "which is not empty; nothing was overwritten"))
+            cells = {(f.row, f.col): "#SPILL!"}
+            keep_array = False
+        else:
+            cells = {(f.row + i, f.col + j): (rows[i][j] if j < len(rows[i]) else None)
+                     for i in range(height) for j in range(width)}
+            keep_array = height > 1 or width > 1
+            report.refreshed.append(f.where)
+        before = {k: sheet.values.get(k) for k in set(cells) | old_cells}
+        for (r, c) in old_cells - set(cells):
+            style = text.cell_attrs(r, c).get("s")
+            text.set_cell(r, c, text.cell_xml(r, c, None, style) if style is not None else None)
+            sheet.values.pop((r, c), None)
+        ref = f"{cell_name(new.top, new.left)}:{cell_name(new.bottom, new.right)}" if keep_array else None
+        for (r, c), value in cells.items():
+            style = text.cell_attrs(r, c).get("s")
+            anchor = (r, c) == (f.row, f.col)
+            text.set_cell(r, c, text.cell_xml(r, c, value, style, formula_text if anchor else None,
+                                              ref if anchor else None, cm if anchor and keep_array else None))
+            if value is None:
+                sheet.values.pop((r, c), None)
+            else:
+                sheet.values[(r, c)] = value
+        after = {k: sheet.values.get(k) for k in before}
+        report.changed |= after != before or (f.previous != (new if keep_array else None))
+
+
+def refresh_file(path: Path, check: bool = False, backup: bool = False) -> Report:
+    report = Report(path)
+    try:
+        lock = lock_file(path)
+        if lock is not None and not check:
+            raise PackageError(f"the workbook is open in a spreadsheet program ({lock.name} is present); "
+                               "close it and try again")
+        infos, parts = read_package(path)
+        changed, added = Refresher(parts).run(report)
+        if check or not changed:
+            return report
+        parts.update(changed)
+        fd, tmp = tempfile.mkstemp(prefix=".~degreewise-", suffix=path.suffix, dir=path.parent)
+        os.close(fd)
+        try:
+            write_package(tmp, infos, parts, added)
+            if backup:
+                stamp = time.strftime("%Y%m%d-%H%M%S")
+                report.backup = path.with_name(f"{path.stem}.before-refresh-{stamp}{path.suffix}")
+                shutil.copy2(path, report.backup)
+            os.replace(tmp, path)
+        finally:
+            if os.path.exists(tmp):
+                os.unlink(tmp)
+    except PackageError as err:
+        report.error = str(err)
+    except OSError as err:
+        report.error = f"{type(err).__name__}: {err}"
+    return report
+
+
+def workbooks(paths) -> list[Path]:
+    """The workbooks named: files as given, folders searched recursively (lock and temporary files skipped)."""
+    found = []
+    for p in map(Path, paths):
+        if p.is_dir():
+            found += sorted(q for q in p.rglob("*") if q.suffix.lower() in SUFFIXES and q.is_file()
+                            and not q.name.startswith(("~$", ".~")))
+        else:
+            found.append(p)
+    return found
+
+
+def _one(args):
+    path, check, backup = args
+    return refresh_file(path, check, backup)
+
+
+def run(paths, check: bool = False, backup: bool = False, jobs: int = 1) -> int:
+    """Refresh every workbook; print one summary per workbook; 0 only when everything succeeded."""
+    from tqdm import tqdm
+
+    files = workbooks(paths)
+    if not files:
+        print("no workbooks (.xlsx, .xlsm) found in " + ", ".join(map(str, paths)))
+        return 2
+    tasks = [(f, check, backup) for f in files]
+    bar = dict(total=len(tasks), unit="workbook", disable=not sys.stderr.isatty() or len(tasks) < 2)
+    if jobs > 1 and len(tasks) > 1:
+        from concurrent.futures import ProcessPoolExecutor
+
+        with ProcessPoolExecutor(max_workers=jobs) as pool:
+            reports = list(tqdm(pool.map(_one, tasks), **bar))
+    else:
+        reports = [refresh_file(*t) for t in tqdm(tasks, **bar)]
+    for r in reports:
+        print("\n".join(r.lines(check)))
+    return 0 if all(r.ok for r in reports) else 1
