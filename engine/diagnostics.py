@@ -15,7 +15,6 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from scipy import stats as sstats
 from scipy import special
 
 from .calibration import Calibration
@@ -183,7 +182,9 @@ def curve_checks(cal: Calibration, order: int, alpha: float = 0.05, point_labels
                          "(rule of thumb, common practice)"))
 
     if n >= 3 and np.ptp(e) > 0:
-        w_stat, w_p = sstats.shapiro(e)
+        from scipy.stats import shapiro  # imported here: scipy.stats takes half a second to import
+
+        w_stat, w_p = shapiro(e)
         v, d = _verdict(float(w_p), alpha, "residuals depart from a normal distribution",
                         "no evidence against normal residuals")
         out.append(Check("Shapiro-Wilk", float(w_stat), float(w_p), v, d))

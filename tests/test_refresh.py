@@ -100,8 +100,10 @@ def test_refresh_stores_what_the_functions_return(tmp_path):
     assert wb["Summary"]["A20"].value == "=ROUND(CALIB_ORDER('Run 2'!A2:A13,'Run 2'!B2:B13),0)"
     after = entries(path)
     changed = {n for n in after if before.get(n) != after[n]}
-    assert changed == {"xl/worksheets/sheet1.xml", "xl/worksheets/sheet2.xml", "xl/workbook.xml",
-                       "xl/metadata.xml", "xl/_rels/workbook.xml.rels", "[Content_Types].xml"}
+    # openpyxl already sets fullCalcOnLoad, so workbook.xml stays as it was
+    assert b'fullCalcOnLoad="1"' in before["xl/workbook.xml"]
+    assert changed == {"xl/worksheets/sheet1.xml", "xl/worksheets/sheet2.xml", "xl/metadata.xml",
+                       "xl/_rels/workbook.xml.rels", "[Content_Types].xml"}
     assert set(before) - set(after) == set()
     assert b'fullCalcOnLoad="1"' in after["xl/workbook.xml"]
     assert b'<c r="D3" cm="1" t="str"><f t="array" ref="D3:J6">' in after["xl/worksheets/sheet1.xml"]
@@ -267,3 +269,19 @@ def test_a_spreadsheet_program_reads_the_cached_numbers(tmp_path):
     assert float(rows[3][4]) == pytest.approx(coefs[1][1], rel=1e-9)
     assert float(rows[4][4]) == pytest.approx(coefs[2][1], rel=1e-9)
     assert rows[0][3] == "2"
+
+
+@pytest.mark.parametrize("before,after", [
+    ('<workbook xmlns="m"><sheets><sheet name="A"/></sheets><calcPr calcId="191029"/></workbook>',
+     '<workbook xmlns="m"><sheets><sheet name="A"/></sheets><calcPr calcId="191029" fullCalcOnLoad="1"/></workbook>'),
+    ('<workbook xmlns="m"><sheets><sheet name="A"/></sheets><definedNames><definedName name="n">A!$A$1'
+     '</definedName></definedNames></workbook>',
+     '<workbook xmlns="m"><sheets><sheet name="A"/></sheets><definedNames><definedName name="n">A!$A$1'
+     '</definedName></definedNames><calcPr fullCalcOnLoad="1"/></workbook>'),
+    ('<x:workbook xmlns:x="m"><x:sheets/></x:workbook>', '<x:workbook xmlns:x="m"><x:sheets/><x:calcPr fullCalcOnLoad="1"/></x:workbook>'),
+])
+def test_full_recalculation_flag_is_set_in_place(before, after):
+    from udfs.package import set_full_calc_on_load
+
+    assert set_full_calc_on_load(before) == after
+    assert set_full_calc_on_load(after) == after

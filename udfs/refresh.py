@@ -151,12 +151,13 @@ class Refresher:
             if f.attrs.get("t") == "array" and f.attrs.get("ref"):
                 f.previous = reference(f.attrs["ref"], f.sheet)
             by_cell[(f.sheet, f.row, f.col)] = f
+        on_sheet: dict[str, list] = {}
+        for key, g in by_cell.items():
+            on_sheet.setdefault(g.sheet, []).append((key, g))
         graph = {}
         for key, f in by_cell.items():
-            reads = list(areas_of(f.call))
-            graph[key] = {k for k, g in by_cell.items() if k != key and any(
-                a.contains(g.sheet, g.row, g.col) or (g.previous is not None and a.overlaps(g.previous))
-                for a in reads)}
+            graph[key] = {k for a in areas_of(f.call) for k, g in on_sheet.get(a.sheet, ()) if k != key and (
+                a.contains(g.sheet, g.row, g.col) or (g.previous is not None and a.overlaps(g.previous)))}
         order, dead = self._order(graph, by_cell, report)
         edits: dict[str, SheetText] = {}
         cm = None
