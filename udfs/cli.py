@@ -10,20 +10,29 @@ CAUTION = ("Degreewise supports, and does not replace, method validation under y
 
 
 def _demo(args) -> int:
-    import engine
+    from pathlib import Path
 
-    from .scenarios import all_scenarios
+    import openpyxl
 
-    for sc in all_scenarios():
-        cal = engine.Calibration(sc.x, sc.y, weights=sc.weights)
-        choice = engine.choose_order(cal)
-        fit = cal.fit(choice.order)
-        print(f"{sc.title}  [{sc.name}, {cal.n_points} standards, weights {cal.weighting.label}]")
-        print(f"  chosen order {choice.order}: {choice.reason}")
-        for k, (b, se) in enumerate(zip(fit.coefficients, fit.std_errors)):
-            term = "intercept" if k == 0 else ("x" if k == 1 else f"x^{k}")
+    from .demo import LAYOUT, write_demo
+
+    folder = Path(args.folder)
+    for path in write_demo(folder):
+        wb = openpyxl.load_workbook(path, data_only=True)
+        ws = wb.worksheets[1]
+        stats = {}
+        row = ws[LAYOUT["stats"]].row
+        while ws.cell(row, 4).value is not None:
+            stats[ws.cell(row, 4).value] = ws.cell(row, 5).value
+            row += 1
+        print(f"{wb.worksheets[0]['A2'].value}  [{path}]")
+        print(f"  chosen order {ws[LAYOUT['order']].value}: {stats['why this order']}")
+        row = ws[LAYOUT["coefs"]].row + 1
+        while ws.cell(row, 4).value is not None:
+            term, b, se = (ws.cell(row, c).value for c in (4, 5, 6))
             print(f"    {term:<10} {b: .10g}  (std error {se:.3g})")
-        print(f"  residual SD {fit.residual_sd:.6g}, R^2 {fit.r_squared:.8f}")
+            row += 1
+        print(f"  residual SD {stats['residual SD']:.6g}, R^2 {stats['R²']:.8f}, weights {stats['weights']}")
         print()
     print(CAUTION)
     return 0
@@ -53,7 +62,8 @@ def main(argv=None) -> int:
     parser = argparse.ArgumentParser(prog="degreewise", description="Polynomial calibration curves: order, "
                                      "coefficients, intervals, checks.")
     sub = parser.add_subparsers(dest="command", required=True)
-    p = sub.add_parser("demo", help="run the built-in demo calibrations")
+    p = sub.add_parser("demo", help="write and refresh the demo workbooks, and print each calibration")
+    p.add_argument("folder", nargs="?", default="degreewise-demo", help="where to write them (default: ./degreewise-demo)")
     p.set_defaults(run=_demo)
     p = sub.add_parser("validate", help="accuracy report against the NIST StRD reference datasets")
     p.set_defaults(run=_validate)

@@ -98,20 +98,29 @@ def _order(v):
 
 
 def _fitted(prep, order):
-    """The calibration to use and the order, with the reason when the order was chosen here."""
-    if order is None:
-        cal = calibration(prep)
-        choice = engine.choose_order(cal)
-        return cal, choice.order, choice.reason
-    n, m = prep.x.size, np.unique(prep.x).size
+    """The calibration to use, the order, and why this order (in words)."""
     try:
-        cal = calibration(prep)
-        if order <= cal.max_order:
-            return cal, order, "given as the order argument"
+        default = calibration(prep)
     except CellError:
-        pass
+        if order is None:
+            raise
+        default = None
+    if default is not None:
+        choice = engine.choose_order(default)
+        if order is None:
+            return default, choice.order, choice.reason
+        if order == choice.order:
+            why = f"given as the order argument; the seqf rule picks the same order: {choice.reason}"
+        else:
+            why = (f"given as the order argument; the seqf rule would pick order {choice.order}: "
+                   f"{choice.reason}")
+        if order <= default.max_order:
+            return default, order, why
+    else:
+        why = "given as the order argument"
+    n, m = prep.x.size, np.unique(prep.x).size
     engine.Calibration.check_order(order, "order", n, m)
-    return calibration(prep, max_order=order), order, "given as the order argument"
+    return calibration(prep, max_order=order), order, why
 
 
 @xw.func
