@@ -58,7 +58,7 @@ def _whole(value, name: str) -> int:
     return k
 
 
-def _householder_qr(a: np.ndarray):
+def householder_qr(a: np.ndarray):
     """Reduced Householder QR through LAPACK dgeqrf/dorgqr (the routines behind numpy.linalg.qr)."""
     packed, tau, _, info = lapack.dgeqrf(a)
     if info != 0:
@@ -143,7 +143,7 @@ class Calibration:
         self._u = u
         z = (u - self.centre) / self.half_width
         zw = np.vander(z, k + 1, increasing=True) * self.sqrt_w[:, None]
-        self._q, self._r = _householder_qr(zw)
+        self._q, self._r = householder_qr(zw)
         self._yw = self._ys * self.sqrt_w
         self._qty = self._q.T @ self._yw
         self._r_inv = _triangular_inverse(self._r)
@@ -210,15 +210,13 @@ class Calibration:
         """
         return np.ldexp(self._residuals_scaled(order), self._ey)
 
-    def _residuals_scaled(self, order: int) -> np.ndarray:
-        e = self._refined(self.max_order)[2]
-        return e + self._q[:, order + 1:] @ self._qty[order + 1:]
-
     # -- refined solution ---------------------------------------------------------------------
 
     @cached_property
     def _powers(self):
         hi, lo = dd.powers(self._u, self.max_order)
+        if self.weighting.values is None:
+            return hi, lo
         return dd.mul_double(hi, lo, self.sqrt_w[:, None])
 
     def _refined(self, order: int):
@@ -246,64 +244,88 @@ class Calibration:
             self._solved[order] = coef, diag, e
         return self._solved[order]
 
-    def _rss(self, order: int) -> float:
-        e = self._residuals_scaled(order)
-        return float(e @ e)
-
     # -- statistics ---------------------------------------------------------------------------
 
-    def _lack_of_fit(self, rss: float, p: int) -> LackOfFit | None:
+    def _lack_of_fit(self, rss: float, p: int, p_value: float) -> LackOfFit | None:
         df_pe = self.n_points - self.n_distinct
         df_lof = self.n_distinct - p
         if df_pe < 1 or df_lof < 1:
             return None
         ss_lof = max(rss - self._ss_pure, 0.0)
+        f = (ss_lof / df_lof) / (self._ss_pure / df_pe) if self._ss_pure > 0 else math.inf
+        return LackOfFit(self._ldexp(ss_lof, 2 * self._ey), df_lof, self._ldexp(self._ss_pure, 2 * self._ey), df_pe,
+                         FTest(f, df_lof, df_pe, p_value))
+
+    def _lack_of_fit_p(self, rss: np.ndarray) -> np.ndarray:
+        """P-values of the lack-of-fit F test for every order (nan where it cannot be tested)."""
+        p = np.arange(rss.size) + 1
+        df_pe, df_lof = self.n_points - self.n_distinct, self.n_distinct - p
         with np.errstate(divide="ignore", invalid="ignore"):
-            f = (ss_lof / df_lof) / (self._ss_pure / df_pe)
-        scale = 4.0**self._ey
-        return LackOfFit(
-            ss_lof * scale, df_lof, self._ss_pure * scale, df_pe,
-            FTest(float(f), df_lof, df_pe, float(f_sf(f, df_lof, df_pe))),
-        )
+            f = (np.maximum(rss - self._ss_pure, 0.0) / df_lof) / (self._ss_pure / max(df_pe, 1))
+            return f_sf(f, np.maximum(df_lof, 1), max(df_pe, 1))
+
+    @cached_property
+    def _residual_matrix(self) -> np.ndarray:
+        """Scaled weighted residuals of every order 0..K as columns: e_k = e_K + sum_{j>k} q_j (Q'y)_j."""
+        parts = self._q * self._qty
+        tail = np.cumsum(parts[:, ::-1], axis=1)[:, ::-1]  # tail[:, j] = sum_{i>=j} parts[:, i]
+        e = np.empty_like(parts)
+        e[:, -1] = 0.0
+        e[:, :-1] = tail[:, 1:]
+        return e + self._refined(self.max_order)[2][:, None]
+
+    def _residuals_scaled(self, order: int) -> np.ndarray:
+        return self._residual_matrix[:, order]
+
+    def _rss(self, order: int) -> float:
+        return float(self._all_rss[order])
+
+    @cached_property
+    def _all_rss(self) -> np.ndarray:
+        e = self._residual_matrix
+        return np.einsum("ij,ij->j", e, e)
 
     def stats(self, order) -> OrderStats:
         """Goodness-of-fit figures of ``order`` (0 .. max_order)."""
         k = self.resolve_order(order)
-        if k in self._stats:
-            return self._stats[k]
-        n, p = self.n_points, k + 1
-        df = n - p
-        rss = self._rss(k)
-        e = self._residuals_scaled(k)
-        h = self._leverage[:, k]
+        if not self._stats:
+            self._all_stats()
+        return self._stats[k]
+
+    def _all_stats(self) -> None:
+        """OrderStats of every order at once (formulas in ``results.OrderStats``)."""
+        n, big_k = self.n_points, self.max_order
+        e, h, rss = self._residual_matrix, self._leverage, self._all_rss
         with np.errstate(divide="ignore", invalid="ignore"):
-            press = float(np.sum((e / (1.0 - h)) ** 2)) if np.all(h < 1 - 1e-12) else math.nan
-            r2 = 1.0 - rss / self._tss
-            ey2 = 2 * self._ey
-            log_rss = (math.log(rss) if rss > 0 else -math.inf) + ey2 * math.log(2.0)
-            log_w = float(np.sum(np.log(self.sqrt_w**2)))
+            press = np.where(np.all(h < 1 - 1e-12, axis=0), np.sum((e / (1.0 - h)) ** 2, axis=0), math.nan)
+        orders = np.arange(big_k + 1)
+        df = n - orders - 1
+        with np.errstate(divide="ignore", invalid="ignore"):
+            f = ((self._tss - rss) / np.maximum(orders, 1)) / (rss / df)
+        f_p = f_sf(f, np.maximum(orders, 1), df)
+        lof_p = self._lack_of_fit_p(rss)
+        ey2 = 2 * self._ey
+        log_w = float(np.sum(np.log(self.sqrt_w**2)))
+        for k in range(big_k + 1):
+            r, d, npar = float(rss[k]), int(df[k]), k + 2
+            log_rss = (math.log(r) if r > 0 else -math.inf) + ey2 * math.log(2.0)
             llf = -0.5 * n * (math.log(2 * math.pi) + log_rss - math.log(n) + 1) + 0.5 * log_w
-            npar = p + 1
-            aic = -2 * llf + 2 * npar
-            aicc = aic + 2 * npar * (npar + 1) / (n - npar - 1) if n - npar - 1 > 0 else math.nan
-            bic = -2 * llf + npar * math.log(n)
-            overall = None
-            if k >= 1:
-                f = ((self._tss - rss) / k) / (rss / df)
-                overall = FTest(float(f), k, df, float(f_sf(f, k, df)))
-            s = self._ldexp(math.sqrt(rss / df), self._ey)
-            stats = OrderStats(
-                order=k, n_points=n, df_resid=df, rss=self._ldexp(rss, ey2), residual_sd=s,
-                r_squared=float(r2), adj_r_squared=float(1.0 - (1.0 - r2) * (n - 1) / df),
-                press=self._ldexp(press, ey2), predicted_r_squared=float(1.0 - press / self._tss),
-                aicc=float(aicc), bic=float(bic), overall=overall, lack_of_fit=self._lack_of_fit(rss, p),
+            aicc = -2 * llf + 2 * npar + (2 * npar * (npar + 1) / (n - npar - 1) if n - npar - 1 > 0 else math.nan)
+            r2 = 1.0 - r / self._tss
+            self._stats[k] = OrderStats(
+                order=k, n_points=n, df_resid=d, rss=self._ldexp(r, ey2), residual_sd=math.ldexp(math.sqrt(r / d), self._ey),
+                r_squared=r2, adj_r_squared=1.0 - (1.0 - r2) * (n - 1) / d,
+                press=self._ldexp(float(press[k]), ey2), predicted_r_squared=1.0 - float(press[k]) / self._tss,
+                aicc=aicc, bic=-2 * llf + npar * math.log(n),
+                overall=FTest(float(f[k]), k, d, float(f_p[k])) if k >= 1 else None,
+                lack_of_fit=self._lack_of_fit(r, k + 1, float(lof_p[k])),
             )
-        self._stats[k] = stats
-        return stats
 
     @staticmethod
     def _ldexp(value: float, e: int) -> float:
-        return float(np.ldexp(value, e))
+        """value * 2**e; inf where that is beyond the double range."""
+        with np.errstate(over="ignore"):
+            return float(np.ldexp(value, e))
 
     def fit(self, order) -> OrderFit:
         """Coefficients of ``order`` in raw powers of x, with standard errors, t and p."""
@@ -328,27 +350,34 @@ class Calibration:
 
     def sequential_table(self) -> SequentialTable:
         """Type I ANOVA of the max-order model: each term against the max-order residual."""
+        return self._sequential
+
+    @cached_property
+    def _sequential(self) -> SequentialTable:
         k = self.max_order
         st = self.stats(k)
-        rss = self._rss(k)
-        scale = 4.0**self._ey
-        ms_resid = rss / st.df_resid
-        rows = []
-        for j in range(1, k + 1):
-            ss = float(self._qty[j] ** 2)
-            with np.errstate(divide="ignore", invalid="ignore"):
-                f = ss / ms_resid
-            rows.append(SequentialRow(j, ss * scale, FTest(float(f), 1, st.df_resid, float(f_sf(f, 1, st.df_resid)))))
-        return SequentialTable(k, tuple(rows), st.rss, st.df_resid, st.lack_of_fit,
-                               self._tss * scale, self.n_points - 1)
+        ss = self._qty[1:] ** 2
+        with np.errstate(divide="ignore", invalid="ignore"):
+            f = ss / (self._rss(k) / st.df_resid)
+        p = f_sf(f, 1, st.df_resid)
+        ey2 = 2 * self._ey
+        rows = tuple(SequentialRow(j, self._ldexp(float(ss[j - 1]), ey2),
+                                   FTest(float(f[j - 1]), 1, st.df_resid, float(p[j - 1]))) for j in range(1, k + 1))
+        return SequentialTable(k, rows, st.rss, st.df_resid, st.lack_of_fit, self._ldexp(self._tss, ey2),
+                               self.n_points - 1)
 
     def step_test(self, order: int) -> FTest:
         """Extra-sum-of-squares F test of the term x^order against the model of order - 1."""
         k = self.resolve_order(order)
         if k < 1:
             raise OrderError("order must be at least 1 for a step test", argument="order")
-        rss = self._rss(k)
-        df = self.n_points - k - 1
+        return self._steps[k - 1]
+
+    @cached_property
+    def _steps(self) -> tuple[FTest, ...]:
+        orders = np.arange(1, self.max_order + 1)
+        df = self.n_points - orders - 1
         with np.errstate(divide="ignore", invalid="ignore"):
-            f = float(self._qty[k] ** 2) / (rss / df)
-        return FTest(float(f), 1, df, float(f_sf(f, 1, df)))
+            f = self._qty[1:] ** 2 / (self._all_rss[1:] / df)
+        p = f_sf(f, 1, df)
+        return tuple(FTest(float(f[i]), 1, int(df[i]), float(p[i])) for i in range(orders.size))

@@ -53,6 +53,9 @@ class Curve:
         c = r_inv @ r_inv.T
         p = self.order + 1
         self._var_poly = np.array([np.trace(np.fliplr(c), offset=p - 1 - d) for d in range(2 * p - 1)])
+        self._dvar = _derivative(self._var_poly)
+        self._da = _derivative(self.a)
+        self._turns = None
         self.stats = cal.stats(self.order)
         self.s = self.stats.residual_sd
         self.df = self.stats.df_resid
@@ -68,7 +71,11 @@ class Curve:
 
     def slope(self, z) -> np.ndarray:
         """dy/dz."""
-        return horner(self.a[1:] * np.arange(1, self.a.size), z)
+        return horner(self._da, z)
+
+    def mean_variance_slope(self, z) -> np.ndarray:
+        """d Var(mean f(z)) / dz."""
+        return self.s**2 * horner(self._dvar, z)
 
     def mean_variance(self, z) -> np.ndarray:
         """Var of the fitted mean at z, in units of y squared."""
@@ -78,19 +85,18 @@ class Curve:
         return float(t_quantile(0.5 + level / 2, self.df))
 
     def turning_points(self) -> np.ndarray:
-        """z in (-1, 1) where dy/dz changes sign, sorted."""
-        d = np.polynomial.polynomial.polyder(self.a)
-        if d.size < 2:
-            return np.empty(0)
-        d = np.trim_zeros(d, "b")
-        if d.size < 2:
-            return np.empty(0)
-        roots = np.polynomial.polynomial.polyroots(d)
-        real = roots[np.abs(roots.imag) <= 1e-9 * (1 + np.abs(roots.real))].real
-        inside = np.sort(real[(real > -1) & (real < 1)])
-        # a double root is not a turn: keep those where the slope changes sign
-        keep = [z for z in inside if np.sign(self.slope(z - 1e-7)) != np.sign(self.slope(z + 1e-7))]
-        return np.asarray(keep)
+        """z in (-1, 1) where dy/dz changes sign, sorted (computed once)."""
+        if self._turns is None:
+            d = np.trim_zeros(self._da, "b")
+            turns = np.empty(0)
+            if d.size >= 2:
+                roots = np.roots(d[::-1])
+                real = roots[np.abs(roots.imag) <= 1e-9 * (1 + np.abs(roots.real))].real
+                inside = np.sort(real[(real > -1) & (real < 1)])
+                # a double root is not a turn: keep those where the slope changes sign
+                turns = inside[np.sign(self.slope(inside - 1e-7)) != np.sign(self.slope(inside + 1e-7))]
+            self._turns = turns
+        return self._turns
 
     @property
     def grid(self):
@@ -102,6 +108,10 @@ class Curve:
                                 1 + step * np.arange(1, outside + 1)])
             self._grid = z, self.value(z), self.mean_variance(z)
         return self._grid
+
+
+def _derivative(c: np.ndarray) -> np.ndarray:
+    return c[1:] * np.arange(1, c.size) if c.size > 1 else np.zeros(1)
 
 
 def horner(coefficients, z):
@@ -124,23 +134,28 @@ def sign_changes(values: np.ndarray, z: np.ndarray, lo: float, hi: float):
     return np.nonzero((up[:, :-1] != up[:, 1:]) & inside[None, :])
 
 
-def secant_in_cells(func, lo, hi, f_lo, f_hi, steps: int = 12):
-    """Vectorised secant iteration kept inside each small bracketing cell [lo, hi].
+def newton_in_cells(func, lo, hi, f_lo, f_hi, steps: int = 8):
+    """Vectorised Newton iteration kept inside each small bracketing cell [lo, hi].
 
-    Started from the cell's ends, it converges superlinearly on a smooth function
-    (the cells are 1/200 of the range wide); each iterate is clipped to its cell
-    and a flat step falls back to the midpoint. Returns the iterate with the
-    smaller |func|.
+    ``func`` maps points (one per cell) to (value, slope). The start is the
+    linear interpolation between the cell's ends (the cells are 1/200 of the
+    range wide, so it is already close); Newton then converges quadratically.
+    Each iterate is clipped to its cell; a flat slope keeps the point.
     """
-    a, b = np.array(lo, dtype=float), np.array(hi, dtype=float)
-    fa, fb = np.array(f_lo, dtype=float), np.array(f_hi, dtype=float)
-    lo, hi = a.copy(), b.copy()
-    for _ in range(steps):
-        with np.errstate(divide="ignore", invalid="ignore"):
-            c = np.where(fb == 0, b, b - fb * (b - a) / (fb - fa))
-        c = np.where(np.isfinite(c), np.clip(c, lo, hi), (lo + hi) / 2)
-        done = np.abs(c - b) <= _Z_TOLERANCE
-        a, fa, b, fb = b, fb, c, func(c)
-        if done.all():
-            break
-    return np.where(np.abs(fb) <= np.abs(fa), b, a)
+    lo, hi = np.asarray(lo, dtype=float), np.asarray(hi, dtype=float)
+    f_lo, f_hi = np.asarray(f_lo, dtype=float), np.asarray(f_hi, dtype=float)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        z = lo - f_lo * (hi - lo) / (f_hi - f_lo)
+        z[~np.isfinite(z)] = ((lo + hi) / 2)[~np.isfinite(z)]
+        z = np.minimum(np.maximum(z, lo), hi)
+        for _ in range(steps):
+            value, slope = func(z)
+            new = z - value / slope
+            bad = ~np.isfinite(new)
+            new[bad] = z[bad]
+            new = np.minimum(np.maximum(new, lo), hi)
+            moved = np.abs(new - z).max(initial=0.0)
+            z = new
+            if moved <= _Z_TOLERANCE:
+                break
+    return z

@@ -17,7 +17,7 @@ import math
 import numpy as np
 from scipy import special
 
-from .calibration import Calibration
+from .calibration import Calibration, householder_qr
 from .curve import Curve, curve_of
 from .distributions import f_quantile, normal_two_sided, t_two_sided
 from .prediction import roots_of
@@ -81,7 +81,7 @@ def point_diagnostics(cal: Calibration, order: int, alpha: float = 0.05) -> Poin
     with np.errstate(divide="ignore", invalid="ignore"):
         dev = np.where(cal.x != 0, 100.0 * (back - cal.x) / np.abs(cal.x), np.nan)
     columns = (fitted, resid, r, t, h, cook, back, dev)
-    return PointDiagnostics(*(tuple(float(v) for v in c) for c in columns), tuple(notes))
+    return PointDiagnostics(*(tuple(np.asarray(c, dtype=float).tolist()) for c in columns), tuple(notes))
 
 
 def runs_test(residuals_by_x: np.ndarray) -> tuple[float, float, int]:
@@ -119,9 +119,8 @@ def breusch_pagan(residuals: np.ndarray, z: np.ndarray, order: int) -> tuple[flo
     Breusch & Pagan, Econometrica 47 (1979) 1287-1294; Koenker, J. Econometrics 17 (1981) 107-112.
     """
     e2 = residuals**2
-    basis = np.vander(z, order + 1, increasing=True)
-    coef, *_ = np.linalg.lstsq(basis, e2, rcond=None)
-    fitted = basis @ coef
+    q, _ = householder_qr(np.vander(z, order + 1, increasing=True))
+    fitted = q @ (q.T @ e2)
     tss = float(np.sum((e2 - e2.mean()) ** 2))
     if tss == 0:
         return math.nan, math.nan

@@ -20,7 +20,7 @@ import math
 import numpy as np
 
 from .calibration import Calibration
-from .curve import EXTEND, Curve, check_level, curve_of, secant_in_cells, sign_changes
+from .curve import EXTEND, Curve, check_level, curve_of, newton_in_cells, sign_changes
 from .errors import DataError, OptionError
 from .results import InverseEstimate, Prediction
 
@@ -82,7 +82,7 @@ def roots_of(curve: Curve, readings: np.ndarray, z_lo: float, z_hi: float):
     z, f, _ = curve.grid
     g = f[None, :] - readings[:, None]
     rows, cells = sign_changes(g, z, z_lo, z_hi)
-    zs = secant_in_cells(lambda zz: curve.value(zz) - readings[rows], z[cells], z[cells + 1],
+    zs = newton_in_cells(lambda zz: (curve.value(zz) - readings[rows], curve.slope(zz)), z[cells], z[cells + 1],
                          g[rows, cells], g[rows, cells + 1])
     # a root exactly on the lower end node is not seen as a change within the range
     first = np.searchsorted(z, z_lo)
@@ -98,37 +98,55 @@ def _band_edges(curve: Curve, cal: Calibration, y0: np.ndarray, m: np.ndarray, z
 
     gap(z) = (f(z) - y0)^2 - t^2 (s^2 / (m w(z)) + Var f(z)) is negative at z_hat;
     each edge lies in the cell between the nearest grid node where gap > 0 and
-    its neighbour towards z_hat (or z_hat itself).
+    its neighbour towards z_hat (or z_hat itself). Both edges of every reading
+    are refined together by Newton's method on gap.
     """
     z, f, vm = curve.grid
+    weighting = cal.weighting
+    dx_dz = float(cal.raw_x(1.0) - cal.raw_x(0.0))
+    t2, t2s2 = t**2, t**2 * curve.s**2
 
-    def gap(zz, y, mm):
-        vf = cal.weighting.variance_factor(cal.raw_x(zz), y)
-        g = (curve.value(zz) - y) ** 2 - t**2 * (curve.s**2 * vf / mm + curve.mean_variance(zz))
-        return np.where(np.isfinite(g), g, np.inf)
+    def factors(zz, y):
+        if weighting.values is None:
+            return 1.0, 0.0
+        x = cal.raw_x(zz)
+        return weighting.variance_factor(x, y), weighting.variance_factor_slope(x, y) * dx_dz
 
-    vf = cal.weighting.variance_factor(cal.raw_x(z)[None, :], np.broadcast_to(y0[:, None], (y0.size, z.size)))
-    g = (f[None, :] - y0[:, None]) ** 2 - t**2 * (curve.s**2 * vf / m[:, None] + vm[None, :])
-    g = np.where(np.isfinite(g), g, np.inf)
-    g_hat = gap(z_hat, y0, m)
-    edges = []
-    for lower in (True, False):
-        mask = (g > 0) & ((z[None, :] < z_hat[:, None]) if lower else (z[None, :] > z_hat[:, None]))
-        has = mask.any(axis=1)
-        edge = np.full(y0.size, np.nan)
-        if has.any():
-            rows = np.flatnonzero(has)
-            j = z.size - 1 - np.argmax(mask[has][:, ::-1], axis=1) if lower else np.argmax(mask[has], axis=1)
-            k = j + 1 if lower else j - 1
-            zh = z_hat[has]
-            use_node = (z[k] < zh) if lower else (z[k] > zh)
-            z_in = np.where(use_node, z[k], zh)
-            g_in = np.where(use_node, g[rows, k], g_hat[has])
-            edge[has] = secant_in_cells(lambda zz: gap(zz, y0[has], m[has]),
-                                        np.minimum(z[j], z_in), np.maximum(z[j], z_in),
-                                        np.where(lower, g[rows, j], g_in), np.where(lower, g_in, g[rows, j]))
-        edges.append(edge)
-    return edges[0], edges[1]
+    def gap_and_slope(zz, y, mm):
+        d = curve.value(zz) - y
+        vf, dvf = factors(zz, y)
+        g = d * d - t2s2 * vf / mm - t2 * curve.mean_variance(zz)
+        slope = 2 * d * curve.slope(zz) - t2s2 * dvf / mm - t2 * curve.mean_variance_slope(zz)
+        return g, slope
+
+    vf = (1.0 if weighting.values is None else
+          weighting.variance_factor(cal.raw_x(z)[None, :], np.broadcast_to(y0[:, None], (y0.size, z.size))))
+    with np.errstate(invalid="ignore"):
+        g = (f[None, :] - y0[:, None]) ** 2 - t2s2 * vf / m[:, None] - t2 * vm[None, :]
+    g[~np.isfinite(g)] = np.inf
+    g_hat = gap_and_slope(z_hat, y0, m)[0]
+    outside = g > 0
+    below = outside & (z[None, :] < z_hat[:, None])
+    above = outside & (z[None, :] > z_hat[:, None])
+    has_lo, has_hi = below.any(axis=1), above.any(axis=1)
+    rows_lo, rows_hi = np.flatnonzero(has_lo), np.flatnonzero(has_hi)
+    j_lo = z.size - 1 - np.argmax(below[rows_lo][:, ::-1], axis=1)  # last node outside, below z_hat
+    j_hi = np.argmax(above[rows_hi], axis=1)  # first node outside, above z_hat
+    # inner end of each cell: the neighbour node towards z_hat, or z_hat itself when it is nearer
+    k_lo, k_hi = j_lo + 1, j_hi - 1
+    node_lo, node_hi = z[k_lo] < z_hat[rows_lo], z[k_hi] > z_hat[rows_hi]
+    in_lo = np.where(node_lo, z[k_lo], z_hat[rows_lo])
+    in_hi = np.where(node_hi, z[k_hi], z_hat[rows_hi])
+    g_in_lo = np.where(node_lo, g[rows_lo, k_lo], g_hat[rows_lo])
+    g_in_hi = np.where(node_hi, g[rows_hi, k_hi], g_hat[rows_hi])
+    rows = np.concatenate([rows_lo, rows_hi])
+    found = newton_in_cells(lambda zz: gap_and_slope(zz, y0[rows], m[rows]),
+                            np.concatenate([z[j_lo], in_hi]), np.concatenate([in_lo, z[j_hi]]),
+                            np.concatenate([g[rows_lo, j_lo], g_in_hi]), np.concatenate([g_in_lo, g[rows_hi, j_hi]]))
+    lower, upper = np.full(y0.size, np.nan), np.full(y0.size, np.nan)
+    lower[rows_lo] = found[: rows_lo.size]
+    upper[rows_hi] = found[rows_lo.size:]
+    return lower, upper
 
 
 def inverse(cal: Calibration, readings, order: int, replicates=1, level: float = 0.95) -> tuple[InverseEstimate, ...]:

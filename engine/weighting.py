@@ -80,6 +80,7 @@ class Weighting:
             ux, inv = np.unique(x, return_inverse=True)
             self._grid = ux
             self._var = np.bincount(inv, 1.0 / self.values) / np.bincount(inv)
+            self._slopes = np.diff(self._var) / np.diff(ux)
 
     @property
     def label(self) -> str:
@@ -98,3 +99,18 @@ class Weighting:
         base = np.asarray(x_new if var == "x" else y_new, dtype=float)
         with np.errstate(invalid="ignore"):
             return np.where(base > 0, base ** float(power), np.nan)
+
+    def variance_factor_slope(self, x_new, y_new):
+        """d(1/w0)/dx at x_new for a fixed reading y_new (0 for no weights and the y schemes)."""
+        x_new = np.asarray(x_new, dtype=float)
+        if self.values is None:
+            return np.zeros_like(x_new)
+        if self.scheme is None:
+            cell = np.clip(np.searchsorted(self._grid, x_new) - 1, 0, self._slopes.size - 1)
+            inside = (x_new > self._grid[0]) & (x_new < self._grid[-1])
+            return np.where(inside, self._slopes[cell], 0.0)
+        var, power = SCHEMES[self.scheme]
+        if var == "y":
+            return np.zeros_like(x_new)
+        with np.errstate(invalid="ignore"):
+            return np.where(x_new > 0, power * x_new ** float(power - 1), np.nan)
