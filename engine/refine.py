@@ -28,6 +28,7 @@ from . import doubledouble as dd
 _MAX_STEPS = 10
 _TOLERANCE = 2.0**-100
 _ENOUGH = 2.0**-64
+_BLOCK = 2**21  # elements per temporary array in the residual computation
 
 
 def conversion_matrix(centre: float, half_width: float, order: int) -> np.ndarray:
@@ -63,21 +64,35 @@ def refine(v_hi, v_lo, q, r_inv, t, y_hi, y_lo, c):
     u = (y_hi + y_lo) @ q - c @ from_raw
     b_hi, b_lo = u @ to_raw, np.zeros((y_hi.shape[0], v_hi.shape[1]))
     e_hi, e_lo = (y_hi + y_lo) - u @ q.T, np.zeros_like(y_hi)
-    vh, vl = v_hi[None], v_lo[None]
-    vth, vtl = np.ascontiguousarray(v_hi.T)[None], np.ascontiguousarray(v_lo.T)[None]
-    vs = tuple(part[None] for part in dd.split(v_hi))
-    vts = tuple(part[None] for part in dd.split(vth[0]))
+    n, p = v_hi.shape
+    rows = max(1024, _BLOCK // (y_hi.shape[0] * (p + 2)))  # rows per block keep temporaries small
+    blocks = [(i, min(i + rows, n)) for i in range(0, n, rows)]
+    pieces = []
+    for i, j in blocks:
+        vt_hi, vt_lo = np.ascontiguousarray(v_hi[i:j].T), np.ascontiguousarray(v_lo[i:j].T)
+        pieces.append((v_hi[i:j][None], v_lo[i:j][None], tuple(a[None] for a in dd.split(v_hi[i:j])),
+                       vt_hi[None], vt_lo[None], tuple(a[None] for a in dd.split(vt_hi))))
     previous = 1.0
     for _ in range(_MAX_STEPS):
-        # f = y - e - V b, a sum over the p terms of each row
-        big, small = _product_terms(vh, vl, vs, b_hi[:, None, :], b_lo[:, None, :])
-        f_hi, f_lo = dd.accurate_sum(
-            np.concatenate([y_hi[:, :, None], -e_hi[:, :, None], -big], axis=2),
-            np.concatenate([y_lo[:, :, None], -e_lo[:, :, None], -small], axis=2),
-        )
-        # g = c - V' e, a sum over the n rows
-        big, small = _product_terms(vth, vtl, vts, e_hi[:, None, :], e_lo[:, None, :])
-        g_hi, g_lo = dd.accurate_sum(np.concatenate([c[:, :, None], -big], axis=2), -small)
+        f_hi, f_lo = np.empty_like(e_hi), np.empty_like(e_hi)
+        partial_hi, partial_lo = [c], [np.zeros_like(c)]
+        for (i, j), (vh, vl, vs, vth, vtl, vts) in zip(blocks, pieces):
+            # f = y - e - V b, a sum over the p terms of each row
+            big, small = _product_terms(vh, vl, vs, b_hi[:, None, :], b_lo[:, None, :])
+            f_hi[:, i:j], f_lo[:, i:j] = dd.accurate_sum(
+                np.concatenate([y_hi[:, i:j, None], -e_hi[:, i:j, None], -big], axis=2),
+                np.concatenate([y_lo[:, i:j, None], -e_lo[:, i:j, None], -small], axis=2),
+            )
+            # V' e, a sum over the rows of the block
+            big, small = _product_terms(vth, vtl, vts, e_hi[:, None, i:j], e_lo[:, None, i:j])
+            hi, lo = dd.accurate_sum(big, small)
+            partial_hi.append(-hi)
+            partial_lo.append(-lo)
+        # g = c - V' e
+        if len(partial_hi) == 2:
+            g_hi, g_lo = dd.add(c, partial_lo[0], partial_hi[1], partial_lo[1])
+        else:
+            g_hi, g_lo = dd.accurate_sum(np.stack(partial_hi, axis=2), np.stack(partial_lo, axis=2))
         f = f_hi + f_lo
         u = f @ q - (g_hi + g_lo) @ from_raw
         db = u @ to_raw
