@@ -30,11 +30,27 @@ def median_time(func, *args, repeat=200):
     return statistics.median(times)
 
 
+def side_by_side(ours, reference, args, rounds=40, ours_per_round=10):
+    """Medians of both, measured in alternating rounds so that machine drift hits both alike."""
+    for _ in range(5):
+        ours(*args)
+        reference(*args)
+    mine, theirs = [], []
+    for _ in range(rounds):
+        for _ in range(ours_per_round):
+            t0 = time.perf_counter()
+            ours(*args)
+            mine.append(time.perf_counter() - t0)
+        t0 = time.perf_counter()
+        reference(*args)
+        theirs.append(time.perf_counter() - t0)
+    return statistics.median(mine), statistics.median(theirs)
+
+
 def main():
     data = workloads.typical()
     assert workloads.degreewise_engine(*data) == workloads.statsmodels_pipeline(*data)
-    ours = median_time(workloads.degreewise_engine, *data, repeat=400)
-    ref = median_time(workloads.statsmodels_pipeline, *data, repeat=60)
+    ours, ref = side_by_side(workloads.degreewise_engine, workloads.statsmodels_pipeline, data)
     print("typical calibration (8 levels x 3 replicates, max order 4): order choice, all tables,")
     print("10 predictions, 10 inverse predictions, residual diagnostics and checks")
     print(f"  degreewise engine     {ours * 1e3:8.3f} ms per calibration (median)")

@@ -54,8 +54,9 @@ def main():
     cells = (column(x), column(y), column(new_x), column(readings))
     family(*cells)
     hit = median(udfs.calib_coefs, cells[0], cells[1], repeat=2000)
-    ours = median(cold, *cells, repeat=300)
-    ref = median(workloads.statsmodels_pipeline, x, y, new_x, readings, repeat=60)
+    from bench_engine import side_by_side
+
+    ours, ref = side_by_side(lambda *a: cold(*cells), workloads.statsmodels_pipeline, (x, y, new_x, readings))
     print(f"cache-hit CALIB_COEFS call (24 points)        {hit * 1e6:8.1f} us (median)")
     print(f"whole family cold, one calibration            {ours * 1e3:8.3f} ms (median)")
     print(f"statsmodels pipeline, same work               {ref * 1e3:8.3f} ms (median)")

@@ -11,6 +11,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 import statsmodels.api as sm
+import statsmodels.formula.api as smf
 from scipy import optimize, stats
 from statsmodels.sandbox.stats.runs import runstest_1samp
 from statsmodels.stats.anova import anova_lm
@@ -48,12 +49,10 @@ def degreewise_engine(x, y, new_x, readings, max_order=4):
 def statsmodels_pipeline(x, y, new_x, readings, max_order=4, alpha=0.05):
     design = lambda v, k: np.vander(v, k + 1, increasing=True)  # noqa: E731
     fits = {k: sm.OLS(y, design(x, k)).fit() for k in range(1, max_order + 1)}
-    top = fits[max_order]
-    seq = anova_lm(top, typ=1) if hasattr(top.model, "formula") else None
-    # sequential table from the effects of the max-order model (Type I SS)
-    q, _ = np.linalg.qr(design(x, max_order))
-    seq_ss = (q.T @ y)[1:] ** 2
-    seq_p = stats.f.sf(seq_ss / top.scale, 1, top.df_resid)
+    # the sequential (Type I) table of the max-order model, the statsmodels way
+    terms = " + ".join(["x"] + [f"I(x**{k})" for k in range(2, max_order + 1)])
+    table = anova_lm(smf.ols(f"y ~ {terms}", pd.DataFrame({"x": x, "y": y})).fit(), typ=1)
+    seq_p = table["PR(>F)"].to_numpy()[:-1]
     order = max([j + 1 for j, p in enumerate(seq_p) if p < alpha] or [1])
     for k in range(2, max_order + 1):
         anova_lm(fits[k - 1], fits[k])
@@ -92,5 +91,4 @@ def statsmodels_pipeline(x, y, new_x, readings, max_order=4, alpha=0.05):
     runstest_1samp(res.resid[by_x], cutoff=0, correction=False)
     stats.shapiro(res.resid)
     het_breuschpagan(res.resid, design(x, order))
-    del seq
     return order
