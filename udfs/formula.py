@@ -9,6 +9,7 @@ operator, another function, a spill reference) is `Unsupported`.
 
 from __future__ import annotations
 
+import functools
 import re
 from dataclasses import dataclass
 
@@ -35,6 +36,7 @@ def column_number(letters: str) -> int:
     return n
 
 
+@functools.lru_cache(maxsize=4096)
 def column_letters(n: int) -> str:
     out = ""
     while n:
@@ -44,7 +46,7 @@ def column_letters(n: int) -> str:
 
 
 def cell_name(row: int, col: int) -> str:
-    return f"{column_letters(col)}{row}"
+    return column_letters(col) + str(row)
 
 
 def parse_cell(ref: str) -> tuple[int, int]:

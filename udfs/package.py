@@ -207,6 +207,7 @@ class Workbook:
             return text
 
 
+_STYLE = re.compile(r'\ss\s*=\s*"([^"]*)"')
 _ATTR = re.compile(r'([\w:]+)\s*=\s*("[^"]*"|\'[^\']*\')')
 
 
@@ -247,11 +248,14 @@ class SheetText:
             self.rows[row_no] = [rm.group(1), cells, False, rm.group(0)]
             self.order.append(row_no)
 
-    def cell_attrs(self, row: int, col: int) -> dict[str, str]:
-        xml = self.rows.get(row, [None, {}])[1].get(col)
+    def style(self, row: int, col: int) -> str | None:
+        """The s (style) attribute of a cell, if the cell exists and has one."""
+        entry = self.rows.get(row)
+        xml = entry[1].get(col) if entry else None
         if xml is None:
-            return {}
-        return _attrs(self._cell.match(xml).group(1))
+            return None
+        m = _STYLE.search(xml, 0, xml.find(">"))
+        return m.group(1) if m else None
 
     def set_cell(self, row: int, col: int, xml: str | None) -> None:
         if row not in self.rows:

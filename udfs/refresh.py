@@ -14,7 +14,6 @@ temporary file in the same folder and replaced atomically.
 
 from __future__ import annotations
 
-import graphlib
 import os
 import shutil
 import sys
@@ -191,21 +190,38 @@ class Refresher:
             changed[self.book.workbook_part] = set_full_calc_on_load(wb).encode("utf-8")
         return changed, added
 
-    @staticmethod
-    def _order(graph, by_cell, report):
-        dead = set()
-        sorter = graphlib.TopologicalSorter(graph)
-        try:
-            return list(sorter.static_order()), dead
-        except graphlib.CycleError as err:
-            cycle = err.args[1]
-            names = " -> ".join(by_cell[k].where for k in cycle)
-            for k in set(cycle):
-                report.failed.append((by_cell[k].where, f"circular reference: {names}"))
-                dead.add(k)
-            rest = {k: v - dead for k, v in graph.items() if k not in dead}
-            order, more = Refresher._order(rest, by_cell, report)
-            return order, dead | more
+    def _order(self, graph, by_cell, report):
+        """Dependencies first, otherwise sheet by sheet and cell by cell (so a sheet's calibrations
+        are computed together while the cache holds them); cells on a cycle are reported and dropped."""
+        sheet_index = {name: i for i, name in enumerate(self.book.sheet_order)}
+        keys = sorted(graph, key=lambda k: (sheet_index.get(k[0], 0), k[1], k[2]))
+        state, order, dead = {}, [], set()
+        for start in keys:
+            if start in state:
+                continue
+            stack = [(start, iter(sorted(graph[start], key=lambda k: (sheet_index.get(k[0], 0), k[1], k[2]))))]
+            state[start] = "open"
+            path = [start]
+            while stack:
+                node, deps = stack[-1]
+                dep = next(deps, None)
+                if dep is None:
+                    stack.pop()
+                    path.pop()
+                    state[node] = "done"
+                    order.append(node)
+                elif state.get(dep) == "open":
+                    cycle = path[path.index(dep):] + [dep]
+                    names = " -> ".join(by_cell[k].where for k in cycle)
+                    for k in set(cycle):
+                        if k not in dead:
+                            report.failed.append((by_cell[k].where, f"circular reference: {names}"))
+                            dead.add(k)
+                elif dep not in state:
+                    state[dep] = "open"
+                    path.append(dep)
+                    stack.append((dep, iter(sorted(graph[dep], key=lambda k: (sheet_index.get(k[0], 0), k[1], k[2])))))
+        return [k for k in order if k not in dead], dead
 
     def _write(self, f: Formula, rows, cm, edits, report: Report) -> None:
         sheet = self.book.sheets[f.sheet]
@@ -234,12 +250,12 @@ class Refresher:
             report.refreshed.append(f.where)
         before = {k: sheet.values.get(k) for k in set(cells) | old_cells}
         for (r, c) in old_cells - set(cells):
-            style = text.cell_attrs(r, c).get("s")
+            style = text.style(r, c)
             text.set_cell(r, c, text.cell_xml(r, c, None, style) if style is not None else None)
             sheet.values.pop((r, c), None)
         ref = f"{cell_name(new.top, new.left)}:{cell_name(new.bottom, new.right)}" if keep_array else None
         for (r, c), value in cells.items():
-            style = text.cell_attrs(r, c).get("s")
+            style = text.style(r, c)
             anchor = (r, c) == (f.row, f.col)
             text.set_cell(r, c, text.cell_xml(r, c, value, style, formula_text if anchor else None,
                                               ref if anchor else None, cm if anchor and keep_array else None))
