@@ -86,6 +86,15 @@ def statsmodels_pipeline(x, y, new_x, readings, max_order=4, alpha=0.05):
                     optimize.brentq(g, a, b)
     infl = OLSInfluence(res)
     infl.resid_studentized_internal, infl.resid_studentized_external, infl.cooks_distance
+    # back-calculated x of every standard, and monotonicity (turning points of the curve in range)
+    span = hi - lo
+    for xi, yi in zip(x, y):
+        f = lambda v: np.polynomial.polynomial.polyval(v, coef) - yi  # noqa: E731
+        a, b = lo - span / 4, hi + span / 4
+        if f(a) * f(b) < 0:
+            optimize.brentq(f, a, b)
+    turns = np.polynomial.polynomial.polyroots(np.polynomial.polynomial.polyder(coef)) if order > 1 else []
+    [t for t in np.atleast_1d(turns) if np.isreal(t) and lo < t.real < hi]
     by_x = np.argsort(x, kind="stable")
     durbin_watson(res.resid[by_x])
     runstest_1samp(res.resid[by_x], cutoff=0, correction=False)

@@ -196,6 +196,10 @@ class Calibration:
         p = order + 1
         return np.ldexp(self._r_inv[:p, :p] @ self._qty[:p], self._ey)
 
+    def orthonormal_basis(self, order: int) -> np.ndarray:
+        """Q of the (weighted) scaled basis up to ``order``: orthonormal columns spanning 1, z, ..., z^order."""
+        return self._q[:, : order + 1]
+
     def r_factor_inverse(self, order: int) -> np.ndarray:
         return self._r_inv[: order + 1, : order + 1]
 

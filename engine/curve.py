@@ -18,7 +18,13 @@ from .errors import OptionError
 # of the range) beyond each end, only for interval bounds and back-calculation
 _CELLS = 400
 EXTEND = 0.5
-_Z_TOLERANCE = 2.0**-50
+_STEP = 2.0 / _CELLS
+_OUTSIDE = int(round(2 * EXTEND / _STEP))
+GRID_Z = np.concatenate([-1 - _STEP * np.arange(_OUTSIDE, 0, -1), np.linspace(-1.0, 1.0, _CELLS + 1),
+                         1 + _STEP * np.arange(1, _OUTSIDE + 1)])
+GRID_Z.flags.writeable = False
+# Newton stops when no point moved more than this (z spans 2 over the calibrated range)
+_Z_TOLERANCE = 2.0**-46
 
 
 def check_level(level) -> float:
@@ -52,7 +58,8 @@ class Curve:
         # Var(mean f(z)) / s^2 = b(z)' C b(z) with C = R^-1 R^-T: a polynomial in z of degree 2k
         c = r_inv @ r_inv.T
         p = self.order + 1
-        self._var_poly = np.array([np.trace(np.fliplr(c), offset=p - 1 - d) for d in range(2 * p - 1)])
+        powers = np.add.outer(np.arange(p), np.arange(p))
+        self._var_poly = np.bincount(powers.ravel(), c.ravel(), minlength=2 * p - 1)
         self._dvar = _derivative(self._var_poly)
         self._da = _derivative(self.a)
         self._turns = None
@@ -84,29 +91,26 @@ class Curve:
     def t_value(self, level: float) -> float:
         return float(t_quantile(0.5 + level / 2, self.df))
 
-    def turning_points(self) -> np.ndarray:
-        """z in (-1, 1) where dy/dz changes sign, sorted (computed once)."""
+    def turning_points(self, lo: float = -1.0, hi: float = 1.0) -> np.ndarray:
+        """z in (lo, hi) where dy/dz changes sign, sorted."""
         if self._turns is None:
             d = np.trim_zeros(self._da, "b")
             turns = np.empty(0)
-            if d.size >= 2:
+            if d.size == 2:  # a straight slope: one root
+                turns = np.array([-d[0] / d[1]])
+            elif d.size > 2:
                 roots = np.roots(d[::-1])
-                real = roots[np.abs(roots.imag) <= 1e-9 * (1 + np.abs(roots.real))].real
-                inside = np.sort(real[(real > -1) & (real < 1)])
+                real = np.sort(roots[np.abs(roots.imag) <= 1e-9 * (1 + np.abs(roots.real))].real)
                 # a double root is not a turn: keep those where the slope changes sign
-                turns = inside[np.sign(self.slope(inside - 1e-7)) != np.sign(self.slope(inside + 1e-7))]
+                turns = real[np.sign(self.slope(real - 1e-7)) != np.sign(self.slope(real + 1e-7))]
             self._turns = turns
-        return self._turns
+        return self._turns[(self._turns > lo) & (self._turns < hi)]
 
     @property
     def grid(self):
         """z nodes over the extended range, with the curve and mean variance there."""
         if self._grid is None:
-            step = 2.0 / _CELLS
-            outside = int(round(2 * EXTEND / step))
-            z = np.concatenate([-1 - step * np.arange(outside, 0, -1), np.linspace(-1.0, 1.0, _CELLS + 1),
-                                1 + step * np.arange(1, outside + 1)])
-            self._grid = z, self.value(z), self.mean_variance(z)
+            self._grid = GRID_Z, self.value(GRID_Z), self.mean_variance(GRID_Z)
         return self._grid
 
 

@@ -38,6 +38,39 @@ def _studentized(cal: Calibration, curve: Curve):
     return e, h, r, t, cook
 
 
+def _back_calculate(cal: Calibration, curve: Curve):
+    """x solving f(x) = y_i for each standard, nearest its own x, and how many solutions there are.
+
+    On a curve that is monotonic over the search range there is at most one:
+    Newton's method from the standard's own x finds it. Otherwise every root is
+    located on the grid and the nearest kept.
+    """
+    lo, hi = -1 - 2 * BACK_CALC_EXTEND, 1 + 2 * BACK_CALC_EXTEND
+    n = cal.n_points
+    y = cal.y
+    if curve.turning_points(lo, hi).size == 0:
+        f_lo, f_hi = curve.value(np.array([lo, hi]))
+        exists = (np.minimum(f_lo, f_hi) <= y) & (y <= np.maximum(f_lo, f_hi))
+        z = np.minimum(np.maximum(cal.scaled_x(cal.x), lo), hi)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            for _ in range(12):
+                new = np.minimum(np.maximum(z - (curve.value(z) - y) / curve.slope(z), lo), hi)
+                moved = np.nanmax(np.abs(new - z), initial=0.0)
+                z = np.where(np.isfinite(new), new, z)
+                if moved <= 2.0**-46:
+                    break
+        if moved <= 2.0**-46:
+            return np.where(exists, cal.raw_x(z), np.nan), exists.astype(int)
+    rows, zs = roots_of(curve, y, lo, hi)
+    count = np.bincount(rows, minlength=n)
+    back = np.full(n, np.nan)
+    distance = np.abs(zs - cal.scaled_x(cal.x)[rows])
+    order = np.lexsort((distance, rows))
+    first = order[np.r_[True, rows[order][1:] != rows[order][:-1]]] if rows.size else order
+    back[rows[first]] = cal.raw_x(zs[first])
+    return back, count
+
+
 def _bonferroni(t: np.ndarray, df: int, n: int) -> np.ndarray:
     if df < 2:
         return np.full(t.shape, np.nan)
@@ -54,14 +87,7 @@ def point_diagnostics(cal: Calibration, order: int, alpha: float = 0.05) -> Poin
     n, p = cal.n_points, curve.order + 1
     bonf = _bonferroni(t, curve.df, n)
     cook_cut = float(f_quantile(0.5, p, n - p))
-    rows, zs = roots_of(curve, cal.y, -1 - 2 * BACK_CALC_EXTEND, 1 + 2 * BACK_CALC_EXTEND)
-    count = np.bincount(rows, minlength=n)
-    back = np.full(n, np.nan)
-    # the root nearest each standard's own x
-    distance = np.abs(zs - cal.scaled_x(cal.x)[rows])
-    order = np.lexsort((distance, rows))
-    first = order[np.r_[True, rows[order][1:] != rows[order][:-1]]] if rows.size else order
-    back[rows[first]] = cal.raw_x(zs[first])
+    back, count = _back_calculate(cal, curve)
     notes = []
     for i in range(n):
         words = []
@@ -113,13 +139,14 @@ def durbin_watson(residuals_by_x: np.ndarray) -> float:
     return float(d @ d / (residuals_by_x @ residuals_by_x))
 
 
-def breusch_pagan(residuals: np.ndarray, z: np.ndarray, order: int) -> tuple[float, float]:
+def breusch_pagan(residuals: np.ndarray, z: np.ndarray, order: int, q=None) -> tuple[float, float]:
     """Koenker's studentized Breusch-Pagan LM = n R^2 of e^2 on 1, z, ..., z^order; chi2(order).
 
     Breusch & Pagan, Econometrica 47 (1979) 1287-1294; Koenker, J. Econometrics 17 (1981) 107-112.
     """
     e2 = residuals**2
-    q, _ = householder_qr(np.vander(z, order + 1, increasing=True))
+    if q is None:  # an orthonormal basis of 1, z, ..., z^order
+        q, _ = householder_qr(np.vander(z, order + 1, increasing=True))
     fitted = q @ (q.T @ e2)
     tss = float(np.sum((e2 - e2.mean()) ** 2))
     if tss == 0:
@@ -193,7 +220,8 @@ def curve_checks(cal: Calibration, order: int, alpha: float = 0.05, point_labels
         out.append(Check("Shapiro-Wilk", math.nan, math.nan, "n/a", "needs 3 or more distinct residuals"))
 
     if curve.order >= 1:
-        lm, bp = breusch_pagan(e, cal.scaled_x(cal.x), curve.order)
+        q = cal.orthonormal_basis(curve.order) if cal.weighting.values is None else None
+        lm, bp = breusch_pagan(e, cal.scaled_x(cal.x), curve.order, q)
         v, d = _verdict(bp, alpha, "residual spread changes with x: consider weights such as 1/x or 1/x^2",
                         "no evidence that the residual spread changes with x")
         out.append(Check("Breusch-Pagan", lm, bp, v, f"chi2({curve.order}); {d}"))

@@ -180,6 +180,7 @@ def inverse(cal: Calibration, readings, order: int, replicates=1, level: float =
     if ok.size:
         lower_z[ok], upper_z[ok] = _band_edges(curve, cal, y0[ok], m[ok], z_hat[ok], t)
     out = []
+    x_hat, x_lo, x_hi = (cal.raw_x(v).tolist() for v in (z_hat, lower_z, upper_z))
     for i in range(y0.size):
         note = notes[i]
         if np.isfinite(z_hat[i]):
@@ -191,6 +192,5 @@ def inverse(cal: Calibration, readings, order: int, replicates=1, level: float =
                 elif bound < -1 or bound > 1:
                     parts.append(f"{name} bound lies beyond the calibrated range")
             note = "; ".join(parts)
-        x_hat, lo, hi = (float(v) if np.isfinite(v) else math.nan for v in cal.raw_x([z_hat[i], lower_z[i], upper_z[i]]))
-        out.append(InverseEstimate(float(y0[i]), x_hat, lo, hi, note))
+        out.append(InverseEstimate(float(y0[i]), x_hat[i], x_lo[i], x_hi[i], note))
     return tuple(out)
