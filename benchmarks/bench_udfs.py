@@ -5,13 +5,12 @@ Run: python benchmarks/bench_udfs.py   (needs the test extra: statsmodels, panda
 
 from __future__ import annotations
 
-import statistics
 import sys
-import time
 from pathlib import Path
 
 sys.path.insert(0, str(Path(__file__).resolve().parent))
 import workloads  # noqa: E402
+from bench_engine import median_time, side_by_side  # noqa: E402
 
 import udfs  # noqa: E402
 from udfs.prepared import CALIBRATIONS, RESULTS  # noqa: E402
@@ -38,23 +37,11 @@ def cold(*args):
     family(*args)
 
 
-def median(func, *args, repeat):
-    for _ in range(10):
-        func(*args)
-    times = []
-    for _ in range(repeat):
-        t0 = time.perf_counter()
-        func(*args)
-        times.append(time.perf_counter() - t0)
-    return statistics.median(times)
-
-
 def main():
     x, y, new_x, readings = workloads.typical()
     cells = (column(x), column(y), column(new_x), column(readings))
     family(*cells)
-    hit = median(udfs.calib_coefs, cells[0], cells[1], repeat=2000)
-    from bench_engine import side_by_side
+    hit = median_time(udfs.calib_coefs, cells[0], cells[1], repeat=2000)
 
     ours, ref = side_by_side(lambda *a: cold(*cells), workloads.statsmodels_pipeline, (x, y, new_x, readings))
     print(f"cache-hit CALIB_COEFS call (24 points)        {hit * 1e6:8.1f} us (median)")

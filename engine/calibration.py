@@ -128,7 +128,6 @@ class Calibration:
             self.check_order(k, "max_order", n, m)
         self.x, self.y = x, y
         self.n_points, self.n_distinct, self.max_order = n, m, k
-        self._groups, self._group_of = groups, inverse
 
         w = self.weighting.values
         self.sqrt_w = np.ones(n) if w is None else np.sqrt(w)

@@ -70,9 +70,6 @@ class Curve:
         self.x_max = float(cal.x.max())
         self._grid = None
 
-    def basis(self, z) -> np.ndarray:
-        return np.vander(np.atleast_1d(np.asarray(z, dtype=float)), self.order + 1, increasing=True)
-
     def value(self, z) -> np.ndarray:
         return horner(self.a, z)
 

@@ -61,13 +61,6 @@ def add(ah, al, bh, bl):
     return _fast_two_sum(s, e)
 
 
-def mul(ah, al, bh, bl):
-    """Double-double product."""
-    p, e = two_prod(ah, bh)
-    e = e + (ah * bl + al * bh)
-    return _fast_two_sum(p, e)
-
-
 def mul_double(ah, al, b):
     """Double-double times a plain double."""
     p, e = two_prod(ah, b)

@@ -20,9 +20,6 @@ class FTest:
     df_den: int
     p_value: float
 
-    def significant(self, alpha: float) -> bool:
-        return self.p_value < alpha
-
 
 @dataclass(frozen=True)
 class LackOfFit:

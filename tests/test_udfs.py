@@ -286,3 +286,16 @@ def test_one_factorisation_per_calibration(data, monkeypatch):
     udfs.calib_inverse(xs, ys, [[300.0]], None, order)
     udfs.calib_residuals(xs, ys)
     assert len(made) == 1
+
+
+def test_every_argument_is_documented_for_the_function_wizard():
+    import inspect
+
+    from udfs.functions import DOC
+
+    for name in udfs.__all__:
+        if name.startswith("calib_"):
+            f = getattr(udfs, name)
+            assert f.__doc__, name
+            for param in inspect.signature(f).parameters:
+                assert param in DOC, (name, param)

@@ -46,6 +46,17 @@ DOC = {
 }
 
 
+def _documented(*names):
+    """xlwings argument descriptions (shown by the function wizard), one per argument."""
+
+    def apply(f):
+        for name in reversed(names):
+            f = xw.arg(name, doc=DOC[name])(f)
+        return f
+
+    return apply
+
+
 def _cell(v):
     """A float for the sheet, or None where not applicable."""
     if v is None:
@@ -124,12 +135,7 @@ def _fitted(prep, order):
 
 
 @xw.func
-@xw.arg("x", doc=DOC["x"])
-@xw.arg("y", doc=DOC["y"])
-@xw.arg("max_order", doc=DOC["max_order"])
-@xw.arg("alpha", doc=DOC["alpha"])
-@xw.arg("rule", doc=DOC["rule"])
-@xw.arg("weights", doc=DOC["weights"])
+@_documented("x", "y", "max_order", "alpha", "rule", "weights")
 @_guarded(single=True)
 def calib_order(x, y, max_order=None, alpha=None, rule=None, weights=None):
     """The chosen order of the calibration polynomial (one number)."""
@@ -140,11 +146,7 @@ def calib_order(x, y, max_order=None, alpha=None, rule=None, weights=None):
 
 
 @xw.func
-@xw.arg("x", doc=DOC["x"])
-@xw.arg("y", doc=DOC["y"])
-@xw.arg("max_order", doc=DOC["max_order"])
-@xw.arg("alpha", doc=DOC["alpha"])
-@xw.arg("weights", doc=DOC["weights"])
+@_documented("x", "y", "max_order", "alpha", "weights")
 @_guarded()
 def calib_orders(x, y, max_order=None, alpha=None, weights=None):
     """Header, then one row per order 1..max: df, SD, R², adjusted and predicted R², AICc, BIC, p-values, rules."""
@@ -170,10 +172,7 @@ def calib_orders(x, y, max_order=None, alpha=None, weights=None):
 
 
 @xw.func
-@xw.arg("x", doc=DOC["x"])
-@xw.arg("y", doc=DOC["y"])
-@xw.arg("max_order", doc=DOC["max_order"])
-@xw.arg("weights", doc=DOC["weights"])
+@_documented("x", "y", "max_order", "weights")
 @_guarded()
 def calib_seqf(x, y, max_order=None, weights=None):
     """Header, then the sequential (Type I) ANOVA table: one row per term, residual, lack of fit, pure error, total."""
@@ -201,11 +200,7 @@ def calib_seqf(x, y, max_order=None, weights=None):
 
 
 @xw.func
-@xw.arg("x", doc=DOC["x"])
-@xw.arg("y", doc=DOC["y"])
-@xw.arg("order", doc=DOC["order"])
-@xw.arg("level", doc=DOC["level"])
-@xw.arg("weights", doc=DOC["weights"])
+@_documented("x", "y", "order", "level", "weights")
 @_guarded()
 def calib_coefs(x, y, order=None, level=None, weights=None):
     """Header, then one row per term (intercept, x, x^2 ...): coefficient, std error, t, p-value, lower, upper."""
@@ -225,10 +220,7 @@ def calib_coefs(x, y, order=None, level=None, weights=None):
 
 
 @xw.func
-@xw.arg("x", doc=DOC["x"])
-@xw.arg("y", doc=DOC["y"])
-@xw.arg("order", doc=DOC["order"])
-@xw.arg("weights", doc=DOC["weights"])
+@_documented("x", "y", "order", "weights")
 @_guarded()
 def calib_stats(x, y, order=None, weights=None):
     """Header, then label/value rows: points, order and why, residual SD, R² family, AICc, BIC, F, lack of fit, range."""
@@ -259,12 +251,7 @@ def _aligned(cells_arg, name: str):
 
 
 @xw.func
-@xw.arg("x", doc=DOC["x"])
-@xw.arg("y", doc=DOC["y"])
-@xw.arg("new_x", doc=DOC["new_x"])
-@xw.arg("order", doc=DOC["order"])
-@xw.arg("level", doc=DOC["level"])
-@xw.arg("weights", doc=DOC["weights"])
+@_documented("x", "y", "new_x", "order", "level", "weights")
 @_guarded()
 def calib_predict(x, y, new_x, order=None, level=None, weights=None):
     """One row per new_x cell (no header): predicted y, mean lower/upper, prediction lower/upper, note."""
@@ -284,13 +271,7 @@ def calib_predict(x, y, new_x, order=None, level=None, weights=None):
 
 
 @xw.func
-@xw.arg("x", doc=DOC["x"])
-@xw.arg("y", doc=DOC["y"])
-@xw.arg("reading", doc=DOC["reading"])
-@xw.arg("replicates", doc=DOC["replicates"])
-@xw.arg("order", doc=DOC["order"])
-@xw.arg("level", doc=DOC["level"])
-@xw.arg("weights", doc=DOC["weights"])
+@_documented("x", "y", "reading", "replicates", "order", "level", "weights")
 @_guarded()
 def calib_inverse(x, y, reading, replicates=None, order=None, level=None, weights=None):
     """One row per reading cell (no header): x estimate, lower, upper, note."""
@@ -310,10 +291,7 @@ def calib_inverse(x, y, reading, replicates=None, order=None, level=None, weight
 
 
 @xw.func
-@xw.arg("x", doc=DOC["x"])
-@xw.arg("y", doc=DOC["y"])
-@xw.arg("order", doc=DOC["order"])
-@xw.arg("weights", doc=DOC["weights"])
+@_documented("x", "y", "order", "weights")
 @_guarded()
 def calib_residuals(x, y, order=None, weights=None):
     """One row per input row (no header; blank where skipped): fitted, residual, studentized, leverage, Cook's D,
@@ -335,11 +313,7 @@ def calib_residuals(x, y, order=None, weights=None):
 
 
 @xw.func
-@xw.arg("x", doc=DOC["x"])
-@xw.arg("y", doc=DOC["y"])
-@xw.arg("order", doc=DOC["order"])
-@xw.arg("alpha", doc=DOC["alpha"])
-@xw.arg("weights", doc=DOC["weights"])
+@_documented("x", "y", "order", "alpha", "weights")
 @_guarded()
 def calib_checks(x, y, order=None, alpha=None, weights=None):
     """Header, then one row per check of the curve: check, statistic, p-value, verdict, detail."""
@@ -359,7 +333,7 @@ def calib_checks(x, y, order=None, alpha=None, weights=None):
 
 
 @xw.func
-@xw.arg("name", doc=DOC["name"])
+@_documented("name")
 @_guarded()
 def calib_labels(name):
     """The header row of a table, e.g. CALIB_LABELS("predict") for the headerless CALIB_PREDICT."""

@@ -22,7 +22,6 @@ from .formula import cell_name, parse_cell
 
 MAIN = "http://schemas.openxmlformats.org/spreadsheetml/2006/main"
 REL = "http://schemas.openxmlformats.org/officeDocument/2006/relationships"
-PKG_REL = "http://schemas.openxmlformats.org/package/2006/relationships"
 METADATA_REL = "http://schemas.openxmlformats.org/officeDocument/2006/relationships/sheetMetadata"
 METADATA_TYPE = "application/vnd.openxmlformats-officedocument.spreadsheetml.sheetMetadata+xml"
 DYNAMIC_URI = "{bdbb8cdc-fa1e-496e-a857-3c3f30c029c3}"
