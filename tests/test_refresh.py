@@ -299,3 +299,35 @@ def test_full_recalculation_flag_is_set_in_place(before, after):
 
     assert set_full_calc_on_load(before) == after
     assert set_full_calc_on_load(after) == after
+
+
+def test_filled_formulas_are_computed_with_their_references_moved(tmp_path):
+    """A formula filled right is stored once (shared); each copy reads its own columns."""
+    path = tmp_path / "filled.xlsx"
+    wb = openpyxl.Workbook()
+    ws = wb.active
+    ws.title = "Runs"
+    y2 = 1.0 + 3.0 * X + RNG.normal(0, 0.2, X.size)
+    for i, (a, b, c) in enumerate(zip(X, Y, y2), start=2):
+        ws.cell(i, 1, float(a))
+        ws.cell(i, 2, float(b))
+        ws.cell(i, 3, float(c))
+    ws["E1"] = "=CALIB_ORDER($A$2:$A$13,B2:B13)"
+    ws["F1"] = "placeholder"
+    wb.save(path)
+    sheet = entries(path)["xl/worksheets/sheet1.xml"].decode()
+    sheet = sheet.replace("<f>CALIB_ORDER($A$2:$A$13,B2:B13)</f>",
+                          '<f t="shared" ref="E1:F1" si="0">CALIB_ORDER($A$2:$A$13,B2:B13)</f>')
+    start = sheet.index('<c r="F1"')
+    end = sheet.index("</c>", start) + 4
+    sheet = sheet[:start] + '<c r="F1"><f t="shared" si="0"/></c>' + sheet[end:]
+    _rewrite(path, {"xl/worksheets/sheet1.xml": sheet.encode()})
+    report = refresh_file(path)
+    assert sorted(report.refreshed) == ["Runs!E1", "Runs!F1"] and report.ok
+    rows = values(path, "Runs", "A2", 12, 3)
+    xs = [[r[0]] for r in rows]
+    assert values(path, "Runs", "E1", 1, 2) == [[udfs.calib_order(xs, [[r[1]] for r in rows]),
+                                                 udfs.calib_order(xs, [[r[2]] for r in rows])]]
+    after = entries(path)["xl/worksheets/sheet1.xml"].decode()
+    assert '<f t="shared" ref="E1:F1" si="0">CALIB_ORDER($A$2:$A$13,B2:B13)</f>' in after
+    assert '<c r="F1"><f t="shared" si="0"/><v>1</v></c>' in after

@@ -191,6 +191,37 @@ def reference(text: str, sheet: str) -> Area | None:
     return Area(on, top, left, bottom, right)
 
 
+_SHIFT = re.compile(r"""("(?:[^"]|"")*")|('(?:[^']|'')+'!)|(?<![\w.$])(\$?)([A-Za-z]{1,3})(\$?)(\d{1,7})(?![\w(!])"""
+                    r"""|(?<![\w.$])(\$?)([A-Za-z]{1,3}):(\$?)([A-Za-z]{1,3})(?![\w(!])""")
+
+
+def shift_references(text: str, rows: int, cols: int) -> str:
+    """The formula of a filled (shared) cell: relative references moved by (rows, cols).
+
+    Absolute parts ($A, $1) stay; texts in quotes and quoted sheet names are untouched.
+    """
+
+    def move(m):
+        if m.group(1) or m.group(2):
+            return m.group(0)
+        if m.group(4):
+            c_abs, col, r_abs, row = m.group(3), m.group(4), m.group(5), int(m.group(6))
+            c = column_number(col) if c_abs else column_number(col) + cols
+            r = row if r_abs else row + rows
+            if c < 1 or r < 1:
+                raise Unsupported("a filled formula would refer outside the sheet")
+            return f"{c_abs}{column_letters(c)}{r_abs}{r}"
+        out = []
+        for dollar, col in ((m.group(7), m.group(8)), (m.group(9), m.group(10))):
+            c = column_number(col) if dollar else column_number(col) + cols
+            if c < 1:
+                raise Unsupported("a filled formula would refer outside the sheet")
+            out.append(f"{dollar}{column_letters(c)}")
+        return ":".join(out)
+
+    return _SHIFT.sub(move, text)
+
+
 def areas_of(call: Call):
     """Every Area the call reads, nested calls included."""
     for a in call.args:

@@ -307,12 +307,18 @@ class SheetText:
         out.append(f"</{self.p}sheetData>")
         return "".join(out) + self.tail
 
+    def formula_xml(self, row: int, col: int) -> str:
+        """The stored <f> element of a cell, verbatim."""
+        xml = self.rows[row][1][col]
+        p = re.escape(self.p)
+        return re.search(rf"<{p}f\b[^>]*?(?:/>|>.*?</{p}f>)", xml, re.S).group(0)
+
     def cell_xml(self, row: int, col: int, value, style: str | None, formula: str | None = None,
-                 array_ref: str | None = None, cm: str | None = None) -> str:
-        """XML of one cell holding ``value`` (and a formula for an anchor)."""
+                 array_ref: str | None = None, cm: str | None = None, f_xml: str | None = None) -> str:
+        """XML of one cell holding ``value`` (and a formula for an anchor, or its stored <f> element)."""
         p = self.p
         attrs = f' r="{cell_name(row, col)}"' + (f' s="{style}"' if style is not None else "")
-        f = ""
+        f = f_xml or ""
         if formula is not None:
             if array_ref:
                 f = f'<{p}f t="array" ref="{array_ref}">{escape(formula)}</{p}f>'

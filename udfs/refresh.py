@@ -23,7 +23,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from . import functions
-from .formula import MENTION, Area, Call, Unsupported, areas_of, cell_name, parse_call, reference
+from .formula import MENTION, Area, Call, Unsupported, areas_of, cell_name, parse_call, reference, shift_references
 from .package import (PackageError, SheetText, Workbook, dynamic_array_metadata, read_package,
                       set_full_calc_on_load, write_package)
 
@@ -73,6 +73,7 @@ class Formula:
     col: int
     text: str
     attrs: dict
+    shift: tuple[int, int] | None = None  # for a filled (shared) formula: its offset from the master
     call: Call | None = None
     previous: Area | None = None
 
@@ -104,20 +105,16 @@ class Refresher:
         self.book = Workbook(parts)
         self.formulas: list[Formula] = []
         for sheet in self.book.sheets.values():
+            masters = {attrs.get("si"): (r, c, text) for (r, c), (text, attrs) in sheet.formulas.items()
+                       if attrs.get("t") == "shared" and text}
             for (r, c), (text, attrs) in sheet.formulas.items():
-                if MENTION.search(text or ""):
-                    self.formulas.append(Formula(sheet.name, r, c, text, attrs))
-                elif attrs.get("t") == "shared" and not text:
-                    master = self._shared_master(sheet, attrs.get("si"))
-                    if master and MENTION.search(master):
-                        self.formulas.append(Formula(sheet.name, r, c, "", attrs))
-
-    @staticmethod
-    def _shared_master(sheet, si):
-        for text, attrs in sheet.formulas.values():
-            if attrs.get("t") == "shared" and attrs.get("si") == si and text:
-                return text
-        return None
+                shared = attrs.get("t") == "shared"
+                if shared and not text and attrs.get("si") in masters:
+                    r0, c0, master = masters[attrs["si"]]
+                    if MENTION.search(master):
+                        self.formulas.append(Formula(sheet.name, r, c, master, attrs, shift=(r - r0, c - c0)))
+                elif MENTION.search(text or ""):
+                    self.formulas.append(Formula(sheet.name, r, c, text, attrs, shift=(0, 0) if shared else None))
 
     def _evaluate(self, call: Call, sheet: str):
         args = []
@@ -139,11 +136,9 @@ class Refresher:
         """Compute every CALIB_* cell; return the changed parts and the names of new parts."""
         by_cell = {}
         for f in self.formulas:
-            if f.attrs.get("t") == "shared":
-                report.left_alone.append((f.where, "a shared (filled) formula: enter the formula in each cell"))
-                continue
             try:
-                f.call = parse_call(f.text, f.sheet, self.book.names)
+                text = shift_references(f.text, *f.shift) if f.shift else f.text
+                f.call = parse_call(text, f.sheet, self.book.names)
             except Unsupported as why:
                 report.left_alone.append((f.where, str(why)))
                 continue
@@ -174,6 +169,11 @@ class Refresher:
                 dead.add(key)
                 continue
             rows = result if isinstance(result, list) else [[result]]
+            if f.shift is not None and (len(rows) > 1 or len(rows[0]) > 1):
+                report.left_alone.append((f.where, "a filled (shared) formula whose result covers several cells: "
+                                                   "enter it in its cell alone"))
+                dead.add(key)
+                continue
             if len(rows) > 1 or len(rows[0]) > 1:
                 if cm is None:
                     cm, added = dynamic_array_metadata(self.parts, self.book.workbook_part, self.book.workbook_rels)
@@ -257,8 +257,11 @@ class Refresher:
         for (r, c), value in cells.items():
             style = text.style(r, c)
             anchor = (r, c) == (f.row, f.col)
-            text.set_cell(r, c, text.cell_xml(r, c, value, style, formula_text if anchor else None,
-                                              ref if anchor else None, cm if anchor and keep_array else None))
+            if anchor and f.shift is not None:  # a filled formula keeps its stored <f> element as it is
+                text.set_cell(r, c, text.cell_xml(r, c, value, style, f_xml=text.formula_xml(r, c)))
+            else:
+                text.set_cell(r, c, text.cell_xml(r, c, value, style, formula_text if anchor else None,
+                                                  ref if anchor else None, cm if anchor and keep_array else None))
             if value is None:
                 sheet.values.pop((r, c), None)
             else:
