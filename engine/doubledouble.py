@@ -85,8 +85,7 @@ def accurate_sum(hi, lo):
     added in plain double together with ``lo``. One sigma serves each index of
     the first axis (so each right-hand side keeps its own scale).
     """
-    n = hi.shape[-1]
-    shift = int(np.ceil(np.log2(n + 2)))
+    shift = (hi.shape[-1] + 1).bit_length()  # 2**shift >= n + 2
     shape = (hi.shape[0],) + (1,) * (hi.ndim - 1)
     rest = hi
     exact = []
