@@ -331,3 +331,28 @@ def test_filled_formulas_are_computed_with_their_references_moved(tmp_path):
     after = entries(path)["xl/worksheets/sheet1.xml"].decode()
     assert '<f t="shared" ref="E1:F1" si="0">CALIB_ORDER($A$2:$A$13,B2:B13)</f>' in after
     assert '<c r="F1"><f t="shared" si="0"/><v>1</v></c>' in after
+
+
+def test_sheet_scoped_names_take_precedence(tmp_path):
+    """A name defined for one sheet wins over the workbook-wide name of the same spelling there."""
+    path = tmp_path / "names.xlsx"
+    wb = openpyxl.Workbook()
+    ws = wb.active
+    ws.title = "Lab A"
+    other = wb.create_sheet("Lab B")
+    for i, (a, b) in enumerate(zip(X, Y), start=2):
+        ws.cell(i, 1, float(a))
+        ws.cell(i, 2, float(b))
+        other.cell(i, 1, float(a))
+        other.cell(i, 2, float(3 * b + 1))
+    wb.defined_names["resp"] = DefinedName("resp", attr_text="'Lab A'!$B$2:$B$13")
+    other.defined_names.add(DefinedName("resp", attr_text="'Lab B'!$B$2:$B$13"))
+    ws["D1"] = "=CALIB_COEFS($A$2:$A$13,resp,1)"
+    other["D1"] = "=CALIB_COEFS($A$2:$A$13,resp,1)"
+    wb.save(path)
+    report = refresh_file(path)
+    assert report.ok, report.lines()
+    rows_a, rows_b = values(path, "Lab A", "A2", 12, 2), values(path, "Lab B", "A2", 12, 2)
+    for sheet, rows in (("Lab A", rows_a), ("Lab B", rows_b)):
+        xs, ys = [[r[0]] for r in rows], [[r[1]] for r in rows]
+        assert values(path, sheet, "D1", 3, 7) == udfs.calib_coefs(xs, ys, 1)
