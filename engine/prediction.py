@@ -6,7 +6,8 @@ the prediction interval of one new reading y0 +- t s sqrt(1/w0 + g'g)
 
 Inverse: for a reading that is the mean of m replicates, the x estimate solves
 f(x) = reading within the calibrated range; its interval is the set of x whose
-prediction band for a mean of m readings, f(x) +- t s sqrt(1/(m w(x)) + g'g),
+prediction band for a mean of m readings, f(x) +- t s sqrt(1/(m w0(x)) + g'g)
+(w0 as in forward prediction),
 contains the reading (inverting the band; for order 1 this is Fieller's
 interval: E. C. Fieller, J. R. Stat. Soc. Suppl. 7 (1940) 1-64; see also
 Draper & Smith sec. 3.2). Bounds are sought up to half the range beyond either
@@ -106,21 +107,20 @@ def _band_edges(curve: Curve, cal: Calibration, y0: np.ndarray, m: np.ndarray, z
     dx_dz = float(cal.raw_x(1.0) - cal.raw_x(0.0))
     t2, t2s2 = t**2, t**2 * curve.s**2
 
-    def factors(zz, y):
-        if weighting.values is None:
-            return 1.0, 0.0
-        x = cal.raw_x(zz)
-        return weighting.variance_factor(x, y), weighting.variance_factor_slope(x, y) * dx_dz
-
     def gap_and_slope(zz, y, mm):
-        d = curve.value(zz) - y
-        vf, dvf = factors(zz, y)
+        fz, dfz = curve.value(zz), curve.slope(zz)
+        d = fz - y
+        if weighting.values is None:
+            vf, dvf = 1.0, 0.0
+        else:
+            x = cal.raw_x(zz)
+            vf = weighting.variance_factor(x, fz)
+            dvf = weighting.variance_factor_slope(x, fz, dfz / dx_dz) * dx_dz
         g = d * d - t2s2 * vf / mm - t2 * curve.mean_variance(zz)
-        slope = 2 * d * curve.slope(zz) - t2s2 * dvf / mm - t2 * curve.mean_variance_slope(zz)
+        slope = 2 * d * dfz - t2s2 * dvf / mm - t2 * curve.mean_variance_slope(zz)
         return g, slope
 
-    vf = (1.0 if weighting.values is None else
-          weighting.variance_factor(cal.raw_x(z)[None, :], np.broadcast_to(y0[:, None], (y0.size, z.size))))
+    vf = 1.0 if weighting.values is None else weighting.variance_factor(cal.raw_x(z), f)[None, :]
     with np.errstate(invalid="ignore"):
         g = (f[None, :] - y0[:, None]) ** 2 - t2s2 * vf / m[:, None] - t2 * vm[None, :]
     g[~np.isfinite(g)] = np.inf

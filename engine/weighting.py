@@ -6,8 +6,8 @@ calibration (common practice; see e.g. Almeida, Castel-Branco & Falcao,
 J. Chromatogr. B 774 (2002) 215-222).
 
 For a new reading the variance factor 1/w0 is needed too: under a scheme it is
-the scheme evaluated at the new point (x0, or for the y schemes the response:
-the fitted value in forward prediction, the reading in inverse prediction);
+the scheme evaluated at the new point (x0, or for the y schemes the fitted
+response f(x0), in forward and inverse prediction alike);
 under explicit weights it is 1/w interpolated linearly in x between the
 standards (the mean of 1/w at each distinct x), held constant beyond them.
 """
@@ -100,8 +100,8 @@ class Weighting:
         with np.errstate(invalid="ignore"):
             return np.where(base > 0, base ** float(power), np.nan)
 
-    def variance_factor_slope(self, x_new, y_new):
-        """d(1/w0)/dx at x_new for a fixed reading y_new (0 for no weights and the y schemes)."""
+    def variance_factor_slope(self, x_new, y_new, dy_dx):
+        """d(1/w0)/dx at x_new, where the response y_new = f(x_new) has slope dy_dx."""
         x_new = np.asarray(x_new, dtype=float)
         if self.values is None:
             return np.zeros_like(x_new)
@@ -110,7 +110,7 @@ class Weighting:
             inside = (x_new > self._grid[0]) & (x_new < self._grid[-1])
             return np.where(inside, self._slopes[cell], 0.0)
         var, power = SCHEMES[self.scheme]
-        if var == "y":
-            return np.zeros_like(x_new)
+        base = x_new if var == "x" else np.asarray(y_new, dtype=float)
+        chain = 1.0 if var == "x" else dy_dx
         with np.errstate(invalid="ignore"):
-            return np.where(x_new > 0, power * x_new ** float(power - 1), np.nan)
+            return np.where(base > 0, power * base ** float(power - 1) * chain, np.nan)

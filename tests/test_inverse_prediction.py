@@ -90,3 +90,19 @@ def test_open_band_is_reported():
     assert est.note == ("lower bound open: the prediction band does not close within 50% of the range beyond "
                         "the calibrated range; upper bound open: the prediction band does not close within 50% "
                         "of the range beyond the calibrated range")
+
+
+@pytest.mark.parametrize("weights", [None, "1/x", "1/x^2", "1/y", "values"])
+def test_interval_bounds_lie_on_the_prediction_band(weights):
+    """The inverse interval is the prediction band inverted: at each bound the reading is on the band
+    edge that CALIB_PREDICT reports (same variance rule for new readings, published band formula)."""
+    rng = np.random.default_rng(8)
+    x = np.repeat([1.0, 2.0, 5.0, 10.0, 20.0, 40.0], 3)
+    y = 0.5 + 2.0 * x - 0.01 * x**2 + rng.normal(0, 1, x.size) * (0.03 * x if weights else 0.4)
+    w = np.linspace(1.0, 0.05, x.size) if weights == "values" else weights
+    cal = engine.Calibration(x, y, max_order=2, weights=w)
+    for reading in (6.0, 30.0, 60.0):
+        est = engine.inverse(cal, [reading], 2)[0]
+        low, high = engine.predict(cal, [est.lower, est.upper], 2)
+        assert low.pred_upper == pytest.approx(reading, rel=1e-9)
+        assert high.pred_lower == pytest.approx(reading, rel=1e-9)

@@ -7,9 +7,9 @@ plain text that names the argument, the position and what to do; nothing
 raises into the spreadsheet.
 
 Under weights, a new reading's variance is sigma^2 / w0: for a scheme, w0 is
-the scheme at the new point (1/x0 or 1/x0^2; for 1/y and 1/y^2 the predicted y
-in CALIB_PREDICT and the reading in CALIB_INVERSE); for a range of weights, 1/w0
-is interpolated linearly in x between the standards' mean 1/w per level and held
+the scheme at the new point (1/x0 or 1/x0^2; for 1/y and 1/y^2 the fitted y at
+x0, in CALIB_PREDICT and CALIB_INVERSE alike); for a range of weights, 1/w0 is
+interpolated linearly in x between the standards' mean 1/w per level and held
 constant beyond them.
 """
 
