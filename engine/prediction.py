@@ -81,6 +81,8 @@ def _replicates(replicates, count: int) -> np.ndarray:
 def roots_of(curve: Curve, readings: np.ndarray, z_lo: float, z_hi: float):
     """Every z in [z_lo, z_hi] (grid nodes) with f(z) = reading: (reading index, z), sorted."""
     z, f, _ = curve.grid
+    if curve.turning_points(z_lo, z_hi).size == 0:
+        return _monotonic_roots(curve, readings, z_lo, z_hi)
     g = f[None, :] - readings[:, None]
     rows, cells = sign_changes(g, z, z_lo, z_hi)
     zs = newton_in_cells(lambda zz: (curve.value(zz) - readings[rows], curve.slope(zz)), z[cells], z[cells + 1],
@@ -92,6 +94,21 @@ def roots_of(curve: Curve, readings: np.ndarray, z_lo: float, z_hi: float):
         rows, zs = np.concatenate([rows, on_end]), np.concatenate([zs, np.full(on_end.size, z[first])])
     order = np.lexsort((zs, rows))
     return rows[order], zs[order]
+
+
+def _monotonic_roots(curve: Curve, readings: np.ndarray, z_lo: float, z_hi: float):
+    """roots_of for a curve without turning points in [z_lo, z_hi]: at most one root per reading,
+    bracketed by a binary search of the grid values."""
+    z, f, _ = curve.grid
+    inside = (z >= z_lo) & (z <= z_hi)
+    zg, fg = z[inside], f[inside]
+    sign = 1.0 if fg[-1] >= fg[0] else -1.0
+    fs, ys = sign * fg, sign * readings
+    rows = np.flatnonzero((ys >= fs[0]) & (ys <= fs[-1]))
+    cell = np.clip(np.searchsorted(fs, ys[rows]), 1, fs.size - 1)
+    zs = newton_in_cells(lambda zz: (curve.value(zz) - readings[rows], curve.slope(zz)), zg[cell - 1], zg[cell],
+                         fg[cell - 1] - readings[rows], fg[cell] - readings[rows])
+    return rows, zs
 
 
 def _band_edges(curve: Curve, cal: Calibration, y0: np.ndarray, m: np.ndarray, z_hat: np.ndarray, t: float):
