@@ -15,11 +15,12 @@ from dataclasses import dataclass
 import numpy as np
 
 import engine
+from engine.weighting import SCHEMES as WEIGHT_SCHEMES
 
 from .coercion import ERROR_TEXTS, CellError, Cells, describe, flatten, is_blank, is_omitted, numbers_or_blank
 
 CACHE_SIZE = 128
-SCHEMES = ("1/x", "1/x^2", "1/y", "1/y^2")
+SCHEMES = tuple(WEIGHT_SCHEMES)
 
 
 @dataclass(frozen=True)
