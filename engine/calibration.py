@@ -29,6 +29,8 @@ from .results import FTest, LackOfFit, OrderFit, OrderStats, SequentialRow, Sequ
 from .weighting import Weighting
 
 DEFAULT_MAX_ORDER = 4
+# points x right-hand sides up to which every order's covariance is refined in the same call
+_ONE_CALL_LIMIT = 4096
 
 
 def _vector(values, name: str) -> np.ndarray:
@@ -153,8 +155,8 @@ class Calibration:
         gmean = np.bincount(inverse, sw2 * self._ys) / np.bincount(inverse, sw2)
         self._ss_pure = float(np.sum(sw2 * (self._ys - gmean[inverse]) ** 2))
         self._t = conversion_matrix(self.centre, self.half_width, k)
-        self._solved: dict[int, tuple] = {}
         self._stats: dict[int, OrderStats] = {}
+        self._cov: dict[int, np.ndarray] = {}
         self._fits: dict[int, OrderFit] = {}
 
     # -- orders ---------------------------------------------------------------------------
@@ -223,29 +225,58 @@ class Calibration:
         return dd.mul_double(hi, lo, self.sqrt_w[:, None])
 
     def _refined(self, order: int):
-        """Raw coefficients (scaled units), diagonal of (V'WV)^-1, and the weighted residual.
+        """Raw coefficients (scaled units), diagonal of (V'WV)^-1, and the weighted residual of ``order``."""
+        coef, diag, e = self._refined_all[order]
+        if diag is None:
+            diag = self._covariance_diagonal(order)
+        return coef, diag, e
 
-        One refinement with right-hand sides [y | 0] and [0 | -I] gives the
-        solution and the columns of (V'WV)^-1 together.
+    @cached_property
+    def _refined_all(self) -> dict:
+        """Every order 0..K refined in one call.
+
+        Each order k contributes the right-hand side [y | 0] (and, for a small
+        problem, [0 | -I_(k+1)] for its (V'WV)^-1) with a mask that keeps its
+        solution to the first k+1 raw powers; the leading blocks of Q, R^-1 and T
+        are order k's own (all three are triangular or nested), so one iteration
+        serves every order.
         """
-        if order not in self._solved:
+        n, big_p = self.n_points, self.max_order + 1
+        with_cov = n * (big_p * (big_p + 3) // 2) <= _ONE_CALL_LIMIT
+        sizes = [k + 2 if with_cov else 1 for k in range(big_p)]
+        m = sum(sizes)
+        y_hi, y_lo = dd.two_prod(self._ys, self.sqrt_w)
+        rhs_hi, rhs_lo = np.zeros((m, n)), np.zeros((m, n))
+        c, mask = np.zeros((m, big_p)), np.zeros((m, big_p))
+        first = np.cumsum([0] + sizes[:-1])
+        for k, j in enumerate(first):
+            rhs_hi[j], rhs_lo[j] = y_hi, y_lo
+            if with_cov:
+                c[j + 1 + np.arange(k + 1), np.arange(k + 1)] = -1.0
+            mask[j: j + sizes[k], : k + 1] = 1.0
+        v_hi, v_lo = self._powers
+        (b_hi, b_lo), (e_hi, e_lo) = refine(v_hi, v_lo, self._q, self._r_inv, self._t, rhs_hi, rhs_lo, c, mask)
+        out = {}
+        for k, j in enumerate(first):
+            p = k + 1
+            coef = b_hi[j, :p] + b_lo[j, :p]
+            diag = None
+            if with_cov:
+                cov = b_hi[j + 1: j + 1 + p, :p] + b_lo[j + 1: j + 1 + p, :p]
+                diag = np.maximum(np.diag(cov), 0.0)
+            out[k] = coef, diag, e_hi[j] + e_lo[j]
+        return out
+
+    def _covariance_diagonal(self, order: int) -> np.ndarray:
+        """Diagonal of (V'WV)^-1 of one order, refined on its own (large problems)."""
+        if order not in self._cov:
             p, n = order + 1, self.n_points
             v_hi, v_lo = self._powers
-            y_hi, y_lo = dd.two_prod(self._ys, self.sqrt_w)
-            rhs_hi = np.zeros((p + 1, n))
-            rhs_lo = np.zeros((p + 1, n))
-            rhs_hi[0], rhs_lo[0] = y_hi, y_lo
-            c = np.zeros((p + 1, p))
-            c[1:] = -np.eye(p)
-            (b_hi, b_lo), (e_hi, e_lo) = refine(
-                v_hi[:, :p], v_lo[:, :p], self._q[:, :p], self._r_inv[:p, :p], self._t[:p, :p],
-                rhs_hi, rhs_lo, c,
-            )
-            coef = b_hi[0] + b_lo[0]
-            diag = np.maximum(np.diag(b_hi[1:]) + np.diag(b_lo[1:]), 0.0)
-            e = e_hi[0] + e_lo[0]
-            self._solved[order] = coef, diag, e
-        return self._solved[order]
+            zeros = np.zeros((p, n))
+            (b_hi, b_lo), _ = refine(v_hi[:, :p], v_lo[:, :p], self._q[:, :p], self._r_inv[:p, :p],
+                                     self._t[:p, :p], zeros, zeros, -np.eye(p))
+            self._cov[order] = np.maximum(np.diag(b_hi) + np.diag(b_lo), 0.0)
+        return self._cov[order]
 
     # -- statistics ---------------------------------------------------------------------------
 
@@ -269,13 +300,8 @@ class Calibration:
 
     @cached_property
     def _residual_matrix(self) -> np.ndarray:
-        """Scaled weighted residuals of every order 0..K as columns: e_k = e_K + sum_{j>k} q_j (Q'y)_j."""
-        parts = self._q * self._qty
-        tail = np.cumsum(parts[:, ::-1], axis=1)[:, ::-1]  # tail[:, j] = sum_{i>=j} parts[:, i]
-        e = np.empty_like(parts)
-        e[:, -1] = 0.0
-        e[:, :-1] = tail[:, 1:]
-        return e + self._refined(self.max_order)[2][:, None]
+        """Scaled weighted residuals of every order 0..K as columns, each from its refined solution."""
+        return np.column_stack([self._refined_all[k][2] for k in range(self.max_order + 1)])
 
     def _residuals_scaled(self, order: int) -> np.ndarray:
         return self._residual_matrix[:, order]

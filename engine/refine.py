@@ -49,19 +49,23 @@ def _product_terms(a_hi, a_lo, a_split, b_hi, b_lo):
     return big, err + (a_hi * b_lo + a_lo * b_hi)
 
 
-def refine(v_hi, v_lo, q, r_inv, t, y_hi, y_lo, c):
+def refine(v_hi, v_lo, q, r_inv, t, y_hi, y_lo, c, mask=None):
     """Solve the augmented system for each of m right-hand sides.
 
     v_hi, v_lo: weighted raw design (n, p) in double-double; q (n, p) and r_inv
     (p, p), the inverse of r: QR of the weighted scaled basis; t (p, p): the
     conversion matrix; y (m, n) in double-double and c (m, p) in double: the
-    right-hand sides, one per row. Returns b (m, p) and the residual e (m, n),
+    right-hand sides, one per row. ``mask`` (m, p) of ones and zeros, when given,
+    keeps each right-hand side to the leading powers it marks: the leading
+    blocks of q, r_inv and t are those of the lower order, so one call solves
+    nested orders side by side. Returns b (m, p) and the residual e (m, n),
     each as a double-double pair. The first solution is the plain double one;
     each refinement step then forms the residuals in double-double.
     """
     to_raw = (t @ r_inv).T
     from_raw = to_raw.T
-    u = (y_hi + y_lo) @ q - c @ from_raw
+    keep = 1.0 if mask is None else mask
+    u = ((y_hi + y_lo) @ q - c @ from_raw) * keep
     b_hi, b_lo = u @ to_raw, np.zeros((y_hi.shape[0], v_hi.shape[1]))
     e_hi, e_lo = (y_hi + y_lo) - u @ q.T, np.zeros_like(y_hi)
     n, p = v_hi.shape
@@ -94,7 +98,7 @@ def refine(v_hi, v_lo, q, r_inv, t, y_hi, y_lo, c):
         else:
             g_hi, g_lo = dd.accurate_sum(np.stack(partial_hi, axis=2), np.stack(partial_lo, axis=2))
         f = f_hi + f_lo
-        u = f @ q - (g_hi + g_lo) @ from_raw
+        u = (f @ q - ((g_hi + g_lo) * keep) @ from_raw) * keep
         db = u @ to_raw
         b_hi, b_lo = dd.add_double(b_hi, b_lo, db)
         e_hi, e_lo = dd.add_double(e_hi, e_lo, f - u @ q.T)
