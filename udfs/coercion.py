@@ -81,6 +81,8 @@ def flatten(value, name: str) -> Cells:
     """A scalar, a row, a column or a one-wide block as one sequence of cells."""
     if not isinstance(value, (list, tuple)):
         return Cells(name, (value,), "row")
+    if all(type(r) is list and len(r) == 1 for r in value):  # the usual case: a column
+        return Cells(name, tuple([r[0] for r in value]), "row")
     rows = [list(r) if isinstance(r, (list, tuple)) else [r] for r in value]
     if not rows:
         return Cells(name, (), "row")
