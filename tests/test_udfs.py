@@ -301,3 +301,16 @@ def test_every_argument_is_documented_for_the_function_wizard():
                 # xlwings registers positional-or-keyword arguments only
                 assert param.kind is inspect.Parameter.POSITIONAL_OR_KEYWORD, (name, param)
                 assert param.name in DOC, (name, param.name)
+
+
+def test_overflowing_magnitudes_get_a_message_not_an_error():
+    x = np.repeat(np.linspace(1, 9, 5), 2)
+    y = (1 + 2 * np.linspace(0, 1, 10) + np.random.default_rng(0).normal(0, 0.01, 10)) * 1e156
+    xs, ys = column(x), column(y)
+    assert udfs.calib_inverse(xs, ys, [[float(y[3])]]) == [[
+        "the numbers are too large or too small for double precision in this computation (squares of y or x "
+        "overflow); express x and y in other units and try again"]]
+    # coefficients are computed in scaled units and still come out (statsmodels is no reference at 1e156)
+    ref = engine.fit(x / 1e156, y / 1e156, 1)
+    got = udfs.calib_coefs(xs, ys, 1)
+    assert got[2][1] == pytest.approx(ref.coefficients[1], rel=1e-12)

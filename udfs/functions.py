@@ -77,6 +77,9 @@ def _guarded(single: bool = False):
                 message = str(err)
             except engine.CalibrationError as err:
                 message = err.message
+            except OverflowError:
+                message = ("the numbers are too large or too small for double precision in this computation "
+                           "(squares of y or x overflow); express x and y in other units and try again")
             except Exception as err:  # noqa: BLE001 - a cell must never show a traceback
                 message = f"internal error ({type(err).__name__}: {err}); please report it with the workbook"
             return message if single else [[message]]
