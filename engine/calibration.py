@@ -208,11 +208,7 @@ class Calibration:
         return self._leverage[:, order]
 
     def weighted_residuals(self, order: int) -> np.ndarray:
-        """sqrt(w) (y - fitted) in the units of y.
-
-        The max-order residual comes from the refined solution; a lower order adds
-        back the components of the dropped terms, e_k = e_K + sum_{j>k} q_j (Q'y)_j.
-        """
+        """sqrt(w) (y - fitted) in the units of y, from the order's refined solution."""
         return np.ldexp(self._residuals_scaled(order), self._ey)
 
     # -- refined solution ---------------------------------------------------------------------
