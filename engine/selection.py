@@ -121,6 +121,13 @@ def choose_order(cal: Calibration, rule: str = "seqf", alpha: float = 0.05) -> O
     """The order ``rule`` picks for ``cal``, with the reason in words."""
     rule = check_rule(rule)
     alpha = check_alpha(alpha)
+    made = cal.__dict__.setdefault("_choices", {})
+    if (rule, alpha) not in made:
+        made[(rule, alpha)] = _choose(cal, rule, alpha)
+    return made[(rule, alpha)]
+
+
+def _choose(cal: Calibration, rule: str, alpha: float) -> OrderChoice:
     if rule == "seqf":
         order, words = _seqf(cal, alpha)
     elif rule == "forward":
