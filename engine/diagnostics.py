@@ -39,31 +39,10 @@ def _studentized(cal: Calibration, curve: Curve):
 
 
 def _back_calculate(cal: Calibration, curve: Curve):
-    """x solving f(x) = y_i for each standard, nearest its own x, and how many solutions there are.
-
-    On a curve that is monotonic over the search range there is at most one:
-    Newton's method from the standard's own x finds it. Otherwise every root is
-    located on the grid and the nearest kept.
-    """
-    lo, hi = -1 - 2 * BACK_CALC_EXTEND, 1 + 2 * BACK_CALC_EXTEND
-    n = cal.n_points
-    y = cal.y
-    if curve.turning_points(lo, hi).size == 0:
-        f_lo, f_hi = curve.value(np.array([lo, hi]))
-        exists = (np.minimum(f_lo, f_hi) <= y) & (y <= np.maximum(f_lo, f_hi))
-        z = np.minimum(np.maximum(cal.scaled_x(cal.x), lo), hi)
-        with np.errstate(divide="ignore", invalid="ignore"):
-            for _ in range(12):
-                new = np.minimum(np.maximum(z - (curve.value(z) - y) / curve.slope(z), lo), hi)
-                moved = np.nanmax(np.abs(new - z), initial=0.0)
-                z = np.where(np.isfinite(new), new, z)
-                if moved <= 2.0**-46:
-                    break
-        if moved <= 2.0**-46:
-            return np.where(exists, cal.raw_x(z), np.nan), exists.astype(int)
-    rows, zs = roots_of(curve, y, lo, hi)
-    count = np.bincount(rows, minlength=n)
-    back = np.full(n, np.nan)
+    """x solving f(x) = y_i for each standard, nearest its own x, and how many solutions there are."""
+    rows, zs = roots_of(curve, cal.y, -1 - 2 * BACK_CALC_EXTEND, 1 + 2 * BACK_CALC_EXTEND)
+    count = np.bincount(rows, minlength=cal.n_points)
+    back = np.full(cal.n_points, np.nan)
     distance = np.abs(zs - cal.scaled_x(cal.x)[rows])
     order = np.lexsort((distance, rows))
     first = order[np.r_[True, rows[order][1:] != rows[order][:-1]]] if rows.size else order
