@@ -28,6 +28,10 @@ BACK_CALC_EXTEND = 0.25
 
 
 def _studentized(cal: Calibration, curve: Curve):
+    """Weighted residuals, leverages, studentized residuals and Cook's D of a curve (computed once)."""
+    cached = curve.__dict__.get("_studentized")
+    if cached is not None:
+        return cached
     e = cal.weighted_residuals(curve.order)
     h = cal.leverage(curve.order)
     with np.errstate(divide="ignore", invalid="ignore"):
@@ -35,7 +39,8 @@ def _studentized(cal: Calibration, curve: Curve):
         df = curve.df
         t = r * np.sqrt((df - 1) / (df - r**2)) if df > 1 else np.full_like(r, np.nan)
         cook = r**2 * h / ((curve.order + 1) * (1.0 - h))
-    return e, h, r, t, cook
+    curve._studentized = e, h, r, t, cook
+    return curve._studentized
 
 
 def _back_calculate(cal: Calibration, curve: Curve):
