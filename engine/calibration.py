@@ -19,7 +19,6 @@ import operator
 from functools import cached_property
 
 import numpy as np
-from scipy.linalg import lapack
 
 from . import doubledouble as dd
 from .distributions import f_sf, t_two_sided
@@ -61,21 +60,13 @@ def _whole(value, name: str) -> int:
 
 
 def householder_qr(a: np.ndarray):
-    """Reduced Householder QR through LAPACK dgeqrf/dorgqr (the routines behind numpy.linalg.qr)."""
-    packed, tau, _, info = lapack.dgeqrf(a)
-    if info != 0:
-        raise RuntimeError(f"LAPACK dgeqrf failed ({info})")
-    q, _, info = lapack.dorgqr(packed[:, : a.shape[1]], tau)
-    if info != 0:
-        raise RuntimeError(f"LAPACK dorgqr failed ({info})")
-    return q, np.triu(packed[: a.shape[1]])
+    """Reduced Householder QR (numpy.linalg.qr: LAPACK dgeqrf and dorgqr)."""
+    return np.linalg.qr(a, mode="reduced")
 
 
 def _triangular_inverse(r: np.ndarray) -> np.ndarray:
-    inv, info = lapack.dtrtri(r, lower=0)
-    if info != 0:
-        raise RuntimeError(f"LAPACK dtrtri failed ({info})")
-    return np.triu(inv)
+    """R^-1 of an upper triangular R with a non-zero diagonal (LAPACK dgesv on the identity)."""
+    return np.triu(np.linalg.inv(r))
 
 
 def order_limit(n_points: int, n_distinct: int) -> int:

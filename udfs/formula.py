@@ -29,6 +29,7 @@ class Unsupported(Exception):
     """The formula is not one the refresh can compute with certainty; the message says why."""
 
 
+@functools.lru_cache(maxsize=4096)
 def column_number(letters: str) -> int:
     n = 0
     for ch in letters.upper():

@@ -18,7 +18,7 @@ from xml.sax.saxutils import escape
 from defusedxml import ElementTree as SafeET
 from defusedxml.common import DefusedXmlException
 
-from .formula import cell_name, parse_cell
+from .formula import cell_name, column_letters, column_number, parse_cell
 
 MAIN = "http://schemas.openxmlformats.org/spreadsheetml/2006/main"
 REL = "http://schemas.openxmlformats.org/officeDocument/2006/relationships"
@@ -206,7 +206,7 @@ class Workbook:
             return text
 
 
-_STYLE = re.compile(r'\ss\s*=\s*"([^"]*)"')
+_CELL_REF = re.compile(r'\br\s*=\s*["\']\$?([A-Za-z]{1,3})\$?[0-9]')
 _ATTR = re.compile(r'([\w:]+)\s*=\s*("[^"]*"|\'[^\']*\')')
 
 
@@ -241,20 +241,11 @@ class SheetText:
             row_no = int(attrs.get("r", row_no + 1))
             cells, col_no = {}, 0
             for cm in self._cell.finditer(rm.group(2) or ""):
-                ca = _attrs(cm.group(1))
-                col_no = parse_cell(ca["r"])[1] if "r" in ca else col_no + 1
+                ref = _CELL_REF.search(cm.group(1))
+                col_no = column_number(ref.group(1)) if ref else col_no + 1
                 cells[col_no] = cm.group(0)
             self.rows[row_no] = [rm.group(1), cells, False, rm.group(0)]
             self.order.append(row_no)
-
-    def style(self, row: int, col: int) -> str | None:
-        """The s (style) attribute of a cell, if the cell exists and has one."""
-        entry = self.rows.get(row)
-        xml = entry[1].get(col) if entry else None
-        if xml is None:
-            return None
-        m = _STYLE.search(xml, 0, xml.find(">"))
-        return m.group(1) if m else None
 
     def set_cell(self, row: int, col: int, xml: str | None) -> None:
         if row not in self.rows:
@@ -317,7 +308,9 @@ class SheetText:
                  array_ref: str | None = None, cm: str | None = None, f_xml: str | None = None) -> str:
         """XML of one cell holding ``value`` (and a formula for an anchor, or its stored <f> element)."""
         p = self.p
-        attrs = f' r="{cell_name(row, col)}"' + (f' s="{style}"' if style is not None else "")
+        attrs = f' r="{column_letters(col)}{row}"' if style is None else f' r="{column_letters(col)}{row}" s="{style}"'
+        if type(value) is float and formula is None and f_xml is None:  # the common case, made short
+            return f"<{p}c{attrs}><{p}v>{value!r}</{p}v></{p}c>"
         f = f_xml or ""
         if formula is not None:
             if array_ref:

@@ -230,44 +230,52 @@ class Refresher:
             text = edits[sheet.part] = SheetText(self.parts[sheet.part].decode("utf-8"))
         height, width = len(rows), max(len(r) for r in rows)
         new = Area(f.sheet, f.row, f.col, f.row + height - 1, f.col + width - 1)
+        anchor = (f.row, f.col)
         old_cells = set()
         if f.previous is not None and f.previous.top is not None:
             old_cells = {(r, c) for r in range(f.previous.top, f.previous.bottom + 1)
                          for c in range(f.previous.left, f.previous.right + 1)}
-        blocked_by = [cell_name(r, c) for r in range(new.top, new.bottom + 1) for c in range(new.left, new.right + 1)
-                      if (r, c) != (f.row, f.col) and (r, c) not in old_cells
-                      and ((r, c) in sheet.values or (r, c) in sheet.formulas)]
-        formula_text = f.text
-        if blocked_by:
-            report.blocked.append((f.where, f"the result ({height} x {width}) would cover {blocked_by[0]}, "
-                                            "which is not empty; nothing was overwritten"))
-            cells = {(f.row, f.col): "#SPILL!"}
+        values, formulas = sheet.values, sheet.formulas
+        cells = [(f.row + i, f.col + j) for i in range(height) for j in range(width)]
+        blocked_by = next((k for k in cells if k != anchor and k not in old_cells
+                           and (k in values or k in formulas)), None)
+        if blocked_by is not None:
+            report.blocked.append((f.where, f"the result ({height} x {width}) would cover "
+                                            f"{cell_name(*blocked_by)}, which is not empty; nothing was overwritten"))
+            content = {anchor: "#SPILL!"}
             keep_array = False
         else:
-            cells = {(f.row + i, f.col + j): (rows[i][j] if j < len(rows[i]) else None)
-                     for i in range(height) for j in range(width)}
+            content = {(f.row + i, f.col + j): (row[j] if j < len(row) else None)
+                       for i, row in enumerate(rows) for j in range(width)}
             keep_array = height > 1 or width > 1
             report.refreshed.append(f.where)
-        before = {k: sheet.values.get(k) for k in set(cells) | old_cells}
-        for (r, c) in old_cells - set(cells):
-            style = text.style(r, c)
-            text.set_cell(r, c, text.cell_xml(r, c, None, style) if style is not None else None)
-            sheet.values.pop((r, c), None)
+        changed = f.previous != (new if keep_array else None)
+        styles = sheet.styles
+        for key in old_cells - content.keys():
+            style = styles.get(key)
+            text.set_cell(*key, text.cell_xml(*key, None, style) if style is not None else None)
+            changed = changed or key in values
+            values.pop(key, None)
         ref = f"{cell_name(new.top, new.left)}:{cell_name(new.bottom, new.right)}" if keep_array else None
-        for (r, c), value in cells.items():
-            style = text.style(r, c)
-            anchor = (r, c) == (f.row, f.col)
-            if anchor and f.shift is not None:  # a filled formula keeps its stored <f> element as it is
-                text.set_cell(r, c, text.cell_xml(r, c, value, style, f_xml=text.formula_xml(r, c)))
+        for key, value in content.items():
+            style = styles.get(key)
+            if key == anchor:
+                if f.shift is not None:  # a filled formula keeps its stored <f> element as it is
+                    xml = text.cell_xml(*key, value, style, f_xml=text.formula_xml(*key))
+                else:
+                    xml = text.cell_xml(*key, value, style, f.text, ref, cm if keep_array else None)
+            elif value is None and style is None:
+                xml = None
             else:
-                text.set_cell(r, c, text.cell_xml(r, c, value, style, formula_text if anchor else None,
-                                                  ref if anchor else None, cm if anchor and keep_array else None))
+                xml = text.cell_xml(*key, value, style)
+            text.set_cell(*key, xml)
             if value is None:
-                sheet.values.pop((r, c), None)
+                changed = changed or key in values
+                values.pop(key, None)
             else:
-                sheet.values[(r, c)] = value
-        after = {k: sheet.values.get(k) for k in before}
-        report.changed |= after != before or (f.previous != (new if keep_array else None))
+                changed = changed or values.get(key) != value
+                values[key] = value
+        report.changed |= changed
 
 
 def refresh_file(path: Path, check: bool = False, backup: bool = False) -> Report:
