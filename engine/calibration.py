@@ -14,6 +14,7 @@ nor underflow in sums of squares.
 
 from __future__ import annotations
 
+import functools
 import math
 import operator
 from functools import cached_property
@@ -77,6 +78,22 @@ def order_limit(n_points: int, n_distinct: int) -> int:
 def default_max_order(n_points: int, n_distinct: int) -> int:
     """min(4, m - 2, n - 3): the largest model keeps one df for lack of fit and two for the residual."""
     return min(DEFAULT_MAX_ORDER, n_distinct - 2, n_points - 3)
+
+
+@functools.lru_cache(maxsize=64)
+def _rhs_layout(big_p: int, with_cov: bool):
+    """Rows of the stacked right-hand sides of ``Calibration._refined_all``, per order k = 0..big_p - 1:
+    the first row of each order (its y), the c block (-I for its covariance) and the mask of its powers."""
+    sizes = [k + 2 if with_cov else 1 for k in range(big_p)]
+    first = np.cumsum([0] + sizes[:-1])
+    c, mask = np.zeros((sum(sizes), big_p)), np.zeros((sum(sizes), big_p))
+    for k, j in enumerate(first):
+        if with_cov:
+            c[j + 1 + np.arange(k + 1), np.arange(k + 1)] = -1.0
+        mask[j: j + sizes[k], : k + 1] = 1.0
+    for a in (first, c, mask):
+        a.flags.writeable = False
+    return first, c, mask
 
 
 class Calibration:
@@ -230,27 +247,23 @@ class Calibration:
         """
         n, big_p = self.n_points, self.max_order + 1
         with_cov = n * (big_p * (big_p + 3) // 2) <= _ONE_CALL_LIMIT
-        sizes = [k + 2 if with_cov else 1 for k in range(big_p)]
-        m = sum(sizes)
-        y_hi, y_lo = dd.two_prod(self._ys, self.sqrt_w)
-        rhs_hi, rhs_lo = np.zeros((m, n)), np.zeros((m, n))
-        c, mask = np.zeros((m, big_p)), np.zeros((m, big_p))
-        first = np.cumsum([0] + sizes[:-1])
-        for k, j in enumerate(first):
-            rhs_hi[j], rhs_lo[j] = y_hi, y_lo
-            if with_cov:
-                c[j + 1 + np.arange(k + 1), np.arange(k + 1)] = -1.0
-            mask[j: j + sizes[k], : k + 1] = 1.0
+        first, c, mask = _rhs_layout(big_p, with_cov)
+        if self.weighting.values is None:
+            y_hi, y_lo = self._ys, np.zeros(n)
+        else:
+            y_hi, y_lo = dd.two_prod(self._ys, self.sqrt_w)
+        rhs_hi, rhs_lo = np.zeros((c.shape[0], n)), np.zeros((c.shape[0], n))
+        rhs_hi[first], rhs_lo[first] = y_hi, y_lo
         v_hi, v_lo = self._powers
         (b_hi, b_lo), (e_hi, e_lo) = refine(v_hi, v_lo, self._q, self._r_inv, self._t, rhs_hi, rhs_lo, c, mask)
         out = {}
-        for k, j in enumerate(first):
+        for k, j in enumerate(first.tolist()):
             p = k + 1
             coef = b_hi[j, :p] + b_lo[j, :p]
             diag = None
             if with_cov:
-                cov = b_hi[j + 1: j + 1 + p, :p] + b_lo[j + 1: j + 1 + p, :p]
-                diag = np.maximum(np.diag(cov), 0.0)
+                cols = np.arange(p)
+                diag = np.maximum(b_hi[j + 1 + cols, cols] + b_lo[j + 1 + cols, cols], 0.0)
             out[k] = coef, diag, e_hi[j] + e_lo[j]
         return out
 
@@ -339,9 +352,11 @@ class Calibration:
 
     @staticmethod
     def _ldexp(value: float, e: int) -> float:
-        """value * 2**e; inf where that is beyond the double range."""
-        with np.errstate(over="ignore"):
-            return float(np.ldexp(value, e))
+        """value * 2**e; inf (with the sign of value) where that is beyond the double range."""
+        try:
+            return math.ldexp(value, e)
+        except OverflowError:
+            return math.copysign(math.inf, value)
 
     def fit(self, order) -> OrderFit:
         """Coefficients of ``order`` in raw powers of x, with standard errors, t and p."""

@@ -62,6 +62,12 @@ class Curve:
         self._var_poly = np.bincount(powers.ravel(), c.ravel(), minlength=2 * p - 1)
         self._dvar = _derivative(self._var_poly)
         self._da = _derivative(self.a)
+        # f, f', Var(mean f)/s^2 and its slope as the columns of one matrix over z^0 .. z^2k
+        width = self._var_poly.size
+        self._local = np.zeros((width, 4))
+        for column, c in enumerate((self.a, self._da, self._var_poly, self._dvar)):
+            self._local[: c.size, column] = c
+        self._exponents = np.arange(width, dtype=float)
         self._turns = None
         self.stats = cal.stats(self.order)
         self.s = self.stats.residual_sd
@@ -84,6 +90,12 @@ class Curve:
     def mean_variance(self, z) -> np.ndarray:
         """Var of the fitted mean at z, in units of y squared."""
         return self.s**2 * np.maximum(horner(self._var_poly, z), 0.0)
+
+    def local(self, z: np.ndarray):
+        """f(z), f'(z), the variance of the fitted mean and its slope, at the points z (1-D)."""
+        v = (z[:, None] ** self._exponents) @ self._local
+        s2 = self.s**2
+        return v[:, 0], v[:, 1], s2 * np.maximum(v[:, 2], 0.0), s2 * v[:, 3]
 
     def t_value(self, level: float) -> float:
         return float(t_quantile(0.5 + level / 2, self.df))
@@ -118,8 +130,10 @@ def _derivative(c: np.ndarray) -> np.ndarray:
 def horner(coefficients, z):
     """sum_j c_j z^j by Horner's rule (coefficients lowest power first)."""
     z = np.asarray(z, dtype=float)
-    out = np.full(z.shape, coefficients[-1], dtype=float)
-    for c in coefficients[-2::-1]:
+    if len(coefficients) == 1:
+        return np.full(z.shape, coefficients[0], dtype=float)
+    out = coefficients[-1] * z + coefficients[-2]
+    for c in coefficients[-3::-1]:
         out = out * z + c
     return out
 
@@ -141,7 +155,10 @@ def newton_in_cells(func, lo, hi, f_lo, f_hi, steps: int = 8):
     ``func`` maps points (one per cell) to (value, slope). The start is the
     linear interpolation between the cell's ends (the cells are 1/200 of the
     range wide, so it is already close); Newton then converges quadratically.
-    Each iterate is clipped to its cell; a flat slope keeps the point.
+    Each iterate is clipped to its cell; a flat slope keeps the point. It stops
+    when no point moved more than the tolerance, or when the contraction seen
+    over the last two steps (quadratic: next ~ moved^3 / previous^2) puts the
+    next move below it.
     """
     lo, hi = np.asarray(lo, dtype=float), np.asarray(hi, dtype=float)
     f_lo, f_hi = np.asarray(f_lo, dtype=float), np.asarray(f_hi, dtype=float)
@@ -149,6 +166,7 @@ def newton_in_cells(func, lo, hi, f_lo, f_hi, steps: int = 8):
         z = lo - f_lo * (hi - lo) / (f_hi - f_lo)
         z[~np.isfinite(z)] = ((lo + hi) / 2)[~np.isfinite(z)]
         z = np.minimum(np.maximum(z, lo), hi)
+        previous = None
         for _ in range(steps):
             value, slope = func(z)
             new = z - value / slope
@@ -157,6 +175,7 @@ def newton_in_cells(func, lo, hi, f_lo, f_hi, steps: int = 8):
             new = np.minimum(np.maximum(new, lo), hi)
             moved = np.abs(new - z).max(initial=0.0)
             z = new
-            if moved <= _Z_TOLERANCE:
+            if moved <= _Z_TOLERANCE or (previous is not None and moved**3 <= _Z_TOLERANCE * previous**2):
                 break
+            previous = moved
     return z

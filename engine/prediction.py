@@ -125,17 +125,14 @@ def _band_edges(curve: Curve, cal: Calibration, y0: np.ndarray, m: np.ndarray, z
     t2, t2s2 = t**2, t**2 * curve.s**2
 
     def gap_and_slope(zz, y, mm):
-        fz, dfz = curve.value(zz), curve.slope(zz)
+        fz, dfz, vz, dvz = curve.local(zz)
         d = fz - y
         if weighting.values is None:
-            vf, dvf = 1.0, 0.0
-        else:
-            x = cal.raw_x(zz)
-            vf = weighting.variance_factor(x, fz)
-            dvf = weighting.variance_factor_slope(x, fz, dfz / dx_dz) * dx_dz
-        g = d * d - t2s2 * vf / mm - t2 * curve.mean_variance(zz)
-        slope = 2 * d * dfz - t2s2 * dvf / mm - t2 * curve.mean_variance_slope(zz)
-        return g, slope
+            return d * d - t2s2 / mm - t2 * vz, 2 * d * dfz - t2 * dvz
+        x = cal.raw_x(zz)
+        vf = weighting.variance_factor(x, fz)
+        dvf = weighting.variance_factor_slope(x, fz, dfz / dx_dz) * dx_dz
+        return d * d - t2s2 * vf / mm - t2 * vz, 2 * d * dfz - t2s2 * dvf / mm - t2 * dvz
 
     vf = 1.0 if weighting.values is None else weighting.variance_factor(cal.raw_x(z), f)[None, :]
     with np.errstate(invalid="ignore"):

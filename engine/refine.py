@@ -19,6 +19,7 @@ conditioned z basis. With c = -I and y = 0 the same iteration gives
 
 from __future__ import annotations
 
+import functools
 from math import comb
 
 import numpy as np
@@ -36,11 +37,17 @@ def conversion_matrix(centre: float, half_width: float, order: int) -> np.ndarra
 
     T_kj = C(j, k) (-centre)^(j-k) / half_width^j for k <= j (binomial expansion).
     """
-    t = np.zeros((order + 1, order + 1))
-    for j in range(order + 1):
-        for k in range(j + 1):
-            t[k, j] = comb(j, k) * (-centre) ** (j - k) / half_width**j
-    return t
+    j = np.arange(order + 1)
+    power = j[None, :] - j[:, None]
+    return _binomials(order) * np.where(power >= 0, float(-centre) ** np.maximum(power, 0), 0.0) / half_width**j
+
+
+@functools.lru_cache(maxsize=32)
+def _binomials(order: int) -> np.ndarray:
+    """C(j, k) at [k, j] for 0 <= k, j <= order (0 for k > j)."""
+    b = np.array([[comb(j, k) for j in range(order + 1)] for k in range(order + 1)], dtype=float)
+    b.flags.writeable = False
+    return b
 
 
 def _product_terms(a_hi, a_lo, a_split, b_hi, b_lo):
