@@ -13,7 +13,7 @@ import workloads  # noqa: E402
 from bench_engine import median_time, side_by_side  # noqa: E402
 
 import udfs  # noqa: E402
-from udfs.prepared import CALIBRATIONS, RESULTS  # noqa: E402
+from udfs.prepared import clear_caches  # noqa: E402
 
 
 def column(values):
@@ -32,8 +32,7 @@ def family(xs, ys, new_x, readings):
 
 
 def cold(*args):
-    CALIBRATIONS.clear()
-    RESULTS.clear()
+    clear_caches()
     family(*args)
 
 

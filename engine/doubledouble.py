@@ -77,26 +77,21 @@ def add_double(ah, al, b):
 def accurate_sum(hi, lo):
     """Sums of ``hi + lo`` along the last axis, as a double-double pair.
 
-    Two passes of error-free extraction (ExtractVector of S. M. Rump, T. Ogita and
+    One pass of error-free extraction (ExtractVector of S. M. Rump, T. Ogita and
     S. Oishi, "Accurate floating-point summation part I: faithful rounding",
     SIAM J. Sci. Comput. 31 (2008) 189-224): with sigma = 2^(M + ceil(log2 max|p|)),
-    2^M >= n + 2, the high parts q = (sigma + p) - sigma sum exactly in any order.
-    What is left after two passes is about 2^-100 of the largest term, and is
-    added in plain double together with ``lo``. One sigma serves each index of
-    the first axis (so each right-hand side keeps its own scale).
+    2^M >= n + 2, the high parts q = (sigma + p) - sigma sum exactly in any order;
+    what is left, at most 2^(M - 53) of the largest term each, is summed in plain
+    double together with ``lo``, so the error is about n^2 2^(M - 106) of the
+    largest term. One sigma serves each index of the first axis (so each
+    right-hand side keeps its own scale).
     """
     shift = (hi.shape[-1] + 1).bit_length()  # 2**shift >= n + 2
     shape = (hi.shape[0],) + (1,) * (hi.ndim - 1)
-    rest = hi
-    exact = []
-    for _ in range(2):
-        top = np.maximum.reduce(np.abs(rest).reshape(hi.shape[0], -1), axis=1)
-        sigma = np.ldexp(1.0, np.frexp(top)[1] + shift).reshape(shape)
-        q = (sigma + rest) - sigma
-        rest = rest - q
-        exact.append(q.sum(axis=-1))
-    s, e = two_sum(exact[0], exact[1])
-    return _fast_two_sum(s, e + (rest.sum(axis=-1) + lo.sum(axis=-1)))
+    top = np.maximum.reduce(np.abs(hi).reshape(hi.shape[0], -1), axis=1)
+    sigma = np.ldexp(1.0, np.frexp(top)[1] + shift).reshape(shape)
+    q = (sigma + hi) - sigma
+    return two_sum(q.sum(axis=-1), (hi - q).sum(axis=-1) + lo.sum(axis=-1))
 
 
 def powers(x, order):

@@ -16,7 +16,7 @@ from statsmodels.stats.anova import anova_lm
 import engine
 import udfs
 from udfs.labels import HEADERS
-from udfs.prepared import CALIBRATIONS, RESULTS
+from udfs.prepared import clear_caches
 
 
 def column(values):
@@ -25,8 +25,7 @@ def column(values):
 
 @pytest.fixture(autouse=True)
 def fresh_caches():
-    CALIBRATIONS.clear()
-    RESULTS.clear()
+    clear_caches()
 
 
 @pytest.fixture
@@ -197,6 +196,17 @@ def test_bad_cells_in_data(data, bad, message):
     for f in (udfs.calib_coefs, udfs.calib_seqf, udfs.calib_residuals, udfs.calib_checks):
         assert f(xs, column(y)) == [[message]]
     assert udfs.calib_order(xs, column(y)) == message
+
+
+def test_a_logical_never_shares_a_cached_result_with_the_number_it_equals(data):
+    # True == 1.0 in Python; the cache of prepared inputs must still see a logical cell as bad
+    x, y = data
+    assert x[0] == 1.0
+    assert isinstance(udfs.calib_order(column(x), column(y)), int)
+    xs = column(x)
+    xs[0] = [True]
+    assert udfs.calib_order(xs, column(y)) == (
+        "x, row 1 of 21: the logical value TRUE is not a number; enter a number or clear the cell")
 
 
 def test_bad_cell_in_a_row_range(data):

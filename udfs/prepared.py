@@ -85,6 +85,32 @@ def _weights(weights, x_cells: Cells, used: np.ndarray, x: np.ndarray, y: np.nda
 
 
 def prepare(x, y, weights=None) -> Prepared:
+    """The usable points of x and y (and their weights), or a CellError naming the bad cell."""
+    key = _plain_key(x, y, weights)
+    if key is None:
+        return _prepare(x, y, weights)
+    return PREPARED.get(key, lambda: _prepare(x, y, weights))
+
+
+def _plain_key(x, y, weights):
+    """A content key for the usual call, columns of plain floats (no blanks, no other types), else None.
+
+    Floats only: True == 1.0 in Python, so cells of other types never share a key with numbers.
+    """
+    if not (type(x) is list and type(y) is list and len(x) == len(y)):
+        return None
+    try:
+        xs, ys = tuple([v for (v,) in x]), tuple([v for (v,) in y])
+    except (TypeError, ValueError):
+        return None
+    if not all(type(v) is float for v in xs + ys):
+        return None
+    if weights is None or type(weights) is str:
+        return xs, ys, weights
+    return None
+
+
+def _prepare(x, y, weights) -> Prepared:
     x_cells, y_cells = flatten(x, "x"), flatten(y, "y")
     if len(x_cells.values) != len(y_cells.values):
         raise CellError(f"x has {len(x_cells.values)} cells and y has {len(y_cells.values)}: "
@@ -119,8 +145,15 @@ class LRU:
         self._items.clear()
 
 
+PREPARED = LRU(CACHE_SIZE)
 CALIBRATIONS = LRU(CACHE_SIZE)
 RESULTS = LRU(4 * CACHE_SIZE)
+
+
+def clear_caches() -> None:
+    """Forget every prepared input, calibration and result (the next calls compute afresh)."""
+    for cache in (PREPARED, CALIBRATIONS, RESULTS):
+        cache.clear()
 
 
 def calibration(prep: Prepared, max_order=None) -> engine.Calibration:

@@ -95,7 +95,10 @@ def _block(values: dict, area: Area, sheet_rows: int):
     """Cell values of ``area`` as the spreadsheet passes them: a scalar for one cell, else rows."""
     bottom = area.bottom if area.top is not None else max(sheet_rows, 1)
     top = area.top if area.top is not None else 1
-    rows = [[values.get((r, c)) for c in range(area.left, area.right + 1)] for r in range(top, bottom + 1)]
+    if area.left == area.right:  # the usual case, one column
+        rows = [[values.get((r, area.left))] for r in range(top, bottom + 1)]
+    else:
+        rows = [[values.get((r, c)) for c in range(area.left, area.right + 1)] for r in range(top, bottom + 1)]
     return rows[0][0] if len(rows) == 1 and len(rows[0]) == 1 else rows
 
 
