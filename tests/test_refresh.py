@@ -356,3 +356,56 @@ def test_sheet_scoped_names_take_precedence(tmp_path):
     for sheet, rows in (("Lab A", rows_a), ("Lab B", rows_b)):
         xs, ys = [[r[0]] for r in rows], [[r[1]] for r in rows]
         assert values(path, sheet, "D1", 3, 7) == udfs.calib_coefs(xs, ys, 1)
+
+
+def _many_sheets(path: Path) -> Path:
+    """Invented: five calibration sheets; 'Check' reads 'Cal 4' (so the two must be computed together);
+    'Cal 5' has a blocked result and 'Check' a cycle."""
+    wb = openpyxl.Workbook()
+    wb.remove(wb.active)
+    for s in range(1, 6):
+        ws = wb.create_sheet(f"Cal {s}")
+        for i, (a, b) in enumerate(zip(X, Y * (1 + s / 10)), start=2):
+            ws.cell(i, 1, float(a))
+            ws.cell(i, 2, float(b))
+        ws["D1"] = "=CALIB_ORDER(A2:A13,B2:B13)"
+        ws["D3"] = "=CALIB_COEFS(A2:A13,B2:B13,D1)"
+        ws["D10"] = "=CALIB_RESIDUALS(A2:A13,B2:B13,D1)"
+    wb["Cal 5"]["E12"] = "in the way"
+    check = wb.create_sheet("Check")
+    check["A1"] = "=CALIB_STATS('Cal 4'!A2:A13,'Cal 4'!B2:B13,'Cal 4'!D1)"
+    check["F1"] = "=CALIB_ORDER(A2:A13,F2:F13)"
+    check["F2"] = "=CALIB_ORDER(A2:A13,F1:F13)"
+    wb.save(path)
+    return path
+
+
+def test_sheets_split_over_processes_give_the_same_file_and_report(tmp_path, monkeypatch):
+    import udfs.refresh as refresh
+
+    monkeypatch.setattr(refresh, "PARALLEL_FROM", 1)
+    one, three = _many_sheets(tmp_path / "one.xlsx"), _many_sheets(tmp_path / "three.xlsx")
+    serial = refresh_file(one, workers=1)
+    split = refresh_file(three, workers=3)
+    assert [c for c, _ in serial.blocked] == ["Cal 5!D10"]
+    assert [c for c, _ in serial.failed] == ["Check!F1", "Check!F2"]
+    for name in ("refreshed", "blocked", "left_alone", "failed"):
+        assert getattr(split, name) == getattr(serial, name)
+    assert split.changed and serial.changed
+    assert entries(three) == entries(one)
+
+
+def test_sheets_that_refer_to_each_other_share_a_process(tmp_path):
+    import udfs.refresh as refresh
+
+    book = refresh.Refresher(refresh.read_package(_many_sheets(tmp_path / "book.xlsx"))[1])
+    by_cell = {}
+    for f in book.formulas:
+        f.call = refresh.parse_call(f.text, f.sheet, book.book.names)
+        by_cell[(f.sheet, f.row, f.col)] = f
+    order = sorted(by_cell)
+    shares = refresh._shares(order, by_cell, 3)
+    assert len(shares) == 3 and sorted(k for s in shares for k in s) == order
+    home = {k[0]: i for i, s in enumerate(shares) for k in s}
+    assert home["Check"] == home["Cal 4"]
+    assert all(s == sorted(s) for s in shares)  # each share keeps the order it was given

@@ -71,7 +71,9 @@ def main(argv=None) -> int:
     p.add_argument("paths", nargs="+", help="workbooks (.xlsx, .xlsm) or folders searched recursively")
     p.add_argument("--check", action="store_true", help="compute and report what would change; write nothing")
     p.add_argument("--backup", action="store_true", help="keep the original beside each refreshed workbook")
-    p.add_argument("--jobs", type=int, default=1, help="refresh this many workbooks in parallel processes")
+    p.add_argument("--jobs", type=int, default=None,
+                   help="processes to use (default: one per CPU core): several workbooks at a time, "
+                        "or the sheets of one large workbook")
     p.set_defaults(run=_refresh)
     p = sub.add_parser("addin", help="write the xlwings settings for the desktop add-in and print the steps")
     p.add_argument("--config", help="settings file to write (default: the xlwings user settings file)")

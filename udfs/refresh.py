@@ -135,8 +135,13 @@ class Refresher:
                 args.append(a)
         return CALLABLE[call.name](*args)
 
-    def run(self, report: Report) -> tuple[dict[str, bytes], list[str]]:
-        """Compute every CALIB_* cell; return the changed parts and the names of new parts."""
+    def run(self, report: Report, workers: int = 1) -> tuple[dict[str, bytes], list[str]]:
+        """Compute every CALIB_* cell; return the changed parts and the names of new parts.
+
+        With ``workers`` > 1 on Linux, a large workbook's sheets are split into groups
+        that do not refer to one another and computed in that many forked processes;
+        the parts and the report are the same as one process makes.
+        """
         by_cell = {}
         for f in self.formulas:
             try:
@@ -156,10 +161,29 @@ class Refresher:
             graph[key] = {k for a in areas_of(f.call) for k, g in on_sheet.get(a.sheet, ()) if k != key and (
                 a.contains(g.sheet, g.row, g.col) or (g.previous is not None and a.overlaps(g.previous)))}
         order, dead = self._order(graph, by_cell, report)
-        edits: dict[str, SheetText] = {}
-        cm = None
+        # the cm index a dynamic array will carry, found on a copy; the parts change only if one is written
+        cm = dynamic_array_metadata(dict(self.parts), self.book.workbook_part, self.book.workbook_rels)[0]
+        plan = (by_cell, graph, dead, cm)
+        shares = _shares(order, by_cell, workers) if workers > 1 and len(order) >= PARALLEL_FROM else [order]
+        if len(shares) > 1 and _can_fork():
+            changed, arrays = self._compute_in_processes(shares, plan, report, order)
+        else:
+            changed, arrays = self._compute(order, plan, report)
         added: list[str] = []
-        for key in order:
+        if arrays:
+            added = dynamic_array_metadata(self.parts, self.book.workbook_part, self.book.workbook_rels)[1]
+        if changed:
+            wb = self.parts[self.book.workbook_part].decode("utf-8")
+            changed[self.book.workbook_part] = set_full_calc_on_load(wb).encode("utf-8")
+        return changed, added
+
+    def _compute(self, keys, plan, report: Report) -> tuple[dict[str, bytes], bool]:
+        """Evaluate and write the formulas ``keys`` in this order: the rendered sheet parts, and
+        whether a dynamic array was written."""
+        by_cell, graph, dead, cm = plan
+        edits: dict[str, SheetText] = {}
+        arrays = False
+        for key in keys:
             f = by_cell[key]
             if any(dep in dead for dep in graph[key]):
                 report.failed.append((f.where, "it reads a CALIB_* cell that could not be computed"))
@@ -179,19 +203,40 @@ class Refresher:
                 continue
             if len(rows) > 1 or len(rows[0]) > 1:
                 if cm is None:
-                    cm, added = dynamic_array_metadata(self.parts, self.book.workbook_part, self.book.workbook_rels)
-                    if cm is None:
-                        report.failed.append((f.where, "the workbook's metadata has no dynamic-array record"))
-                        dead.add(key)
-                        continue
+                    report.failed.append((f.where, "the workbook's metadata has no dynamic-array record"))
+                    dead.add(key)
+                    continue
+                arrays = True
             self._write(f, rows, cm, edits, report)
-        changed = {}
-        for part, text in edits.items():
-            changed[part] = text.render().encode("utf-8")
-        if edits:
-            wb = self.parts[self.book.workbook_part].decode("utf-8")
-            changed[self.book.workbook_part] = set_full_calc_on_load(wb).encode("utf-8")
-        return changed, added
+        return {part: text.render().encode("utf-8") for part, text in edits.items()}, arrays
+
+    def _compute_in_processes(self, shares, plan, report: Report, order):
+        """``_compute`` of each share, the first here and each other in a forked process (the shares
+        touch disjoint sheets); parts and report merged in formula order."""
+        import multiprocessing
+        from concurrent.futures import ProcessPoolExecutor
+
+        global _FORKED
+        _FORKED = self, plan, shares
+        try:
+            with ProcessPoolExecutor(len(shares) - 1, mp_context=multiprocessing.get_context("fork")) as pool:
+                futures = [pool.submit(_compute_share, i) for i in range(1, len(shares))]
+                outcomes = [_compute_share(0)] + [f.result() for f in futures]  # this process takes the first
+        finally:
+            _FORKED = None
+        position = {plan[0][k].where: i for i, k in enumerate(order)}
+        changed, arrays = {}, False
+        for parts, used, lists, values_changed in outcomes:
+            changed.update(parts)
+            arrays |= used
+            report.changed |= values_changed
+            for name, entries in lists.items():
+                getattr(report, name).extend(entries)
+        for name in ("refreshed", "blocked", "left_alone", "failed"):
+            entries = getattr(report, name)
+            first = len(entries) - sum(len(o[2][name]) for o in outcomes)
+            entries[first:] = sorted(entries[first:], key=lambda e: position[e if isinstance(e, str) else e[0]])
+        return changed, arrays
 
     def _order(self, graph, by_cell, report):
         """Dependencies first, otherwise sheet by sheet and cell by cell (so a sheet's calibrations
@@ -216,7 +261,7 @@ class Refresher:
                 elif state.get(dep) == "open":
                     cycle = path[path.index(dep):] + [dep]
                     names = " -> ".join(by_cell[k].where for k in cycle)
-                    for k in set(cycle):
+                    for k in dict.fromkeys(cycle):  # in path order, each once
                         if k not in dead:
                             report.failed.append((by_cell[k].where, f"circular reference: {names}"))
                             dead.add(k)
@@ -281,7 +326,55 @@ class Refresher:
         report.changed |= changed
 
 
-def refresh_file(path: Path, check: bool = False, backup: bool = False) -> Report:
+# a workbook with at least this many CALIB_* formulas is split over processes when workers > 1
+PARALLEL_FROM = 48
+_FORKED = None  # (refresher, plan, shares), inherited by forked processes
+
+
+def _can_fork() -> bool:
+    """Forked processes share the parsed workbook for free; only on Linux, where fork is safe and the default."""
+    return sys.platform.startswith("linux")
+
+
+def _shares(order, by_cell, workers: int) -> list[list]:
+    """``order`` split into at most ``workers`` lists, each a union of sheet groups that refer only to
+    themselves, balanced by formula count; each list keeps the order of ``order``."""
+    parent: dict[str, str] = {}
+
+    def root(s):
+        while parent.setdefault(s, s) != s:
+            parent[s] = parent[parent[s]]
+            s = parent[s]
+        return s
+
+    for key in order:
+        f = by_cell[key]
+        for a in areas_of(f.call):
+            parent[root(a.sheet)] = root(f.sheet)
+    sizes: dict[str, int] = {}
+    for key in order:
+        sizes[root(key[0])] = sizes.get(root(key[0]), 0) + 1
+    load, home = [0] * min(workers, len(sizes)), {}
+    for group, size in sorted(sizes.items(), key=lambda kv: -kv[1]):
+        i = load.index(min(load))
+        home[group] = i
+        load[i] += size
+    shares = [[] for _ in load]
+    for key in order:
+        shares[home[root(key[0])]].append(key)
+    return [s for s in shares if s]
+
+
+def _compute_share(index: int):
+    refresher, plan, shares = _FORKED
+    report = Report(Path())
+    parts, arrays = refresher._compute(shares[index], plan, report)
+    lists = {name: getattr(report, name) for name in ("refreshed", "blocked", "left_alone", "failed")}
+    return parts, arrays, lists, report.changed
+
+
+def refresh_file(path: Path, check: bool = False, backup: bool = False, workers: int | None = None) -> Report:
+    """Refresh one workbook in place; ``workers`` processes for a large one (default: one per CPU core)."""
     report = Report(path)
     try:
         lock = lock_file(path)
@@ -289,7 +382,7 @@ def refresh_file(path: Path, check: bool = False, backup: bool = False) -> Repor
             raise PackageError(f"the workbook is open in a spreadsheet program ({lock.name} is present); "
                                "close it and try again")
         infos, parts = read_package(path)
-        changed, added = Refresher(parts).run(report)
+        changed, added = Refresher(parts).run(report, os.cpu_count() or 1 if workers is None else workers)
         if check or not changed:
             return report
         parts.update(changed)
@@ -326,13 +419,18 @@ def workbooks(paths) -> list[Path]:
 
 def _one(args):
     path, check, backup = args
-    return refresh_file(path, check, backup)
+    return refresh_file(path, check, backup, workers=1)
 
 
-def run(paths, check: bool = False, backup: bool = False, jobs: int = 1) -> int:
-    """Refresh every workbook; print one summary per workbook; 0 only when everything succeeded."""
+def run(paths, check: bool = False, backup: bool = False, jobs: int | None = None) -> int:
+    """Refresh every workbook; print one summary per workbook; 0 only when everything succeeded.
+
+    ``jobs`` processes (default: one per CPU core): several workbooks are refreshed
+    that many at a time; a single large workbook has its sheets split over them.
+    """
     from tqdm import tqdm
 
+    jobs = jobs or os.cpu_count() or 1
     files = workbooks(paths)
     if not files:
         print("no workbooks (.xlsx, .xlsm) found in " + ", ".join(map(str, paths)))
@@ -345,7 +443,7 @@ def run(paths, check: bool = False, backup: bool = False, jobs: int = 1) -> int:
         with ProcessPoolExecutor(max_workers=jobs) as pool:
             reports = list(tqdm(pool.map(_one, tasks), **bar))
     else:
-        reports = [refresh_file(*t) for t in tqdm(tasks, **bar)]
+        reports = [refresh_file(*t, workers=jobs) for t in tqdm(tasks, **bar)]
     for r in reports:
         print("\n".join(r.lines(check)))
     return 0 if all(r.ok for r in reports) else 1
