@@ -40,6 +40,8 @@ def _vector(values, name: str) -> np.ndarray:
         raise DataError(f"{name} must hold numbers only", argument=name) from None
     if a.ndim != 1:
         raise DataError(f"{name} must be one-dimensional, not of shape {a.shape}", argument=name)
+    if np.isfinite(a).all():
+        return a
     bad = np.flatnonzero(~np.isfinite(a))
     if bad.size:
         i = int(bad[0])
@@ -149,6 +151,7 @@ class Calibration:
         umin, umax = float(u.min()), float(u.max())
         self.centre = (umin + umax) / 2
         self.half_width = (umax - umin) / 2
+        self.dx_dz = math.ldexp(self.half_width, self._ex)  # x per unit of z
         self._u = u
         z = (u - self.centre) / self.half_width
         zw = np.vander(z, k + 1, increasing=True) * self.sqrt_w[:, None]

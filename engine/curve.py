@@ -75,6 +75,7 @@ class Curve:
         self.x_min = float(cal.x.min())
         self.x_max = float(cal.x.max())
         self._grid = None
+        self._t: dict[float, float] = {}
 
     def value(self, z) -> np.ndarray:
         return horner(self.a, z)
@@ -98,7 +99,9 @@ class Curve:
         return v[:, 0], v[:, 1], s2 * np.maximum(v[:, 2], 0.0), s2 * v[:, 3]
 
     def t_value(self, level: float) -> float:
-        return float(t_quantile(0.5 + level / 2, self.df))
+        if level not in self._t:
+            self._t[level] = float(t_quantile(0.5 + level / 2, self.df))
+        return self._t[level]
 
     def turning_points(self, lo: float = -1.0, hi: float = 1.0) -> np.ndarray:
         """z in (lo, hi) where dy/dz changes sign, sorted."""

@@ -100,6 +100,8 @@ def powers(x, order):
     hi = np.empty((x.size, order + 1))
     lo = np.empty_like(hi)
     hi[:, 0], lo[:, 0] = 1.0, 0.0
-    for k in range(1, order + 1):
-        hi[:, k], lo[:, k] = mul_double(hi[:, k - 1], lo[:, k - 1], x)
+    x_split = _split(x)
+    for k in range(1, order + 1):  # (hi + lo) * x, as mul_double with x split once
+        p, e = two_prod(x, hi[:, k - 1], x_split)
+        hi[:, k], lo[:, k] = _fast_two_sum(p, e + lo[:, k - 1] * x)
     return hi, lo

@@ -28,6 +28,8 @@ from .results import InverseEstimate, Prediction
 
 def _finite(values, name: str) -> np.ndarray:
     a = np.atleast_1d(np.asarray(values, dtype=float)).ravel()
+    if np.isfinite(a).all():
+        return a
     bad = np.flatnonzero(~np.isfinite(a))
     if bad.size:
         i = int(bad[0])
@@ -65,6 +67,8 @@ def predict(cal: Calibration, new_x, order: int, level: float = 0.95) -> tuple[P
 
 
 def _replicates(replicates, count: int) -> np.ndarray:
+    if type(replicates) in (int, float) and replicates >= 1 and replicates == int(replicates):
+        return np.full(count, float(replicates))
     m = np.atleast_1d(np.asarray(replicates, dtype=float)).ravel()
     if m.size == 1:
         m = np.full(count, m[0])
@@ -121,7 +125,7 @@ def _band_edges(curve: Curve, cal: Calibration, y0: np.ndarray, m: np.ndarray, z
     """
     z, f, vm = curve.grid
     weighting = cal.weighting
-    dx_dz = float(cal.raw_x(1.0) - cal.raw_x(0.0))
+    dx_dz = cal.dx_dz
     t2, t2s2 = t**2, t**2 * curve.s**2
 
     def gap_and_slope(zz, y, mm):
@@ -137,7 +141,8 @@ def _band_edges(curve: Curve, cal: Calibration, y0: np.ndarray, m: np.ndarray, z
     vf = 1.0 if weighting.values is None else weighting.variance_factor(cal.raw_x(z), f)[None, :]
     with np.errstate(invalid="ignore"):
         g = (f[None, :] - y0[:, None]) ** 2 - t2s2 * vf / m[:, None] - t2 * vm[None, :]
-    g[~np.isfinite(g)] = np.inf
+    if weighting.values is not None:
+        g[~np.isfinite(g)] = np.inf  # no weight for a reading there: outside the band
     g_hat = gap_and_slope(z_hat, y0, m)[0]
     outside = g > 0
     below = outside & (z[None, :] < z_hat[:, None])

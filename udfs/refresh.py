@@ -23,7 +23,8 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from . import functions
-from .formula import MENTION, Area, Call, Unsupported, areas_of, cell_name, parse_call, reference, shift_references
+from .formula import (MENTION, Area, Call, Unsupported, areas_of, cell_name, column_letters, parse_call, reference,
+                      shift_references)
 from .package import (PackageError, SheetText, Workbook, dynamic_array_metadata, read_package,
                       set_full_calc_on_load, write_package)
 
@@ -305,24 +306,31 @@ class Refresher:
             changed = changed or key in values
             values.pop(key, None)
         ref = f"{cell_name(new.top, new.left)}:{cell_name(new.bottom, new.right)}" if keep_array else None
+        by_row: dict[int, dict] = {}
+        p = text.p
         for key, value in content.items():
             style = styles.get(key)
+            r, c = key
             if key == anchor:
                 if f.shift is not None:  # a filled formula keeps its stored <f> element as it is
-                    xml = text.cell_xml(*key, value, style, f_xml=text.formula_xml(*key))
+                    xml = text.cell_xml(r, c, value, style, f_xml=text.formula_xml(r, c))
                 else:
-                    xml = text.cell_xml(*key, value, style, f.text, ref, cm if keep_array else None)
+                    xml = text.cell_xml(r, c, value, style, f.text, ref, cm if keep_array else None)
+            elif style is None and type(value) is float:  # the usual cell, written here in short
+                xml = f"<{p}c r=\"{column_letters(c)}{r}\"><{p}v>{value!r}</{p}v></{p}c>"
             elif value is None and style is None:
                 xml = None
             else:
-                xml = text.cell_xml(*key, value, style)
-            text.set_cell(*key, xml)
+                xml = text.cell_xml(r, c, value, style)
+            by_row.setdefault(r, {})[c] = xml
             if value is None:
                 changed = changed or key in values
                 values.pop(key, None)
             else:
                 changed = changed or values.get(key) != value
                 values[key] = value
+        for r, cells in by_row.items():
+            text.set_cells(r, cells)
         report.changed |= changed
 
 
