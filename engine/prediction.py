@@ -115,6 +115,26 @@ def _monotonic_roots(curve: Curve, readings: np.ndarray, z_lo: float, z_hi: floa
     return rows, zs
 
 
+def _monotonic_band(curve: Curve, vf: np.ndarray, m: np.ndarray, t2: float, t2s2: float):
+    """For readings that all average the same number of replicates: the sign of the curve's slope and
+    the band's upper and lower edges on the grid, times that sign, when both rise strictly over the
+    whole grid (then each edge of every reading is one binary search); else None. Made once per
+    curve, level and replicates."""
+    if not np.all(m == m[0]):
+        return None
+    cache = curve.__dict__.setdefault("_bands", {})
+    key = (t2, float(m[0]))
+    if key not in cache:
+        z, f, vm = curve.grid
+        with np.errstate(invalid="ignore"):
+            half = np.sqrt(t2s2 * vf / m[0] + t2 * vm)
+            sign = 1.0 if f[-1] >= f[0] else -1.0
+            upper, lower = sign * f + half, sign * f - half
+            rising = bool(np.all(np.diff(upper) > 0) and np.all(np.diff(lower) > 0))
+        cache[key] = (sign, upper, lower) if rising else None
+    return cache[key]
+
+
 def _band_edges(curve: Curve, cal: Calibration, y0: np.ndarray, m: np.ndarray, z_hat: np.ndarray, t: float):
     """Lower and upper z of the band component holding z_hat (nan where it stays open).
 
@@ -138,30 +158,48 @@ def _band_edges(curve: Curve, cal: Calibration, y0: np.ndarray, m: np.ndarray, z
         dvf = weighting.variance_factor_slope(x, fz, dfz / dx_dz) * dx_dz
         return d * d - t2s2 * vf / mm - t2 * vz, 2 * d * dfz - t2s2 * dvf / mm - t2 * dvz
 
-    vf = 1.0 if weighting.values is None else weighting.variance_factor(cal.raw_x(z), f)[None, :]
-    with np.errstate(invalid="ignore"):
-        g = (f[None, :] - y0[:, None]) ** 2 - t2s2 * vf / m[:, None] - t2 * vm[None, :]
-    if weighting.values is not None:
-        g[~np.isfinite(g)] = np.inf  # no weight for a reading there: outside the band
+    vf = np.ones(1) if weighting.values is None else weighting.variance_factor(cal.raw_x(z), f)
+    band = _monotonic_band(curve, vf, m, t2, t2s2)
+    if band is not None:
+        # both edges of a monotonic band by binary search: below z_hat a node is outside where the
+        # band's upper edge (for a rising curve) is below the reading, above z_hat where its lower edge is above
+        sign, upper_edge, lower_edge = band
+        ys = sign * y0
+        j_lo, j_hi = np.searchsorted(upper_edge, ys, "left") - 1, np.searchsorted(lower_edge, ys, "right")
+        rows_lo, rows_hi = np.flatnonzero(j_lo >= 0), np.flatnonzero(j_hi < z.size)
+        j_lo, j_hi = j_lo[rows_lo], j_hi[rows_hi]
+        w = vf if vf.size > 1 else np.broadcast_to(vf, z.shape)
+
+        def g_at(rows, j):
+            return (f[j] - y0[rows]) ** 2 - t2s2 * w[j] / m[rows] - t2 * vm[j]
+    else:
+        with np.errstate(invalid="ignore"):
+            g = (f[None, :] - y0[:, None]) ** 2 - t2s2 * vf[None, :] / m[:, None] - t2 * vm[None, :]
+        if weighting.values is not None:
+            g[~np.isfinite(g)] = np.inf  # no weight for a reading there: outside the band
+        outside = g > 0
+        below = outside & (z[None, :] < z_hat[:, None])
+        above = outside & (z[None, :] > z_hat[:, None])
+        rows_lo, rows_hi = np.flatnonzero(below.any(axis=1)), np.flatnonzero(above.any(axis=1))
+        j_lo = z.size - 1 - np.argmax(below[rows_lo][:, ::-1], axis=1)  # last node outside, below z_hat
+        j_hi = np.argmax(above[rows_hi], axis=1)  # first node outside, above z_hat
+
+        def g_at(rows, j):
+            return g[rows, j]
+
     g_hat = gap_and_slope(z_hat, y0, m)[0]
-    outside = g > 0
-    below = outside & (z[None, :] < z_hat[:, None])
-    above = outside & (z[None, :] > z_hat[:, None])
-    has_lo, has_hi = below.any(axis=1), above.any(axis=1)
-    rows_lo, rows_hi = np.flatnonzero(has_lo), np.flatnonzero(has_hi)
-    j_lo = z.size - 1 - np.argmax(below[rows_lo][:, ::-1], axis=1)  # last node outside, below z_hat
-    j_hi = np.argmax(above[rows_hi], axis=1)  # first node outside, above z_hat
     # inner end of each cell: the neighbour node towards z_hat, or z_hat itself when it is nearer
     k_lo, k_hi = j_lo + 1, j_hi - 1
     node_lo, node_hi = z[k_lo] < z_hat[rows_lo], z[k_hi] > z_hat[rows_hi]
     in_lo = np.where(node_lo, z[k_lo], z_hat[rows_lo])
     in_hi = np.where(node_hi, z[k_hi], z_hat[rows_hi])
-    g_in_lo = np.where(node_lo, g[rows_lo, k_lo], g_hat[rows_lo])
-    g_in_hi = np.where(node_hi, g[rows_hi, k_hi], g_hat[rows_hi])
+    g_in_lo = np.where(node_lo, g_at(rows_lo, k_lo), g_hat[rows_lo])
+    g_in_hi = np.where(node_hi, g_at(rows_hi, k_hi), g_hat[rows_hi])
     rows = np.concatenate([rows_lo, rows_hi])
     found = newton_in_cells(lambda zz: gap_and_slope(zz, y0[rows], m[rows]),
                             np.concatenate([z[j_lo], in_hi]), np.concatenate([in_lo, z[j_hi]]),
-                            np.concatenate([g[rows_lo, j_lo], g_in_hi]), np.concatenate([g_in_lo, g[rows_hi, j_hi]]))
+                            np.concatenate([g_at(rows_lo, j_lo), g_in_hi]),
+                            np.concatenate([g_in_lo, g_at(rows_hi, j_hi)]))
     lower, upper = np.full(y0.size, np.nan), np.full(y0.size, np.nan)
     lower[rows_lo] = found[: rows_lo.size]
     upper[rows_hi] = found[rows_lo.size:]

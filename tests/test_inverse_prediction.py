@@ -106,3 +106,30 @@ def test_interval_bounds_lie_on_the_prediction_band(weights):
         low, high = engine.predict(cal, [est.lower, est.upper], 2)
         assert low.pred_upper == pytest.approx(reading, rel=1e-9)
         assert high.pred_lower == pytest.approx(reading, rel=1e-9)
+
+
+@pytest.mark.parametrize("weights", [None, "1/x", "1/x^2"])
+def test_binary_search_of_a_monotonic_band_matches_the_grid_scan(weights, monkeypatch):
+    # invented calibrations; the binary search over a rising band must give what the general grid scan gives
+    # (x from about 35 to 70, so that x stays positive, and the weights defined, half the range beyond)
+    import engine.prediction as prediction
+    from engine.curve import curve_of
+
+    rng = np.random.default_rng(23)
+    searched = 0
+    for _ in range(15):
+        x = np.repeat(np.linspace(rng.uniform(30, 40), rng.uniform(60, 80), 7), 2)
+        y = 1 + rng.uniform(0.5, 3) * x + rng.uniform(-0.01, 0.01) * x**2 + rng.normal(0, 0.5, x.size)
+        cal = engine.Calibration(x, y, weights=weights)
+        order = engine.choose_order(cal).order
+        readings = np.linspace(y.min() - 3, y.max() + 3, 9)
+        fast = engine.inverse(cal, readings, order, 2)
+        bands = curve_of(cal, order).__dict__.pop("_bands")
+        searched += any(b is not None for b in bands.values())
+        monkeypatch.setattr(prediction, "_monotonic_band", lambda *args: None)
+        general = engine.inverse(cal, readings, order, 2)
+        monkeypatch.undo()
+        assert [e.note for e in fast] == [e.note for e in general]
+        np.testing.assert_allclose([(e.x, e.lower, e.upper) for e in fast],
+                                   [(e.x, e.lower, e.upper) for e in general], rtol=1e-13, equal_nan=True)
+    assert searched >= 5  # the binary search did serve most of these calibrations
