@@ -106,7 +106,8 @@ class Curve:
     def turning_points(self, lo: float = -1.0, hi: float = 1.0) -> np.ndarray:
         """z in (lo, hi) where dy/dz changes sign, sorted."""
         if self._turns is None:
-            d = np.trim_zeros(self._da, "b")
+            nonzero = np.flatnonzero(self._da)
+            d = self._da[: nonzero[-1] + 1] if nonzero.size else self._da[:0]
             turns = np.empty(0)
             if d.size == 2:  # a straight slope: one root
                 turns = np.array([-d[0] / d[1]])

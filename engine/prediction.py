@@ -130,7 +130,7 @@ def _monotonic_band(curve: Curve, vf: np.ndarray, m: np.ndarray, t2: float, t2s2
             half = np.sqrt(t2s2 * vf / m[0] + t2 * vm)
             sign = 1.0 if f[-1] >= f[0] else -1.0
             upper, lower = sign * f + half, sign * f - half
-            rising = bool(np.all(np.diff(upper) > 0) and np.all(np.diff(lower) > 0))
+            rising = bool((upper[1:] > upper[:-1]).all() and (lower[1:] > lower[:-1]).all())
         cache[key] = (sign, upper, lower) if rising else None
     return cache[key]
 
