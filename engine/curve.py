@@ -84,10 +84,6 @@ class Curve:
         """dy/dz."""
         return horner(self._da, z)
 
-    def mean_variance_slope(self, z) -> np.ndarray:
-        """d Var(mean f(z)) / dz."""
-        return self.s**2 * horner(self._dvar, z)
-
     def mean_variance(self, z) -> np.ndarray:
         """Var of the fitted mean at z, in units of y squared."""
         return self.s**2 * np.maximum(horner(self._var_poly, z), 0.0)

@@ -67,7 +67,8 @@ def predict(cal: Calibration, new_x, order: int, level: float = 0.95) -> tuple[P
 
 
 def _replicates(replicates, count: int) -> np.ndarray:
-    if type(replicates) in (int, float) and replicates >= 1 and replicates == int(replicates):
+    if type(replicates) in (int, float) and math.isfinite(replicates) and replicates >= 1 \
+            and replicates == int(replicates):
         return np.full(count, float(replicates))
     m = np.atleast_1d(np.asarray(replicates, dtype=float)).ravel()
     if m.size == 1:
@@ -75,7 +76,7 @@ def _replicates(replicates, count: int) -> np.ndarray:
     if m.size != count:
         raise OptionError(f"replicates has {m.size} values for {count} readings; give one number or one per reading",
                           argument="replicates")
-    bad = np.flatnonzero(~((m >= 1) & (m == np.round(m))))
+    bad = np.flatnonzero(~(np.isfinite(m) & (m >= 1) & (m == np.round(m))))
     if bad.size:
         raise OptionError(f"replicates must be a whole number of at least 1, not {float(m[bad[0]])!r}",
                           argument="replicates", index=int(bad[0]))

@@ -88,6 +88,8 @@ def test_scheme_needs_positive_values():
      "level must be between 0 and 1 (for example 0.95), not 95"),
     (lambda c: engine.inverse(c, [2.0], 1, replicates=0),
      "replicates must be a whole number of at least 1, not 0.0"),
+    (lambda c: engine.inverse(c, [2.0], 1, replicates=float("inf")),
+     "replicates must be a whole number of at least 1, not inf"),
     (lambda c: engine.inverse(c, [2.0, 3.0], 1, replicates=[1, 2, 3]),
      "replicates has 3 values for 2 readings; give one number or one per reading"),
 ])
