@@ -23,8 +23,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from . import functions
-from .formula import (MENTION, Area, Call, Unsupported, areas_of, cell_name, column_letters, parse_call, reference,
-                      shift_references)
+from .formula import MENTION, Area, Call, Unsupported, areas_of, cell_name, parse_call, reference, shift_references
 from .package import (PackageError, SheetText, Workbook, dynamic_array_metadata, read_package,
                       set_full_calc_on_load, write_package)
 
@@ -307,7 +306,6 @@ class Refresher:
             values.pop(key, None)
         ref = f"{cell_name(new.top, new.left)}:{cell_name(new.bottom, new.right)}" if keep_array else None
         by_row: dict[int, dict] = {}
-        p = text.p
         for key, value in content.items():
             style = styles.get(key)
             r, c = key
@@ -316,8 +314,6 @@ class Refresher:
                     xml = text.cell_xml(r, c, value, style, f_xml=text.formula_xml(r, c))
                 else:
                     xml = text.cell_xml(r, c, value, style, f.text, ref, cm if keep_array else None)
-            elif style is None and type(value) is float:  # the usual cell, written here in short
-                xml = f"<{p}c r=\"{column_letters(c)}{r}\"><{p}v>{value!r}</{p}v></{p}c>"
             elif value is None and style is None:
                 xml = None
             else:
