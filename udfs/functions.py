@@ -65,6 +65,12 @@ def _cell(v):
     return v if math.isfinite(v) else None
 
 
+def _column(values) -> list:
+    """_cell of each of a sequence of Python floats."""
+    finite = math.isfinite
+    return [v if finite(v) else None for v in values]
+
+
 def _guarded(single: bool = False):
     """Turn CellError (and any engine error) into one cell of text; never a traceback."""
 
@@ -266,8 +272,7 @@ def calib_predict(x, y, new_x, order=None, level=None, weights=None):
         cal, chosen, _ = _fitted(prep, k)
         rows = [[None] * 6 for _ in range(size)]
         for i, p in zip(filled, engine.predict(cal, values[filled], chosen, lev)):
-            rows[i] = [_cell(p.fitted), _cell(p.mean_lower), _cell(p.mean_upper), _cell(p.pred_lower),
-                       _cell(p.pred_upper), p.note or None]
+            rows[i] = _column((p.fitted, p.mean_lower, p.mean_upper, p.pred_lower, p.pred_upper)) + [p.note or None]
         return rows
 
     return _cached("predict", prep, (k, lev, values.tobytes()), compute)
@@ -287,7 +292,7 @@ def calib_inverse(x, y, reading, replicates=None, order=None, level=None, weight
         cal, chosen, _ = _fitted(prep, k)
         rows = [[None] * 4 for _ in range(size)]
         for i, e in zip(filled, engine.inverse(cal, values[filled], chosen, reps, lev)):
-            rows[i] = [_cell(e.x), _cell(e.lower), _cell(e.upper), e.note or None]
+            rows[i] = _column((e.x, e.lower, e.upper)) + [e.note or None]
         return rows
 
     return _cached("inverse", prep, (reps, k, lev, values.tobytes()), compute)
@@ -306,10 +311,10 @@ def calib_residuals(x, y, order=None, weights=None):
         cal, chosen, _ = _fitted(prep, k)
         d = engine.point_diagnostics(cal, chosen)
         rows = [[None] * 8 for _ in range(prep.n_input)]
-        for j, i in enumerate(prep.used):
-            rows[i] = [_cell(d.fitted[j]), _cell(d.residual[j]), _cell(d.studentized[j]), _cell(d.leverage[j]),
-                       _cell(d.cooks_distance[j]), _cell(d.back_calculated[j]), _cell(d.deviation_percent[j]),
-                       d.notes[j] or None]
+        columns = [_column(c) for c in (d.fitted, d.residual, d.studentized, d.leverage, d.cooks_distance,
+                                        d.back_calculated, d.deviation_percent)]
+        for j, (i, *numbers) in enumerate(zip(prep.used.tolist(), *columns)):
+            rows[i] = numbers + [d.notes[j] or None]
         return rows
 
     return _cached("residuals", prep, (k,), compute)
