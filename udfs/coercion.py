@@ -96,7 +96,7 @@ def flatten(value, name: str) -> Cells:
 
 def numbers_or_blank(cells: Cells) -> tuple[np.ndarray, np.ndarray]:
     """Values (nan where blank) and the blank mask; any other non-number is a CellError."""
-    if all(type(v) is float for v in cells.values):  # the usual case: every cell a number
+    if set(map(type, cells.values)) == {float}:  # the usual case: every cell a number
         out = np.array(cells.values, dtype=float)
         if np.isfinite(out).all():
             return out, np.zeros(out.size, dtype=bool)

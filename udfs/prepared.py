@@ -103,7 +103,7 @@ def _plain_key(x, y, weights):
         xs, ys = tuple([v for (v,) in x]), tuple([v for (v,) in y])
     except (TypeError, ValueError):
         return None
-    if not all(type(v) is float for v in xs + ys):
+    if set(map(type, xs + ys)) != {float}:
         return None
     if weights is None or type(weights) is str:
         return xs, ys, weights
