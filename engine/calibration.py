@@ -218,6 +218,11 @@ class Calibration:
     def leverage(self, order: int) -> np.ndarray:
         return self._leverage[:, order]
 
+    def scaled_residuals(self, order: int) -> np.ndarray:
+        """sqrt(w) (y - fitted) times 2^-e (e fixed per calibration, y scaled into [-1, 1]): for statistics
+        that do not depend on the scale of the residuals, whose squares then neither overflow nor underflow."""
+        return self._residuals_scaled(order)
+
     def weighted_residuals(self, order: int) -> np.ndarray:
         """sqrt(w) (y - fitted) in the units of y, from the order's refined solution."""
         return np.ldexp(self._residuals_scaled(order), self._ey)

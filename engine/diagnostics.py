@@ -153,7 +153,7 @@ def curve_checks(cal: Calibration, order: int, alpha: float = 0.05, point_labels
     alpha = check_alpha(alpha)
     labels = list(point_labels) if point_labels is not None else [f"point {i + 1}" for i in range(cal.n_points)]
     curve = curve_of(cal, order)
-    e, h, r, t, cook = _studentized(cal, curve)
+    t, cook = _studentized(cal, curve)[3:]
     n, p = cal.n_points, curve.order + 1
     by_x = np.argsort(cal.x, kind="stable")
     out = []
@@ -176,6 +176,9 @@ def curve_checks(cal: Calibration, order: int, alpha: float = 0.05, point_labels
     else:
         out.append(Check("Mandel linear vs quadratic", math.nan, math.nan, "n/a", "needs a max order of 2 or more"))
 
+    # the tests below do not depend on the residuals' scale: use them scaled, so that huge or tiny
+    # magnitudes do not over- or underflow in squares
+    e = cal.scaled_residuals(curve.order)
     z, pz, runs = runs_test(e[by_x])
     v, d = _verdict(pz, alpha, "residual signs cluster along x: the curve shape may be wrong",
                     "residual signs alternate as expected by chance")

@@ -93,3 +93,23 @@ def test_power_of_two_scaling_is_exact_in_t_values(data, ex, ey):
     a = engine.Calibration(x, y).fit(2)
     b = engine.Calibration(np.ldexp(x, ex), np.ldexp(y, ey)).fit(2)
     np.testing.assert_allclose(b.t_values, a.t_values, rtol=1e-12)
+
+
+@SETTINGS
+@given(calibrations(), st.floats(-300, 300), st.floats(-300, 300))
+def test_curve_checks_do_not_depend_on_magnitudes(data, ex, ey):
+    # runs, Durbin-Watson, Shapiro-Wilk and Breusch-Pagan are scale free: at any magnitude of x and y
+    # they equal their values at ordinary magnitudes, and no square over- or underflows on the way
+    import warnings
+
+    x, y = data
+    plain = engine.Calibration(x, y)
+    order = engine.choose_order(plain).order
+    expected = {c.name: c.statistic for c in engine.curve_checks(plain, order)}
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        scaled = engine.Calibration(x * 10.0**ex, y * 10.0**ey)
+        assume(engine.choose_order(scaled).order == order)
+        got = {c.name: c.statistic for c in engine.curve_checks(scaled, order)}
+    for name in ("runs of residual signs", "Durbin-Watson", "Shapiro-Wilk", "Breusch-Pagan"):
+        np.testing.assert_allclose(got[name], expected[name], rtol=1e-7, atol=1e-9, err_msg=name)
