@@ -343,13 +343,14 @@ class Calibration:
         lof_p = self._lack_of_fit_p(rss)
         ey2 = 2 * self._ey
         log_w = float(np.sum(np.log(self.sqrt_w**2)))
+        made = {}  # kept only when every order succeeds, so that an overflow leaves no half-filled cache
         for k in range(big_k + 1):
             r, d, npar = float(rss[k]), int(df[k]), k + 2
             log_rss = (math.log(r) if r > 0 else -math.inf) + ey2 * math.log(2.0)
             llf = -0.5 * n * (math.log(2 * math.pi) + log_rss - math.log(n) + 1) + 0.5 * log_w
             aicc = -2 * llf + 2 * npar + (2 * npar * (npar + 1) / (n - npar - 1) if n - npar - 1 > 0 else math.nan)
             r2 = 1.0 - r / self._tss
-            self._stats[k] = OrderStats(
+            made[k] = OrderStats(
                 order=k, n_points=n, df_resid=d, rss=self._ldexp(r, ey2), residual_sd=math.ldexp(math.sqrt(r / d), self._ey),
                 r_squared=r2, adj_r_squared=1.0 - (1.0 - r2) * (n - 1) / d,
                 press=self._ldexp(float(press[k]), ey2), predicted_r_squared=1.0 - float(press[k]) / self._tss,
@@ -357,6 +358,7 @@ class Calibration:
                 overall=FTest(float(f[k]), k, d, float(f_p[k])) if k >= 1 else None,
                 lack_of_fit=self._lack_of_fit(r, k + 1, float(lof_p[k])),
             )
+        self._stats = made
 
     @staticmethod
     def _ldexp(value: float, e: int) -> float:
