@@ -50,6 +50,7 @@ def cell_name(row: int, col: int) -> str:
     return column_letters(col) + str(row)
 
 
+@functools.lru_cache(maxsize=2**16)
 def parse_cell(ref: str) -> tuple[int, int]:
     m = re.fullmatch(_CELL, ref)
     if not m:
