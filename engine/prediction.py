@@ -21,7 +21,7 @@ import math
 import numpy as np
 
 from .calibration import Calibration
-from .curve import EXTEND, Curve, check_level, curve_of, newton_in_cells, sign_changes
+from .curve import EXTEND, RANGE_NODES, Curve, check_level, curve_of, newton_in_cells, sign_changes
 from .errors import DataError, OptionError
 from .results import InverseEstimate, Prediction
 
@@ -116,11 +116,19 @@ def _monotonic_roots(curve: Curve, readings: np.ndarray, z_lo: float, z_hi: floa
     return rows, zs
 
 
+def _grid_variance_factor(curve: Curve, cal: Calibration) -> np.ndarray:
+    """1/w0 of a new reading at every grid node (one 1 when unweighted), made once per curve."""
+    if "_grid_vf" not in curve.__dict__:
+        weighting = cal.weighting
+        z, f, _ = curve.grid
+        curve._grid_vf = np.ones(1) if weighting.values is None else weighting.variance_factor(cal.raw_x(z), f)
+    return curve._grid_vf
+
+
 def _monotonic_band(curve: Curve, vf: np.ndarray, m: np.ndarray, t2: float, t2s2: float):
     """For readings that all average the same number of replicates: the sign of the curve's slope and
     the band's upper and lower edges on the grid, times that sign, when both rise strictly over the
-    whole grid (then each edge of every reading is one binary search); else None. Made once per
-    curve, level and replicates."""
+    whole grid; else None. Made once per curve, level and replicates."""
     if not np.all(m == m[0]):
         return None
     cache = curve.__dict__.setdefault("_bands", {})
@@ -134,6 +142,60 @@ def _monotonic_band(curve: Curve, vf: np.ndarray, m: np.ndarray, t2: float, t2s2
             rising = bool((upper[1:] > upper[:-1]).all() and (lower[1:] > lower[:-1]).all())
         cache[key] = (sign, upper, lower) if rising else None
     return cache[key]
+
+
+def _solve_on_monotonic_band(curve: Curve, cal: Calibration, y0: np.ndarray, m: np.ndarray, t: float):
+    """z estimate, lower and upper z of every reading at once when the band rises (times the sign
+    of the slope) over the whole grid; None otherwise.
+
+    Then the estimate is the one root of f - y0 in [-1, 1], and since the gap factors as
+    (f - y0)^2 - half^2 = (f + half - y0)(f - half - y0), the interval ends are the roots of the band's
+    edges minus y0 (for a rising curve, the upper edge gives the lower end). Each root is bracketed
+    by a binary search of the grid values, and all are refined by one Newton iteration. Readings
+    outside the calibrated response range get nan throughout; an edge that does not reach the
+    reading within the grid leaves that end open (nan).
+    """
+    t2, t2s2 = t**2, t**2 * curve.s**2
+    vf = _grid_variance_factor(curve, cal)
+    band = _monotonic_band(curve, vf, m, t2, t2s2)
+    if band is None:
+        return None
+    sign, upper, lower = band
+    z, f, _ = curve.grid
+    table = np.stack([sign * f, upper, lower])  # kind 0: the curve, 1: its upper edge, 2: its lower edge
+    ys = sign * y0
+    first, last = RANGE_NODES
+    rows = np.flatnonzero((ys >= table[0, first]) & (ys <= table[0, last]))
+    cell = np.clip(np.searchsorted(table[0, first: last + 1], ys[rows]), 1, last - first) + first
+    j_lo = np.searchsorted(upper, ys[rows], "left")  # first node where the upper edge reaches the reading
+    j_hi = np.searchsorted(lower, ys[rows], "right")  # first node where the lower edge passes it
+    lo_rows, hi_rows = np.flatnonzero(j_lo > 0), np.flatnonzero(j_hi < z.size)
+    which = np.concatenate([rows, rows[lo_rows], rows[hi_rows]])
+    kind = np.repeat([0, 1, 2], [rows.size, lo_rows.size, hi_rows.size])
+    right = np.concatenate([cell, j_lo[lo_rows], j_hi[hi_rows]])
+    edge = np.array([0.0, 1.0, -1.0])[kind]
+    weighting, dx_dz, mm, target = cal.weighting, cal.dx_dz, m[which], ys[which]
+
+    def value_and_slope(zz):
+        fz, dfz, vz, dvz = curve.local(zz)
+        if weighting.values is None:
+            vfz, dvf = 1.0, 0.0
+        else:
+            x = cal.raw_x(zz)
+            vfz = weighting.variance_factor(x, fz)
+            dvf = weighting.variance_factor_slope(x, fz, dfz / dx_dz) * dx_dz
+        half = np.sqrt(t2s2 * vfz / mm + t2 * vz)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            dhalf = (t2s2 * dvf / mm + t2 * dvz) / (2 * half)
+        return sign * fz + edge * half - target, sign * dfz + edge * np.where(edge != 0, dhalf, 0.0)
+
+    found = newton_in_cells(value_and_slope, z[right - 1], z[right], table[kind, right - 1] - target,
+                            table[kind, right] - target)
+    z_hat, lower_z, upper_z = (np.full(y0.size, np.nan) for _ in range(3))
+    z_hat[rows] = found[kind == 0]
+    lower_z[rows[lo_rows]] = found[kind == 1]
+    upper_z[rows[hi_rows]] = found[kind == 2]
+    return z_hat, lower_z, upper_z
 
 
 def _band_edges(curve: Curve, cal: Calibration, y0: np.ndarray, m: np.ndarray, z_hat: np.ndarray, t: float):
@@ -159,48 +221,30 @@ def _band_edges(curve: Curve, cal: Calibration, y0: np.ndarray, m: np.ndarray, z
         dvf = weighting.variance_factor_slope(x, fz, dfz / dx_dz) * dx_dz
         return d * d - t2s2 * vf / mm - t2 * vz, 2 * d * dfz - t2s2 * dvf / mm - t2 * dvz
 
-    vf = np.ones(1) if weighting.values is None else weighting.variance_factor(cal.raw_x(z), f)
-    band = _monotonic_band(curve, vf, m, t2, t2s2)
-    if band is not None:
-        # both edges of a monotonic band by binary search: below z_hat a node is outside where the
-        # band's upper edge (for a rising curve) is below the reading, above z_hat where its lower edge is above
-        sign, upper_edge, lower_edge = band
-        ys = sign * y0
-        j_lo, j_hi = np.searchsorted(upper_edge, ys, "left") - 1, np.searchsorted(lower_edge, ys, "right")
-        rows_lo, rows_hi = np.flatnonzero(j_lo >= 0), np.flatnonzero(j_hi < z.size)
-        j_lo, j_hi = j_lo[rows_lo], j_hi[rows_hi]
-        w = vf if vf.size > 1 else np.broadcast_to(vf, z.shape)
-
-        def g_at(rows, j):
-            return (f[j] - y0[rows]) ** 2 - t2s2 * w[j] / m[rows] - t2 * vm[j]
-    else:
-        with np.errstate(invalid="ignore"):
-            g = (f[None, :] - y0[:, None]) ** 2 - t2s2 * vf[None, :] / m[:, None] - t2 * vm[None, :]
-        if weighting.values is not None:
-            g[~np.isfinite(g)] = np.inf  # no weight for a reading there: outside the band
-        outside = g > 0
-        below = outside & (z[None, :] < z_hat[:, None])
-        above = outside & (z[None, :] > z_hat[:, None])
-        rows_lo, rows_hi = np.flatnonzero(below.any(axis=1)), np.flatnonzero(above.any(axis=1))
-        j_lo = z.size - 1 - np.argmax(below[rows_lo][:, ::-1], axis=1)  # last node outside, below z_hat
-        j_hi = np.argmax(above[rows_hi], axis=1)  # first node outside, above z_hat
-
-        def g_at(rows, j):
-            return g[rows, j]
-
+    vf = _grid_variance_factor(curve, cal)
+    with np.errstate(invalid="ignore"):
+        g = (f[None, :] - y0[:, None]) ** 2 - t2s2 * vf[None, :] / m[:, None] - t2 * vm[None, :]
+    if weighting.values is not None:
+        g[~np.isfinite(g)] = np.inf  # no weight for a reading there: outside the band
+    outside = g > 0
+    below = outside & (z[None, :] < z_hat[:, None])
+    above = outside & (z[None, :] > z_hat[:, None])
+    rows_lo, rows_hi = np.flatnonzero(below.any(axis=1)), np.flatnonzero(above.any(axis=1))
+    j_lo = z.size - 1 - np.argmax(below[rows_lo][:, ::-1], axis=1)  # last node outside, below z_hat
+    j_hi = np.argmax(above[rows_hi], axis=1)  # first node outside, above z_hat
     g_hat = gap_and_slope(z_hat, y0, m)[0]
     # inner end of each cell: the neighbour node towards z_hat, or z_hat itself when it is nearer
     k_lo, k_hi = j_lo + 1, j_hi - 1
     node_lo, node_hi = z[k_lo] < z_hat[rows_lo], z[k_hi] > z_hat[rows_hi]
     in_lo = np.where(node_lo, z[k_lo], z_hat[rows_lo])
     in_hi = np.where(node_hi, z[k_hi], z_hat[rows_hi])
-    g_in_lo = np.where(node_lo, g_at(rows_lo, k_lo), g_hat[rows_lo])
-    g_in_hi = np.where(node_hi, g_at(rows_hi, k_hi), g_hat[rows_hi])
+    g_in_lo = np.where(node_lo, g[rows_lo, k_lo], g_hat[rows_lo])
+    g_in_hi = np.where(node_hi, g[rows_hi, k_hi], g_hat[rows_hi])
     rows = np.concatenate([rows_lo, rows_hi])
     found = newton_in_cells(lambda zz: gap_and_slope(zz, y0[rows], m[rows]),
                             np.concatenate([z[j_lo], in_hi]), np.concatenate([in_lo, z[j_hi]]),
-                            np.concatenate([g_at(rows_lo, j_lo), g_in_hi]),
-                            np.concatenate([g_in_lo, g_at(rows_hi, j_hi)]))
+                            np.concatenate([g[rows_lo, j_lo], g_in_hi]),
+                            np.concatenate([g_in_lo, g[rows_hi, j_hi]]))
     lower, upper = np.full(y0.size, np.nan), np.full(y0.size, np.nan)
     lower[rows_lo] = found[: rows_lo.size]
     upper[rows_hi] = found[rows_lo.size:]
@@ -214,13 +258,23 @@ def inverse(cal: Calibration, readings, order: int, replicates=1, level: float =
     m = _replicates(replicates, y0.size)
     curve = curve_of(cal, order)
     t = curve.t_value(level)
-    rows, zs = roots_of(curve, y0, -1.0, 1.0)
-    count = np.bincount(rows, minlength=y0.size)
     f_ends = curve.value(np.array([-1.0, 1.0]))
     lo_resp, hi_resp = float(min(f_ends)), float(max(f_ends))
-    z_hat = np.full(y0.size, np.nan)
-    single = count[rows] == 1
-    z_hat[rows[single]] = zs[single]
+    solved = _solve_on_monotonic_band(curve, cal, y0, m, t)
+    if solved is not None:
+        z_hat, lower_z, upper_z = solved
+        rows, zs = np.flatnonzero(np.isfinite(z_hat)), z_hat[np.isfinite(z_hat)]
+    else:
+        rows, zs = roots_of(curve, y0, -1.0, 1.0)
+    count = np.bincount(rows, minlength=y0.size)
+    if solved is None:
+        z_hat = np.full(y0.size, np.nan)
+        single = count[rows] == 1
+        z_hat[rows[single]] = zs[single]
+        ok = np.flatnonzero(np.isfinite(z_hat))
+        lower_z, upper_z = np.full(y0.size, np.nan), np.full(y0.size, np.nan)
+        if ok.size:
+            lower_z[ok], upper_z[ok] = _band_edges(curve, cal, y0[ok], m[ok], z_hat[ok], t)
     notes = [""] * y0.size
     monotonic = curve.turning_points().size == 0
     for i in np.flatnonzero(count != 1):
@@ -233,10 +287,6 @@ def inverse(cal: Calibration, readings, order: int, replicates=1, level: float =
                         "no estimate outside the calibrated range")
         else:
             notes[i] = "no x within the calibrated range gives this reading"
-    ok = np.flatnonzero(np.isfinite(z_hat))
-    lower_z, upper_z = np.full(y0.size, np.nan), np.full(y0.size, np.nan)
-    if ok.size:
-        lower_z[ok], upper_z[ok] = _band_edges(curve, cal, y0[ok], m[ok], z_hat[ok], t)
     out = []
     x_hat, x_lo, x_hi = (cal.raw_x(v).tolist() for v in (z_hat, lower_z, upper_z))
     for i in range(y0.size):
