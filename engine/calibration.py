@@ -31,6 +31,8 @@ from .weighting import Weighting
 DEFAULT_MAX_ORDER = 4
 # points x right-hand sides up to which every order's covariance is refined in the same call
 _ONE_CALL_LIMIT = 4096
+# smallest |R_jj| / max |R_jj| of the scaled basis accepted as full rank (far below any real calibration)
+_RANK_TOLERANCE = 1e-12
 
 
 def _vector(values, name: str) -> np.ndarray:
@@ -126,6 +128,12 @@ class Calibration:
                 f"all {n} x values are equal ({float(x[0])!r}): a curve needs at least 2 distinct x values",
                 argument="x",
             )
+        if np.all(y == y[0]):
+            raise DataError(
+                f"all {n} y values are equal ({float(y[0])!r}): the response does not change with x, "
+                "so there is no curve to fit",
+                argument="y",
+            )
         self.weighting = Weighting(weights, x, y)
         if max_order is None:
             k = default_max_order(n, m)
@@ -156,6 +164,14 @@ class Calibration:
         z = (u - self.centre) / self.half_width
         zw = np.vander(z, k + 1, increasing=True) * self.sqrt_w[:, None]
         self._q, self._r = householder_qr(zw)
+        size = np.abs(np.diag(self._r))
+        if not size.min() > _RANK_TOLERANCE * size.max():
+            raise DataError(
+                f"the x values are too close together, compared with their range ({float(x.min())!r} to "
+                f"{float(x.max())!r}), for order {k}: in double precision they do not give {k + 1} distinct "
+                "positions; remove the outlying x or choose a lower max_order",
+                argument="x",
+            )
         self._yw = self._ys * self.sqrt_w
         self._qty = self._q.T @ self._yw
         self._r_inv = _triangular_inverse(self._r)
