@@ -349,16 +349,15 @@ class Calibration:
         """OrderStats of every order at once (formulas in ``results.OrderStats``)."""
         n, big_k = self.n_points, self.max_order
         e, h, rss = self._residual_matrix, self._leverage, self._all_rss
-        with np.errstate(divide="ignore", invalid="ignore"):
-            press = np.where(np.all(h < 1 - 1e-12, axis=0), np.sum((e / (1.0 - h)) ** 2, axis=0), math.nan)
         orders = np.arange(big_k + 1)
         df = n - orders - 1
         with np.errstate(divide="ignore", invalid="ignore"):
+            press = np.where(np.all(h < 1 - 1e-12, axis=0), np.sum((e / (1.0 - h)) ** 2, axis=0), math.nan)
             f = ((self._tss - rss) / np.maximum(orders, 1)) / (rss / df)
         f_p = f_sf(f, np.maximum(orders, 1), df)
         lof_p = self._lack_of_fit_p(rss)
         ey2 = 2 * self._ey
-        log_w = float(np.sum(np.log(self.sqrt_w**2)))
+        log_w = 0.0 if self.weighting.values is None else float(np.sum(np.log(self.weighting.values)))
         made = {}  # kept only when every order succeeds, so that an overflow leaves no half-filled cache
         for k in range(big_k + 1):
             r, d, npar = float(rss[k]), int(df[k]), k + 2
