@@ -386,7 +386,7 @@ def refresh_file(path: Path, check: bool = False, backup: bool = False, workers:
             raise PackageError(f"the workbook is open in a spreadsheet program ({lock.name} is present); "
                                "close it and try again")
         infos, parts = read_package(path)
-        changed, added = Refresher(parts).run(report, os.cpu_count() or 1 if workers is None else workers)
+        changed, added = Refresher(parts).run(report, (os.cpu_count() or 1) if workers is None else workers)
         if check or not changed:
             return report
         parts.update(changed)
