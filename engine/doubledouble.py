@@ -61,9 +61,9 @@ def add(ah, al, bh, bl):
     return _fast_two_sum(s, e)
 
 
-def mul_double(ah, al, b):
-    """Double-double times a plain double."""
-    p, e = two_prod(ah, b)
+def mul_double(ah, al, b, b_split=None):
+    """Double-double times a plain double; ``b_split`` may give split(b)."""
+    p, e = two_prod(b, ah, b_split)
     e = e + al * b
     return _fast_two_sum(p, e)
 
@@ -101,7 +101,6 @@ def powers(x, order):
     lo = np.empty_like(hi)
     hi[:, 0], lo[:, 0] = 1.0, 0.0
     x_split = _split(x)
-    for k in range(1, order + 1):  # (hi + lo) * x, as mul_double with x split once
-        p, e = two_prod(x, hi[:, k - 1], x_split)
-        hi[:, k], lo[:, k] = _fast_two_sum(p, e + lo[:, k - 1] * x)
+    for k in range(1, order + 1):
+        hi[:, k], lo[:, k] = mul_double(hi[:, k - 1], lo[:, k - 1], x, x_split)
     return hi, lo

@@ -116,6 +116,16 @@ def _monotonic_roots(curve: Curve, readings: np.ndarray, z_lo: float, z_hi: floa
     return rows, zs
 
 
+def _variance_factor_and_slope(cal: Calibration, zz: np.ndarray, fz: np.ndarray, dfz: np.ndarray):
+    """1/w0 of a new reading at z and its derivative along z (1 and 0 when unweighted)."""
+    weighting = cal.weighting
+    if weighting.values is None:
+        return 1.0, 0.0
+    x = cal.raw_x(zz)
+    return (weighting.variance_factor(x, fz),
+            weighting.variance_factor_slope(x, fz, dfz / cal.dx_dz) * cal.dx_dz)
+
+
 def _grid_variance_factor(curve: Curve, cal: Calibration) -> np.ndarray:
     """1/w0 of a new reading at every grid node (one 1 when unweighted), made once per curve."""
     if "_grid_vf" not in curve.__dict__:
@@ -174,16 +184,11 @@ def _solve_on_monotonic_band(curve: Curve, cal: Calibration, y0: np.ndarray, m: 
     kind = np.repeat([0, 1, 2], [rows.size, lo_rows.size, hi_rows.size])
     right = np.concatenate([cell, j_lo[lo_rows], j_hi[hi_rows]])
     edge = np.array([0.0, 1.0, -1.0])[kind]
-    weighting, dx_dz, mm, target = cal.weighting, cal.dx_dz, m[which], ys[which]
+    mm, target = m[which], ys[which]
 
     def value_and_slope(zz):
         fz, dfz, vz, dvz = curve.local(zz)
-        if weighting.values is None:
-            vfz, dvf = 1.0, 0.0
-        else:
-            x = cal.raw_x(zz)
-            vfz = weighting.variance_factor(x, fz)
-            dvf = weighting.variance_factor_slope(x, fz, dfz / dx_dz) * dx_dz
+        vfz, dvf = _variance_factor_and_slope(cal, zz, fz, dfz)
         half = np.sqrt(t2s2 * vfz / mm + t2 * vz)
         with np.errstate(divide="ignore", invalid="ignore"):
             dhalf = (t2s2 * dvf / mm + t2 * dvz) / (2 * half)
@@ -207,24 +212,18 @@ def _band_edges(curve: Curve, cal: Calibration, y0: np.ndarray, m: np.ndarray, z
     are refined together by Newton's method on gap.
     """
     z, f, vm = curve.grid
-    weighting = cal.weighting
-    dx_dz = cal.dx_dz
     t2, t2s2 = t**2, t**2 * curve.s**2
 
     def gap_and_slope(zz, y, mm):
         fz, dfz, vz, dvz = curve.local(zz)
         d = fz - y
-        if weighting.values is None:
-            return d * d - t2s2 / mm - t2 * vz, 2 * d * dfz - t2 * dvz
-        x = cal.raw_x(zz)
-        vf = weighting.variance_factor(x, fz)
-        dvf = weighting.variance_factor_slope(x, fz, dfz / dx_dz) * dx_dz
+        vf, dvf = _variance_factor_and_slope(cal, zz, fz, dfz)
         return d * d - t2s2 * vf / mm - t2 * vz, 2 * d * dfz - t2s2 * dvf / mm - t2 * dvz
 
     vf = _grid_variance_factor(curve, cal)
     with np.errstate(invalid="ignore"):
         g = (f[None, :] - y0[:, None]) ** 2 - t2s2 * vf[None, :] / m[:, None] - t2 * vm[None, :]
-    if weighting.values is not None:
+    if cal.weighting.values is not None:
         g[~np.isfinite(g)] = np.inf  # no weight for a reading there: outside the band
     outside = g > 0
     below = outside & (z[None, :] < z_hat[:, None])

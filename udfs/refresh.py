@@ -226,16 +226,13 @@ class Refresher:
             _FORKED = None
         position = {plan[0][k].where: i for i, k in enumerate(order)}
         changed, arrays = {}, False
-        for parts, used, lists, values_changed in outcomes:
+        for parts, used, _, values_changed in outcomes:
             changed.update(parts)
             arrays |= used
             report.changed |= values_changed
-            for name, entries in lists.items():
-                getattr(report, name).extend(entries)
-        for name in ("refreshed", "blocked", "left_alone", "failed"):
-            entries = getattr(report, name)
-            first = len(entries) - sum(len(o[2][name]) for o in outcomes)
-            entries[first:] = sorted(entries[first:], key=lambda e: position[e if isinstance(e, str) else e[0]])
+        for name in outcomes[0][2]:
+            added = [e for o in outcomes for e in o[2][name]]
+            getattr(report, name).extend(sorted(added, key=lambda e: position[e if isinstance(e, str) else e[0]]))
         return changed, arrays
 
     def _order(self, graph, by_cell, report):
@@ -284,8 +281,8 @@ class Refresher:
             old_cells = {(r, c) for r in range(f.previous.top, f.previous.bottom + 1)
                          for c in range(f.previous.left, f.previous.right + 1)}
         values, formulas = sheet.values, sheet.formulas
-        cells = [(f.row + i, f.col + j) for i in range(height) for j in range(width)]
-        blocked_by = next((k for k in cells if k != anchor and k not in old_cells
+        covered = ((f.row + i, f.col + j) for i in range(height) for j in range(width))
+        blocked_by = next((k for k in covered if k != anchor and k not in old_cells
                            and (k in values or k in formulas)), None)
         if blocked_by is not None:
             report.blocked.append((f.where, f"the result ({height} x {width}) would cover "
