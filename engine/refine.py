@@ -50,10 +50,43 @@ def _binomials(order: int) -> np.ndarray:
     return b
 
 
-def _product_terms(a_hi, a_lo, a_split, b_hi, b_lo):
-    """a*b as a large part, exact, and the small parts, to be summed accurately."""
-    big, err = dd.two_prod(a_hi, b_hi, a_split)
-    return big, err + (a_hi * b_lo + a_lo * b_hi)
+def _pieces(hi: np.ndarray, lo: np.ndarray, shape) -> tuple[np.ndarray, ...]:
+    """A double-double array and the Dekker split of its high part, each laid out in full as ``shape``
+    (elementwise operations on full arrays are several times faster than broadcasting ones)."""
+    out = np.empty((4,) + shape)
+    out[0], out[1] = hi, lo
+    out[2], out[3] = dd.split(hi)
+    return tuple(out)
+
+
+def _products(a, b):
+    """Terms a * b of two double-double arrays given as ``_pieces``: the rounded products and the
+    small parts (their exact rounding errors, Dekker's TwoProduct, plus hi*lo + lo*hi), to be summed
+    accurately."""
+    a_hi, a_lo, a_big, a_small = a
+    b_hi, b_lo, b_big, b_small = b
+    big = a_hi * b_hi
+    small = a_big * b_big
+    small -= big
+    small += a_big * b_small
+    small += a_small * b_big
+    small += a_small * b_small
+    small += a_hi * b_lo
+    small += a_lo * b_hi
+    return big, small
+
+
+def _high_parts(big, sigma):
+    """ExtractVector's error-free step: q = (sigma + big) - sigma, and big - q left in ``big``."""
+    q = sigma + big
+    q -= sigma
+    big -= q
+    return q
+
+
+def _sigma(top: np.ndarray, count: int) -> np.ndarray:
+    """2^(M + ceil(log2 top)) with 2^M >= count + 2: the extraction constant of ExtractVector."""
+    return np.ldexp(1.0, np.frexp(top)[1] + (count + 1).bit_length())
 
 
 def refine(v_hi, v_lo, q, r_inv, t, y_hi, y_lo, c, mask=None):
@@ -67,43 +100,55 @@ def refine(v_hi, v_lo, q, r_inv, t, y_hi, y_lo, c, mask=None):
     blocks of q, r_inv and t are those of the lower order, so one call solves
     nested orders side by side. Returns b (m, p) and the residual e (m, n),
     each as a double-double pair. The first solution is the plain double one;
-    each refinement step then forms the residuals in double-double.
+    each refinement step then forms the residuals f = y - e - V b and
+    g = c - V'e in double-double from the exact products V_ik b_k and V_ik e_i
+    (laid out as (m, p, rows)) by one extraction pass of Rump, Ogita & Oishi's
+    ExtractVector (see ``doubledouble.accurate_sum``): the high parts sum exactly
+    in any order, so sums are taken as matrix products with vectors of ones.
     """
     to_raw = (t @ r_inv).T
     from_raw = to_raw.T
     keep = 1.0 if mask is None else mask
-    u = ((y_hi + y_lo) @ q - c @ from_raw) * keep
+    y = y_hi + y_lo
+    u = (y @ q - c @ from_raw) * keep
     b_hi, b_lo = u @ to_raw, np.zeros((y_hi.shape[0], v_hi.shape[1]))
-    e_hi, e_lo = (y_hi + y_lo) - u @ q.T, np.zeros_like(y_hi)
+    e_hi, e_lo = y - u @ q.T, np.zeros_like(y_hi)
     n, p = v_hi.shape
-    rows = max(1024, _BLOCK // (y_hi.shape[0] * (p + 2)))  # rows per block keep temporaries small
-    blocks = [(i, min(i + rows, n)) for i in range(0, n, rows)]
-    pieces = []
-    for i, j in blocks:
-        vt_hi, vt_lo = np.ascontiguousarray(v_hi[i:j].T), np.ascontiguousarray(v_lo[i:j].T)
-        pieces.append((v_hi[i:j][None], v_lo[i:j][None], tuple(a[None] for a in dd.split(v_hi[i:j])),
-                       vt_hi[None], vt_lo[None], tuple(a[None] for a in dd.split(vt_hi))))
+    m = y_hi.shape[0]
+    rows = max(1024, _BLOCK // (m * p))  # rows per block keep temporaries small
+    blocks = []
+    for i in range(0, n, rows):
+        j = min(i + rows, n)
+        blocks.append((slice(i, j), _pieces(v_hi[i:j].T, v_lo[i:j].T, (m, p, j - i)),
+                       np.abs(v_hi[i:j]).max(axis=0), np.ones(j - i)))
+    ones_p = np.ones(p)
+    shift_f, y_top = p + 2, np.abs(y_hi).max(axis=1)
     previous = 1.0
     for _ in range(_MAX_STEPS):
         f_hi, f_lo = np.empty_like(e_hi), np.empty_like(e_hi)
-        partial_hi, partial_lo = [c], [np.zeros_like(c)]
-        for (i, j), (vh, vl, vs, vth, vtl, vts) in zip(blocks, pieces):
-            # f = y - e - V b, a sum over the p terms of each row
-            big, small = _product_terms(vh, vl, vs, b_hi[:, None, :], b_lo[:, None, :])
-            f_hi[:, i:j], f_lo[:, i:j] = dd.accurate_sum(
-                np.concatenate([y_hi[:, i:j, None], -e_hi[:, i:j, None], -big], axis=2),
-                np.concatenate([y_lo[:, i:j, None], -e_lo[:, i:j, None], -small], axis=2),
-            )
-            # V' e, a sum over the rows of the block
-            big, small = _product_terms(vth, vtl, vts, e_hi[:, None, i:j], e_lo[:, None, i:j])
-            hi, lo = dd.accurate_sum(big, small)
-            partial_hi.append(-hi)
-            partial_lo.append(-lo)
-        # g = c - V' e
-        if len(partial_hi) == 2:
-            g_hi, g_lo = dd.add(c, partial_lo[0], partial_hi[1], partial_lo[1])
-        else:
-            g_hi, g_lo = dd.accurate_sum(np.stack(partial_hi, axis=2), np.stack(partial_lo, axis=2))
+        g_hi, g_lo = c, np.zeros_like(c)  # g = c - V'e, less each block's sum
+        e_top = np.abs(e_hi).max(axis=1)
+        for s, vt, v_max, ones_n in blocks:
+            shape = vt[0].shape
+            # -f = V b + e - y: the p terms of each row plus e and -y; sigma bounds every term
+            big, small = _products(vt, _pieces(b_hi[:, :, None], b_lo[:, :, None], shape))
+            sigma = _sigma(np.maximum(np.maximum(y_top, e_top), np.abs(b_hi) @ v_max), shift_f)[:, None]
+            q_sum = ones_p @ _high_parts(big, sigma[:, :, None])
+            big += small
+            rest = ones_p @ big
+            e_part, y_part = e_hi[:, s], y_hi[:, s]
+            q_e = (sigma + e_part) - sigma
+            q_y = (sigma - y_part) - sigma
+            hi, lo = dd.two_sum(q_sum + q_e + q_y,
+                                rest + (e_part - q_e) - (y_part + q_y) + (e_lo[:, s] - y_lo[:, s]))
+            f_hi[:, s], f_lo[:, s] = -hi, -lo
+            # V'e: the terms of each block's rows
+            big, small = _products(vt, _pieces(e_hi[:, None, s], e_lo[:, None, s], shape))
+            sigma = _sigma(np.abs(big).reshape(m, -1).max(axis=1), shape[2])[:, None, None]
+            q_sum = _high_parts(big, sigma) @ ones_n
+            big += small
+            hi, lo = dd.two_sum(q_sum, big @ ones_n)
+            g_hi, g_lo = dd.add(g_hi, g_lo, -hi, -lo)
         f = f_hi + f_lo
         u = (f @ q - ((g_hi + g_lo) * keep) @ from_raw) * keep
         db = u @ to_raw
