@@ -68,7 +68,6 @@ class Curve:
         self._local = np.zeros((width, 4))
         for column, c in enumerate((self.a, self._da, self._var_poly, self._dvar)):
             self._local[: c.size, column] = c
-        self._exponents = np.arange(width, dtype=float)
         self._turns = None
         self.stats = cal.stats(self.order)
         self.s = self.stats.residual_sd
@@ -91,7 +90,7 @@ class Curve:
 
     def local(self, z: np.ndarray):
         """f(z), f'(z), the variance of the fitted mean and its slope, at the points z (1-D)."""
-        v = (z[:, None] ** self._exponents) @ self._local
+        v = np.vander(z, self._local.shape[0], increasing=True) @ self._local
         s2 = self.s**2
         return v[:, 0], v[:, 1], s2 * np.maximum(v[:, 2], 0.0), s2 * v[:, 3]
 
@@ -161,20 +160,19 @@ def newton_in_cells(func, lo, hi, f_lo, f_hi, steps: int = 8):
     over the last two steps (quadratic: next ~ moved^3 / previous^2) puts the
     next move below it.
     """
-    lo, hi = np.asarray(lo, dtype=float), np.asarray(hi, dtype=float)
-    f_lo, f_hi = np.asarray(f_lo, dtype=float), np.asarray(f_hi, dtype=float)
     with np.errstate(divide="ignore", invalid="ignore"):
         z = lo - f_lo * (hi - lo) / (f_hi - f_lo)
-        z[~np.isfinite(z)] = ((lo + hi) / 2)[~np.isfinite(z)]
+        if not np.isfinite(z).all():
+            z = np.where(np.isfinite(z), z, (lo + hi) / 2)
         z = np.minimum(np.maximum(z, lo), hi)
         previous = None
         for _ in range(steps):
             value, slope = func(z)
             new = z - value / slope
-            bad = ~np.isfinite(new)
-            new[bad] = z[bad]
+            if not np.isfinite(new).all():
+                new = np.where(np.isfinite(new), new, z)
             new = np.minimum(np.maximum(new, lo), hi)
-            moved = np.abs(new - z).max(initial=0.0)
+            moved = float(np.abs(new - z).max(initial=0.0))
             z = new
             if moved <= _Z_TOLERANCE or (previous is not None and moved**3 <= _Z_TOLERANCE * previous**2):
                 break

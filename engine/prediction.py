@@ -37,6 +37,13 @@ def _finite(values, name: str) -> np.ndarray:
     return a
 
 
+_ENDS = np.array([-1.0, 1.0])
+_KINDS = np.array([0, 1, 2])  # inverse prediction's roots: the estimate, the lower end, the upper end
+_EDGES = np.array([0.0, 1.0, -1.0])  # the band edge whose root each kind is (sign of the half-width)
+for _a in (_ENDS, _KINDS, _EDGES):
+    _a.flags.writeable = False
+
+
 def _range_words(curve: Curve) -> str:
     return f"[{curve.x_min:.6g}, {curve.x_max:.6g}]"
 
@@ -53,16 +60,17 @@ def predict(cal: Calibration, new_x, order: int, level: float = 0.95) -> tuple[P
     t = curve.t_value(level)
     half_mean = t * np.sqrt(var_mean)
     half_pred = t * np.sqrt(var_new + var_mean)
+    lows, highs = (fitted - half_mean).tolist(), (fitted + half_mean).tolist()
+    p_lows, p_highs = (fitted - half_pred).tolist(), (fitted + half_pred).tolist()
+    outside = f"x outside the calibrated range {_range_words(curve)}: extrapolation"
+    no_weight = f"weights '{cal.weighting.label}' give no weight for a reading here"
+    weighted = np.isfinite(half_pred).tolist()
     out = []
-    for i, x in enumerate(x0):
-        notes = []
-        if x < curve.x_min or x > curve.x_max:
-            notes.append(f"x outside the calibrated range {_range_words(curve)}: extrapolation")
-        if not np.isfinite(half_pred[i]):
-            notes.append(f"weights '{cal.weighting.label}' give no weight for a reading here")
-        out.append(Prediction(float(x), float(fitted[i]), float(fitted[i] - half_mean[i]),
-                              float(fitted[i] + half_mean[i]), float(fitted[i] - half_pred[i]),
-                              float(fitted[i] + half_pred[i]), "; ".join(notes)))
+    for i, (x, y) in enumerate(zip(x0.tolist(), fitted.tolist())):
+        notes = outside if (x < curve.x_min or x > curve.x_max) else ""
+        if not weighted[i]:
+            notes = f"{notes}; {no_weight}" if notes else no_weight
+        out.append(Prediction(x, y, lows[i], highs[i], p_lows[i], p_highs[i], notes))
     return tuple(out)
 
 
@@ -137,9 +145,9 @@ def _grid_variance_factor(curve: Curve, cal: Calibration) -> np.ndarray:
 
 def _monotonic_band(curve: Curve, vf: np.ndarray, m: np.ndarray, t2: float, t2s2: float):
     """For readings that all average the same number of replicates: the sign of the curve's slope and
-    the band's upper and lower edges on the grid, times that sign, when both rise strictly over the
-    whole grid; else None. Made once per curve, level and replicates."""
-    if not np.all(m == m[0]):
+    the rows (curve, upper edge, lower edge) on the grid, times that sign, when both edges rise strictly
+    over the whole grid; else None. Made once per curve, level and replicates."""
+    if m.size > 1 and not (m == m[0]).all():
         return None
     cache = curve.__dict__.setdefault("_bands", {})
     key = (t2, float(m[0]))
@@ -150,7 +158,7 @@ def _monotonic_band(curve: Curve, vf: np.ndarray, m: np.ndarray, t2: float, t2s2
             sign = 1.0 if f[-1] >= f[0] else -1.0
             upper, lower = sign * f + half, sign * f - half
             rising = bool((upper[1:] > upper[:-1]).all() and (lower[1:] > lower[:-1]).all())
-        cache[key] = (sign, upper, lower) if rising else None
+        cache[key] = (sign, np.stack([sign * f, upper, lower])) if rising else None
     return cache[key]
 
 
@@ -170,28 +178,27 @@ def _solve_on_monotonic_band(curve: Curve, cal: Calibration, y0: np.ndarray, m: 
     band = _monotonic_band(curve, vf, m, t2, t2s2)
     if band is None:
         return None
-    sign, upper, lower = band
-    z, f, _ = curve.grid
-    table = np.stack([sign * f, upper, lower])  # kind 0: the curve, 1: its upper edge, 2: its lower edge
+    sign, table = band  # kind 0: the curve, 1: its upper edge, 2: its lower edge
+    z = curve.grid[0]
     ys = sign * y0
     first, last = RANGE_NODES
-    rows = np.flatnonzero((ys >= table[0, first]) & (ys <= table[0, last]))
-    cell = np.clip(np.searchsorted(table[0, first: last + 1], ys[rows]), 1, last - first) + first
-    j_lo = np.searchsorted(upper, ys[rows], "left")  # first node where the upper edge reaches the reading
-    j_hi = np.searchsorted(lower, ys[rows], "right")  # first node where the lower edge passes it
-    lo_rows, hi_rows = np.flatnonzero(j_lo > 0), np.flatnonzero(j_hi < z.size)
+    rows = ((ys >= table[0, first]) & (ys <= table[0, last])).nonzero()[0]
+    inside = ys[rows]
+    cell = np.minimum(np.maximum(np.searchsorted(table[0, first: last + 1], inside), 1), last - first) + first
+    j_lo = np.searchsorted(table[1], inside, "left")  # first node where the upper edge reaches the reading
+    j_hi = np.searchsorted(table[2], inside, "right")  # first node where the lower edge passes it
+    lo_rows, hi_rows = (j_lo > 0).nonzero()[0], (j_hi < z.size).nonzero()[0]
     which = np.concatenate([rows, rows[lo_rows], rows[hi_rows]])
-    kind = np.repeat([0, 1, 2], [rows.size, lo_rows.size, hi_rows.size])
+    kind = np.repeat(_KINDS, [rows.size, lo_rows.size, hi_rows.size])
     right = np.concatenate([cell, j_lo[lo_rows], j_hi[hi_rows]])
-    edge = np.array([0.0, 1.0, -1.0])[kind]
+    edge = _EDGES[kind]
     mm, target = m[which], ys[which]
 
-    def value_and_slope(zz):
+    def value_and_slope(zz):  # called inside newton_in_cells, which ignores division warnings
         fz, dfz, vz, dvz = curve.local(zz)
         vfz, dvf = _variance_factor_and_slope(cal, zz, fz, dfz)
         half = np.sqrt(t2s2 * vfz / mm + t2 * vz)
-        with np.errstate(divide="ignore", invalid="ignore"):
-            dhalf = (t2s2 * dvf / mm + t2 * dvz) / (2 * half)
+        dhalf = (t2s2 * dvf / mm + t2 * dvz) / (2 * half)
         return sign * fz + edge * half - target, sign * dfz + edge * np.where(edge != 0, dhalf, 0.0)
 
     found = newton_in_cells(value_and_slope, z[right - 1], z[right], table[kind, right - 1] - target,
@@ -257,12 +264,12 @@ def inverse(cal: Calibration, readings, order: int, replicates=1, level: float =
     m = _replicates(replicates, y0.size)
     curve = curve_of(cal, order)
     t = curve.t_value(level)
-    f_ends = curve.value(np.array([-1.0, 1.0]))
-    lo_resp, hi_resp = float(min(f_ends)), float(max(f_ends))
+    lo_resp, hi_resp = sorted(curve.value(_ENDS).tolist())
     solved = _solve_on_monotonic_band(curve, cal, y0, m, t)
     if solved is not None:
         z_hat, lower_z, upper_z = solved
-        rows, zs = np.flatnonzero(np.isfinite(z_hat)), z_hat[np.isfinite(z_hat)]
+        rows = np.isfinite(z_hat).nonzero()[0]
+        zs = z_hat[rows]
     else:
         rows, zs = roots_of(curve, y0, -1.0, 1.0)
     count = np.bincount(rows, minlength=y0.size)
@@ -276,7 +283,7 @@ def inverse(cal: Calibration, readings, order: int, replicates=1, level: float =
             lower_z[ok], upper_z[ok] = _band_edges(curve, cal, y0[ok], m[ok], z_hat[ok], t)
     notes = [""] * y0.size
     monotonic = curve.turning_points().size == 0
-    for i in np.flatnonzero(count != 1):
+    for i in (count != 1).nonzero()[0].tolist():
         if count[i] > 1:
             xs = ", ".join(f"{v:.6g}" for v in cal.raw_x(zs[rows == i]))
             notes[i] = f"several x in the calibrated range give this reading ({xs}): the curve is not monotonic"
@@ -288,16 +295,16 @@ def inverse(cal: Calibration, readings, order: int, replicates=1, level: float =
             notes[i] = "no x within the calibrated range gives this reading"
     out = []
     x_hat, x_lo, x_hi = (cal.raw_x(v).tolist() for v in (z_hat, lower_z, upper_z))
-    for i in range(y0.size):
+    for i, (y, z, lo, hi) in enumerate(zip(y0.tolist(), z_hat.tolist(), lower_z.tolist(), upper_z.tolist())):
         note = notes[i]
-        if np.isfinite(z_hat[i]):
+        if math.isfinite(z):
             parts = []
-            for bound, name in ((lower_z[i], "lower"), (upper_z[i], "upper")):
-                if not np.isfinite(bound):
+            for bound, name in ((lo, "lower"), (hi, "upper")):
+                if not math.isfinite(bound):
                     parts.append(f"{name} bound open: the prediction band does not close within "
                                  f"{EXTEND:.0%} of the range beyond the calibrated range")
                 elif bound < -1 or bound > 1:
                     parts.append(f"{name} bound lies beyond the calibrated range")
             note = "; ".join(parts)
-        out.append(InverseEstimate(float(y0[i]), x_hat[i], x_lo[i], x_hi[i], note))
+        out.append(InverseEstimate(y, x_hat[i], x_lo[i], x_hi[i], note))
     return tuple(out)
