@@ -24,6 +24,8 @@ GRID_Z = np.concatenate([-1 - _STEP * np.arange(_OUTSIDE, 0, -1), np.linspace(-1
                          1 + _STEP * np.arange(1, _OUTSIDE + 1)])
 GRID_Z.flags.writeable = False
 RANGE_NODES = (_OUTSIDE, _OUTSIDE + _CELLS)  # indices of z = -1 and z = 1 in GRID_Z
+ENDS = np.array([-1.0, 1.0])  # z at the ends of the calibrated range
+ENDS.flags.writeable = False
 # Newton stops when no point moved more than this (z spans 2 over the calibrated range)
 _Z_TOLERANCE = 2.0**-46
 

@@ -18,7 +18,7 @@ import numpy as np
 from scipy import special
 
 from .calibration import Calibration, householder_qr
-from .curve import Curve, curve_of
+from .curve import ENDS, Curve, curve_of
 from .distributions import f_quantile, normal_two_sided, t_two_sided
 from .prediction import roots_of
 from .results import Check, PointDiagnostics
@@ -28,7 +28,8 @@ BACK_CALC_EXTEND = 0.25
 
 
 def _studentized(cal: Calibration, curve: Curve):
-    """Weighted residuals, leverages, studentized residuals and Cook's D of a curve (computed once)."""
+    """Weighted residuals, leverages, studentized residuals, Cook's D, Bonferroni p-values of the
+    externally studentized residuals and the Cook's D threshold of a curve (computed once)."""
     cached = curve.__dict__.get("_studentized")
     if cached is not None:
         return cached
@@ -39,7 +40,8 @@ def _studentized(cal: Calibration, curve: Curve):
         df = curve.df
         t = r * np.sqrt((df - 1) / (df - r**2)) if df > 1 else np.full_like(r, np.nan)
         cook = r**2 * h / ((curve.order + 1) * (1.0 - h))
-    curve._studentized = e, h, r, t, cook
+    n, p = cal.n_points, curve.order + 1
+    curve._studentized = e, h, r, t, cook, _bonferroni(t, curve.df, n), float(f_quantile(0.5, p, n - p))
     return curve._studentized
 
 
@@ -50,7 +52,7 @@ def _back_calculate(cal: Calibration, curve: Curve):
     back = np.full(cal.n_points, np.nan)
     distance = np.abs(zs - cal.scaled_x(cal.x)[rows])
     order = np.lexsort((distance, rows))
-    first = order[np.r_[True, rows[order][1:] != rows[order][:-1]]] if rows.size else order
+    first = order[np.concatenate(([True], rows[order][1:] != rows[order][:-1]))] if rows.size else order
     back[rows[first]] = cal.raw_x(zs[first])
     return back, count
 
@@ -65,33 +67,31 @@ def point_diagnostics(cal: Calibration, order: int, alpha: float = 0.05) -> Poin
     """Fitted, residual, studentized residuals, leverage, Cook's D, back-calculated x per standard."""
     alpha = check_alpha(alpha)
     curve = curve_of(cal, order)
-    e, h, r, t, cook = _studentized(cal, curve)
+    e, h, r, t, cook, bonf, cook_cut = _studentized(cal, curve)
     fitted = cal.y - e / cal.sqrt_w
     resid = cal.y - fitted
-    n, p = cal.n_points, curve.order + 1
-    bonf = _bonferroni(t, curve.df, n)
-    cook_cut = float(f_quantile(0.5, p, n - p))
     back, count = _back_calculate(cal, curve)
     notes = []
-    for i in range(n):
+    for c, b, tt, d, hh, x in zip(count.tolist(), bonf.tolist(), t.tolist(), cook.tolist(), h.tolist(),
+                                  cal.x.tolist()):
         words = []
-        if count[i] > 1:
+        if c > 1:
             words.append("several x give this response; the one nearest the standard is shown")
-        elif count[i] == 0:
+        elif c == 0:
             words.append("no x near the calibrated range gives this response")
-        if bonf[i] < alpha:
-            words.append(f"outlier (externally studentized {t[i]:.3g}, Bonferroni p = {fmt_p(bonf[i])})")
-        if cook[i] > cook_cut:
-            words.append(f"influential (Cook's distance {cook[i]:.3g} > {cook_cut:.3g})")
-        if h[i] > 1 - 1e-10:
+        if b < alpha:
+            words.append(f"outlier (externally studentized {tt:.3g}, Bonferroni p = {fmt_p(b)})")
+        if d > cook_cut:
+            words.append(f"influential (Cook's distance {d:.3g} > {cook_cut:.3g})")
+        if hh > 1 - 1e-10:
             words.append("leverage 1: this standard alone fixes the curve here")
-        if cal.x[i] == 0:
+        if x == 0:
             words.append("deviation % not defined at x = 0")
         notes.append("; ".join(words))
     with np.errstate(divide="ignore", invalid="ignore"):
         dev = np.where(cal.x != 0, 100.0 * (back - cal.x) / np.abs(cal.x), np.nan)
     columns = (fitted, resid, r, t, h, cook, back, dev)
-    return PointDiagnostics(*(tuple(np.asarray(c, dtype=float).tolist()) for c in columns), tuple(notes))
+    return PointDiagnostics(*(tuple(c.tolist()) for c in columns), tuple(notes))
 
 
 def runs_test(residuals_by_x: np.ndarray) -> tuple[float, float, int]:
@@ -151,9 +151,9 @@ def curve_checks(cal: Calibration, order: int, alpha: float = 0.05, point_labels
     ``point_labels`` names the points in details (default "point 1", "point 2", ...).
     """
     alpha = check_alpha(alpha)
-    labels = list(point_labels) if point_labels is not None else [f"point {i + 1}" for i in range(cal.n_points)]
+    labels = list(point_labels) if point_labels is not None else None
     curve = curve_of(cal, order)
-    t, cook = _studentized(cal, curve)[3:]
+    cook, bonf, cut = _studentized(cal, curve)[4:]
     n, p = cal.n_points, curve.order + 1
     by_x = np.argsort(cal.x, kind="stable")
     out = []
@@ -185,7 +185,7 @@ def curve_checks(cal: Calibration, order: int, alpha: float = 0.05, point_labels
     out.append(Check("runs of residual signs", z, pz, v, f"{runs} runs in x order; {d}" if pz == pz else
                      "all residuals have the same sign"))
 
-    dw = durbin_watson(e[by_x]) if np.any(e != 0) else math.nan
+    dw = durbin_watson(e[by_x]) if e.any() else math.nan
     if dw != dw:
         out.append(Check("Durbin-Watson", dw, math.nan, "n/a", "residuals are all zero"))
     else:
@@ -194,7 +194,7 @@ def curve_checks(cal: Calibration, order: int, alpha: float = 0.05, point_labels
                          "residuals in x order; values outside 1.5 to 2.5 suggest correlated residuals "
                          "(rule of thumb, common practice)"))
 
-    if n >= 3 and np.ptp(e) > 0:
+    if n >= 3 and e.max() > e.min():
         from scipy.stats import shapiro  # imported here: scipy.stats takes half a second to import
 
         # the undecorated function: the same computation without the axis/NaN-policy wrapper,
@@ -219,20 +219,22 @@ def curve_checks(cal: Calibration, order: int, alpha: float = 0.05, point_labels
         out.append(Check("monotonic over the range", float(turns.size), math.nan, "warning",
                          f"the curve turns at x = {xs}: a reading may map to more than one x"))
     else:
-        rising = curve.value(1.0) > curve.value(-1.0)
+        start, end = curve.value(ENDS).tolist()
+        rising = end > start
         out.append(Check("monotonic over the range", 0.0, math.nan, "ok",
                          f"{'increasing' if rising else 'decreasing'} from x = {curve.x_min:.6g} to {curve.x_max:.6g}"))
 
-    bonf = _bonferroni(t, curve.df, n)
-    flagged = np.flatnonzero(bonf < alpha)
-    smallest = float(np.nanmin(bonf)) if np.any(np.isfinite(bonf)) else math.nan
-    out.append(Check("outliers", float(flagged.size), smallest, "warning" if flagged.size else "ok",
-                     (", ".join(labels[i] for i in flagged) if flagged.size else "none")
+    def named(points) -> str:
+        return ", ".join(labels[i] if labels is not None else f"point {i + 1}" for i in points) or "none"
+
+    flagged = (bonf < alpha).nonzero()[0].tolist()
+    smallest = min((b for b in bonf.tolist() if b == b), default=math.nan)
+    out.append(Check("outliers", float(len(flagged)), smallest, "warning" if flagged else "ok",
+                     named(flagged)
                      + f" (externally studentized residual, Bonferroni at {alpha:g}; p-value is the smallest)"))
 
-    cut = float(f_quantile(0.5, p, n - p))
-    infl = np.flatnonzero(cook > cut)
-    out.append(Check("influential points", float(infl.size), math.nan, "warning" if infl.size else "ok",
-                     (", ".join(labels[i] for i in infl) if infl.size else "none")
+    infl = (cook > cut).nonzero()[0].tolist()
+    out.append(Check("influential points", float(len(infl)), math.nan, "warning" if infl else "ok",
+                     named(infl)
                      + f" (Cook's distance above {cut:.3g}, the median of F({p}, {n - p}))"))
     return tuple(out)

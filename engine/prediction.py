@@ -21,7 +21,7 @@ import math
 import numpy as np
 
 from .calibration import Calibration
-from .curve import EXTEND, RANGE_NODES, Curve, check_level, curve_of, newton_in_cells, sign_changes
+from .curve import ENDS, EXTEND, RANGE_NODES, Curve, check_level, curve_of, newton_in_cells, sign_changes
 from .errors import DataError, OptionError
 from .results import InverseEstimate, Prediction
 
@@ -37,10 +37,9 @@ def _finite(values, name: str) -> np.ndarray:
     return a
 
 
-_ENDS = np.array([-1.0, 1.0])
 _KINDS = np.array([0, 1, 2])  # inverse prediction's roots: the estimate, the lower end, the upper end
 _EDGES = np.array([0.0, 1.0, -1.0])  # the band edge whose root each kind is (sign of the half-width)
-for _a in (_ENDS, _KINDS, _EDGES):
+for _a in (_KINDS, _EDGES):
     _a.flags.writeable = False
 
 
@@ -113,14 +112,15 @@ def _monotonic_roots(curve: Curve, readings: np.ndarray, z_lo: float, z_hi: floa
     """roots_of for a curve without turning points in [z_lo, z_hi]: at most one root per reading,
     bracketed by a binary search of the grid values."""
     z, f, _ = curve.grid
-    inside = (z >= z_lo) & (z <= z_hi)
+    inside = slice(np.searchsorted(z, z_lo, "left"), np.searchsorted(z, z_hi, "right"))
     zg, fg = z[inside], f[inside]
     sign = 1.0 if fg[-1] >= fg[0] else -1.0
     fs, ys = sign * fg, sign * readings
-    rows = np.flatnonzero((ys >= fs[0]) & (ys <= fs[-1]))
-    cell = np.clip(np.searchsorted(fs, ys[rows]), 1, fs.size - 1)
-    zs = newton_in_cells(lambda zz: (curve.value(zz) - readings[rows], curve.slope(zz)), zg[cell - 1], zg[cell],
-                         fg[cell - 1] - readings[rows], fg[cell] - readings[rows])
+    rows = ((ys >= fs[0]) & (ys <= fs[-1])).nonzero()[0]
+    cell = np.minimum(np.maximum(np.searchsorted(fs, ys[rows]), 1), fs.size - 1)
+    target = readings[rows]
+    zs = newton_in_cells(lambda zz: (curve.value(zz) - target, curve.slope(zz)), zg[cell - 1], zg[cell],
+                         fg[cell - 1] - target, fg[cell] - target)
     return rows, zs
 
 
@@ -264,7 +264,7 @@ def inverse(cal: Calibration, readings, order: int, replicates=1, level: float =
     m = _replicates(replicates, y0.size)
     curve = curve_of(cal, order)
     t = curve.t_value(level)
-    lo_resp, hi_resp = sorted(curve.value(_ENDS).tolist())
+    lo_resp, hi_resp = sorted(curve.value(ENDS).tolist())
     solved = _solve_on_monotonic_band(curve, cal, y0, m, t)
     if solved is not None:
         z_hat, lower_z, upper_z = solved
