@@ -33,6 +33,7 @@ DEFAULT_MAX_ORDER = 4
 _ONE_CALL_LIMIT = 4096
 # smallest |R_jj| / max |R_jj| of the scaled basis accepted as full rank (far below any real calibration)
 _RANK_TOLERANCE = 1e-12
+_LN2, _LN_2PI = math.log(2.0), math.log(2.0 * math.pi)
 
 
 def _vector(values, name: str) -> np.ndarray:
@@ -121,14 +122,20 @@ class Calibration:
                 f"only {n} point{'s' if n != 1 else ''}: a calibration curve needs at least 3",
                 argument="x",
             )
-        groups, inverse = np.unique(x, return_inverse=True)
-        m = groups.size
+        by_x = np.argsort(x, kind="stable")
+        sorted_x = x[by_x]
+        starts = np.empty(n, dtype=bool)
+        starts[0] = True
+        np.not_equal(sorted_x[1:], sorted_x[:-1], out=starts[1:])
+        inverse = np.empty(n, dtype=np.intp)  # index of each point's distinct x
+        inverse[by_x] = np.cumsum(starts) - 1
+        m = int(inverse[by_x[-1]]) + 1
         if m == 1:
             raise DataError(
                 f"all {n} x values are equal ({float(x[0])!r}): a curve needs at least 2 distinct x values",
                 argument="x",
             )
-        if np.all(y == y[0]):
+        if y.min() == y.max():
             raise DataError(
                 f"all {n} y values are equal ({float(y[0])!r}): the response does not change with x, "
                 "so there is no curve to fit",
@@ -147,22 +154,25 @@ class Calibration:
             k = _whole(max_order, "max_order")
             self.check_order(k, "max_order", n, m)
         self.x, self.y = x, y
+        self.by_x = by_x  # a stable sort of the points by x
         self.n_points, self.n_distinct, self.max_order = n, m, k
 
         w = self.weighting.values
         self.sqrt_w = np.ones(n) if w is None else np.sqrt(w)
-        self._ex = math.frexp(float(np.max(np.abs(x))))[1]
-        ymax = float(np.max(np.abs(y)))
+        self._ex = math.frexp(max(-float(sorted_x[0]), float(sorted_x[-1])))[1]
+        ymax = max(-float(y.min()), float(y.max()))
         self._ey = math.frexp(ymax)[1] if ymax > 0 else 0
         u = np.ldexp(x, -self._ex)
         self._ys = np.ldexp(y, -self._ey)
-        umin, umax = float(u.min()), float(u.max())
+        umin, umax = float(u[by_x[0]]), float(u[by_x[-1]])
         self.centre = (umin + umax) / 2
         self.half_width = (umax - umin) / 2
         self.dx_dz = math.ldexp(self.half_width, self._ex)  # x per unit of z
         self._u = u
         z = (u - self.centre) / self.half_width
-        zw = np.vander(z, k + 1, increasing=True) * self.sqrt_w[:, None]
+        zw = np.vander(z, k + 1, increasing=True)
+        if w is not None:
+            zw *= self.sqrt_w[:, None]
         self._q, self._r = householder_qr(zw)
         size = np.abs(np.diag(self._r))
         if not size.min() > _RANK_TOLERANCE * size.max():
@@ -176,11 +186,12 @@ class Calibration:
         self._qty = self._q.T @ self._yw
         self._r_inv = _triangular_inverse(self._r)
         self._leverage = np.cumsum(self._q**2, axis=1)
-        sw2 = self.sqrt_w**2
-        mean = np.sum(sw2 * self._ys) / np.sum(sw2)
-        self._tss = float(np.sum(sw2 * (self._ys - mean) ** 2))
-        gmean = np.bincount(inverse, sw2 * self._ys) / np.bincount(inverse, sw2)
-        self._ss_pure = float(np.sum(sw2 * (self._ys - gmean[inverse]) ** 2))
+        sw2 = np.ones(n) if w is None else self.sqrt_w**2
+        wy = sw2 * self._ys
+        mean = wy.sum() / sw2.sum()
+        self._tss = float((sw2 * (self._ys - mean) ** 2).sum())
+        gmean = np.bincount(inverse, wy) / np.bincount(inverse, sw2)
+        self._ss_pure = float((sw2 * (self._ys - gmean[inverse]) ** 2).sum())
         self._t = conversion_matrix(self.centre, self.half_width, k)
         self._stats: dict[int, OrderStats] = {}
         self._cov: dict[int, np.ndarray] = {}
@@ -304,23 +315,20 @@ class Calibration:
 
     # -- statistics ---------------------------------------------------------------------------
 
-    def _lack_of_fit(self, rss: float, p: int, p_value: float) -> LackOfFit | None:
-        df_pe = self.n_points - self.n_distinct
-        df_lof = self.n_distinct - p
-        if df_pe < 1 or df_lof < 1:
-            return None
-        ss_lof = max(rss - self._ss_pure, 0.0)
-        f = (ss_lof / df_lof) / (self._ss_pure / df_pe) if self._ss_pure > 0 else math.inf
-        return LackOfFit(self._ldexp(ss_lof, 2 * self._ey), df_lof, self._ldexp(self._ss_pure, 2 * self._ey), df_pe,
-                         FTest(f, df_lof, df_pe, p_value))
-
-    def _lack_of_fit_p(self, rss: np.ndarray) -> np.ndarray:
-        """P-values of the lack-of-fit F test for every order (nan where it cannot be tested)."""
+    def _lack_of_fit_tests(self, rss: np.ndarray) -> list[LackOfFit | None]:
+        """The lack-of-fit split and F test of every order (None where it cannot be tested)."""
         p = np.arange(rss.size) + 1
         df_pe, df_lof = self.n_points - self.n_distinct, self.n_distinct - p
+        if df_pe < 1:
+            return [None] * rss.size
+        ss_lof = np.maximum(rss - self._ss_pure, 0.0)
         with np.errstate(divide="ignore", invalid="ignore"):
-            f = (np.maximum(rss - self._ss_pure, 0.0) / df_lof) / (self._ss_pure / max(df_pe, 1))
-            return f_sf(f, np.maximum(df_lof, 1), max(df_pe, 1))
+            f = (ss_lof / df_lof) / (self._ss_pure / df_pe)  # inf, or nan for 0/0, without pure error
+        p_values = f_sf(f, np.maximum(df_lof, 1), df_pe).tolist()
+        ey2 = 2 * self._ey
+        pure = self._ldexp(self._ss_pure, ey2)
+        return [LackOfFit(self._ldexp(ss, ey2), d, pure, df_pe, FTest(stat, d, df_pe, pv)) if d >= 1 else None
+                for ss, d, stat, pv in zip(ss_lof.tolist(), df_lof.tolist(), f.tolist(), p_values)]
 
     @cached_property
     def _residual_matrix(self) -> np.ndarray:
@@ -355,23 +363,24 @@ class Calibration:
             press = np.where(np.all(h < 1 - 1e-12, axis=0), np.sum((e / (1.0 - h)) ** 2, axis=0), math.nan)
             f = ((self._tss - rss) / np.maximum(orders, 1)) / (rss / df)
         f_p = f_sf(f, np.maximum(orders, 1), df)
-        lof_p = self._lack_of_fit_p(rss)
+        lack = self._lack_of_fit_tests(rss)
         ey2 = 2 * self._ey
-        log_w = 0.0 if self.weighting.values is None else float(np.sum(np.log(self.weighting.values)))
+        log_w = 0.0 if self.weighting.values is None else float(np.log(self.weighting.values).sum())
         made = {}  # kept only when every order succeeds, so that an overflow leaves no half-filled cache
-        for k in range(big_k + 1):
-            r, d, npar = float(rss[k]), int(df[k]), k + 2
-            log_rss = (math.log(r) if r > 0 else -math.inf) + ey2 * math.log(2.0)
-            llf = -0.5 * n * (math.log(2 * math.pi) + log_rss - math.log(n) + 1) + 0.5 * log_w
+        for k, (r, d, pr, fk, pk) in enumerate(zip(rss.tolist(), df.tolist(), press.tolist(), f.tolist(),
+                                                  f_p.tolist())):
+            npar = k + 2
+            log_rss = (math.log(r) if r > 0 else -math.inf) + ey2 * _LN2
+            llf = -0.5 * n * (_LN_2PI + log_rss - math.log(n) + 1) + 0.5 * log_w
             aicc = -2 * llf + 2 * npar + (2 * npar * (npar + 1) / (n - npar - 1) if n - npar - 1 > 0 else math.nan)
             r2 = 1.0 - r / self._tss
             made[k] = OrderStats(
                 order=k, n_points=n, df_resid=d, rss=self._ldexp(r, ey2), residual_sd=math.ldexp(math.sqrt(r / d), self._ey),
                 r_squared=r2, adj_r_squared=1.0 - (1.0 - r2) * (n - 1) / d,
-                press=self._ldexp(float(press[k]), ey2), predicted_r_squared=1.0 - float(press[k]) / self._tss,
+                press=self._ldexp(pr, ey2), predicted_r_squared=1.0 - pr / self._tss,
                 aicc=aicc, bic=-2 * llf + npar * math.log(n),
-                overall=FTest(float(f[k]), k, d, float(f_p[k])) if k >= 1 else None,
-                lack_of_fit=self._lack_of_fit(r, k + 1, float(lof_p[k])),
+                overall=FTest(fk, k, d, pk) if k >= 1 else None,
+                lack_of_fit=lack[k],
             )
         self._stats = made
 

@@ -155,7 +155,7 @@ def curve_checks(cal: Calibration, order: int, alpha: float = 0.05, point_labels
     curve = curve_of(cal, order)
     cook, bonf, cut = _studentized(cal, curve)[4:]
     n, p = cal.n_points, curve.order + 1
-    by_x = np.argsort(cal.x, kind="stable")
+    by_x = cal.by_x
     out = []
 
     lof = curve.stats.lack_of_fit
