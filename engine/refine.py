@@ -119,36 +119,36 @@ def refine(v_hi, v_lo, q, r_inv, t, y_hi, y_lo, c, mask=None):
     blocks = []
     for i in range(0, n, rows):
         j = min(i + rows, n)
-        blocks.append((slice(i, j), _pieces(v_hi[i:j].T, v_lo[i:j].T, (m, p, j - i)),
-                       np.abs(v_hi[i:j]).max(axis=0), np.ones(j - i)))
+        v_max = np.abs(v_hi[i:j]).max(axis=0)
+        blocks.append((slice(i, j), _pieces(v_hi[i:j].T, v_lo[i:j].T, (m, p, j - i)), v_max, float(v_max.max()),
+                       np.ones(j - i)))
     ones_p = np.ones(p)
-    shift_f, y_top = p + 2, np.abs(y_hi).max(axis=1)
+    y_top = np.abs(y_hi).max(axis=1)
     previous = 1.0
     for _ in range(_MAX_STEPS):
         f_hi, f_lo = np.empty_like(e_hi), np.empty_like(e_hi)
-        g_hi, g_lo = c, np.zeros_like(c)  # g = c - V'e, less each block's sum
         e_top = np.abs(e_hi).max(axis=1)
-        for s, vt, v_max, ones_n in blocks:
+        nb_hi, nb_lo, ne_hi, ne_lo = -b_hi[:, :, None], -b_lo[:, :, None], -e_hi[:, None, :], -e_lo[:, None, :]
+        g_sum = None  # -V'e, summed over the blocks
+        for s, vt, v_max, v_top, ones_n in blocks:
             shape = vt[0].shape
-            # -f = V b + e - y: the p terms of each row plus e and -y; sigma bounds every term
-            big, small = _products(vt, _pieces(b_hi[:, :, None], b_lo[:, :, None], shape))
-            sigma = _sigma(np.maximum(np.maximum(y_top, e_top), np.abs(b_hi) @ v_max), shift_f)[:, None]
+            # f = y - e - V b: the p terms of each row plus y and -e; sigma bounds every term
+            big, small = _products(vt, _pieces(nb_hi, nb_lo, shape))
+            sigma = _sigma(np.maximum(np.maximum(y_top, e_top), np.abs(b_hi) @ v_max), p + 2)[:, None]
             q_sum = ones_p @ _high_parts(big, sigma[:, :, None])
             big += small
-            rest = ones_p @ big
-            e_part, y_part = e_hi[:, s], y_hi[:, s]
-            q_e = (sigma + e_part) - sigma
-            q_y = (sigma - y_part) - sigma
-            hi, lo = dd.two_sum(q_sum + q_e + q_y,
-                                rest + (e_part - q_e) - (y_part + q_y) + (e_lo[:, s] - y_lo[:, s]))
-            f_hi[:, s], f_lo[:, s] = -hi, -lo
-            # V'e: the terms of each block's rows
-            big, small = _products(vt, _pieces(e_hi[:, None, s], e_lo[:, None, s], shape))
-            sigma = _sigma(np.abs(big).reshape(m, -1).max(axis=1), shape[2])[:, None, None]
-            q_sum = _high_parts(big, sigma) @ ones_n
+            y_part, e_part = y_hi[:, s], e_hi[:, s]
+            q_y = (sigma + y_part) - sigma
+            q_e = (sigma - e_part) - sigma
+            f_hi[:, s], f_lo[:, s] = dd.two_sum(q_sum + q_y + q_e, ones_p @ big + (y_part - q_y) - (e_part + q_e)
+                                                + (y_lo[:, s] - e_lo[:, s]))
+            # -V'e over the rows of the block
+            big, small = _products(vt, _pieces(ne_hi[:, :, s], ne_lo[:, :, s], shape))
+            q_sum = _high_parts(big, _sigma(e_top * v_top, shape[2])[:, None, None]) @ ones_n
             big += small
-            hi, lo = dd.two_sum(q_sum, big @ ones_n)
-            g_hi, g_lo = dd.add(g_hi, g_lo, -hi, -lo)
+            part = dd.two_sum(q_sum, big @ ones_n)
+            g_sum = part if g_sum is None else dd.add(*g_sum, *part)
+        g_hi, g_lo = dd.add_double(*g_sum, c)  # g = c - V'e
         f = f_hi + f_lo
         u = (f @ q - ((g_hi + g_lo) * keep) @ from_raw) * keep
         db = u @ to_raw
