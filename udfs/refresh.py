@@ -23,7 +23,8 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from . import functions
-from .formula import MENTION, Area, Call, Unsupported, areas_of, cell_name, parse_call, reference, shift_references
+from .formula import (MENTION, Area, Call, Unsupported, areas_of, cell_name, column_letters, parse_call, reference,
+                      shift_references)
 from .package import (PackageError, SheetText, Workbook, dynamic_array_metadata, read_package,
                       set_full_calc_on_load, write_package)
 
@@ -287,42 +288,49 @@ class Refresher:
         if blocked_by is not None:
             report.blocked.append((f.where, f"the result ({height} x {width}) would cover "
                                             f"{cell_name(*blocked_by)}, which is not empty; nothing was overwritten"))
-            content = {anchor: "#SPILL!"}
-            keep_array = False
+            rows, height, width, keep_array = [["#SPILL!"]], 1, 1, False
         else:
-            content = {(f.row + i, f.col + j): (row[j] if j < len(row) else None)
-                       for i, row in enumerate(rows) for j in range(width)}
             keep_array = height > 1 or width > 1
             report.refreshed.append(f.where)
         changed = f.previous != (new if keep_array else None)
         styles = sheet.styles
-        for key in old_cells - content.keys():
+        bottom, right = f.row + height - 1, f.col + width - 1
+        for key in sorted(old_cells):
+            if f.row <= key[0] <= bottom and f.col <= key[1] <= right:
+                continue
             style = styles.get(key)
             text.set_cell(*key, text.cell_xml(*key, None, style) if style is not None else None)
             changed = changed or key in values
             values.pop(key, None)
         ref = f"{cell_name(new.top, new.left)}:{cell_name(new.bottom, new.right)}" if keep_array else None
-        by_row: dict[int, dict] = {}
-        for key, value in content.items():
-            style = styles.get(key)
-            r, c = key
-            if key == anchor:
-                if f.shift is not None:  # a filled formula keeps its stored <f> element as it is
-                    xml = text.cell_xml(r, c, value, style, f_xml=text.formula_xml(r, c))
+        p, letters = text.p, [column_letters(f.col + j) for j in range(width)]
+        for i, row in enumerate(rows):
+            r = f.row + i
+            cells = {}
+            for j in range(width):
+                value = row[j] if j < len(row) else None
+                c = f.col + j
+                key = (r, c)
+                style = styles.get(key)
+                if i == 0 and j == 0:
+                    if f.shift is not None:  # a filled formula keeps its stored <f> element as it is
+                        xml = text.cell_xml(r, c, value, style, f_xml=text.formula_xml(r, c))
+                    else:
+                        xml = text.cell_xml(r, c, value, style, f.text, ref, cm if keep_array else None)
+                elif style is None and type(value) is float:  # the usual cell, written here for speed
+                    xml = f'<{p}c r="{letters[j]}{r}"><{p}v>{value!r}</{p}v></{p}c>'
+                elif value is None and style is None:
+                    xml = None
                 else:
-                    xml = text.cell_xml(r, c, value, style, f.text, ref, cm if keep_array else None)
-            elif value is None and style is None:
-                xml = None
-            else:
-                xml = text.cell_xml(r, c, value, style)
-            by_row.setdefault(r, {})[c] = xml
-            if value is None:
-                changed = changed or key in values
-                values.pop(key, None)
-            else:
-                changed = changed or values.get(key) != value
-                values[key] = value
-        for r, cells in by_row.items():
+                    xml = text.cell_xml(r, c, value, style)
+                cells[c] = xml
+                if value is None:
+                    if key in values:
+                        changed = True
+                        del values[key]
+                elif values.get(key) != value:
+                    changed = True
+                    values[key] = value
             text.set_cells(r, cells)
         report.changed |= changed
 
