@@ -74,8 +74,8 @@ class Curve:
         self.stats = cal.stats(self.order)
         self.s = self.stats.residual_sd
         self.df = self.stats.df_resid
-        self.x_min = float(cal.x.min())
-        self.x_max = float(cal.x.max())
+        self.x_min = float(cal.x[cal.by_x[0]])
+        self.x_max = float(cal.x[cal.by_x[-1]])
         self._grid = None
         self._t: dict[float, float] = {}
 

@@ -132,10 +132,11 @@ def breusch_pagan(residuals: np.ndarray, z: np.ndarray, order: int, q=None) -> t
     if q is None:  # an orthonormal basis of 1, z, ..., z^order
         q, _ = householder_qr(np.vander(z, order + 1, increasing=True))
     fitted = q @ (q.T @ e2)
-    tss = float(np.sum((e2 - e2.mean()) ** 2))
+    mean = e2.mean()
+    tss = float(((e2 - mean) ** 2).sum())
     if tss == 0:
         return math.nan, math.nan
-    lm = e2.size * float(np.sum((fitted - e2.mean()) ** 2)) / tss
+    lm = e2.size * float(((fitted - mean) ** 2).sum()) / tss
     return lm, float(special.chdtrc(order, lm))
 
 
@@ -148,10 +149,17 @@ def _verdict(p: float, alpha: float, bad: str, good: str) -> tuple[str, str]:
 def curve_checks(cal: Calibration, order: int, alpha: float = 0.05, point_labels=None) -> tuple[Check, ...]:
     """Lack of fit, Mandel, runs, Durbin-Watson, Shapiro-Wilk, Breusch-Pagan, monotonicity, outliers, influence.
 
-    ``point_labels`` names the points in details (default "point 1", "point 2", ...).
+    ``point_labels`` (a sequence, or a function of the point's index) names the points in details
+    (default "point 1", "point 2", ...).
     """
     alpha = check_alpha(alpha)
-    labels = list(point_labels) if point_labels is not None else None
+    if point_labels is None:
+        def label(i: int) -> str:
+            return f"point {i + 1}"
+    elif callable(point_labels):
+        label = point_labels
+    else:
+        label = list(point_labels).__getitem__
     curve = curve_of(cal, order)
     cook, bonf, cut = _studentized(cal, curve)[4:]
     n, p = cal.n_points, curve.order + 1
@@ -225,7 +233,7 @@ def curve_checks(cal: Calibration, order: int, alpha: float = 0.05, point_labels
                          f"{'increasing' if rising else 'decreasing'} from x = {curve.x_min:.6g} to {curve.x_max:.6g}"))
 
     def named(points) -> str:
-        return ", ".join(labels[i] if labels is not None else f"point {i + 1}" for i in points) or "none"
+        return ", ".join(map(label, points)) or "none"
 
     flagged = (bonf < alpha).nonzero()[0].tolist()
     smallest = min((b for b in bonf.tolist() if b == b), default=math.nan)

@@ -155,6 +155,19 @@ def test_stats_and_checks_tables(data):
     assert all(r[3] in ("ok", "warning", "n/a", None) for r in checks[1:])
 
 
+def test_checks_name_flagged_standards_by_their_input_row(data):
+    x, y = data
+    y = y.copy()
+    y[5] += 60.0  # one wild standard: the sixth point
+    xs, ys = column(x), column(y)
+    xs.insert(1, [None])  # a blank row above it: the standard sits in input row 7
+    ys.insert(1, [None])
+    checks = {r[0]: r for r in udfs.calib_checks(xs, ys, 2)}
+    assert checks["outliers"][3] == "warning"
+    assert checks["outliers"][4].startswith("row 7 (externally studentized residual, Bonferroni at 0.05")
+    assert checks["influential points"][4].startswith("row 7")
+
+
 def test_row_and_column_orientation_agree(data):
     x, y = data
     as_column = udfs.calib_coefs(column(x), column(y))

@@ -330,9 +330,8 @@ def calib_checks(x, y, order=None, alpha=None, weights=None):
 
     def compute():
         cal, chosen, _ = _fitted(prep, k)
-        labels = [prep.label(i) for i in range(prep.x.size)]
         rows = [list(HEADERS["checks"])]
-        for c in engine.curve_checks(cal, chosen, a, labels):
+        for c in engine.curve_checks(cal, chosen, a, prep.label):
             rows.append([c.name, _cell(c.statistic), _cell(c.p_value), c.verdict, c.detail or None])
         rows.append(["caution", None, None, None, CAUTION])
         return rows
