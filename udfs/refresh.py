@@ -304,31 +304,32 @@ class Refresher:
             values.pop(key, None)
         ref = f"{cell_name(new.top, new.left)}:{cell_name(new.bottom, new.right)}" if keep_array else None
         p, letters = text.p, [column_letters(f.col + j) for j in range(width)]
+        get_style, get_value = styles.get, values.get
         for i, row in enumerate(rows):
             r = f.row + i
+            if len(row) < width:
+                row = list(row) + [None] * (width - len(row))
             cells = {}
-            for j in range(width):
-                value = row[j] if j < len(row) else None
+            for j, value in enumerate(row):
                 c = f.col + j
                 key = (r, c)
-                style = styles.get(key)
-                if i == 0 and j == 0:
+                style = get_style(key)
+                if style is None and type(value) is float and (i or j):  # the usual cell, written here for speed
+                    cells[c] = f'<{p}c r="{letters[j]}{r}"><{p}v>{value!r}</{p}v></{p}c>'
+                elif i == 0 and j == 0:
                     if f.shift is not None:  # a filled formula keeps its stored <f> element as it is
-                        xml = text.cell_xml(r, c, value, style, f_xml=text.formula_xml(r, c))
+                        cells[c] = text.cell_xml(r, c, value, style, f_xml=text.formula_xml(r, c))
                     else:
-                        xml = text.cell_xml(r, c, value, style, f.text, ref, cm if keep_array else None)
-                elif style is None and type(value) is float:  # the usual cell, written here for speed
-                    xml = f'<{p}c r="{letters[j]}{r}"><{p}v>{value!r}</{p}v></{p}c>'
+                        cells[c] = text.cell_xml(r, c, value, style, f.text, ref, cm if keep_array else None)
                 elif value is None and style is None:
-                    xml = None
+                    cells[c] = None
                 else:
-                    xml = text.cell_xml(r, c, value, style)
-                cells[c] = xml
+                    cells[c] = text.cell_xml(r, c, value, style)
                 if value is None:
                     if key in values:
                         changed = True
                         del values[key]
-                elif values.get(key) != value:
+                elif get_value(key) != value:
                     changed = True
                     values[key] = value
             text.set_cells(r, cells)
