@@ -132,7 +132,7 @@ def scalar(v, name: str):
 
 def number_option(v, name: str, default, low: float, high: float, example: str, whole: bool = False):
     """An optional number within (low, high), or its default when omitted."""
-    if is_omitted(v):
+    if v is None or is_omitted(v):
         return default
     v = scalar(v, name)
     why = describe(v)
@@ -147,7 +147,7 @@ def number_option(v, name: str, default, low: float, high: float, example: str, 
 
 
 def text_option(v, name: str, default: str, choices) -> str:
-    if is_omitted(v):
+    if v is None or is_omitted(v):
         return default
     v = scalar(v, name)
     key = str(v).strip().lower()

@@ -117,8 +117,12 @@ def _prepare(x, y, weights) -> Prepared:
                         "give ranges of the same size")
     xv, x_blank = numbers_or_blank(x_cells)
     yv, y_blank = numbers_or_blank(y_cells)
-    used = np.flatnonzero(~(x_blank | y_blank))
-    xu, yu = xv[used], yv[used]
+    skipped = x_blank | y_blank
+    if skipped.any():
+        used = np.flatnonzero(~skipped)
+        xu, yu = xv[used], yv[used]
+    else:
+        used, xu, yu = np.arange(xv.size), xv, yv
     w, wkey = _weights(weights, x_cells, used, xu, yu)
     return Prepared(x_cells, used, xu, yu, w, (xu.tobytes(), yu.tobytes(), wkey))
 
