@@ -29,7 +29,7 @@ from . import doubledouble as dd
 _MAX_STEPS = 10
 _TOLERANCE = 2.0**-100
 _ENOUGH = 2.0**-64
-_BLOCK = 2**21  # elements per temporary array in the residual computation
+_BLOCK = 2**20  # elements per stacked temporary array (a block of rows) in the residual computation
 
 
 def conversion_matrix(centre: float, half_width: float, order: int) -> np.ndarray:
