@@ -9,11 +9,11 @@ row by row, so every byte outside the cells that change stays as it was.
 
 from __future__ import annotations
 
+import html
 import posixpath
 import re
 import zipfile
 from dataclasses import dataclass, field
-from xml.sax.saxutils import escape
 
 from defusedxml import ElementTree as SafeET
 from defusedxml.common import DefusedXmlException
@@ -43,6 +43,11 @@ MAX_RATIO = 200
 
 class PackageError(Exception):
     """The file cannot be refreshed safely; the message is one line for the user."""
+
+
+def escape(text: str) -> str:
+    """Text as XML character data: &, < and > escaped (quotes need none outside attributes)."""
+    return html.escape(text, quote=False)
 
 
 def _q(tag: str) -> str:
