@@ -74,26 +74,6 @@ def add_double(ah, al, b):
     return _fast_two_sum(s, e + al)
 
 
-def accurate_sum(hi, lo):
-    """Sums of ``hi + lo`` along the last axis, as a double-double pair.
-
-    One pass of error-free extraction (ExtractVector of S. M. Rump, T. Ogita and
-    S. Oishi, "Accurate floating-point summation part I: faithful rounding",
-    SIAM J. Sci. Comput. 31 (2008) 189-224): with sigma = 2^(M + ceil(log2 max|p|)),
-    2^M >= n + 2, the high parts q = (sigma + p) - sigma sum exactly in any order;
-    what is left, at most 2^(M - 53) of the largest term each, is summed in plain
-    double together with ``lo``, so the error is about n^2 2^(M - 106) of the
-    largest term. One sigma serves each index of the first axis (so each
-    right-hand side keeps its own scale).
-    """
-    shift = (hi.shape[-1] + 1).bit_length()  # 2**shift >= n + 2
-    shape = (hi.shape[0],) + (1,) * (hi.ndim - 1)
-    top = np.maximum.reduce(np.abs(hi).reshape(hi.shape[0], -1), axis=1)
-    sigma = np.ldexp(1.0, np.frexp(top)[1] + shift).reshape(shape)
-    q = (sigma + hi) - sigma
-    return two_sum(q.sum(axis=-1), (hi - q).sum(axis=-1) + lo.sum(axis=-1))
-
-
 def powers(x, order):
     """Columns ``x**0 .. x**order`` as double-double arrays of shape (n, order+1)."""
     x = np.asarray(x, dtype=float)

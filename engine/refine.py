@@ -79,7 +79,13 @@ def _products(a, b):
 
 
 def _high_parts(big, sigma):
-    """ExtractVector's error-free step: q = (sigma + big) - sigma, and big - q left in ``big``."""
+    """The error-free extraction of ExtractVector (S. M. Rump, T. Ogita and S. Oishi, "Accurate
+    floating-point summation part I: faithful rounding", SIAM J. Sci. Comput. 31 (2008) 189-224):
+    q = (sigma + big) - sigma, returned, and big - q left in ``big``, both exact.
+
+    With sigma from ``_sigma`` for a sum of n terms, the q of those terms sum exactly in any order;
+    what is left, at most 2^(M - 53) of the largest term each, is summed in plain double, so the
+    error of the sum is about n^2 2^(M - 106) of the largest term."""
     q = sigma + big
     q -= sigma
     big -= q
@@ -87,7 +93,8 @@ def _high_parts(big, sigma):
 
 
 def _sigma(top: np.ndarray, count: int) -> np.ndarray:
-    """2^(M + ceil(log2 top)) with 2^M >= count + 2: the extraction constant of ExtractVector."""
+    """2^(M + ceil(log2 top)) with 2^M >= count + 2: ExtractVector's constant for a sum of ``count``
+    terms of magnitude at most ``top`` (an upper bound will do)."""
     return np.ldexp(1.0, np.frexp(top)[1] + (count + 1).bit_length())
 
 
@@ -104,9 +111,9 @@ def refine(v_hi, v_lo, q, r_inv, t, y_hi, y_lo, c, mask=None):
     each as a double-double pair. The first solution is the plain double one;
     each refinement step then forms the residuals f = y - e - V b and
     g = c - V'e in double-double from the exact products V_ik b_k and V_ik e_i
-    (laid out as (m, p, rows)) by one extraction pass of Rump, Ogita & Oishi's
-    ExtractVector (see ``doubledouble.accurate_sum``): the high parts sum exactly
-    in any order, so sums are taken as matrix products with vectors of ones.
+    (laid out as (m, p, rows)) by one extraction pass (``_high_parts``): the high
+    parts sum exactly in any order, so sums are taken as matrix products with
+    vectors of ones.
     """
     to_raw = (t @ r_inv).T
     from_raw = to_raw.T
