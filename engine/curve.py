@@ -67,9 +67,9 @@ class Curve:
         self._da = _derivative(self.a)
         # f, f', Var(mean f)/s^2 and its slope as the columns of one matrix over z^0 .. z^2k
         width = self._var_poly.size
-        self._local = np.zeros((width, 4))
+        self.local_polynomials = np.zeros((width, 4))
         for column, c in enumerate((self.a, self._da, self._var_poly, self._dvar)):
-            self._local[: c.size, column] = c
+            self.local_polynomials[: c.size, column] = c
         self._turns = None
         self.stats = cal.stats(self.order)
         self.s = self.stats.residual_sd
@@ -92,7 +92,7 @@ class Curve:
 
     def local(self, z: np.ndarray):
         """f(z), f'(z), the variance of the fitted mean and its slope, at the points z (1-D)."""
-        v = np.vander(z, self._local.shape[0], increasing=True) @ self._local
+        v = np.vander(z, self.local_polynomials.shape[0], increasing=True) @ self.local_polynomials
         s2 = self.s**2
         return v[:, 0], v[:, 1], s2 * np.maximum(v[:, 2], 0.0), s2 * v[:, 3]
 

@@ -194,12 +194,21 @@ def _solve_on_monotonic_band(curve: Curve, cal: Calibration, y0: np.ndarray, m: 
     edge = _EDGES[kind]
     mm, target = m[which], ys[which]
 
+    # sign f, sign f', t^2 Var(mean f) and its slope, as polynomials in z (columns)
+    local = curve.local_polynomials * np.array([sign, sign, t2s2, t2s2])
+    spread, moving, weighted = t2s2 / mm, edge != 0, cal.weighting.values is not None
+
     def value_and_slope(zz):  # called inside newton_in_cells, which ignores division warnings
-        fz, dfz, vz, dvz = curve.local(zz)
-        vfz, dvf = _variance_factor_and_slope(cal, zz, fz, dfz)
-        half = np.sqrt(t2s2 * vfz / mm + t2 * vz)
-        dhalf = (t2s2 * dvf / mm + t2 * dvz) / (2 * half)
-        return sign * fz + edge * half - target, sign * dfz + edge * np.where(edge != 0, dhalf, 0.0)
+        v = np.vander(zz, local.shape[0], increasing=True) @ local
+        var = np.maximum(v[:, 2], 0.0)
+        if weighted:
+            vfz, dvf = _variance_factor_and_slope(cal, zz, sign * v[:, 0], sign * v[:, 1])
+            half = np.sqrt(spread * vfz + var)
+            dhalf = (spread * dvf + v[:, 3]) / (2 * half)
+        else:
+            half = np.sqrt(spread + var)
+            dhalf = v[:, 3] / (2 * half)
+        return v[:, 0] + edge * half - target, v[:, 1] + edge * np.where(moving, dhalf, 0.0)
 
     found = newton_in_cells(value_and_slope, z[right - 1], z[right], table[kind, right - 1] - target,
                             table[kind, right] - target)
