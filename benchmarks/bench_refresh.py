@@ -1,8 +1,9 @@
 """Refresh of a 200-sheet calibration workbook (6 CALIB_* formulas a sheet) against openpyxl load + save.
 
 Each is timed in its own fresh process (imports included), which also reports its peak memory
-(max RSS of the process plus its largest worker). "no-pandas" hides pandas, as in an install
-from the README's first command (pandas comes only with the test extra; xlwings imports it when present).
+(max RSS of the process plus its largest worker). The refresh runs as the command `degreewise
+refresh BOOK --jobs N` does (the command line never imports xlwings or pandas); "no-pandas" hides
+pandas, as in an install from the README's first command, and "pandas" leaves it importable.
 Run: python benchmarks/bench_refresh.py
 """
 
@@ -28,9 +29,11 @@ if sys.argv[3] == "no-pandas":  # as installed by the README's first command: pa
     sys.modules["pandas"] = None
 t0 = time.perf_counter()
 if kind.startswith("refresh"):
-    from udfs.refresh import refresh_file
-    report = refresh_file(__import__("pathlib").Path(path), workers=int(kind[len("refresh"):]))
-    assert report.error is None and not report.failed, report.lines()
+    import contextlib, io
+    from udfs.cli import main
+    with contextlib.redirect_stdout(io.StringIO()) as out:  # the one-line summary
+        code = main(["refresh", path, "--jobs", kind[len("refresh"):]])
+    assert code == 0, out.getvalue()
 else:
     import openpyxl
     wb = openpyxl.load_workbook(path)

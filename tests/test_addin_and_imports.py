@@ -29,7 +29,7 @@ def test_addin_command_prints_steps(tmp_path, capsys):
 
 
 def test_import_udfs_needs_no_file_system_modules_of_ours():
-    code = ("import sys, udfs; mods = set(sys.modules);"
+    code = ("import sys, udfs; udfs.calib_order; mods = set(sys.modules);"
             "print(sorted(m for m in mods if m.startswith('udfs') or m in ('openpyxl', 'tqdm', 'subprocess',"
             " 'multiprocessing', 'defusedxml')))")
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout
@@ -37,3 +37,60 @@ def test_import_udfs_needs_no_file_system_modules_of_ours():
     assert "udfs.cli" not in loaded and "udfs.validation" not in loaded and "udfs.addin" not in loaded
     assert "openpyxl" not in loaded and "tqdm" not in loaded and "multiprocessing" not in loaded
     assert "udfs.functions" in loaded and "udfs.coercion" in loaded
+
+
+REGISTRATION_PROBE = """
+import sys, types
+calls = []
+stub = types.ModuleType("xlwings")  # records what the real decorators would be given
+stub.func = lambda f: calls.append(("func", f.__name__)) or f
+stub.arg = lambda name, doc: (lambda f: calls.append(("arg", f.__name__, name, doc)) or f)
+sys.modules["xlwings"] = stub
+{setup}
+import udfs
+assert "udfs.functions" not in sys.modules  # the functions load on first use
+names = [n for n in dir(udfs) if n.startswith("calib_")]
+[getattr(udfs, n) for n in names]
+print(repr((names, calls)))
+"""
+
+
+def _probe(setup=""):
+    out = subprocess.run([sys.executable, "-c", REGISTRATION_PROBE.format(setup=setup)], capture_output=True,
+                         text=True, check=True).stdout
+    return eval(out)
+
+
+def test_the_spreadsheet_sees_every_function_registered_with_its_argument_docs():
+    from udfs import FUNCTIONS
+    from udfs.functions import DOC
+
+    names, calls = _probe()
+    assert names == sorted(FUNCTIONS)  # what the desktop add-in lists through dir(udfs)
+    assert sorted(c[1] for c in calls if c[0] == "func") == sorted(FUNCTIONS)
+    args = [c[1:] for c in calls if c[0] == "arg"]
+    assert ("calib_inverse", "replicates", DOC["replicates"]) in args
+    described = [a[1] for a in args if a[0] == "calib_predict"][::-1]  # decorators apply innermost first
+    assert described == ["x", "y", "new_x", "order", "level", "weights"]
+
+
+def test_the_command_line_loads_the_functions_without_registration():
+    names, calls = _probe("from udfs.registration import headless; headless()")
+    assert len(names) == 11 and calls == []
+
+
+def test_the_refresh_command_imports_neither_xlwings_nor_pandas(tmp_path):
+    import openpyxl
+
+    wb = openpyxl.Workbook()
+    ws = wb.active
+    for i, (a, b) in enumerate([(1, 2.1), (2, 3.9), (3, 6.2), (4, 7.8), (5, 10.1), (6, 12.2)], start=1):
+        ws.cell(i, 1, float(a))
+        ws.cell(i, 2, float(b))
+    ws["D1"] = "=CALIB_ORDER(A1:A6,B1:B6)"
+    wb.save(tmp_path / "book.xlsx")
+    code = ("import sys; from udfs.cli import main; code = main(['refresh', sys.argv[1]]);"
+            "print(code, 'xlwings' in sys.modules, 'pandas' in sys.modules)")
+    out = subprocess.run([sys.executable, "-c", code, str(tmp_path / "book.xlsx")], capture_output=True, text=True,
+                         check=True).stdout
+    assert out.splitlines()[-1] == "0 False False"

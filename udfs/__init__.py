@@ -2,26 +2,29 @@
 
 Importing this package needs no file system, subprocess or compiled code of
 its own, so it also serves in-workbook Python; the workbook refresh and the
-command line live in their own modules.
+command line live in their own modules. The functions load on first use of any
+of them (``udfs.calib_order``, ``from udfs import *``, or the spreadsheet
+listing the package's names), so that the command line can load them without
+registration metadata (see ``registration``).
 """
 
 VERSION = "0.1.0"
 
-from .functions import (  # noqa: E402
-    calib_checks,
-    calib_coefs,
-    calib_inverse,
-    calib_labels,
-    calib_order,
-    calib_orders,
-    calib_predict,
-    calib_residuals,
-    calib_seqf,
-    calib_stats,
-    calib_version,
-)
-
-__all__ = [
-    "VERSION", "calib_checks", "calib_coefs", "calib_inverse", "calib_labels", "calib_order", "calib_orders",
+FUNCTIONS = (
+    "calib_checks", "calib_coefs", "calib_inverse", "calib_labels", "calib_order", "calib_orders",
     "calib_predict", "calib_residuals", "calib_seqf", "calib_stats", "calib_version",
-]
+)
+__all__ = ["VERSION", *FUNCTIONS]
+
+
+def __getattr__(name: str):
+    if name in FUNCTIONS:
+        from . import functions
+
+        globals().update({n: getattr(functions, n) for n in FUNCTIONS})
+        return globals()[name]
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
+
+
+def __dir__():
+    return sorted(set(globals()) | set(FUNCTIONS))

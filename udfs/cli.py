@@ -79,6 +79,9 @@ def main(argv=None) -> int:
     p.add_argument("--config", help="settings file to write (default: the xlwings user settings file)")
     p.set_defaults(run=_addin)
     args = parser.parse_args(argv)
+    from .registration import headless
+
+    headless()  # no spreadsheet to register with: the functions load without xlwings (and pandas)
     return args.run(args)
 
 

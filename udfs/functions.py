@@ -21,7 +21,6 @@ import platform
 
 import numpy as np
 import scipy
-import xlwings as xw
 
 import engine
 
@@ -29,6 +28,7 @@ from . import VERSION
 from .coercion import CellError, flatten, number_option, numbers_or_blank, text_option
 from .labels import CAUTION, HEADERS, term
 from .prepared import RESULTS, calibration, prepare
+from .registration import described, worksheet_function
 
 DOC = {
     "x": "known x of the standards (concentrations): a row or column; blank rows are skipped",
@@ -47,11 +47,11 @@ DOC = {
 
 
 def _documented(*names):
-    """xlwings argument descriptions (shown by the function wizard), one per argument."""
+    """Argument descriptions (shown by the function wizard), one per argument."""
 
     def apply(f):
         for name in reversed(names):
-            f = xw.arg(name, doc=DOC[name])(f)
+            f = described(name, DOC[name])(f)
         return f
 
     return apply
@@ -143,7 +143,7 @@ def _fitted(prep, order):
     return calibration(prep, max_order=order), order, why
 
 
-@xw.func
+@worksheet_function
 @_documented("x", "y", "max_order", "alpha", "rule", "weights")
 @_guarded(single=True)
 def calib_order(x, y, max_order=None, alpha=None, rule=None, weights=None):
@@ -154,7 +154,7 @@ def calib_order(x, y, max_order=None, alpha=None, rule=None, weights=None):
     return _cached("order", prep, (k, a, r), lambda: engine.choose_order(calibration(prep, k), r, a).order)
 
 
-@xw.func
+@worksheet_function
 @_documented("x", "y", "max_order", "alpha", "weights")
 @_guarded()
 def calib_orders(x, y, max_order=None, alpha=None, weights=None):
@@ -180,7 +180,7 @@ def calib_orders(x, y, max_order=None, alpha=None, weights=None):
     return _cached("orders", prep, (k, a), compute)
 
 
-@xw.func
+@worksheet_function
 @_documented("x", "y", "max_order", "weights")
 @_guarded()
 def calib_seqf(x, y, max_order=None, weights=None):
@@ -208,7 +208,7 @@ def calib_seqf(x, y, max_order=None, weights=None):
     return _cached("seqf", prep, (k,), compute)
 
 
-@xw.func
+@worksheet_function
 @_documented("x", "y", "order", "level", "weights")
 @_guarded()
 def calib_coefs(x, y, order=None, level=None, weights=None):
@@ -228,7 +228,7 @@ def calib_coefs(x, y, order=None, level=None, weights=None):
     return _cached("coefs", prep, (k, lev), compute)
 
 
-@xw.func
+@worksheet_function
 @_documented("x", "y", "order", "weights")
 @_guarded()
 def calib_stats(x, y, order=None, weights=None):
@@ -259,7 +259,7 @@ def _aligned(cells_arg, name: str):
     return values, np.flatnonzero(~blank), len(cells.values)
 
 
-@xw.func
+@worksheet_function
 @_documented("x", "y", "new_x", "order", "level", "weights")
 @_guarded()
 def calib_predict(x, y, new_x, order=None, level=None, weights=None):
@@ -278,7 +278,7 @@ def calib_predict(x, y, new_x, order=None, level=None, weights=None):
     return _cached("predict", prep, (k, lev, values.tobytes()), compute)
 
 
-@xw.func
+@worksheet_function
 @_documented("x", "y", "reading", "replicates", "order", "level", "weights")
 @_guarded()
 def calib_inverse(x, y, reading, replicates=None, order=None, level=None, weights=None):
@@ -298,7 +298,7 @@ def calib_inverse(x, y, reading, replicates=None, order=None, level=None, weight
     return _cached("inverse", prep, (reps, k, lev, values.tobytes()), compute)
 
 
-@xw.func
+@worksheet_function
 @_documented("x", "y", "order", "weights")
 @_guarded()
 def calib_residuals(x, y, order=None, weights=None):
@@ -320,7 +320,7 @@ def calib_residuals(x, y, order=None, weights=None):
     return _cached("residuals", prep, (k,), compute)
 
 
-@xw.func
+@worksheet_function
 @_documented("x", "y", "order", "alpha", "weights")
 @_guarded()
 def calib_checks(x, y, order=None, alpha=None, weights=None):
@@ -339,7 +339,7 @@ def calib_checks(x, y, order=None, alpha=None, weights=None):
     return _cached("checks", prep, (k, a), compute)
 
 
-@xw.func
+@worksheet_function
 @_documented("name")
 @_guarded()
 def calib_labels(name):
@@ -350,7 +350,7 @@ def calib_labels(name):
     return [list(HEADERS[key])]
 
 
-@xw.func
+@worksheet_function
 @_guarded(single=True)
 def calib_version():
     """Version of the add-in and of its numeric libraries."""
