@@ -88,7 +88,9 @@ def default_max_order(n_points: int, n_distinct: int) -> int:
 @functools.lru_cache(maxsize=64)
 def _rhs_layout(big_p: int, with_cov: bool):
     """Rows of the stacked right-hand sides of ``Calibration._refined_all``, per order k = 0..big_p - 1:
-    the first row of each order (its y), the c block (-I for its covariance) and the mask of its powers."""
+    the first row of each order (its y), the c block (-I for its covariance) and the mask of its powers;
+    and where the solution holds the diagonal of each order's covariance (row and column indices, all
+    orders in turn, each order's k + 1 entries)."""
     sizes = [k + 2 if with_cov else 1 for k in range(big_p)]
     first = np.cumsum([0] + sizes[:-1])
     c, mask = np.zeros((sum(sizes), big_p)), np.zeros((sum(sizes), big_p))
@@ -96,9 +98,11 @@ def _rhs_layout(big_p: int, with_cov: bool):
         if with_cov:
             c[j + 1 + np.arange(k + 1), np.arange(k + 1)] = -1.0
         mask[j: j + sizes[k], : k + 1] = 1.0
-    for a in (first, c, mask):
+    cols = np.concatenate([np.arange(k + 1) for k in range(big_p)])
+    rows = np.repeat(first + 1, np.arange(1, big_p + 1)) + cols
+    for a in (first, c, mask, rows, cols):
         a.flags.writeable = False
-    return first, c, mask
+    return first, c, mask, (rows, cols)
 
 
 class Calibration:
@@ -282,7 +286,7 @@ class Calibration:
         """
         n, big_p = self.n_points, self.max_order + 1
         with_cov = n * (big_p * (big_p + 3) // 2) <= _ONE_CALL_LIMIT
-        first, c, mask = _rhs_layout(big_p, with_cov)
+        first, c, mask, diagonal = _rhs_layout(big_p, with_cov)
         if self.weighting.values is None:
             y_hi, y_lo = self._ys, np.zeros(n)
         else:
@@ -291,16 +295,11 @@ class Calibration:
         rhs_hi[first], rhs_lo[first] = y_hi, y_lo
         v_hi, v_lo = self._powers
         (b_hi, b_lo), (e_hi, e_lo) = refine(v_hi, v_lo, self._q, self._r_inv, self._t, rhs_hi, rhs_lo, c, mask)
-        out = {}
-        for k, j in enumerate(first.tolist()):
-            p = k + 1
-            coef = b_hi[j, :p] + b_lo[j, :p]
-            diag = None
-            if with_cov:
-                cols = np.arange(p)
-                diag = np.maximum(b_hi[j + 1 + cols, cols] + b_lo[j + 1 + cols, cols], 0.0)
-            out[k] = coef, diag, e_hi[j] + e_lo[j]
-        return out
+        b = b_hi + b_lo
+        residuals = e_hi[first] + e_lo[first]
+        diags = np.split(np.maximum(b[diagonal], 0.0), np.cumsum(np.arange(1, big_p))) if with_cov else None
+        return {k: (b[j, : k + 1], diags[k] if with_cov else None, residuals[k])
+                for k, j in enumerate(first.tolist())}
 
     def _covariance_diagonal(self, order: int) -> np.ndarray:
         """Diagonal of (V'WV)^-1 of one order, refined on its own (large problems)."""
@@ -333,7 +332,7 @@ class Calibration:
     @cached_property
     def _residual_matrix(self) -> np.ndarray:
         """Scaled weighted residuals of every order 0..K as columns, each from its refined solution."""
-        return np.column_stack([self._refined_all[k][2] for k in range(self.max_order + 1)])
+        return np.ascontiguousarray(np.array([self._refined_all[k][2] for k in range(self.max_order + 1)]).T)
 
     def _residuals_scaled(self, order: int) -> np.ndarray:
         return self._residual_matrix[:, order]
