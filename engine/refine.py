@@ -29,7 +29,7 @@ from . import doubledouble as dd
 _MAX_STEPS = 10
 _TOLERANCE = 2.0**-100
 _ENOUGH = 2.0**-64
-_BLOCK = 2**20  # elements per stacked temporary array (a block of rows) in the residual computation
+_BLOCK = 2**18  # elements of each pieces array (a block of rows) in the residual computation: 2 MiB
 
 
 def conversion_matrix(centre: float, half_width: float, order: int) -> np.ndarray:
@@ -124,7 +124,7 @@ def refine(v_hi, v_lo, q, r_inv, t, y_hi, y_lo, c, mask=None):
     e_hi, e_lo = y - u @ q.T, np.zeros_like(y_hi)
     n, p = v_hi.shape
     m = y_hi.shape[0]
-    rows = max(1024, _BLOCK // (2 * m * p))  # rows per block keep temporaries small
+    rows = max(1024, _BLOCK // (8 * m * p))  # rows per block: the pieces (4 x 2 x m x p x rows) stay small
     blocks = []
     for i in range(0, n, rows):
         j = min(i + rows, n)
