@@ -29,7 +29,8 @@ from . import doubledouble as dd
 _MAX_STEPS = 10
 _TOLERANCE = 2.0**-100
 _ENOUGH = 2.0**-64
-_BLOCK = 2**18  # elements of each pieces array (a block of rows) in the residual computation: 2 MiB
+_BLOCK = 2**20  # elements per temporary array (m, p, rows) in the residual computation
+_FULL = 2**14  # up to this many elements the pieces are laid out in full rather than broadcast
 
 
 def conversion_matrix(centre: float, half_width: float, order: int) -> np.ndarray:
@@ -50,15 +51,16 @@ def _binomials(order: int) -> np.ndarray:
     return b
 
 
-def _pieces(pairs, shape) -> np.ndarray:
-    """Double-double arrays (hi, lo) and the Dekker split of their high parts laid out in full: entry
-    [0, i] holds pairs[i]'s hi, [1, i] its lo, [2, i] and [3, i] the split of hi, each broadcast to
-    ``shape`` (elementwise operations on full arrays are several times faster than broadcasting ones)."""
-    out = np.empty((4, len(pairs)) + shape)
-    for i, (hi, lo) in enumerate(pairs):
-        out[0, i], out[1, i] = hi, lo
-        out[2, i], out[3, i] = dd.split(hi)
-    return out
+def _pieces(hi: np.ndarray, lo: np.ndarray, shape, full: bool):
+    """A double-double array (hi, lo) and the Dekker split of hi, for ``_products``. With ``full``
+    each is laid out in full as ``shape`` (on small arrays elementwise operations are several times
+    faster without broadcasting); otherwise they stay as given and broadcast."""
+    if not full:
+        return (hi, lo, *dd.split(hi))
+    out = np.empty((4,) + shape)
+    out[0], out[1] = hi, lo
+    out[2], out[3] = dd.split(hi)
+    return tuple(out)
 
 
 def _products(a, b):
@@ -111,9 +113,9 @@ def refine(v_hi, v_lo, q, r_inv, t, y_hi, y_lo, c, mask=None):
     each as a double-double pair. The first solution is the plain double one;
     each refinement step then forms the residuals f = y - e - V b and
     g = c - V'e in double-double from the exact products V_ik b_k and V_ik e_i
-    (laid out as (m, p, rows)) by one extraction pass (``_high_parts``): the high
-    parts sum exactly in any order, so sums are taken as matrix products with
-    vectors of ones.
+    (as (m, p, rows) arrays, in blocks of rows) by one extraction pass
+    (``_high_parts``): the high parts sum exactly in any order, so sums are
+    taken as matrix products with vectors of ones.
     """
     to_raw = (t @ r_inv).T
     from_raw = to_raw.T
@@ -124,36 +126,38 @@ def refine(v_hi, v_lo, q, r_inv, t, y_hi, y_lo, c, mask=None):
     e_hi, e_lo = y - u @ q.T, np.zeros_like(y_hi)
     n, p = v_hi.shape
     m = y_hi.shape[0]
-    rows = max(1024, _BLOCK // (8 * m * p))  # rows per block: the pieces (4 x 2 x m x p x rows) stay small
+    rows = max(1024, _BLOCK // (m * p))  # rows per block keep the temporaries (m, p, rows) small
     blocks = []
     for i in range(0, n, rows):
         j = min(i + rows, n)
         v_max = np.abs(v_hi[i:j]).max(axis=0)
-        v = (v_hi[i:j].T, v_lo[i:j].T)
-        blocks.append((slice(i, j), _pieces([v, v], (m, p, j - i)), v_max, float(v_max.max()), np.ones(j - i)))
+        shape, full = (m, p, j - i), m * p * (j - i) <= _FULL
+        blocks.append((slice(i, j), shape, full, _pieces(v_hi[i:j].T, v_lo[i:j].T, shape, full), v_max,
+                       float(v_max.max()), np.ones(j - i)))
     ones_p = np.ones(p)
     y_top = np.abs(y_hi).max(axis=1)
     previous = 1.0
     for _ in range(_MAX_STEPS):
         f_hi, f_lo = np.empty_like(e_hi), np.empty_like(e_hi)
         e_top = np.abs(e_hi).max(axis=1)
-        minus_b = (-b_hi[:, :, None], -b_lo[:, :, None])
+        nb_hi, nb_lo = -b_hi[:, :, None], -b_lo[:, :, None]
         g_sum = None  # -V'e, summed over the blocks
-        for s, v, v_max, v_top, ones_n in blocks:
-            # the terms of f = y - e - V b (each row's p products, plus y and -e) and of -V'e (each
-            # block row's products), side by side; sigma bounds every term of its sum
-            big, small = _products(v, _pieces([minus_b, (-e_hi[:, None, s], -e_lo[:, None, s])], v.shape[2:]))
-            sigma = np.empty((2, m, 1, 1))
-            sigma[0, :, 0, 0] = _sigma(np.maximum(np.maximum(y_top, e_top), np.abs(b_hi) @ v_max), p + 2)
-            sigma[1, :, 0, 0] = _sigma(e_top * v_top, s.stop - s.start)
-            high = _high_parts(big, sigma)
+        for s, shape, full, v, v_max, v_top, ones_n in blocks:
+            # f = y - e - V b: the p terms of each row plus y and -e; sigma bounds every term
+            big, small = _products(v, _pieces(nb_hi, nb_lo, shape, full))
+            sigma = _sigma(np.maximum(np.maximum(y_top, e_top), np.abs(b_hi) @ v_max), p + 2)[:, None]
+            high = _high_parts(big, sigma[:, :, None])
             big += small
-            f_sigma, y_part, e_part = sigma[0, :, :, 0], y_hi[:, s], e_hi[:, s]
-            q_y = (f_sigma + y_part) - f_sigma
-            q_e = (f_sigma - e_part) - f_sigma
-            f_hi[:, s], f_lo[:, s] = dd.two_sum(ones_p @ high[0] + q_y + q_e, ones_p @ big[0] + (y_part - q_y)
+            y_part, e_part = y_hi[:, s], e_hi[:, s]
+            q_y = (sigma + y_part) - sigma
+            q_e = (sigma - e_part) - sigma
+            f_hi[:, s], f_lo[:, s] = dd.two_sum(ones_p @ high + q_y + q_e, ones_p @ big + (y_part - q_y)
                                                 - (e_part + q_e) + (y_lo[:, s] - e_lo[:, s]))
-            part = dd.two_sum(high[1] @ ones_n, big[1] @ ones_n)
+            # -V'e over the rows of the block
+            big, small = _products(v, _pieces(-e_hi[:, None, s], -e_lo[:, None, s], shape, full))
+            high = _high_parts(big, _sigma(e_top * v_top, shape[2])[:, None, None])
+            big += small
+            part = dd.two_sum(high @ ones_n, big @ ones_n)
             g_sum = part if g_sum is None else dd.add(*g_sum, *part)
         g_hi, g_lo = dd.add_double(*g_sum, c)  # g = c - V'e
         f = f_hi + f_lo
