@@ -410,3 +410,30 @@ def test_sheets_that_refer_to_each_other_share_a_process(tmp_path):
     home = {k[0]: i for i, s in enumerate(shares) for k in s}
     assert home["Check"] == home["Cal 4"]
     assert all(s == sorted(s) for s in shares)  # each share keeps the order it was given
+
+
+_BOMB_BODY = _bomb_xml().replace(b'<?xml version="1.0"?>', b"").decode("ascii")
+
+
+@pytest.mark.parametrize("xml,message", [
+    (b'<?xml version="1.0" encoding="UTF-8"?>' + _BOMB_BODY.encode(), "unsafe"),
+    (('<?xml version="1.0" encoding="UTF-16"?>' + _BOMB_BODY).encode("utf-16"), "unsafe"),  # no ASCII bytes
+    (b'<?xml version="1.0" encoding="cp037"?>' + _BOMB_BODY.encode("cp037"), "broken"),  # EBCDIC: not parsed
+])
+def test_entity_declarations_are_refused_in_any_encoding(xml, message):
+    from udfs.package import PackageError, parse_xml
+
+    with pytest.raises(PackageError, match=rf"^{message} XML in part\.xml: "):
+        parse_xml("part.xml", xml)
+
+
+def test_plain_parts_parse_alike_on_both_paths():
+    from defusedxml import ElementTree as SafeET
+
+    from udfs.package import parse_xml
+
+    xml = ('<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n<worksheet xmlns="urn:x"><c r="A1" t="str">'
+           '<v>a &amp; b &lt; c &#233;</v></c></worksheet>').encode()
+    fast, safe = parse_xml("part.xml", xml), SafeET.fromstring(xml, forbid_dtd=True)
+    assert [(e.tag, e.attrib, e.text) for e in fast.iter()] == [(e.tag, e.attrib, e.text) for e in safe.iter()]
+    assert fast.find("{urn:x}c/{urn:x}v").text == "a & b < c \u00e9"
