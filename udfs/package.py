@@ -194,49 +194,54 @@ class Workbook:
 
     def _read_cells(self, sheet: Sheet) -> None:
         root = parse_xml(sheet.part, self.parts[sheet.part])
-        data = root.find(_q("sheetData"))
+        data = root.find(_SHEET_DATA)
         if data is None:
             return
+        styles, formulas, values = sheet.styles, sheet.formulas, sheet.values
         row_no = 0
-        for row in data.iter(_q("row")):
+        for row in data.iter(_ROW):
             row_no = int(row.get("r", row_no + 1))
             col_no = 0
-            for c in row.iter(_q("c")):
+            for c in row.iter(_CELL):
                 ref = c.get("r")
                 r, col = parse_cell(ref) if ref else (row_no, col_no + 1)
                 col_no = col
                 key = (r, col)
-                if c.get("s") is not None:
-                    sheet.styles[key] = c.get("s")
-                f = c.find(_q("f"))
+                style = c.get("s")
+                if style is not None:
+                    styles[key] = style
+                f = c.find(_FORMULA)
                 if f is not None:
-                    sheet.formulas[key] = (f.text or "", dict(f.attrib))
+                    formulas[key] = (f.text or "", dict(f.attrib))
                 value = self._value(c)
                 if value is not None:
-                    sheet.values[key] = value
-                    sheet.max_row = max(sheet.max_row, r)
+                    values[key] = value
+                    if r > sheet.max_row:
+                        sheet.max_row = r
 
     def _value(self, c):
         t = c.get("t", "n")
         if t == "inlineStr":
-            el = c.find(_q("is"))
+            el = c.find(_INLINE)
             return _text(el) if el is not None else None
-        v = c.find(_q("v"))
+        v = c.find(_VALUE)
         if v is None or v.text is None:
             return None
         text = v.text
-        if t == "s":
-            return self.shared[int(text)]
-        if t == "b":
-            return text.strip() == "1"
-        if t in ("e", "str", "d"):
-            return text
+        if t != "n":
+            if t == "s":
+                return self.shared[int(text)]
+            if t == "b":
+                return text.strip() == "1"
+            if t in ("e", "str", "d"):
+                return text
         try:
             return float(text)
         except ValueError:
             return text
 
 
+_SHEET_DATA, _ROW, _CELL, _FORMULA, _VALUE, _INLINE = (_q(t) for t in ("sheetData", "row", "c", "f", "v", "is"))
 _CELL_REF = re.compile(r'\br\s*=\s*["\']\$?([A-Za-z]{1,3})\$?[0-9]')
 _ATTR = re.compile(r'([\w:]+)\s*=\s*("[^"]*"|\'[^\']*\')')
 
