@@ -90,7 +90,19 @@ def test_the_refresh_command_imports_neither_xlwings_nor_pandas(tmp_path):
     ws["D1"] = "=CALIB_ORDER(A1:A6,B1:B6)"
     wb.save(tmp_path / "book.xlsx")
     code = ("import sys; from udfs.cli import main; code = main(['refresh', sys.argv[1]]);"
-            "print(code, 'xlwings' in sys.modules, 'pandas' in sys.modules)")
+            "print(code, 'xlwings' in sys.modules, 'pandas' in sys.modules, 'numpy.f2py.crackfortran' in sys.modules,"
+            " 'numpy.testing._private.utils' in sys.modules)")
     out = subprocess.run([sys.executable, "-c", code, str(tmp_path / "book.xlsx")], capture_output=True, text=True,
                          check=True).stdout
-    assert out.splitlines()[-1] == "0 False False"
+    assert out.splitlines()[-1] == "0 False False False False"  # nor the numpy modules it never uses
+    assert openpyxl.load_workbook(tmp_path / "book.xlsx", data_only=True).active["D1"].value == 1
+
+
+def test_numpy_modules_deferred_by_the_command_line_still_work():
+    code = ("import sys; from udfs.cli import _defer_unused_numpy_modules as defer; defer(); import numpy as np;"
+            "np.testing.assert_allclose(np.ma.masked_invalid([1.0, float('nan')]).sum(), 1.0);"
+            "print(np.random.default_rng(7).integers(0, 10**6), 'numpy.f2py.crackfortran' in sys.modules)")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout.split()
+    reference = subprocess.run([sys.executable, "-c", "import numpy as np; print(np.random.default_rng(7)"
+                                ".integers(0, 10**6))"], capture_output=True, text=True, check=True).stdout.split()
+    assert out == reference + ["False"]

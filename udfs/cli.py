@@ -82,7 +82,33 @@ def main(argv=None) -> int:
     from .registration import headless
 
     headless()  # no spreadsheet to register with: the functions load without xlwings (and pandas)
+    _defer_unused_numpy_modules()
     return args.run(args)
+
+
+def _defer_unused_numpy_modules() -> None:
+    """Let numpy's f2py, testing, ma and random load only when something uses them.
+
+    numpy imports these on first attribute access; scipy.special, when it is
+    imported, reads every attribute of numpy (to mirror its namespace), which
+    costs a tenth of a second for modules the commands never use. Each is
+    registered instead as a lazy module (the standard library's
+    importlib.util.LazyLoader), which runs the real module on first use.
+    """
+    import importlib.util
+
+    import numpy
+
+    for name in ("f2py", "testing", "ma", "random"):
+        full = f"numpy.{name}"
+        if full in sys.modules:
+            continue
+        spec = importlib.util.find_spec(full)
+        spec.loader = importlib.util.LazyLoader(spec.loader)
+        module = importlib.util.module_from_spec(spec)
+        sys.modules[full] = module
+        spec.loader.exec_module(module)
+        setattr(numpy, name, module)
 
 
 if __name__ == "__main__":
