@@ -3,6 +3,7 @@
 import io
 import shutil
 import subprocess
+import sys
 import zipfile
 from pathlib import Path
 
@@ -437,3 +438,19 @@ def test_plain_parts_parse_alike_on_both_paths():
     fast, safe = parse_xml("part.xml", xml), SafeET.fromstring(xml, forbid_dtd=True)
     assert [(e.tag, e.attrib, e.text) for e in fast.iter()] == [(e.tag, e.attrib, e.text) for e in safe.iter()]
     assert fast.find("{urn:x}c/{urn:x}v").text == "a & b < c \u00e9"
+
+
+class _Terminal(io.StringIO):
+    def isatty(self):
+        return True
+
+
+def test_a_progress_bar_shows_on_a_terminal_for_several_workbooks(tmp_path, monkeypatch, capsys):
+    build(tmp_path / "one.xlsx")
+    monkeypatch.setattr(sys, "stderr", _Terminal())
+    run([str(tmp_path / "one.xlsx")], jobs=1)
+    assert sys.stderr.getvalue() == ""  # one workbook: no bar
+    build(tmp_path / "two.xlsx")
+    run([str(tmp_path)], jobs=1)
+    assert "| 2/2 [" in sys.stderr.getvalue()
+    assert "one.xlsx" in capsys.readouterr().out

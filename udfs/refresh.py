@@ -438,22 +438,27 @@ def run(paths, check: bool = False, backup: bool = False, jobs: int | None = Non
     ``jobs`` processes (default: one per CPU core): several workbooks are refreshed
     that many at a time; a single large workbook has its sheets split over them.
     """
-    from tqdm import tqdm
-
     jobs = jobs or os.cpu_count() or 1
     files = workbooks(paths)
     if not files:
         print("no workbooks (.xlsx, .xlsm) found in " + ", ".join(map(str, paths)))
         return 2
     tasks = [(f, check, backup) for f in files]
-    bar = dict(total=len(tasks), unit="workbook", disable=not sys.stderr.isatty() or len(tasks) < 2)
+
+    def progress(items):  # a bar on a terminal when there are several workbooks
+        if len(tasks) < 2 or not sys.stderr.isatty():
+            return items
+        from tqdm import tqdm
+
+        return tqdm(items, total=len(tasks), unit="workbook")
+
     if jobs > 1 and len(tasks) > 1:
         from concurrent.futures import ProcessPoolExecutor
 
         with ProcessPoolExecutor(max_workers=jobs) as pool:
-            reports = list(tqdm(pool.map(_one, tasks), **bar))
+            reports = list(progress(pool.map(_one, tasks)))
     else:
-        reports = [refresh_file(*t, workers=jobs) for t in tqdm(tasks, **bar)]
+        reports = [refresh_file(*t, workers=jobs) for t in progress(tasks)]
     for r in reports:
         print("\n".join(r.lines(check)))
     return 0 if all(r.ok for r in reports) else 1
