@@ -132,8 +132,9 @@ def refine(v_hi, v_lo, q, r_inv, t, y_hi, y_lo, c, mask=None):
         j = min(i + rows, n)
         v_max = np.abs(v_hi[i:j]).max(axis=0)
         shape, full = (m, p, j - i), m * p * (j - i) <= _FULL
-        blocks.append((slice(i, j), shape, full, _pieces(v_hi[i:j].T, v_lo[i:j].T, shape, full), v_max,
-                       float(v_max.max()), np.ones(j - i)))
+        vt_hi, vt_lo = np.ascontiguousarray(v_hi[i:j].T), np.ascontiguousarray(v_lo[i:j].T)
+        blocks.append((slice(i, j), shape, full, _pieces(vt_hi, vt_lo, shape, full), v_max, float(v_max.max()),
+                       np.ones(j - i)))
     ones_p = np.ones(p)
     y_top = np.abs(y_hi).max(axis=1)
     previous = 1.0
