@@ -337,3 +337,16 @@ def test_overflowing_magnitudes_get_a_message_not_an_error():
     ref = engine.fit(x / 1e156, y / 1e156, 1)
     got = udfs.calib_coefs(xs, ys, 1)
     assert got[2][1] == pytest.approx(ref.coefficients[1], rel=1e-12)
+
+
+def test_blank_new_x_and_readings_keep_their_rows_in_cached_results(data):
+    # the same numbers with the blank in another row must not be served from the cache (common practice:
+    # outputs aligned with their input rows)
+    x, y = data
+    xs, ys = column(x), column(y)
+    first = udfs.calib_predict(xs, ys, [[5.0], [None], [15.0]], 2)
+    moved = udfs.calib_predict(xs, ys, [[5.0], [15.0], [None]], 2)
+    assert first[1] == [None] * 6 and moved[2] == [None] * 6
+    assert first[0] == moved[0] and first[2] == moved[1]
+    readings = udfs.calib_inverse(xs, ys, [[None], [200.0]], None, 2)
+    assert readings[0] == [None] * 4 and readings[1] == udfs.calib_inverse(xs, ys, [[200.0], [None]], None, 2)[0]

@@ -254,9 +254,14 @@ def calib_stats(x, y, order=None, weights=None):
 
 
 def _aligned(cells_arg, name: str):
+    """The numbers of a range whose output rows stay aligned with it: the filled cells' values, their
+    positions (a range or a tuple) and the range's size."""
     cells = flatten(cells_arg, name)
     values, blank = numbers_or_blank(cells)
-    return values, np.flatnonzero(~blank), len(cells.values)
+    if not blank.any():
+        return values, range(values.size), values.size
+    filled = np.flatnonzero(~blank)
+    return values[filled], tuple(filled.tolist()), len(cells.values)
 
 
 @worksheet_function
@@ -271,11 +276,11 @@ def calib_predict(x, y, new_x, order=None, level=None, weights=None):
     def compute():
         cal, chosen, _ = _fitted(prep, k)
         rows = [[None] * 6 for _ in range(size)]
-        for i, p in zip(filled, engine.predict(cal, values[filled], chosen, lev)):
+        for i, p in zip(filled, engine.predict(cal, values, chosen, lev)):
             rows[i] = _column((p.fitted, p.mean_lower, p.mean_upper, p.pred_lower, p.pred_upper)) + [p.note or None]
         return rows
 
-    return _cached("predict", prep, (k, lev, values.tobytes()), compute)
+    return _cached("predict", prep, (k, lev, values.tobytes(), filled, size), compute)
 
 
 @worksheet_function
@@ -291,11 +296,11 @@ def calib_inverse(x, y, reading, replicates=None, order=None, level=None, weight
     def compute():
         cal, chosen, _ = _fitted(prep, k)
         rows = [[None] * 4 for _ in range(size)]
-        for i, e in zip(filled, engine.inverse(cal, values[filled], chosen, reps, lev)):
+        for i, e in zip(filled, engine.inverse(cal, values, chosen, reps, lev)):
             rows[i] = _column((e.x, e.lower, e.upper)) + [e.note or None]
         return rows
 
-    return _cached("inverse", prep, (reps, k, lev, values.tobytes()), compute)
+    return _cached("inverse", prep, (reps, k, lev, values.tobytes(), filled, size), compute)
 
 
 @worksheet_function
