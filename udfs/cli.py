@@ -79,10 +79,11 @@ def main(argv=None) -> int:
     p.add_argument("--config", help="settings file to write (default: the xlwings user settings file)")
     p.set_defaults(run=_addin)
     args = parser.parse_args(argv)
-    from .registration import headless
+    if args.command != "addin":  # the commands that load the worksheet functions
+        from .registration import headless
 
-    headless()  # no spreadsheet to register with: the functions load without xlwings (and pandas)
-    _defer_unused_numpy_modules()
+        headless()  # no spreadsheet to register with: the functions load without xlwings (and pandas)
+        _defer_unused_numpy_modules()
     return args.run(args)
 
 
