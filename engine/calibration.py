@@ -234,10 +234,20 @@ class Calibration:
         """raw x for z."""
         return np.ldexp(np.asarray(z, dtype=float) * self.half_width + self.centre, self._ex)
 
+    @property
+    def y_exponent(self) -> int:
+        """e such that the factorisation works with y 2^-e (an exact scaling: |y 2^-e| < 1)."""
+        return self._ey
+
     def scaled_coefficients(self, order: int) -> np.ndarray:
-        """a with fitted y = sum_j a_j z^j (in the units of y)."""
+        """a with fitted y = 2^e sum_j a_j z^j (e = ``y_exponent``)."""
         p = order + 1
-        return np.ldexp(self._r_inv[:p, :p] @ self._qty[:p], self._ey)
+        return self._r_inv[:p, :p] @ self._qty[:p]
+
+    def scaled_residual_sd(self, order: int) -> float:
+        """The residual SD of ``order`` times 2^-e (e = ``y_exponent``): its square neither
+        overflows nor underflows, whatever the magnitude of y."""
+        return math.sqrt(self._rss(order) / (self.n_points - order - 1))
 
     def orthonormal_basis(self, order: int) -> np.ndarray:
         """Q of the (weighted) scaled basis up to ``order``: orthonormal columns spanning 1, z, ..., z^order."""

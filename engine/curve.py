@@ -2,7 +2,9 @@
 
 Shared by forward prediction, inverse prediction and the diagnostics. For a
 weighted fit the variance of a new reading at x0 is sigma^2 / w0, with 1/w0 from
-``Weighting.variance_factor``.
+``Weighting.variance_factor``. Responses are in curve units, y 2^-e with the
+calibration's exact power-of-two scaling (``to_y`` and ``from_y`` convert), so
+that variances and squared gaps neither overflow nor underflow.
 """
 
 from __future__ import annotations
@@ -50,11 +52,13 @@ def curve_of(cal: Calibration, order) -> "Curve":
 
 
 class Curve:
-    """Order ``order`` of ``cal``: y(z) = sum_j a_j z^j and Var(mean y(z)) = s^2 |z' R^-1|^2."""
+    """Order ``order`` of ``cal``: f(z) = sum_j a_j z^j and Var(mean f(z)) = s^2 |z' R^-1|^2, in curve
+    units (y = 2^e f with e = ``cal.y_exponent``)."""
 
     def __init__(self, cal: Calibration, order: int):
         self.cal = cal
         self.order = cal.resolve_order(order)
+        self.e = cal.y_exponent
         self.a = cal.scaled_coefficients(self.order)
         r_inv = cal.r_factor_inverse(self.order)
         self.r_inv = r_inv
@@ -72,14 +76,23 @@ class Curve:
             self.local_polynomials[: c.size, column] = c
         self._turns = None
         self.stats = cal.stats(self.order)
-        self.s = self.stats.residual_sd
+        self.s = cal.scaled_residual_sd(self.order)  # in curve units
         self.df = self.stats.df_resid
         self.x_min = float(cal.x[cal.by_x[0]])
         self.x_max = float(cal.x[cal.by_x[-1]])
         self._grid = None
         self._t: dict[float, float] = {}
 
+    def to_y(self, values) -> np.ndarray:
+        """Curve units to the units of y."""
+        return np.ldexp(values, self.e)
+
+    def from_y(self, values) -> np.ndarray:
+        """The units of y to curve units."""
+        return np.ldexp(np.asarray(values, dtype=float), -self.e)
+
     def value(self, z) -> np.ndarray:
+        """f(z) in curve units."""
         return horner(self.a, z)
 
     def slope(self, z) -> np.ndarray:
@@ -87,11 +100,11 @@ class Curve:
         return horner(self._da, z)
 
     def mean_variance(self, z) -> np.ndarray:
-        """Var of the fitted mean at z, in units of y squared."""
+        """Var of the fitted mean at z, in curve units squared."""
         return self.s**2 * np.maximum(horner(self._var_poly, z), 0.0)
 
     def local(self, z: np.ndarray):
-        """f(z), f'(z), the variance of the fitted mean and its slope, at the points z (1-D)."""
+        """f(z), f'(z), the variance of the fitted mean and its slope, at the points z (1-D), in curve units."""
         v = np.vander(z, self.local_polynomials.shape[0], increasing=True) @ self.local_polynomials
         s2 = self.s**2
         return v[:, 0], v[:, 1], s2 * np.maximum(v[:, 2], 0.0), s2 * v[:, 3]
@@ -119,7 +132,7 @@ class Curve:
 
     @property
     def grid(self):
-        """z nodes over the extended range, with the curve and mean variance there."""
+        """z nodes over the extended range, with the curve and mean variance there (curve units)."""
         if self._grid is None:
             self._grid = GRID_Z, self.value(GRID_Z), self.mean_variance(GRID_Z)
         return self._grid

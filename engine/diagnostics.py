@@ -28,12 +28,12 @@ BACK_CALC_EXTEND = 0.25
 
 
 def _studentized(cal: Calibration, curve: Curve):
-    """Weighted residuals, leverages, studentized residuals, Cook's D, Bonferroni p-values of the
-    externally studentized residuals and the Cook's D threshold of a curve (computed once)."""
+    """Weighted residuals (in curve units), leverages, studentized residuals, Cook's D, Bonferroni
+    p-values of the externally studentized residuals and the Cook's D threshold of a curve (computed once)."""
     cached = curve.__dict__.get("_studentized")
     if cached is not None:
         return cached
-    e = cal.weighted_residuals(curve.order)
+    e = cal.scaled_residuals(curve.order)  # in curve units, as s
     h = cal.leverage(curve.order)
     with np.errstate(divide="ignore", invalid="ignore"):
         r = e / (curve.s * np.sqrt(1.0 - h))
@@ -47,7 +47,7 @@ def _studentized(cal: Calibration, curve: Curve):
 
 def _back_calculate(cal: Calibration, curve: Curve):
     """x solving f(x) = y_i for each standard, nearest its own x, and how many solutions there are."""
-    rows, zs = roots_of(curve, cal.y, -1 - 2 * BACK_CALC_EXTEND, 1 + 2 * BACK_CALC_EXTEND)
+    rows, zs = roots_of(curve, curve.from_y(cal.y), -1 - 2 * BACK_CALC_EXTEND, 1 + 2 * BACK_CALC_EXTEND)
     count = np.bincount(rows, minlength=cal.n_points)
     back = np.full(cal.n_points, np.nan)
     distance = np.abs(zs - cal.scaled_x(cal.x)[rows])
@@ -67,8 +67,8 @@ def point_diagnostics(cal: Calibration, order: int, alpha: float = 0.05) -> Poin
     """Fitted, residual, studentized residuals, leverage, Cook's D, back-calculated x per standard."""
     alpha = check_alpha(alpha)
     curve = curve_of(cal, order)
-    e, h, r, t, cook, bonf, cook_cut = _studentized(cal, curve)
-    fitted = cal.y - e / cal.sqrt_w
+    _, h, r, t, cook, bonf, cook_cut = _studentized(cal, curve)
+    fitted = cal.y - cal.weighted_residuals(curve.order) / cal.sqrt_w
     resid = cal.y - fitted
     back, count = _back_calculate(cal, curve)
     notes = []

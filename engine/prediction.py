@@ -53,14 +53,15 @@ def predict(cal: Calibration, new_x, order: int, level: float = 0.95) -> tuple[P
     x0 = _finite(new_x, "new_x")
     curve = curve_of(cal, order)
     z0 = cal.scaled_x(x0)
-    fitted = curve.value(z0)
+    fitted = curve.value(z0)  # curve units until the end
     var_mean = curve.mean_variance(z0)
-    var_new = curve.s**2 * cal.weighting.variance_factor(x0, fitted)
+    var_new = curve.s**2 * cal.weighting.variance_factor(x0, curve.to_y(fitted))
     t = curve.t_value(level)
     half_mean = t * np.sqrt(var_mean)
     half_pred = t * np.sqrt(var_new + var_mean)
-    lows, highs = (fitted - half_mean).tolist(), (fitted + half_mean).tolist()
-    p_lows, p_highs = (fitted - half_pred).tolist(), (fitted + half_pred).tolist()
+    lows, highs = curve.to_y(fitted - half_mean).tolist(), curve.to_y(fitted + half_mean).tolist()
+    p_lows, p_highs = curve.to_y(fitted - half_pred).tolist(), curve.to_y(fitted + half_pred).tolist()
+    fitted = curve.to_y(fitted)
     outside = f"x outside the calibrated range {_range_words(curve)}: extrapolation"
     no_weight = f"weights '{cal.weighting.label}' give no weight for a reading here"
     weighted = np.isfinite(half_pred).tolist()
@@ -91,7 +92,7 @@ def _replicates(replicates, count: int) -> np.ndarray:
 
 
 def roots_of(curve: Curve, readings: np.ndarray, z_lo: float, z_hi: float):
-    """Every z in [z_lo, z_hi] (grid nodes) with f(z) = reading: (reading index, z), sorted."""
+    """Every z in [z_lo, z_hi] (grid nodes) with f(z) = reading (in curve units): (reading index, z), sorted."""
     z, f, _ = curve.grid
     if curve.turning_points(z_lo, z_hi).size == 0:
         return _monotonic_roots(curve, readings, z_lo, z_hi)
@@ -124,14 +125,16 @@ def _monotonic_roots(curve: Curve, readings: np.ndarray, z_lo: float, z_hi: floa
     return rows, zs
 
 
-def _variance_factor_and_slope(cal: Calibration, zz: np.ndarray, fz: np.ndarray, dfz: np.ndarray):
-    """1/w0 of a new reading at z and its derivative along z (1 and 0 when unweighted)."""
+def _variance_factor_and_slope(curve: Curve, zz: np.ndarray, fz: np.ndarray, dfz: np.ndarray):
+    """1/w0 of a new reading at z and its derivative along z (1 and 0 when unweighted); f and f'
+    in curve units."""
+    cal = curve.cal
     weighting = cal.weighting
     if weighting.values is None:
         return 1.0, 0.0
-    x = cal.raw_x(zz)
-    return (weighting.variance_factor(x, fz),
-            weighting.variance_factor_slope(x, fz, dfz / cal.dx_dz) * cal.dx_dz)
+    x, y = cal.raw_x(zz), curve.to_y(fz)
+    return (weighting.variance_factor(x, y),
+            weighting.variance_factor_slope(x, y, curve.to_y(dfz) / cal.dx_dz) * cal.dx_dz)
 
 
 def _grid_variance_factor(curve: Curve, cal: Calibration) -> np.ndarray:
@@ -139,7 +142,8 @@ def _grid_variance_factor(curve: Curve, cal: Calibration) -> np.ndarray:
     if "_grid_vf" not in curve.__dict__:
         weighting = cal.weighting
         z, f, _ = curve.grid
-        curve._grid_vf = np.ones(1) if weighting.values is None else weighting.variance_factor(cal.raw_x(z), f)
+        curve._grid_vf = (np.ones(1) if weighting.values is None
+                          else weighting.variance_factor(cal.raw_x(z), curve.to_y(f)))
     return curve._grid_vf
 
 
@@ -202,7 +206,7 @@ def _solve_on_monotonic_band(curve: Curve, cal: Calibration, y0: np.ndarray, m: 
         v = np.vander(zz, local.shape[0], increasing=True) @ local
         var = np.maximum(v[:, 2], 0.0)
         if weighted:
-            vfz, dvf = _variance_factor_and_slope(cal, zz, sign * v[:, 0], sign * v[:, 1])
+            vfz, dvf = _variance_factor_and_slope(curve, zz, sign * v[:, 0], sign * v[:, 1])
             half = np.sqrt(spread * vfz + var)
             dhalf = (spread * dvf + v[:, 3]) / (2 * half)
         else:
@@ -233,7 +237,7 @@ def _band_edges(curve: Curve, cal: Calibration, y0: np.ndarray, m: np.ndarray, z
     def gap_and_slope(zz, y, mm):
         fz, dfz, vz, dvz = curve.local(zz)
         d = fz - y
-        vf, dvf = _variance_factor_and_slope(cal, zz, fz, dfz)
+        vf, dvf = _variance_factor_and_slope(curve, zz, fz, dfz)
         return d * d - t2s2 * vf / mm - t2 * vz, 2 * d * dfz - t2s2 * dvf / mm - t2 * dvz
 
     vf = _grid_variance_factor(curve, cal)
@@ -273,14 +277,15 @@ def inverse(cal: Calibration, readings, order: int, replicates=1, level: float =
     m = _replicates(replicates, y0.size)
     curve = curve_of(cal, order)
     t = curve.t_value(level)
-    lo_resp, hi_resp = sorted(curve.value(ENDS).tolist())
-    solved = _solve_on_monotonic_band(curve, cal, y0, m, t)
+    lo_resp, hi_resp = sorted(curve.to_y(curve.value(ENDS)).tolist())
+    y0_curve = curve.from_y(y0)
+    solved = _solve_on_monotonic_band(curve, cal, y0_curve, m, t)
     if solved is not None:
         z_hat, lower_z, upper_z = solved
         rows = np.isfinite(z_hat).nonzero()[0]
         zs = z_hat[rows]
     else:
-        rows, zs = roots_of(curve, y0, -1.0, 1.0)
+        rows, zs = roots_of(curve, y0_curve, -1.0, 1.0)
     count = np.bincount(rows, minlength=y0.size)
     if solved is None:
         z_hat = np.full(y0.size, np.nan)
@@ -289,7 +294,7 @@ def inverse(cal: Calibration, readings, order: int, replicates=1, level: float =
         ok = np.flatnonzero(np.isfinite(z_hat))
         lower_z, upper_z = np.full(y0.size, np.nan), np.full(y0.size, np.nan)
         if ok.size:
-            lower_z[ok], upper_z[ok] = _band_edges(curve, cal, y0[ok], m[ok], z_hat[ok], t)
+            lower_z[ok], upper_z[ok] = _band_edges(curve, cal, y0_curve[ok], m[ok], z_hat[ok], t)
     notes = [""] * y0.size
     monotonic = curve.turning_points().size == 0
     for i in (count != 1).nonzero()[0].tolist():

@@ -326,17 +326,24 @@ def test_every_argument_is_documented_for_the_function_wizard():
                 assert param.name in DOC, (name, param.name)
 
 
-def test_overflowing_magnitudes_get_a_message_not_an_error():
+@pytest.mark.parametrize("exponent", [520, -660])  # responses near 1e156 and 1e-199
+def test_huge_and_tiny_responses_give_the_same_curve(exponent):
+    # y times a power of two: every table of the curve's use scales exactly (squares of the responses
+    # alone would overflow or underflow; the curve works in scaled units), inverse x is unchanged
     x = np.repeat(np.linspace(1, 9, 5), 2)
-    y = (1 + 2 * np.linspace(0, 1, 10) + np.random.default_rng(0).normal(0, 0.01, 10)) * 1e156
-    xs, ys = column(x), column(y)
-    assert udfs.calib_inverse(xs, ys, [[float(y[3])]]) == [[
-        "the numbers are too large or too small for double precision in this computation (squares of y or x "
-        "overflow); express x and y in other units and try again"]]
-    # coefficients are computed in scaled units and still come out (statsmodels is no reference at 1e156)
-    ref = engine.fit(x / 1e156, y / 1e156, 1)
-    got = udfs.calib_coefs(xs, ys, 1)
-    assert got[2][1] == pytest.approx(ref.coefficients[1], rel=1e-12)
+    y = 1 + 2 * np.linspace(0, 1, 10) + np.random.default_rng(0).normal(0, 0.01, 10)
+    xs, ys, scaled = column(x), column(y), column(np.ldexp(y, exponent))
+    readings = [[float(y[3])], [2.0]]
+
+    def times(rows):
+        return [[np.ldexp(v, exponent) if isinstance(v, float) else v for v in row] for row in rows]
+
+    assert udfs.calib_predict(xs, scaled, [[2.5], [7.0]], 1) == times(udfs.calib_predict(xs, ys, [[2.5], [7.0]], 1))
+    assert udfs.calib_inverse(xs, scaled, times(readings), 2, 1) == udfs.calib_inverse(xs, ys, readings, 2, 1)
+    plain, big = udfs.calib_residuals(xs, ys, 1), udfs.calib_residuals(xs, scaled, 1)
+    assert [r[2:] for r in big] == [r[2:] for r in plain]  # studentized, leverage, Cook, back-calculated x
+    assert [r[:2] for r in big] == [r[:2] for r in times(plain)]  # fitted and residual
+    assert udfs.calib_coefs(xs, scaled, 1)[2][1] == np.ldexp(udfs.calib_coefs(xs, ys, 1)[2][1], exponent)
 
 
 def test_blank_new_x_and_readings_keep_their_rows_in_cached_results(data):
