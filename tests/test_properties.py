@@ -113,3 +113,25 @@ def test_curve_checks_do_not_depend_on_magnitudes(data, ex, ey):
         got = {c.name: c.statistic for c in engine.curve_checks(scaled, order)}
     for name in ("runs of residual signs", "Durbin-Watson", "Shapiro-Wilk", "Breusch-Pagan"):
         np.testing.assert_allclose(got[name], expected[name], rtol=1e-7, atol=1e-9, err_msg=name)
+
+
+@SETTINGS
+@given(calibrations(), st.integers(-990, 990), st.integers(-990, 990))
+def test_predictions_and_inverse_predictions_scale_exactly_at_any_magnitude(data, kx, ky):
+    # x times 2^kx and y times 2^ky (exact scalings, up to about 1e298 and down to 1e-298): forward
+    # predictions scale by 2^ky, inverse estimates and bounds by 2^kx, to the last bit
+    x, y = data
+    assume(np.ptp(y) > 0)
+    cal = engine.Calibration(x, y)
+    big = engine.Calibration(np.ldexp(x, kx), np.ldexp(y, ky))
+    order = engine.choose_order(cal).order
+    assert engine.choose_order(big).order == order
+    new_x = np.linspace(x.min(), x.max(), 4)
+    plain = engine.predict(cal, new_x, order)
+    scaled = engine.predict(big, np.ldexp(new_x, kx), order)
+    for p, q in zip(plain, scaled):
+        assert [np.ldexp(v, ky) for v in (p.fitted, p.mean_lower, p.mean_upper, p.pred_lower, p.pred_upper)] == \
+            [q.fitted, q.mean_lower, q.mean_upper, q.pred_lower, q.pred_upper]
+    readings = np.array([p.fitted for p in plain])
+    for e, f in zip(engine.inverse(cal, readings, order), engine.inverse(big, np.ldexp(readings, ky), order)):
+        np.testing.assert_array_equal(np.ldexp([e.x, e.lower, e.upper], kx), [f.x, f.lower, f.upper])
