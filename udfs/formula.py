@@ -137,6 +137,13 @@ def parse_call(text: str, sheet: str, names: dict) -> Call:
     ``names`` maps defined names (upper case) to their reference text, looked up
     first as (sheet, NAME) for sheet scope, then (None, NAME).
     """
+    name, raw = _call_parts(text)
+    return Call(name, tuple(_argument(a, sheet, names) for a in raw))
+
+
+@functools.lru_cache(maxsize=4096)
+def _call_parts(text: str) -> tuple[str, tuple[str, ...]]:
+    """The function name and the raw argument texts of a CALIB_* call (the same on every sheet)."""
     body = _PREFIX.sub("", text.strip().lstrip("=").strip())
     m = re.match(r"^([A-Za-z_][\w.]*)\s*\(", body)
     if not m or m.group(1).upper() not in NAMES:
@@ -146,8 +153,7 @@ def parse_call(text: str, sheet: str, names: dict) -> Call:
     if close != len(body) - 1:
         raise Unsupported("the formula mixes CALIB_* with other functions or operators")
     inner = body[open_at + 1:close]
-    raw = _split_args(inner) if inner.strip() else []
-    return Call(m.group(1).upper(), tuple(_argument(a, sheet, names) for a in raw))
+    return m.group(1).upper(), tuple(_split_args(inner) if inner.strip() else [])
 
 
 def _argument(text: str, sheet: str, names: dict):
