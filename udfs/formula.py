@@ -182,8 +182,10 @@ def _argument(text: str, sheet: str, names: dict):
     raise Unsupported(f"the argument '{t}' is not a number, text, reference or CALIB_* call")
 
 
+@functools.lru_cache(maxsize=2**16)
 def reference(text: str, sheet: str) -> Area | None:
-    """The Area of a reference like A1, $A$2:$A$9, 'Run 2'!B2:B9 or Sheet1!A:A; None if it is not one."""
+    """The Area of a reference like A1, $A$2:$A$9, 'Run 2'!B2:B9 or Sheet1!A:A; None if it is not one
+    (an Area is immutable, so each distinct reference is parsed once)."""
     m = _REF.match(text.strip())
     if not m:
         return None
