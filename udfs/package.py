@@ -1,10 +1,11 @@
 """A workbook file as a zip package: safe reading, cell values, and surgical edits of sheet XML.
 
 Every part is read with limits (entry count, unpacked size, compression ratio)
-and no XML part may declare a DTD or entities (``parse_xml``: defusedxml's check,
-or for plain UTF-8 a byte check), so a hostile file cannot expand or reach outside. Nothing in a
-workbook is ever executed. Sheet XML is edited as text inside <sheetData>,
-row by row, so every byte outside the cells that change stays as it was.
+and no XML part may declare a DTD or entities (``parse_xml``: defusedxml's
+check, or for plain UTF-8 a byte check), so a hostile file cannot expand or
+reach outside. Nothing in a workbook is ever executed. Sheet XML is edited as
+text inside <sheetData>, row by row, so every byte outside the cells that
+change stays as it was.
 """
 
 from __future__ import annotations
