@@ -28,8 +28,8 @@ BACK_CALC_EXTEND = 0.25
 
 
 def _studentized(cal: Calibration, curve: Curve):
-    """Weighted residuals (in curve units), leverages, studentized residuals, Cook's D, Bonferroni
-    p-values of the externally studentized residuals and the Cook's D threshold of a curve (computed once)."""
+    """Leverages, studentized residuals (internally and externally), Cook's D, Bonferroni p-values of
+    the externally studentized residuals and the Cook's D threshold of a curve (computed once)."""
     cached = curve.__dict__.get("_studentized")
     if cached is not None:
         return cached
@@ -41,7 +41,7 @@ def _studentized(cal: Calibration, curve: Curve):
         t = r * np.sqrt((df - 1) / (df - r**2)) if df > 1 else np.full_like(r, np.nan)
         cook = r**2 * h / ((curve.order + 1) * (1.0 - h))
     n, p = cal.n_points, curve.order + 1
-    curve._studentized = e, h, r, t, cook, _bonferroni(t, curve.df, n), float(f_quantile(0.5, p, n - p))
+    curve._studentized = h, r, t, cook, _bonferroni(t, curve.df, n), float(f_quantile(0.5, p, n - p))
     return curve._studentized
 
 
@@ -67,7 +67,7 @@ def point_diagnostics(cal: Calibration, order: int, alpha: float = 0.05) -> Poin
     """Fitted, residual, studentized residuals, leverage, Cook's D, back-calculated x per standard."""
     alpha = check_alpha(alpha)
     curve = curve_of(cal, order)
-    _, h, r, t, cook, bonf, cook_cut = _studentized(cal, curve)
+    h, r, t, cook, bonf, cook_cut = _studentized(cal, curve)
     fitted = cal.y - cal.weighted_residuals(curve.order) / cal.sqrt_w
     resid = cal.y - fitted
     back, count = _back_calculate(cal, curve)
@@ -161,7 +161,7 @@ def curve_checks(cal: Calibration, order: int, alpha: float = 0.05, point_labels
     else:
         label = list(point_labels).__getitem__
     curve = curve_of(cal, order)
-    cook, bonf, cut = _studentized(cal, curve)[4:]
+    cook, bonf, cut = _studentized(cal, curve)[3:]
     n, p = cal.n_points, curve.order + 1
     by_x = cal.by_x
     out = []
