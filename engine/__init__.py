@@ -1,8 +1,8 @@
 """Degreewise numeric engine: polynomial calibration curves on numpy and scipy only.
 
 ``Calibration(x, y, max_order=None, weights=None)`` factorises the data once;
-its methods and the functions below hand out per-order results (frozen
-dataclasses from ``engine.results``). ``fit(x, y, order, weights=None)`` is the
+its methods and the functions below hand out per-order results (named
+tuples from ``engine.results``). ``fit(x, y, order, weights=None)`` is the
 shortest way to one order's coefficients.
 """
 

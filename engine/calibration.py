@@ -307,8 +307,9 @@ class Calibration:
         (b_hi, b_lo), (e_hi, e_lo) = refine(v_hi, v_lo, self._q, self._r_inv, self._t, rhs_hi, rhs_lo, c, mask)
         b = b_hi + b_lo
         residuals = e_hi[first] + e_lo[first]
-        diags = np.split(np.maximum(b[diagonal], 0.0), np.cumsum(np.arange(1, big_p))) if with_cov else None
-        return {k: (b[j, : k + 1], diags[k] if with_cov else None, residuals[k])
+        diag = np.maximum(b[diagonal], 0.0) if with_cov else None
+        return {k: (b[j, : k + 1], diag[k * (k + 1) // 2: (k + 1) * (k + 2) // 2] if with_cov else None,
+                    residuals[k])
                 for k, j in enumerate(first.tolist())}
 
     def _covariance_diagonal(self, order: int) -> np.ndarray:
@@ -324,20 +325,45 @@ class Calibration:
 
     # -- statistics ---------------------------------------------------------------------------
 
-    def _lack_of_fit_tests(self, rss: np.ndarray) -> list[LackOfFit | None]:
+    def _lack_of_fit_tests(self, tests: dict) -> list[LackOfFit | None]:
         """The lack-of-fit split and F test of every order (None where it cannot be tested)."""
-        p = np.arange(rss.size) + 1
-        df_pe, df_lof = self.n_points - self.n_distinct, self.n_distinct - p
-        if df_pe < 1:
-            return [None] * rss.size
-        ss_lof = np.maximum(rss - self._ss_pure, 0.0)
-        with np.errstate(divide="ignore", invalid="ignore"):
-            f = (ss_lof / df_lof) / (self._ss_pure / df_pe)  # inf, or nan for 0/0, without pure error
-        p_values = f_sf(f, np.maximum(df_lof, 1), df_pe).tolist()
+        if "lack of fit" not in tests:
+            return [None] * (self.max_order + 1)
         ey2 = 2 * self._ey
-        pure = self._ldexp(self._ss_pure, ey2)
-        return [LackOfFit(self._ldexp(ss, ey2), d, pure, df_pe, FTest(stat, d, df_pe, pv)) if d >= 1 else None
-                for ss, d, stat, pv in zip(ss_lof.tolist(), df_lof.tolist(), f.tolist(), p_values)]
+        pure, df_pe = self._ldexp(self._ss_pure, ey2), self.n_points - self.n_distinct
+        return [LackOfFit(self._ldexp(ss, ey2), test.df_num, pure, df_pe, test) if test.df_num >= 1 else None
+                for ss, test in zip(self._ss_lack_of_fit.tolist(), tests["lack of fit"])]
+
+    @cached_property
+    def _ss_lack_of_fit(self) -> np.ndarray:
+        return np.maximum(self._all_rss - self._ss_pure, 0.0)
+
+    @cached_property
+    def _f_tests(self) -> dict[str, list[FTest]]:
+        """Every F test of every order, from one vectorised pass: "overall" (orders 0..K: the regression
+        against the mean; order 0 has none), "lack of fit" (orders 0..K; only with replicates), "step"
+        (x^k against order k - 1, k = 1..K) and "sequential" (x^k in the Type I table of order K)."""
+        n, big_k = self.n_points, self.max_order
+        rss, terms = self._all_rss.tolist(), (self._qty[1:] ** 2).tolist()
+        df = [n - k - 1 for k in range(big_k + 1)]
+        parts = {  # name: (numerator SS, numerator df, residual SS, residual df) of each test
+            "overall": [(self._tss - r, max(k, 1), r, d) for k, (r, d) in enumerate(zip(rss, df))],
+            "step": [(ss, 1, r, d) for ss, r, d in zip(terms, rss[1:], df[1:])],
+            "sequential": [(ss, 1, rss[big_k], df[big_k]) for ss in terms],
+        }
+        df_pe = n - self.n_distinct
+        if df_pe >= 1:
+            parts["lack of fit"] = [(ss, self.n_distinct - k - 1, self._ss_pure, df_pe)
+                                    for k, ss in enumerate(self._ss_lack_of_fit.tolist())]
+        num, dfn, den, dfd = (np.array(column) for column in zip(*(row for rows in parts.values() for row in rows)))
+        with np.errstate(divide="ignore", invalid="ignore"):  # inf, or nan for 0/0
+            f = (num / dfn) / (den / dfd)
+        rows = list(zip(f.tolist(), dfn.tolist(), dfd.tolist(), f_sf(f, np.maximum(dfn, 1), dfd).tolist()))
+        out, i = {}, 0
+        for name, tests in parts.items():
+            out[name] = [FTest(*row) for row in rows[i: i + len(tests)]]
+            i += len(tests)
+        return out
 
     @cached_property
     def _residual_matrix(self) -> np.ndarray:
@@ -370,14 +396,12 @@ class Calibration:
         df = n - orders - 1
         with np.errstate(divide="ignore", invalid="ignore"):
             press = np.where(np.all(h < 1 - 1e-12, axis=0), np.sum((e / (1.0 - h)) ** 2, axis=0), math.nan)
-            f = ((self._tss - rss) / np.maximum(orders, 1)) / (rss / df)
-        f_p = f_sf(f, np.maximum(orders, 1), df)
-        lack = self._lack_of_fit_tests(rss)
+        tests = self._f_tests
+        lack = self._lack_of_fit_tests(tests)
         ey2 = 2 * self._ey
         log_w = 0.0 if self.weighting.values is None else float(np.log(self.weighting.values).sum())
         made = {}  # kept only when every order succeeds, so that an overflow leaves no half-filled cache
-        for k, (r, d, pr, fk, pk) in enumerate(zip(rss.tolist(), df.tolist(), press.tolist(), f.tolist(),
-                                                  f_p.tolist())):
+        for k, (r, d, pr, overall) in enumerate(zip(rss.tolist(), df.tolist(), press.tolist(), tests["overall"])):
             npar = k + 2
             log_rss = (math.log(r) if r > 0 else -math.inf) + ey2 * _LN2
             llf = -0.5 * n * (_LN_2PI + log_rss - math.log(n) + 1) + 0.5 * log_w
@@ -388,7 +412,7 @@ class Calibration:
                 r_squared=r2, adj_r_squared=1.0 - (1.0 - r2) * (n - 1) / d,
                 press=self._ldexp(pr, ey2), predicted_r_squared=1.0 - pr / self._tss,
                 aicc=aicc, bic=-2 * llf + npar * math.log(n),
-                overall=FTest(fk, k, d, pk) if k >= 1 else None,
+                overall=overall if k >= 1 else None,
                 lack_of_fit=lack[k],
             )
         self._stats = made
@@ -430,13 +454,9 @@ class Calibration:
     def _sequential(self) -> SequentialTable:
         k = self.max_order
         st = self.stats(k)
-        ss = self._qty[1:] ** 2
-        with np.errstate(divide="ignore", invalid="ignore"):
-            f = ss / (self._rss(k) / st.df_resid)
-        p = f_sf(f, 1, st.df_resid)
         ey2 = 2 * self._ey
-        rows = tuple(SequentialRow(j, self._ldexp(float(ss[j - 1]), ey2),
-                                   FTest(float(f[j - 1]), 1, st.df_resid, float(p[j - 1]))) for j in range(1, k + 1))
+        rows = tuple(SequentialRow(j, self._ldexp(ss, ey2), test)
+                     for j, (ss, test) in enumerate(zip((self._qty[1:] ** 2).tolist(), self._f_tests["sequential"]), 1))
         return SequentialTable(k, rows, st.rss, st.df_resid, st.lack_of_fit, self._ldexp(self._tss, ey2),
                                self.n_points - 1)
 
@@ -449,9 +469,4 @@ class Calibration:
 
     @cached_property
     def _steps(self) -> tuple[FTest, ...]:
-        orders = np.arange(1, self.max_order + 1)
-        df = self.n_points - orders - 1
-        with np.errstate(divide="ignore", invalid="ignore"):
-            f = self._qty[1:] ** 2 / (self._all_rss[1:] / df)
-        p = f_sf(f, 1, df)
-        return tuple(FTest(float(f[i]), 1, int(df[i]), float(p[i])) for i in range(orders.size))
+        return tuple(self._f_tests["step"])

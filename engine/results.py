@@ -1,4 +1,4 @@
-"""Plain, immutable result objects handed out by the engine.
+"""Plain, immutable result objects handed out by the engine (named tuples: cheap to make, read by name).
 
 Not-applicable values are ``nan`` (for example a predicted R-squared when a
 standard has leverage 1, or a lack-of-fit test without replicates).
@@ -6,13 +6,12 @@ standard has leverage 1, or a lack-of-fit test without replicates).
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from typing import NamedTuple
 
 from .distributions import t_quantile
 
 
-@dataclass(frozen=True)
-class FTest:
+class FTest(NamedTuple):
     """An F test: statistic with (df_num, df_den) degrees of freedom and its p-value."""
 
     statistic: float
@@ -21,8 +20,7 @@ class FTest:
     p_value: float
 
 
-@dataclass(frozen=True)
-class LackOfFit:
+class LackOfFit(NamedTuple):
     """Residual split into lack of fit and pure error (replicated x)."""
 
     ss_lack_of_fit: float
@@ -32,8 +30,7 @@ class LackOfFit:
     test: FTest
 
 
-@dataclass(frozen=True)
-class OrderStats:
+class OrderStats(NamedTuple):
     """Goodness-of-fit figures of one order (weighted where weights are given).
 
     AICc and BIC use the Gaussian log-likelihood with k = order + 2 parameters
@@ -59,8 +56,7 @@ class OrderStats:
     lack_of_fit: LackOfFit | None
 
 
-@dataclass(frozen=True)
-class OrderFit:
+class OrderFit(NamedTuple):
     """Coefficients of one order in raw powers of x, intercept first."""
 
     order: int
@@ -84,8 +80,7 @@ class OrderFit:
         return tuple((b - q * s, b + q * s) for b, s in zip(self.coefficients, self.std_errors))
 
 
-@dataclass(frozen=True)
-class SequentialRow:
+class SequentialRow(NamedTuple):
     """One term of the sequential (Type I) table, tested against the max-order residual."""
 
     term: int
@@ -93,8 +88,7 @@ class SequentialRow:
     test: FTest
 
 
-@dataclass(frozen=True)
-class SequentialTable:
+class SequentialTable(NamedTuple):
     """Sequential ANOVA of the max-order model."""
 
     max_order: int
@@ -106,8 +100,7 @@ class SequentialTable:
     df_total: int
 
 
-@dataclass(frozen=True)
-class OrderChoice:
+class OrderChoice(NamedTuple):
     """The order a rule picks, and why, in words."""
 
     order: int
@@ -116,8 +109,7 @@ class OrderChoice:
     reason: str
 
 
-@dataclass(frozen=True)
-class Prediction:
+class Prediction(NamedTuple):
     """Forward prediction at one new x."""
 
     x: float
@@ -129,8 +121,7 @@ class Prediction:
     note: str
 
 
-@dataclass(frozen=True)
-class InverseEstimate:
+class InverseEstimate(NamedTuple):
     """x estimate for one reading (mean of ``replicates`` readings) and its interval."""
 
     reading: float
@@ -140,8 +131,7 @@ class InverseEstimate:
     note: str
 
 
-@dataclass(frozen=True)
-class PointDiagnostics:
+class PointDiagnostics(NamedTuple):
     """Per-standard diagnostics, one entry per point in input order."""
 
     fitted: tuple[float, ...]
@@ -155,8 +145,7 @@ class PointDiagnostics:
     notes: tuple[str, ...]
 
 
-@dataclass(frozen=True)
-class Check:
+class Check(NamedTuple):
     """One check of the curve: statistic, p-value (nan if none), verdict, detail."""
 
     name: str
