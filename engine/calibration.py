@@ -71,8 +71,10 @@ def householder_qr(a: np.ndarray):
 
 
 def _triangular_inverse(r: np.ndarray) -> np.ndarray:
-    """R^-1 of an upper triangular R with a non-zero diagonal (LAPACK dgesv on the identity)."""
-    return np.triu(np.linalg.inv(r))
+    """R^-1 of an upper triangular R with a non-zero diagonal (LAPACK dgesv on the identity). Exactly
+    upper triangular: below the diagonal R holds zeros only, so partial pivoting swaps no rows, L = I,
+    and back substitution leaves those zeros as they are."""
+    return np.linalg.inv(r)
 
 
 def order_limit(n_points: int, n_distinct: int) -> int:
@@ -139,7 +141,8 @@ class Calibration:
                 f"all {n} x values are equal ({float(x[0])!r}): a curve needs at least 2 distinct x values",
                 argument="x",
             )
-        if y.min() == y.max():
+        y_min, y_max = float(y.min()), float(y.max())
+        if y_min == y_max:
             raise DataError(
                 f"all {n} y values are equal ({float(y[0])!r}): the response does not change with x, "
                 "so there is no curve to fit",
@@ -164,7 +167,7 @@ class Calibration:
         w = self.weighting.values
         self.sqrt_w = np.ones(n) if w is None else np.sqrt(w)
         self._ex = math.frexp(max(-float(sorted_x[0]), float(sorted_x[-1])))[1]
-        ymax = max(-float(y.min()), float(y.max()))
+        ymax = max(-y_min, y_max)
         self._ey = math.frexp(ymax)[1] if ymax > 0 else 0
         u = np.ldexp(x, -self._ex)
         self._ys = np.ldexp(y, -self._ey)
@@ -178,7 +181,7 @@ class Calibration:
         if w is not None:
             zw *= self.sqrt_w[:, None]
         self._q, self._r = householder_qr(zw)
-        size = np.abs(np.diag(self._r))
+        size = np.abs(self._r.diagonal())
         if not size.min() > _RANK_TOLERANCE * size.max():
             raise DataError(
                 f"the x values are too close together, compared with their range ({float(x.min())!r} to "
@@ -186,16 +189,20 @@ class Calibration:
                 "positions; remove the outlying x or choose a lower max_order",
                 argument="x",
             )
-        self._yw = self._ys * self.sqrt_w
+        self._yw = self._ys if w is None else self._ys * self.sqrt_w
         self._qty = self._q.T @ self._yw
         self._r_inv = _triangular_inverse(self._r)
         self._leverage = np.cumsum(self._q**2, axis=1)
-        sw2 = np.ones(n) if w is None else self.sqrt_w**2
-        wy = sw2 * self._ys
-        mean = wy.sum() / sw2.sum()
-        self._tss = float((sw2 * (self._ys - mean) ** 2).sum())
-        gmean = np.bincount(inverse, wy) / np.bincount(inverse, sw2)
-        self._ss_pure = float((sw2 * (self._ys - gmean[inverse]) ** 2).sum())
+        if w is None:
+            gmean = np.bincount(inverse, self._ys) / np.bincount(inverse)
+            d_mean, d_level = self._ys - self._ys.sum() / n, self._ys - gmean[inverse]
+            self._tss, self._ss_pure = float((d_mean * d_mean).sum()), float((d_level * d_level).sum())
+        else:
+            sw2 = self.sqrt_w**2
+            wy = sw2 * self._ys
+            gmean = np.bincount(inverse, wy) / np.bincount(inverse, sw2)
+            self._tss = float((sw2 * (self._ys - wy.sum() / sw2.sum()) ** 2).sum())
+            self._ss_pure = float((sw2 * (self._ys - gmean[inverse]) ** 2).sum())
         self._t = conversion_matrix(self.centre, self.half_width, k)
         self._stats: dict[int, OrderStats] = {}
         self._cov: dict[int, np.ndarray] = {}

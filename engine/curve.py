@@ -9,6 +9,8 @@ that variances and squared gaps neither overflow nor underflow.
 
 from __future__ import annotations
 
+import functools
+
 import numpy as np
 
 from .calibration import Calibration
@@ -64,9 +66,7 @@ class Curve:
         self.r_inv = r_inv
         # Var(mean f(z)) / s^2 = b(z)' C b(z) with C = R^-1 R^-T: a polynomial in z of degree 2k
         c = r_inv @ r_inv.T
-        p = self.order + 1
-        powers = np.add.outer(np.arange(p), np.arange(p))
-        self._var_poly = np.bincount(powers.ravel(), c.ravel(), minlength=2 * p - 1)
+        self._var_poly = np.bincount(_power_sums(self.order + 1), c.ravel())
         self._dvar = _derivative(self._var_poly)
         self._da = _derivative(self.a)
         # f, f', Var(mean f)/s^2 and its slope as the columns of one matrix over z^0 .. z^2k
@@ -136,6 +136,14 @@ class Curve:
         if self._grid is None:
             self._grid = GRID_Z, self.value(GRID_Z), self.mean_variance(GRID_Z)
         return self._grid
+
+
+@functools.lru_cache(maxsize=32)
+def _power_sums(p: int) -> np.ndarray:
+    """i + j over the entries (i, j) of a p x p matrix, row by row: z^i z^j = z^(i+j)."""
+    out = np.add.outer(np.arange(p), np.arange(p)).ravel()
+    out.flags.writeable = False
+    return out
 
 
 def _derivative(c: np.ndarray) -> np.ndarray:

@@ -12,6 +12,7 @@ the range beyond either end, nearest the standard's own x.
 
 from __future__ import annotations
 
+import functools
 import math
 
 import numpy as np
@@ -119,7 +120,7 @@ def runs_test(residuals_by_x: np.ndarray) -> tuple[float, float, int]:
 
 def durbin_watson(residuals_by_x: np.ndarray) -> float:
     """DW = sum (e_t - e_(t-1))^2 / sum e_t^2 (Durbin & Watson, Biometrika 37 (1950) 409-428)."""
-    d = np.diff(residuals_by_x)
+    d = residuals_by_x[1:] - residuals_by_x[:-1]
     return float(d @ d / (residuals_by_x @ residuals_by_x))
 
 
@@ -138,6 +139,16 @@ def breusch_pagan(residuals: np.ndarray, z: np.ndarray, order: int, q=None) -> t
         return math.nan, math.nan
     lm = e2.size * float(((fitted - mean) ** 2).sum()) / tss
     return lm, float(special.chdtrc(order, lm))
+
+
+@functools.cache
+def _shapiro():
+    """scipy.stats.shapiro, imported on first use (scipy.stats takes half a second to import), undecorated:
+    the same computation without the axis/NaN-policy wrapper, which costs ten times the test itself
+    (tests compare against scipy.stats.shapiro)."""
+    from scipy.stats import shapiro
+
+    return getattr(shapiro, "__wrapped__", shapiro)
 
 
 def _verdict(p: float, alpha: float, bad: str, good: str) -> tuple[str, str]:
@@ -203,11 +214,7 @@ def curve_checks(cal: Calibration, order: int, alpha: float = 0.05, point_labels
                          "(rule of thumb, common practice)"))
 
     if n >= 3 and e.max() > e.min():
-        from scipy.stats import shapiro  # imported here: scipy.stats takes half a second to import
-
-        # the undecorated function: the same computation without the axis/NaN-policy wrapper,
-        # which costs ten times the test itself (tests compare against scipy.stats.shapiro)
-        w_stat, w_p = getattr(shapiro, "__wrapped__", shapiro)(e)
+        w_stat, w_p = _shapiro()(e)
         v, d = _verdict(float(w_p), alpha, "residuals depart from a normal distribution",
                         "no evidence against normal residuals")
         out.append(Check("Shapiro-Wilk", float(w_stat), float(w_p), v, d))

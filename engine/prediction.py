@@ -157,12 +157,16 @@ def _monotonic_band(curve: Curve, vf: np.ndarray, m: np.ndarray, t2: float, t2s2
     key = (t2, float(m[0]))
     if key not in cache:
         z, f, vm = curve.grid
+        sign = 1.0 if f[-1] >= f[0] else -1.0
+        table = np.empty((3, f.size))
+        curve_row, upper, lower = table
+        np.multiply(f, sign, out=curve_row)
         with np.errstate(invalid="ignore"):
             half = np.sqrt(t2s2 * vf / m[0] + t2 * vm)
-            sign = 1.0 if f[-1] >= f[0] else -1.0
-            upper, lower = sign * f + half, sign * f - half
-            rising = bool((upper[1:] > upper[:-1]).all() and (lower[1:] > lower[:-1]).all())
-        cache[key] = (sign, np.stack([sign * f, upper, lower])) if rising else None
+        np.add(curve_row, half, out=upper)
+        np.subtract(curve_row, half, out=lower)
+        rising = bool((upper[1:] > upper[:-1]).all() and (lower[1:] > lower[:-1]).all())
+        cache[key] = (sign, table) if rising else None
     return cache[key]
 
 

@@ -38,9 +38,18 @@ def conversion_matrix(centre: float, half_width: float, order: int) -> np.ndarra
 
     T_kj = C(j, k) (-centre)^(j-k) / half_width^j for k <= j (binomial expansion).
     """
+    binomials, powers, j = _expansion(order)
+    return binomials * float(-centre) ** powers / half_width**j
+
+
+@functools.lru_cache(maxsize=32)
+def _expansion(order: int):
+    """C(j, k) at [k, j] (0 for k > j), the power j - k (0 for k > j) and j, for ``conversion_matrix``."""
     j = np.arange(order + 1)
-    power = j[None, :] - j[:, None]
-    return _binomials(order) * np.where(power >= 0, float(-centre) ** np.maximum(power, 0), 0.0) / half_width**j
+    out = _binomials(order), np.maximum(j[None, :] - j[:, None], 0), j
+    for a in out:
+        a.flags.writeable = False
+    return out
 
 
 @functools.lru_cache(maxsize=32)
