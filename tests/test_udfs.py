@@ -222,6 +222,15 @@ def test_a_logical_never_shares_a_cached_result_with_the_number_it_equals(data):
         "x, row 1 of 21: the logical value TRUE is not a number; enter a number or clear the cell")
 
 
+def test_a_ragged_range_never_shares_a_cached_result_with_the_column_it_flattens_to(data):
+    # two cells in row 2 and none in row 1 hold the same numbers as a proper column: never the same key
+    x, y = data
+    assert isinstance(udfs.calib_order(column(x), column(y)), int)
+    ragged = [[]] + [[x[0], x[1]]] + column(x[2:])
+    assert udfs.calib_order(ragged, column(y)) == (
+        "x: the range is 21 rows by 2 columns; give a single row or column")
+
+
 def test_bad_cell_in_a_row_range(data):
     x, y = data
     row = [list(x)]

@@ -13,6 +13,7 @@ from __future__ import annotations
 import math
 import numbers
 from dataclasses import dataclass
+from itertools import chain
 
 import numpy as np
 
@@ -77,12 +78,22 @@ def describe(v) -> str | None:
     return f"a value of type {type(v).__name__} is not a number"
 
 
+def one_wide(value):
+    """The cells of a list of one-cell lists (a column as xlwings hands it over) as a tuple, else None."""
+    if type(value) is not list or set(map(type, value)) != {list} or min(map(len, value)) != 1:
+        return None
+    cells = tuple(chain.from_iterable(value))
+    # n rows of at least one cell each hold n cells only if every row holds exactly one
+    return cells if len(cells) == len(value) else None
+
+
 def flatten(value, name: str) -> Cells:
     """A scalar, a row, a column or a one-wide block as one sequence of cells."""
     if not isinstance(value, (list, tuple)):
         return Cells(name, (value,), "row")
-    if all(type(r) is list and len(r) == 1 for r in value):  # the usual case: a column
-        return Cells(name, tuple([r[0] for r in value]), "row")
+    column = one_wide(value)
+    if column is not None:  # the usual case
+        return Cells(name, column, "row")
     rows = [list(r) if isinstance(r, (list, tuple)) else [r] for r in value]
     if not rows:
         return Cells(name, (), "row")
@@ -135,9 +146,10 @@ def number_option(v, name: str, default, low: float, high: float, example: str, 
     if v is None or is_omitted(v):
         return default
     v = scalar(v, name)
-    why = describe(v)
-    if why is not None:
-        raise CellError(f"{name}: {why}; leave it empty or enter {example}")
+    if not (type(v) in (float, int) and math.isfinite(v)):
+        why = describe(v)
+        if why is not None:
+            raise CellError(f"{name}: {why}; leave it empty or enter {example}")
     f = float(v)
     if whole and f != int(f):
         raise CellError(f"{name}: {f:g} is not a whole number; leave it empty or enter {example}")
