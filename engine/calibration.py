@@ -438,18 +438,18 @@ class Calibration:
         if k in self._fits:
             return self._fits[k]
         stats = self.stats(k)
-        p = k + 1
         coef, diag, _ = self._refined(k)
-        se = math.sqrt(self._rss(k) / stats.df_resid) * np.sqrt(diag)
-        with np.errstate(divide="ignore", invalid="ignore"):
-            t = np.where(se > 0, coef / se, np.where(coef == 0, math.nan, np.copysign(math.inf, coef)))
-        # back to the units of x and y; t (a ratio) is taken before, so it survives over- or underflow
-        exps = self._ey - self._ex * np.arange(p)
-        with np.errstate(over="ignore", under="ignore"):
-            coef, se = np.ldexp(coef, exps), np.ldexp(se, exps)
-        pv = t_two_sided(t, stats.df_resid)
-        fit = OrderFit(k, tuple(map(float, coef)), tuple(map(float, se)), tuple(map(float, t)),
-                       tuple(map(float, pv)), stats)
+        sd = math.sqrt(self._rss(k) / stats.df_resid)
+        coefs, ses, ts = [], [], []
+        for j, (b, d) in enumerate(zip(coef.tolist(), diag.tolist())):
+            se = sd * math.sqrt(d)
+            ts.append(b / se if se > 0 else (math.nan if b == 0 else math.copysign(math.inf, b)))
+            # back to the units of x and y; t (a ratio) is taken before, so it survives over- or underflow
+            e = self._ey - self._ex * j
+            coefs.append(self._ldexp(b, e))
+            ses.append(self._ldexp(se, e))
+        p_values = t_two_sided(np.array(ts), stats.df_resid).tolist()
+        fit = OrderFit(k, tuple(coefs), tuple(ses), tuple(ts), tuple(p_values), stats)
         self._fits[k] = fit
         return fit
 

@@ -214,7 +214,9 @@ def curve_checks(cal: Calibration, order: int, alpha: float = 0.05, point_labels
                          "(rule of thumb, common practice)"))
 
     if n >= 3 and e.max() > e.min():
-        w_stat, w_p = _shapiro()(e)
+        # scaled by a power of two to a largest |e| in [0.5, 1): the statistic is scale-free, and the
+        # algorithm takes a range below 1e-19 as zero
+        w_stat, w_p = _shapiro()(np.ldexp(e, -math.frexp(float(np.abs(e).max()))[1]))
         v, d = _verdict(float(w_p), alpha, "residuals depart from a normal distribution",
                         "no evidence against normal residuals")
         out.append(Check("Shapiro-Wilk", float(w_stat), float(w_p), v, d))

@@ -55,22 +55,22 @@ def predict(cal: Calibration, new_x, order: int, level: float = 0.95) -> tuple[P
     z0 = cal.scaled_x(x0)
     fitted = curve.value(z0)  # curve units until the end
     var_mean = curve.mean_variance(z0)
-    var_new = curve.s**2 * cal.weighting.variance_factor(x0, curve.to_y(fitted))
+    weighted = cal.weighting.values is not None
+    var_new = curve.s**2 * (cal.weighting.variance_factor(x0, curve.to_y(fitted)) if weighted else 1.0)
     t = curve.t_value(level)
     half_mean = t * np.sqrt(var_mean)
     half_pred = t * np.sqrt(var_new + var_mean)
-    lows, highs = curve.to_y(fitted - half_mean).tolist(), curve.to_y(fitted + half_mean).tolist()
-    p_lows, p_highs = curve.to_y(fitted - half_pred).tolist(), curve.to_y(fitted + half_pred).tolist()
-    fitted = curve.to_y(fitted)
+    columns = curve.to_y(np.array([fitted, fitted - half_mean, fitted + half_mean, fitted - half_pred,
+                                   fitted + half_pred])).tolist()
     outside = f"x outside the calibrated range {_range_words(curve)}: extrapolation"
     no_weight = f"weights '{cal.weighting.label}' give no weight for a reading here"
-    weighted = np.isfinite(half_pred).tolist()
+    has_weight = np.isfinite(half_pred).tolist() if weighted else None
     out = []
-    for i, (x, y) in enumerate(zip(x0.tolist(), fitted.tolist())):
+    for i, (x, y, low, high, p_low, p_high) in enumerate(zip(x0.tolist(), *columns)):
         notes = outside if (x < curve.x_min or x > curve.x_max) else ""
-        if not weighted[i]:
+        if weighted and not has_weight[i]:
             notes = f"{notes}; {no_weight}" if notes else no_weight
-        out.append(Prediction(x, y, lows[i], highs[i], p_lows[i], p_highs[i], notes))
+        out.append(Prediction(x, y, low, high, p_low, p_high, notes))
     return tuple(out)
 
 
@@ -281,7 +281,6 @@ def inverse(cal: Calibration, readings, order: int, replicates=1, level: float =
     m = _replicates(replicates, y0.size)
     curve = curve_of(cal, order)
     t = curve.t_value(level)
-    lo_resp, hi_resp = sorted(curve.to_y(curve.value(ENDS)).tolist())
     y0_curve = curve.from_y(y0)
     solved = _solve_on_monotonic_band(curve, cal, y0_curve, m, t)
     if solved is not None:
@@ -300,19 +299,19 @@ def inverse(cal: Calibration, readings, order: int, replicates=1, level: float =
         if ok.size:
             lower_z[ok], upper_z[ok] = _band_edges(curve, cal, y0_curve[ok], m[ok], z_hat[ok], t)
     notes = [""] * y0.size
-    monotonic = curve.turning_points().size == 0
     for i in (count != 1).nonzero()[0].tolist():
         if count[i] > 1:
             xs = ", ".join(f"{v:.6g}" for v in cal.raw_x(zs[rows == i]))
             notes[i] = f"several x in the calibrated range give this reading ({xs}): the curve is not monotonic"
-        elif monotonic:
+        elif curve.turning_points().size == 0:
+            lo_resp, hi_resp = sorted(curve.to_y(curve.value(ENDS)).tolist())
             side = "above" if (y0[i] > hi_resp) else "below"
             notes[i] = (f"reading {side} the calibrated response range [{lo_resp:.6g}, {hi_resp:.6g}]: "
                         "no estimate outside the calibrated range")
         else:
             notes[i] = "no x within the calibrated range gives this reading"
     out = []
-    x_hat, x_lo, x_hi = (cal.raw_x(v).tolist() for v in (z_hat, lower_z, upper_z))
+    x_hat, x_lo, x_hi = cal.raw_x(np.array([z_hat, lower_z, upper_z])).tolist()
     for i, (y, z, lo, hi) in enumerate(zip(y0.tolist(), z_hat.tolist(), lower_z.tolist(), upper_z.tolist())):
         note = notes[i]
         if math.isfinite(z):

@@ -76,7 +76,7 @@ class OrderFit(NamedTuple):
 
     def interval(self, level: float = 0.95) -> tuple[tuple[float, float], ...]:
         """Two-sided confidence interval of each coefficient at ``level``."""
-        q = t_quantile(0.5 + level / 2, self.stats.df_resid)
+        q = float(t_quantile(0.5 + level / 2, self.stats.df_resid))
         return tuple((b - q * s, b + q * s) for b, s in zip(self.coefficients, self.std_errors))
 
 

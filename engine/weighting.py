@@ -49,7 +49,8 @@ class Weighting:
                     argument="weights",
                     index=i,
                 )
-            self.values = base ** (-float(power))
+            with np.errstate(over="ignore"):  # a weight beyond the double range is reported just below
+                self.values = base ** (-float(power))
         else:
             w = np.asarray(weights, dtype=float).ravel()
             if w.size != x.size:

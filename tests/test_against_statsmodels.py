@@ -1,5 +1,7 @@
 """Engine results against statsmodels and scipy as reference libraries (invented data)."""
 
+import warnings
+
 import numpy as np
 import pandas as pd
 import pytest
@@ -154,6 +156,22 @@ def test_curve_statistics_match_reference_functions(replicated):
     assert checks["Shapiro-Wilk"].statistic == pytest.approx(w, rel=1e-6)
     assert checks["Shapiro-Wilk"].p_value == pytest.approx(wp, rel=1e-5)
     assert checks["Breusch-Pagan"].p_value == pytest.approx(ref_p, rel=1e-8)
+
+
+def test_shapiro_wilk_of_an_exact_fit_is_scale_free():
+    # standards exactly on a quadratic: the refined residuals are rounding traces near 1e-32, a range
+    # the algorithm takes as zero (below 1e-19, with a warning); W does not depend on scale, so it must
+    # equal scipy.stats.shapiro of the same residuals scaled to a largest magnitude of 1, without warning
+    x = np.repeat(np.arange(1.0, 9.0), 2)
+    cal = engine.Calibration(x, 1 + 2 * x + 0.5 * x**2, max_order=3)
+    e = cal.weighted_residuals(2)
+    assert 0 < np.ptp(e) < 1e-19
+    w, wp = stats.shapiro(e / np.abs(e).max())
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        checks = {c.name: c for c in engine.curve_checks(cal, 2)}
+    assert checks["Shapiro-Wilk"].statistic == pytest.approx(w, rel=1e-12)
+    assert checks["Shapiro-Wilk"].p_value == pytest.approx(wp, rel=1e-10)
 
 
 def test_mandel_is_the_quadratic_step_test(replicated):
