@@ -24,6 +24,7 @@ import numpy as np
 from . import doubledouble as dd
 from .distributions import f_sf, t_two_sided
 from .errors import DataError, OrderError
+from .polynomials import power_columns
 from .refine import conversion_matrix, refine
 from .results import FTest, LackOfFit, OrderFit, OrderStats, SequentialRow, SequentialTable
 from .weighting import Weighting
@@ -177,7 +178,7 @@ class Calibration:
         self.dx_dz = math.ldexp(self.half_width, self._ex)  # x per unit of z
         self._u = u
         z = (u - self.centre) / self.half_width
-        zw = np.vander(z, k + 1, increasing=True)
+        zw = power_columns(z, k + 1)
         if w is not None:
             zw *= self.sqrt_w[:, None]
         self._q, self._r = householder_qr(zw)

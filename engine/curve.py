@@ -16,6 +16,7 @@ import numpy as np
 from .calibration import Calibration
 from .distributions import t_quantile
 from .errors import OptionError
+from .polynomials import horner, power_columns
 
 # grid over z for locating roots and band edges: 400 cells across the calibrated
 # range [-1, 1] (its ends are nodes), and the curve is used up to EXTEND (in units
@@ -105,7 +106,7 @@ class Curve:
 
     def local(self, z: np.ndarray):
         """f(z), f'(z), the variance of the fitted mean and its slope, at the points z (1-D), in curve units."""
-        v = np.vander(z, self.local_polynomials.shape[0], increasing=True) @ self.local_polynomials
+        v = power_columns(z, self.local_polynomials.shape[0]) @ self.local_polynomials
         s2 = self.s**2
         return v[:, 0], v[:, 1], s2 * np.maximum(v[:, 2], 0.0), s2 * v[:, 3]
 
@@ -150,17 +151,6 @@ def _derivative(c: np.ndarray) -> np.ndarray:
     return c[1:] * np.arange(1, c.size) if c.size > 1 else np.zeros(1)
 
 
-def horner(coefficients, z):
-    """sum_j c_j z^j by Horner's rule (coefficients lowest power first)."""
-    z = np.asarray(z, dtype=float)
-    if len(coefficients) == 1:
-        return np.full(z.shape, coefficients[0], dtype=float)
-    out = coefficients[-1] * z + coefficients[-2]
-    for c in coefficients[-3::-1]:
-        out = out * z + c
-    return out
-
-
 def sign_changes(values: np.ndarray, z: np.ndarray, lo: float, hi: float):
     """Cells [z_j, z_j+1] inside [lo, hi] where a row of ``values`` (on the grid z) changes sign.
 
@@ -178,24 +168,24 @@ def newton_in_cells(func, lo, hi, f_lo, f_hi, steps: int = 8):
     ``func`` maps points (one per cell) to (value, slope). The start is the
     linear interpolation between the cell's ends (the cells are 1/200 of the
     range wide, so it is already close); Newton then converges quadratically.
-    Each iterate is clipped to its cell; a flat slope keeps the point. It stops
+    Each iterate is clipped to its cell (a step to infinity ends at the cell's
+    end); an undefined step (0/0) keeps the point. It stops
     when no point moved more than the tolerance, or when the contraction seen
     over the last two steps (quadratic: next ~ moved^3 / previous^2) puts the
     next move below it.
     """
     with np.errstate(divide="ignore", invalid="ignore"):
-        z = lo - f_lo * (hi - lo) / (f_hi - f_lo)
-        if not np.isfinite(z).all():
-            z = np.where(np.isfinite(z), z, (lo + hi) / 2)
-        z = np.minimum(np.maximum(z, lo), hi)
+        z = np.minimum(np.maximum(lo - f_lo * (hi - lo) / (f_hi - f_lo), lo), hi)  # nan stays nan
+        if np.isnan(z).any():
+            z = np.where(np.isnan(z), (lo + hi) / 2, z)
         previous = None
         for _ in range(steps):
             value, slope = func(z)
-            new = z - value / slope
-            if not np.isfinite(new).all():
-                new = np.where(np.isfinite(new), new, z)
-            new = np.minimum(np.maximum(new, lo), hi)
+            new = np.minimum(np.maximum(z - value / slope, lo), hi)
             moved = float(np.abs(new - z).max(initial=0.0))
+            if moved != moved:  # a nan step (0/0): keep the point
+                new = np.where(np.isnan(new), z, new)
+                moved = float(np.abs(new - z).max(initial=0.0))
             z = new
             if moved <= _Z_TOLERANCE or (previous is not None and moved**3 <= _Z_TOLERANCE * previous**2):
                 break

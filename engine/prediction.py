@@ -22,6 +22,7 @@ import numpy as np
 
 from .calibration import Calibration
 from .curve import ENDS, EXTEND, RANGE_NODES, Curve, check_level, curve_of, newton_in_cells, sign_changes
+from .polynomials import power_columns
 from .errors import DataError, OptionError
 from .results import InverseEstimate, Prediction
 
@@ -148,9 +149,10 @@ def _grid_variance_factor(curve: Curve, cal: Calibration) -> np.ndarray:
 
 
 def _monotonic_band(curve: Curve, vf: np.ndarray, m: np.ndarray, t2: float, t2s2: float):
-    """For readings that all average the same number of replicates: the sign of the curve's slope and
-    the rows (curve, upper edge, lower edge) on the grid, times that sign, when both edges rise strictly
-    over the whole grid; else None. Made once per curve, level and replicates."""
+    """For readings that all average the same number of replicates: the sign of the curve's slope,
+    the rows (curve, upper edge, lower edge) on the grid, times that sign, and the local polynomials
+    with that sign and t^2 s^2 folded in, when both edges rise strictly over the whole grid; else None.
+    Made once per curve, level and replicates."""
     if m.size > 1 and not (m == m[0]).all():
         return None
     cache = curve.__dict__.setdefault("_bands", {})
@@ -166,7 +168,9 @@ def _monotonic_band(curve: Curve, vf: np.ndarray, m: np.ndarray, t2: float, t2s2
         np.add(curve_row, half, out=upper)
         np.subtract(curve_row, half, out=lower)
         rising = bool((upper[1:] > upper[:-1]).all() and (lower[1:] > lower[:-1]).all())
-        cache[key] = (sign, table) if rising else None
+        # sign f, sign f', t^2 Var(mean f) and its slope, as polynomials in z (columns)
+        local = curve.local_polynomials * np.array([sign, sign, t2s2, t2s2])
+        cache[key] = (sign, table, local) if rising else None
     return cache[key]
 
 
@@ -186,7 +190,7 @@ def _solve_on_monotonic_band(curve: Curve, cal: Calibration, y0: np.ndarray, m: 
     band = _monotonic_band(curve, vf, m, t2, t2s2)
     if band is None:
         return None
-    sign, table = band  # kind 0: the curve, 1: its upper edge, 2: its lower edge
+    sign, table, local = band  # kind 0: the curve, 1: its upper edge, 2: its lower edge
     z = curve.grid[0]
     ys = sign * y0
     first, last = RANGE_NODES
@@ -202,12 +206,10 @@ def _solve_on_monotonic_band(curve: Curve, cal: Calibration, y0: np.ndarray, m: 
     edge = _EDGES[kind]
     mm, target = m[which], ys[which]
 
-    # sign f, sign f', t^2 Var(mean f) and its slope, as polynomials in z (columns)
-    local = curve.local_polynomials * np.array([sign, sign, t2s2, t2s2])
     spread, moving, weighted = t2s2 / mm, edge != 0, cal.weighting.values is not None
 
     def value_and_slope(zz):  # called inside newton_in_cells, which ignores division warnings
-        v = np.vander(zz, local.shape[0], increasing=True) @ local
+        v = power_columns(zz, local.shape[0]) @ local
         var = np.maximum(v[:, 2], 0.0)
         if weighted:
             vfz, dvf = _variance_factor_and_slope(curve, zz, sign * v[:, 0], sign * v[:, 1])
@@ -220,11 +222,9 @@ def _solve_on_monotonic_band(curve: Curve, cal: Calibration, y0: np.ndarray, m: 
 
     found = newton_in_cells(value_and_slope, z[right - 1], z[right], table[kind, right - 1] - target,
                             table[kind, right] - target)
-    z_hat, lower_z, upper_z = (np.full(y0.size, np.nan) for _ in range(3))
-    z_hat[rows] = found[kind == 0]
-    lower_z[rows[lo_rows]] = found[kind == 1]
-    upper_z[rows[hi_rows]] = found[kind == 2]
-    return z_hat, lower_z, upper_z
+    out = np.full((3, y0.size), np.nan)
+    out[kind, which] = found
+    return out
 
 
 def _band_edges(curve: Curve, cal: Calibration, y0: np.ndarray, m: np.ndarray, z_hat: np.ndarray, t: float):
