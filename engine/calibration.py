@@ -177,7 +177,7 @@ class Calibration:
         self.half_width = (umax - umin) / 2
         self.dx_dz = math.ldexp(self.half_width, self._ex)  # x per unit of z
         self._u = u
-        z = (u - self.centre) / self.half_width
+        self.z = z = (u - self.centre) / self.half_width  # the standards' x in the scaled variable
         zw = power_columns(z, k + 1)
         if w is not None:
             zw *= self.sqrt_w[:, None]

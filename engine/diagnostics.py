@@ -51,10 +51,11 @@ def _back_calculate(cal: Calibration, curve: Curve):
     rows, zs = roots_of(curve, curve.from_y(cal.y), -1 - 2 * BACK_CALC_EXTEND, 1 + 2 * BACK_CALC_EXTEND)
     count = np.bincount(rows, minlength=cal.n_points)
     back = np.full(cal.n_points, np.nan)
-    distance = np.abs(zs - cal.scaled_x(cal.x)[rows])
-    order = np.lexsort((distance, rows))
-    first = order[np.concatenate(([True], rows[order][1:] != rows[order][:-1]))] if rows.size else order
-    back[rows[first]] = cal.raw_x(zs[first])
+    if rows.size and count.max() > 1:  # keep the root nearest each standard's own x
+        order = np.lexsort((np.abs(zs - cal.z[rows]), rows))
+        first = order[np.concatenate(([True], rows[order][1:] != rows[order][:-1]))]
+        rows, zs = rows[first], zs[first]
+    back[rows] = cal.raw_x(zs)
     return back, count
 
 
@@ -198,13 +199,14 @@ def curve_checks(cal: Calibration, order: int, alpha: float = 0.05, point_labels
     # the tests below do not depend on the residuals' scale: use them scaled, so that huge or tiny
     # magnitudes do not over- or underflow in squares
     e = cal.scaled_residuals(curve.order)
-    z, pz, runs = runs_test(e[by_x])
+    e_by_x = e[by_x]
+    z, pz, runs = runs_test(e_by_x)
     v, d = _verdict(pz, alpha, "residual signs cluster along x: the curve shape may be wrong",
                     "residual signs alternate as expected by chance")
     out.append(Check("runs of residual signs", z, pz, v, f"{runs} runs in x order; {d}" if pz == pz else
                      "all residuals have the same sign"))
 
-    dw = durbin_watson(e[by_x]) if e.any() else math.nan
+    dw = durbin_watson(e_by_x) if e.any() else math.nan
     if dw != dw:
         out.append(Check("Durbin-Watson", dw, math.nan, "n/a", "residuals are all zero"))
     else:
@@ -225,7 +227,7 @@ def curve_checks(cal: Calibration, order: int, alpha: float = 0.05, point_labels
 
     if curve.order >= 1:
         q = cal.orthonormal_basis(curve.order) if cal.weighting.values is None else None
-        lm, bp = breusch_pagan(e, cal.scaled_x(cal.x), curve.order, q)
+        lm, bp = breusch_pagan(e, cal.z, curve.order, q)
         v, d = _verdict(bp, alpha, "residual spread changes with x: consider weights such as 1/x or 1/x^2",
                         "no evidence that the residual spread changes with x")
         out.append(Check("Breusch-Pagan", lm, bp, v, f"chi2({curve.order}); {d}"))
