@@ -73,9 +73,9 @@ def point_diagnostics(cal: Calibration, order: int, alpha: float = 0.05) -> Poin
     fitted = cal.y - cal.weighted_residuals(curve.order) / cal.sqrt_w
     resid = cal.y - fitted
     back, count = _back_calculate(cal, curve)
-    notes = []
-    for c, b, tt, d, hh, x in zip(count.tolist(), bonf.tolist(), t.tolist(), cook.tolist(), h.tolist(),
-                                  cal.x.tolist()):
+    notes, dev = [], []
+    for c, b, tt, d, hh, x, xb in zip(count.tolist(), bonf.tolist(), t.tolist(), cook.tolist(), h.tolist(),
+                                      cal.x.tolist(), back.tolist()):
         words = []
         if c > 1:
             words.append("several x give this response; the one nearest the standard is shown")
@@ -89,11 +89,12 @@ def point_diagnostics(cal: Calibration, order: int, alpha: float = 0.05) -> Poin
             words.append("leverage 1: this standard alone fixes the curve here")
         if x == 0:
             words.append("deviation % not defined at x = 0")
+            dev.append(math.nan)
+        else:
+            dev.append(100.0 * (xb - x) / abs(x))
         notes.append("; ".join(words))
-    with np.errstate(divide="ignore", invalid="ignore"):
-        dev = np.where(cal.x != 0, 100.0 * (back - cal.x) / np.abs(cal.x), np.nan)
-    columns = (fitted, resid, r, t, h, cook, back, dev)
-    return PointDiagnostics(*(tuple(c.tolist()) for c in columns), tuple(notes))
+    columns = (fitted, resid, r, t, h, cook, back)
+    return PointDiagnostics(*(tuple(c.tolist()) for c in columns), tuple(dev), tuple(notes))
 
 
 def runs_test(residuals_by_x: np.ndarray) -> tuple[float, float, int]:
