@@ -74,28 +74,22 @@ def add_double(ah, al, b):
     return _fast_two_sum(s, e + al)
 
 
-def mul(ah, al, bh, bl):
-    """Double-double product (QD library ``sloppy_mul``: al * bl, below 2^-104 of the product, is left
-    out; relative error at most about 2^-104)."""
-    p, e = two_prod(ah, bh)
-    e = e + (ah * bl + al * bh)
-    return _fast_two_sum(p, e)
-
-
 def powers(x, order):
-    """Columns ``x**0 .. x**order`` as double-double arrays of shape (n, order+1), by doubling:
-    x^(d + j) = x^d x^j for j = 1 .. d, each block in one product (ceil(log2 order) steps)."""
+    """Columns ``x**0 .. x**order`` as double-double arrays of shape (n, order+1): x^k = x^(k-1) x by
+    Dekker's product with x split once (``mul_double`` written out). The arrays are transposed views of
+    (order+1, n) arrays, so that each power is a contiguous row."""
     x = np.asarray(x, dtype=float)
-    hi = np.empty((x.size, order + 1))
-    lo = np.zeros_like(hi)
-    hi[:, 0] = 1.0
+    hi = np.empty((order + 1, x.size))
+    lo = np.empty_like(hi)
+    hi[0], lo[0] = 1.0, 0.0
     if order >= 1:
-        hi[:, 1] = x
-    done = 1
-    while done < order:
-        width = min(done, order - done)
-        top = slice(done, done + 1)
-        hi[:, done + 1: done + width + 1], lo[:, done + 1: done + width + 1] = mul(
-            hi[:, top], lo[:, top], hi[:, 1: width + 1], lo[:, 1: width + 1])
-        done += width
-    return hi, lo
+        hi[1], lo[1] = x, 0.0
+    xh, xl = _split(x)
+    for k in range(2, order + 1):
+        a = hi[k - 1]
+        p = x * a
+        ah, at = _split(a)
+        e = ((xh * ah - p) + xh * at + xl * ah) + xl * at + lo[k - 1] * x
+        hi[k] = s = p + e
+        lo[k] = e - (s - p)
+    return hi.T, lo.T

@@ -13,7 +13,6 @@ from __future__ import annotations
 import math
 import numbers
 from dataclasses import dataclass
-from itertools import chain
 
 import numpy as np
 
@@ -80,11 +79,13 @@ def describe(v) -> str | None:
 
 def one_wide(value):
     """The cells of a list of one-cell lists (a column as xlwings hands it over) as a tuple, else None."""
-    if type(value) is not list or set(map(type, value)) != {list} or min(map(len, value)) != 1:
+    if type(value) is not list:
         return None
-    cells = tuple(chain.from_iterable(value))
-    # n rows of at least one cell each hold n cells only if every row holds exactly one
-    return cells if len(cells) == len(value) else None
+    try:
+        cells = tuple([v for (v,) in value])
+    except (TypeError, ValueError):
+        return None
+    return cells if set(map(type, value)) == {list} else None
 
 
 def flatten(value, name: str) -> Cells:
