@@ -416,7 +416,8 @@ class Calibration:
             aicc = -2 * llf + 2 * npar + (2 * npar * (npar + 1) / (n - npar - 1) if n - npar - 1 > 0 else math.nan)
             r2 = 1.0 - r / self._tss
             made[k] = OrderStats(
-                order=k, n_points=n, df_resid=d, rss=self._ldexp(r, ey2), residual_sd=math.ldexp(math.sqrt(r / d), self._ey),
+                order=k, n_points=n, df_resid=d, rss=self._ldexp(r, ey2),
+                residual_sd=math.ldexp(math.sqrt(r / d), self._ey),
                 r_squared=r2, adj_r_squared=1.0 - (1.0 - r2) * (n - 1) / d,
                 press=self._ldexp(pr, ey2), predicted_r_squared=1.0 - pr / self._tss,
                 aicc=aicc, bic=-2 * llf + npar * math.log(n),

@@ -60,15 +60,18 @@ def _binomials(order: int) -> np.ndarray:
     return b
 
 
-def _pieces(hi: np.ndarray, lo: np.ndarray, shape, full: bool):
-    """A double-double array (hi, lo) and the Dekker split of hi, for ``_products``. With ``full``
-    each is laid out in full as ``shape`` (on small arrays elementwise operations are several times
-    faster without broadcasting); otherwise they stay as given and broadcast."""
+def _pieces(hi: np.ndarray, lo, shape, full: bool):
+    """A double-double array (hi, lo) and the Dekker split of hi, for ``_products``; lo None stands for
+    zeros. With ``full`` each is laid out in full as ``shape`` (on small arrays elementwise operations
+    are several times faster without broadcasting); otherwise they stay as given and broadcast."""
     if not full:
         return (hi, lo, *dd.split(hi))
-    out = np.empty((4,) + shape)
-    out[0], out[1] = hi, lo
-    out[2], out[3] = dd.split(hi)
+    out = np.empty((3 if lo is None else 4,) + shape)
+    out[0] = hi
+    out[-2], out[-1] = dd.split(hi)
+    if lo is None:
+        return out[0], None, out[1], out[2]
+    out[1] = lo
     return tuple(out)
 
 
@@ -84,7 +87,8 @@ def _products(a, b):
     small += a_big * b_small
     small += a_small * b_big
     small += a_small * b_small
-    small += a_hi * b_lo
+    if b_lo is not None:
+        small += a_hi * b_lo
     small += a_lo * b_hi
     return big, small
 
@@ -147,10 +151,11 @@ def refine(v_hi, v_lo, q, r_inv, t, y_hi, y_lo, c, mask=None):
     ones_p = np.ones(p)
     y_top = np.abs(y_hi).max(axis=1)
     previous = 1.0
-    for _ in range(_MAX_STEPS):
+    for step_count in range(_MAX_STEPS):
+        first = step_count == 0  # b_lo and e_lo still hold zeros
         f_hi, f_lo = np.empty_like(e_hi), np.empty_like(e_hi)
         e_top = np.abs(e_hi).max(axis=1)
-        nb_hi, nb_lo = -b_hi[:, :, None], -b_lo[:, :, None]
+        nb_hi, nb_lo = -b_hi[:, :, None], None if first else -b_lo[:, :, None]
         g_sum = None  # -V'e, summed over the blocks
         for s, shape, full, v, v_max, v_top, ones_n in blocks:
             # f = y - e - V b: the p terms of each row plus y and -e; sigma bounds every term
@@ -161,10 +166,12 @@ def refine(v_hi, v_lo, q, r_inv, t, y_hi, y_lo, c, mask=None):
             y_part, e_part = y_hi[:, s], e_hi[:, s]
             q_y = (sigma + y_part) - sigma
             q_e = (sigma - e_part) - sigma
-            f_hi[:, s], f_lo[:, s] = dd.two_sum(ones_p @ high + q_y + q_e, ones_p @ big + (y_part - q_y)
-                                                - (e_part + q_e) + (y_lo[:, s] - e_lo[:, s]))
+            low = y_lo[:, s] if first else y_lo[:, s] - e_lo[:, s]
+            f_hi[:, s], f_lo[:, s] = dd.two_sum(ones_p @ high + q_y + q_e,
+                                                ones_p @ big + (y_part - q_y) - (e_part + q_e) + low)
             # -V'e over the rows of the block
-            big, small = _products(v, _pieces(-e_hi[:, None, s], -e_lo[:, None, s], shape, full))
+            ne_lo = None if first else -e_lo[:, None, s]
+            big, small = _products(v, _pieces(-e_hi[:, None, s], ne_lo, shape, full))
             high = _high_parts(big, _sigma(e_top * v_top, shape[2])[:, None, None])
             big += small
             part = dd.two_sum(high @ ones_n, big @ ones_n)
