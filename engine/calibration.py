@@ -193,7 +193,7 @@ class Calibration:
         self._yw = self._ys if w is None else self._ys * self.sqrt_w
         self._qty = self._q.T @ self._yw
         self._r_inv = _triangular_inverse(self._r)
-        self._leverage = np.cumsum(self._q**2, axis=1)
+        self._leverage = np.cumsum(self._q.T ** 2, axis=0)  # row k: the leverages of order k
         if w is None:
             gmean = np.bincount(inverse, self._ys) / np.bincount(inverse)
             d_mean, d_level = self._ys - self._ys.sum() / n, self._ys - gmean[inverse]
@@ -265,7 +265,7 @@ class Calibration:
         return self._r_inv[: order + 1, : order + 1]
 
     def leverage(self, order: int) -> np.ndarray:
-        return self._leverage[:, order]
+        return self._leverage[order]
 
     def scaled_residuals(self, order: int) -> np.ndarray:
         """sqrt(w) (y - fitted) times 2^-e (e fixed per calibration, y scaled into [-1, 1]): for statistics
@@ -287,14 +287,15 @@ class Calibration:
 
     def _refined(self, order: int):
         """Raw coefficients (scaled units), diagonal of (V'WV)^-1, and the weighted residual of ``order``."""
-        coef, diag, e = self._refined_all[order]
+        coef, diag = self._refined_all[0][order]
         if diag is None:
             diag = self._covariance_diagonal(order)
-        return coef, diag, e
+        return coef, diag, self._residual_rows[order]
 
     @cached_property
-    def _refined_all(self) -> dict:
-        """Every order 0..K refined in one call.
+    def _refined_all(self) -> tuple[dict, np.ndarray]:
+        """Every order 0..K refined in one call: {order: (raw coefficients, covariance diagonal or None)}
+        and the scaled weighted residuals of order k in row k.
 
         Each order k contributes the right-hand side [y | 0] (and, for a small
         problem, [0 | -I_(k+1)] for its (V'WV)^-1) with a mask that keeps its
@@ -314,11 +315,13 @@ class Calibration:
         v_hi, v_lo = self._powers
         (b_hi, b_lo), (e_hi, e_lo) = refine(v_hi, v_lo, self._q, self._r_inv, self._t, rhs_hi, rhs_lo, c, mask)
         b = b_hi + b_lo
-        residuals = e_hi[first] + e_lo[first]
         diag = np.maximum(b[diagonal], 0.0) if with_cov else None
-        return {k: (b[j, : k + 1], diag[k * (k + 1) // 2: (k + 1) * (k + 2) // 2] if with_cov else None,
-                    residuals[k])
-                for k, j in enumerate(first.tolist())}
+        return ({k: (b[j, : k + 1], diag[k * (k + 1) // 2: (k + 1) * (k + 2) // 2] if with_cov else None)
+                 for k, j in enumerate(first.tolist())}, e_hi[first] + e_lo[first])
+
+    @cached_property
+    def _residual_rows(self) -> np.ndarray:
+        return self._refined_all[1]
 
     def _covariance_diagonal(self, order: int) -> np.ndarray:
         """Diagonal of (V'WV)^-1 of one order, refined on its own (large problems)."""
@@ -373,21 +376,16 @@ class Calibration:
             i += len(tests)
         return out
 
-    @cached_property
-    def _residual_matrix(self) -> np.ndarray:
-        """Scaled weighted residuals of every order 0..K as columns, each from its refined solution."""
-        return np.ascontiguousarray(np.array([self._refined_all[k][2] for k in range(self.max_order + 1)]).T)
-
     def _residuals_scaled(self, order: int) -> np.ndarray:
-        return self._residual_matrix[:, order]
+        return self._residual_rows[order]
 
     def _rss(self, order: int) -> float:
         return float(self._all_rss[order])
 
     @cached_property
     def _all_rss(self) -> np.ndarray:
-        e = self._residual_matrix
-        return np.einsum("ij,ij->j", e, e)
+        e = self._residual_rows
+        return np.einsum("ij,ij->i", e, e)
 
     def stats(self, order) -> OrderStats:
         """Goodness-of-fit figures of ``order`` (0 .. max_order)."""
@@ -396,14 +394,20 @@ class Calibration:
             self._all_stats()
         return self._stats[k]
 
+    def all_stats(self) -> dict[int, OrderStats]:
+        """``stats`` of every order 0 .. max_order, by order (the same objects; do not change the dict)."""
+        if not self._stats:
+            self._all_stats()
+        return self._stats
+
     def _all_stats(self) -> None:
         """OrderStats of every order at once (formulas in ``results.OrderStats``)."""
         n, big_k = self.n_points, self.max_order
-        e, h, rss = self._residual_matrix, self._leverage, self._all_rss
+        rss, e, h = self._all_rss, self._residual_rows, self._leverage
         orders = np.arange(big_k + 1)
         df = n - orders - 1
         with np.errstate(divide="ignore", invalid="ignore"):
-            press = np.where(np.all(h < 1 - 1e-12, axis=0), np.sum((e / (1.0 - h)) ** 2, axis=0), math.nan)
+            press = np.where(np.all(h < 1 - 1e-12, axis=1), np.sum((e / (1.0 - h)) ** 2, axis=1), math.nan)
         tests = self._f_tests
         lack = self._lack_of_fit_tests(tests)
         ey2 = 2 * self._ey

@@ -108,7 +108,7 @@ _CRITERION_NAMES = {"aicc": "AICc", "bic": "BIC", "press": "PRESS"}
 
 def _criterion(cal: Calibration, rule: str) -> tuple[int, str]:
     name = _CRITERION_NAMES[rule]
-    values = {k: getattr(cal.stats(k), rule) for k in range(1, cal.max_order + 1)}
+    values = {k: getattr(st, rule) for k, st in cal.all_stats().items() if k >= 1}
     usable = {k: v for k, v in values.items() if v == v and not math.isinf(v)}
     if not usable:
         return 1, f"{name} is not available for any order; order 1 is the lowest offered."
