@@ -67,6 +67,8 @@ def _cell(v):
 
 def _column(values) -> list:
     """_cell of each of a sequence of Python floats."""
+    if all(map(math.isfinite, values)):
+        return list(values)
     finite = math.isfinite
     return [v if finite(v) else None for v in values]
 
@@ -315,11 +317,14 @@ def calib_residuals(x, y, order=None, weights=None):
     def compute():
         cal, chosen, _ = _fitted(prep, k)
         d = engine.point_diagnostics(cal, chosen)
-        rows = [[None] * 8 for _ in range(prep.n_input)]
         columns = [_column(c) for c in (d.fitted, d.residual, d.studentized, d.leverage, d.cooks_distance,
                                         d.back_calculated, d.deviation_percent)]
-        for j, (i, *numbers) in enumerate(zip(prep.used.tolist(), *columns)):
-            rows[i] = numbers + [d.notes[j] or None]
+        filled = [list(row) for row in zip(*columns, [note or None for note in d.notes])]
+        if not prep.skipped:
+            return filled
+        rows = [[None] * 8 for _ in range(prep.n_input)]
+        for i, row in zip(prep.used.tolist(), filled):
+            rows[i] = row
         return rows
 
     return _cached("residuals", prep, (k,), compute)
