@@ -21,6 +21,7 @@ from scipy import special
 from .calibration import Calibration, householder_qr
 from .curve import ENDS, Curve, curve_of
 from .distributions import f_quantile, normal_two_sided, t_two_sided
+from .polynomials import power_columns
 from .prediction import roots_of
 from .results import Check, PointDiagnostics
 from .selection import check_alpha, fmt_p, mandel_test
@@ -133,13 +134,15 @@ def breusch_pagan(residuals: np.ndarray, z: np.ndarray, order: int, q=None) -> t
     """
     e2 = residuals**2
     if q is None:  # an orthonormal basis of 1, z, ..., z^order
-        q, _ = householder_qr(np.vander(z, order + 1, increasing=True))
-    fitted = q @ (q.T @ e2)
-    mean = e2.mean()
-    tss = float(((e2 - mean) ** 2).sum())
+        q, _ = householder_qr(power_columns(z, order + 1))
+    d = e2 - e2.sum() / e2.size
+    tss = float(d @ d)
     if tss == 0:
         return math.nan, math.nan
-    lm = e2.size * float(((fitted - mean) ** 2).sum()) / tss
+    # the regression sum of squares: the basis holds the constant, so the fit of e^2 less its mean is
+    # the projection of e^2 - mean, whose squared length is |Q'(e^2 - mean)|^2
+    c = q.T @ d
+    lm = e2.size * float(c @ c) / tss
     return lm, float(special.chdtrc(order, lm))
 
 
@@ -248,7 +251,8 @@ def curve_checks(cal: Calibration, order: int, alpha: float = 0.05, point_labels
         return ", ".join(map(label, points)) or "none"
 
     flagged = (bonf < alpha).nonzero()[0].tolist()
-    smallest = min((b for b in bonf.tolist() if b == b), default=math.nan)
+    defined = bonf[bonf == bonf]
+    smallest = float(defined.min()) if defined.size else math.nan
     out.append(Check("outliers", float(len(flagged)), smallest, "warning" if flagged else "ok",
                      named(flagged)
                      + f" (externally studentized residual, Bonferroni at {alpha:g}; p-value is the smallest)"))
