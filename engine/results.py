@@ -100,13 +100,31 @@ class SequentialTable(NamedTuple):
     df_total: int
 
 
-class OrderChoice(NamedTuple):
-    """The order a rule picks, and why, in words."""
+class OrderChoice:
+    """The order a rule picks, and why, in words (written when first read: a table of every rule's
+    pick does not need them)."""
 
-    order: int
-    rule: str
-    alpha: float
-    reason: str
+    __slots__ = ("order", "rule", "alpha", "_words", "_reason")
+
+    def __init__(self, order: int, rule: str, alpha: float, words):
+        self.order, self.rule, self.alpha = order, rule, alpha
+        self._words, self._reason = words, None  # words: a function that writes the reason
+
+    @property
+    def reason(self) -> str:
+        if self._reason is None:
+            self._reason = self._words()
+        return self._reason
+
+    def __eq__(self, other):
+        if not isinstance(other, OrderChoice):
+            return NotImplemented
+        return (self.order, self.rule, self.alpha, self.reason) == (other.order, other.rule, other.alpha, other.reason)
+
+    __hash__ = None
+
+    def __repr__(self) -> str:
+        return f"OrderChoice(order={self.order}, rule={self.rule!r}, alpha={self.alpha!r}, reason={self.reason!r})"
 
 
 class Prediction(NamedTuple):

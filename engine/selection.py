@@ -63,22 +63,26 @@ def _lack_of_fit_words(cal: Calibration, order: int, alpha: float) -> str:
     return f" Lack of fit at order {order}: {verdict} (p = {fmt_p(lof.test.p_value)})."
 
 
-def _seqf(cal: Calibration, alpha: float) -> tuple[int, str]:
+def _seqf(cal: Calibration, alpha: float):
     table = cal.sequential_table()
     sig = [row.term for row in table.terms if row.test.p_value < alpha]
     order = max(sig) if sig else 1
-    above = [row for row in table.terms if row.term > order]
-    own = table.terms[order - 1].test.p_value
-    if sig:
-        words = (f"{term_name(order)} is the highest term significant in the sequential table "
-                 f"of order {table.max_order} (p = {fmt_p(own)} < {alpha:g})")
-    else:
-        words = (f"no term is significant in the sequential table of order {table.max_order} "
-                 f"(x: p = {fmt_p(own)}); order 1 is the lowest offered, check the data")
-    if above:
-        words += "; not significant: " + ", ".join(
-            f"{term_name(r.term)} p = {fmt_p(r.test.p_value)}" for r in above)
-    return order, words + "."
+
+    def words() -> str:
+        above = [row for row in table.terms if row.term > order]
+        own = table.terms[order - 1].test.p_value
+        if sig:
+            text = (f"{term_name(order)} is the highest term significant in the sequential table "
+                    f"of order {table.max_order} (p = {fmt_p(own)} < {alpha:g})")
+        else:
+            text = (f"no term is significant in the sequential table of order {table.max_order} "
+                    f"(x: p = {fmt_p(own)}); order 1 is the lowest offered, check the data")
+        if above:
+            text += "; not significant: " + ", ".join(
+                f"{term_name(r.term)} p = {fmt_p(r.test.p_value)}" for r in above)
+        return text + "."
+
+    return order, words
 
 
 def forward_steps(cal: Calibration) -> list[FTest]:
@@ -86,35 +90,42 @@ def forward_steps(cal: Calibration) -> list[FTest]:
     return [cal.step_test(k) for k in range(1, cal.max_order + 1)]
 
 
-def _forward(cal: Calibration, alpha: float) -> tuple[int, str]:
+def _forward(cal: Calibration, alpha: float):
     steps = forward_steps(cal)
     order = 1
     while order < cal.max_order and steps[order].p_value < alpha:
         order += 1
-    if order < cal.max_order:
-        stop = steps[order]
-        words = (f"adding {term_name(order + 1)} to order {order} is not significant "
-                 f"(F = {stop.statistic:.3g}, p = {fmt_p(stop.p_value)} >= {alpha:g})")
-    else:
-        words = f"every step up to the max order {cal.max_order} is significant"
-    if order > 1:
-        words = (f"{term_name(order)} added significantly (p = {fmt_p(steps[order - 1].p_value)}); "
-                 + words)
-    return order, words + "."
+
+    def words() -> str:
+        if order < cal.max_order:
+            stop = steps[order]
+            text = (f"adding {term_name(order + 1)} to order {order} is not significant "
+                    f"(F = {stop.statistic:.3g}, p = {fmt_p(stop.p_value)} >= {alpha:g})")
+        else:
+            text = f"every step up to the max order {cal.max_order} is significant"
+        if order > 1:
+            text = f"{term_name(order)} added significantly (p = {fmt_p(steps[order - 1].p_value)}); " + text
+        return text + "."
+
+    return order, words
 
 
 _CRITERION_NAMES = {"aicc": "AICc", "bic": "BIC", "press": "PRESS"}
 
 
-def _criterion(cal: Calibration, rule: str) -> tuple[int, str]:
+def _criterion(cal: Calibration, rule: str):
     name = _CRITERION_NAMES[rule]
     values = {k: getattr(st, rule) for k, st in cal.all_stats().items() if k >= 1}
     usable = {k: v for k, v in values.items() if v == v and not math.isinf(v)}
     if not usable:
-        return 1, f"{name} is not available for any order; order 1 is the lowest offered."
+        return 1, lambda: f"{name} is not available for any order; order 1 is the lowest offered."
     order = min(usable, key=lambda k: (usable[k], k))
-    others = ", ".join(f"order {k}: {v:.6g}" for k, v in usable.items() if k != order)
-    return order, f"smallest {name} at order {order} ({usable[order]:.6g}; {others})."
+
+    def words() -> str:
+        others = ", ".join(f"order {k}: {v:.6g}" for k, v in usable.items() if k != order)
+        return f"smallest {name} at order {order} ({usable[order]:.6g}; {others})."
+
+    return order, words
 
 
 def choose_order(cal: Calibration, rule: str = "seqf", alpha: float = 0.05) -> OrderChoice:
@@ -134,7 +145,7 @@ def _choose(cal: Calibration, rule: str, alpha: float) -> OrderChoice:
         order, words = _forward(cal, alpha)
     else:
         order, words = _criterion(cal, rule)
-    return OrderChoice(order, rule, alpha, words + _lack_of_fit_words(cal, order, alpha))
+    return OrderChoice(order, rule, alpha, lambda: words() + _lack_of_fit_words(cal, order, alpha))
 
 
 def mandel_test(cal: Calibration) -> FTest:

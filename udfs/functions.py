@@ -120,7 +120,8 @@ def _order(v):
 
 
 def _fitted(prep, order):
-    """The calibration to use, the order, and why this order (in words)."""
+    """The calibration to use, the order, and a function that says why this order (in words: only
+    CALIB_STATS shows them)."""
     try:
         default = calibration(prep)
     except CellError:
@@ -130,16 +131,18 @@ def _fitted(prep, order):
     if default is not None:
         choice = engine.choose_order(default)
         if order is None:
-            return default, choice.order, choice.reason
-        if order == choice.order:
-            why = f"given as the order argument; the seqf rule picks the same order: {choice.reason}"
-        else:
-            why = (f"given as the order argument; the seqf rule would pick order {choice.order}: "
-                   f"{choice.reason}")
+            return default, choice.order, lambda: choice.reason
+
+        def why() -> str:
+            if order == choice.order:
+                return f"given as the order argument; the seqf rule picks the same order: {choice.reason}"
+            return f"given as the order argument; the seqf rule would pick order {choice.order}: {choice.reason}"
+
         if order <= default.max_order:
             return default, order, why
     else:
-        why = "given as the order argument"
+        def why() -> str:
+            return "given as the order argument"
     n, m = prep.x.size, np.unique(prep.x).size
     engine.Calibration.check_order(order, "order", n, m)
     return calibration(prep, max_order=order), order, why
@@ -244,7 +247,7 @@ def calib_stats(x, y, order=None, weights=None):
         lof = st.lack_of_fit
         return [list(HEADERS["stats"]),
                 ["points used", prep.x.size], ["points skipped", prep.skipped], ["order", chosen],
-                ["why this order", why], ["residual df", st.df_resid], ["residual SD", _cell(st.residual_sd)],
+                ["why this order", why()], ["residual df", st.df_resid], ["residual SD", _cell(st.residual_sd)],
                 ["R²", _cell(st.r_squared)], ["adjusted R²", _cell(st.adj_r_squared)],
                 ["predicted R²", _cell(st.predicted_r_squared)], ["AICc", _cell(st.aicc)], ["BIC", _cell(st.bic)],
                 ["F", _cell(st.overall.statistic)], ["p-value", _cell(st.overall.p_value)],
