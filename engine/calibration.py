@@ -356,24 +356,29 @@ class Calibration:
         (x^k against order k - 1, k = 1..K) and "sequential" (x^k in the Type I table of order K)."""
         n, big_k = self.n_points, self.max_order
         rss, terms = self._all_rss.tolist(), (self._qty[1:] ** 2).tolist()
-        df = [n - k - 1 for k in range(big_k + 1)]
-        parts = {  # name: (numerator SS, numerator df, residual SS, residual df) of each test
-            "overall": [(self._tss - r, max(k, 1), r, d) for k, (r, d) in enumerate(zip(rss, df))],
-            "step": [(ss, 1, r, d) for ss, r, d in zip(terms, rss[1:], df[1:])],
-            "sequential": [(ss, 1, rss[big_k], df[big_k]) for ss in terms],
-        }
+        df = list(range(n - 1, n - big_k - 2, -1))  # residual df of orders 0..K
+        # numerator SS and df, residual SS and df of each test, family after family
+        num = [self._tss - r for r in rss] + terms + terms
+        dfn = [1, *range(1, big_k + 1)] + [1] * (2 * big_k)
+        den = rss + rss[1:] + [rss[big_k]] * big_k
+        dfd = df + df[1:] + [df[big_k]] * big_k
+        sizes = {"overall": big_k + 1, "step": big_k, "sequential": big_k}
         df_pe = n - self.n_distinct
         if df_pe >= 1:
-            parts["lack of fit"] = [(ss, self.n_distinct - k - 1, self._ss_pure, df_pe)
-                                    for k, ss in enumerate(self._ss_lack_of_fit.tolist())]
-        num, dfn, den, dfd = (np.array(column) for column in zip(*(row for rows in parts.values() for row in rows)))
+            num += self._ss_lack_of_fit.tolist()
+            dfn += [self.n_distinct - k - 1 for k in range(big_k + 1)]
+            den += [self._ss_pure] * (big_k + 1)
+            dfd += [df_pe] * (big_k + 1)
+            sizes["lack of fit"] = big_k + 1
+        num, dfn, den, dfd = (np.array(v) for v in (num, dfn, den, dfd))
         with np.errstate(divide="ignore", invalid="ignore"):  # inf, or nan for 0/0
             f = (num / dfn) / (den / dfd)
-        rows = list(zip(f.tolist(), dfn.tolist(), dfd.tolist(), f_sf(f, np.maximum(dfn, 1), dfd).tolist()))
+        tests = list(map(FTest._make, zip(f.tolist(), dfn.tolist(), dfd.tolist(),
+                                          f_sf(f, np.maximum(dfn, 1), dfd).tolist())))
         out, i = {}, 0
-        for name, tests in parts.items():
-            out[name] = [FTest(*row) for row in rows[i: i + len(tests)]]
-            i += len(tests)
+        for name, size in sizes.items():
+            out[name] = tests[i: i + size]
+            i += size
         return out
 
     def _residuals_scaled(self, order: int) -> np.ndarray:

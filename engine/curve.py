@@ -148,7 +148,15 @@ def _power_sums(p: int) -> np.ndarray:
 
 
 def _derivative(c: np.ndarray) -> np.ndarray:
-    return c[1:] * np.arange(1, c.size) if c.size > 1 else np.zeros(1)
+    return c[1:] * _powers_below(c.size) if c.size > 1 else np.zeros(1)
+
+
+@functools.lru_cache(maxsize=32)
+def _powers_below(size: int) -> np.ndarray:
+    """1, 2, ..., size - 1: the factors of the derivative of a polynomial of ``size`` coefficients."""
+    out = np.arange(1.0, size)
+    out.flags.writeable = False
+    return out
 
 
 def sign_changes(values: np.ndarray, z: np.ndarray, lo: float, hi: float):

@@ -38,10 +38,11 @@ def _studentized(cal: Calibration, curve: Curve):
     e = cal.scaled_residuals(curve.order)  # in curve units, as s
     h = cal.leverage(curve.order)
     with np.errstate(divide="ignore", invalid="ignore"):
-        r = e / (curve.s * np.sqrt(1.0 - h))
-        df = curve.df
-        t = r * np.sqrt((df - 1) / (df - r**2)) if df > 1 else np.full_like(r, np.nan)
-        cook = r**2 * h / ((curve.order + 1) * (1.0 - h))
+        one_minus_h = 1.0 - h
+        r = e / (curve.s * np.sqrt(one_minus_h))
+        r2, df = r * r, curve.df
+        t = r * np.sqrt((df - 1) / (df - r2)) if df > 1 else np.full_like(r, np.nan)
+        cook = r2 * h / ((curve.order + 1) * one_minus_h)
     n, p = cal.n_points, curve.order + 1
     curve._studentized = h, r, t, cook, _bonferroni(t, curve.df, n), float(f_quantile(0.5, p, n - p))
     return curve._studentized

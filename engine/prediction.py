@@ -16,14 +16,15 @@ end; a band that does not close there leaves that bound open.
 
 from __future__ import annotations
 
+import functools
 import math
 
 import numpy as np
 
 from .calibration import Calibration
-from .curve import ENDS, EXTEND, RANGE_NODES, Curve, check_level, curve_of, newton_in_cells, sign_changes
-from .polynomials import power_columns
+from .curve import ENDS, EXTEND, GRID_Z, RANGE_NODES, Curve, check_level, curve_of, newton_in_cells, sign_changes
 from .errors import DataError, OptionError
+from .polynomials import power_columns
 from .results import InverseEstimate, Prediction
 
 
@@ -110,14 +111,19 @@ def roots_of(curve: Curve, readings: np.ndarray, z_lo: float, z_hi: float):
     return rows[order], zs[order]
 
 
+@functools.lru_cache(maxsize=16)
+def _grid_slice(z_lo: float, z_hi: float) -> slice:
+    """The grid nodes in [z_lo, z_hi]."""
+    return slice(int(np.searchsorted(GRID_Z, z_lo, "left")), int(np.searchsorted(GRID_Z, z_hi, "right")))
+
+
 def _monotonic_roots(curve: Curve, readings: np.ndarray, z_lo: float, z_hi: float):
     """roots_of for a curve without turning points in [z_lo, z_hi]: at most one root per reading,
     bracketed by a binary search of the grid values."""
     z, f, _ = curve.grid
-    inside = slice(np.searchsorted(z, z_lo, "left"), np.searchsorted(z, z_hi, "right"))
+    inside = _grid_slice(z_lo, z_hi)
     zg, fg = z[inside], f[inside]
-    sign = 1.0 if fg[-1] >= fg[0] else -1.0
-    fs, ys = sign * fg, sign * readings
+    fs, ys = (fg, readings) if fg[-1] >= fg[0] else (-fg, -readings)
     rows = ((ys >= fs[0]) & (ys <= fs[-1])).nonzero()[0]
     cell = np.minimum(np.maximum(np.searchsorted(fs, ys[rows]), 1), fs.size - 1)
     target = readings[rows]
