@@ -64,16 +64,16 @@ def predict(cal: Calibration, new_x, order: int, level: float = 0.95) -> tuple[P
     half_pred = t * np.sqrt(var_new + var_mean)
     columns = curve.to_y(np.array([fitted, fitted - half_mean, fitted + half_mean, fitted - half_pred,
                                    fitted + half_pred])).tolist()
-    outside = f"x outside the calibrated range {_range_words(curve)}: extrapolation"
-    no_weight = f"weights '{cal.weighting.label}' give no weight for a reading here"
-    has_weight = np.isfinite(half_pred).tolist() if weighted else None
-    out = []
-    for i, (x, y, low, high, p_low, p_high) in enumerate(zip(x0.tolist(), *columns)):
-        notes = outside if (x < curve.x_min or x > curve.x_max) else ""
-        if weighted and not has_weight[i]:
-            notes = f"{notes}; {no_weight}" if notes else no_weight
-        out.append(Prediction(x, y, low, high, p_low, p_high, notes))
-    return tuple(out)
+    far = ((x0 < curve.x_min) | (x0 > curve.x_max)).tolist()
+    notes = [""] * x0.size
+    if any(far):
+        outside = f"x outside the calibrated range {_range_words(curve)}: extrapolation"
+        notes = [outside if beyond else "" for beyond in far]
+    if weighted:
+        no_weight = f"weights '{cal.weighting.label}' give no weight for a reading here"
+        for i in (~np.isfinite(half_pred)).nonzero()[0].tolist():
+            notes[i] = f"{notes[i]}; {no_weight}" if notes[i] else no_weight
+    return tuple(map(Prediction._make, zip(x0.tolist(), *columns, notes)))
 
 
 def _replicates(replicates, count: int) -> np.ndarray:
@@ -316,18 +316,16 @@ def inverse(cal: Calibration, readings, order: int, replicates=1, level: float =
                         "no estimate outside the calibrated range")
         else:
             notes[i] = "no x within the calibrated range gives this reading"
-    out = []
-    x_hat, x_lo, x_hi = cal.raw_x(np.array([z_hat, lower_z, upper_z])).tolist()
-    for i, (y, z, lo, hi) in enumerate(zip(y0.tolist(), z_hat.tolist(), lower_z.tolist(), upper_z.tolist())):
-        note = notes[i]
-        if math.isfinite(z):
-            parts = []
-            for bound, name in ((lo, "lower"), (hi, "upper")):
-                if not math.isfinite(bound):
-                    parts.append(f"{name} bound open: the prediction band does not close within "
-                                 f"{EXTEND:.0%} of the range beyond the calibrated range")
-                elif bound < -1 or bound > 1:
-                    parts.append(f"{name} bound lies beyond the calibrated range")
-            note = "; ".join(parts)
-        out.append(InverseEstimate(y, x_hat[i], x_lo[i], x_hi[i], note))
-    return tuple(out)
+    zz = np.array([z_hat, lower_z, upper_z])
+    # an estimate with a bound that is open (nan) or beyond the calibrated range gets a note
+    flagged = np.isfinite(z_hat) & ~(np.abs(zz[1:]) <= 1).all(axis=0)
+    for i in flagged.nonzero()[0].tolist():
+        parts = []
+        for bound, name in ((lower_z[i], "lower"), (upper_z[i], "upper")):
+            if not math.isfinite(bound):
+                parts.append(f"{name} bound open: the prediction band does not close within "
+                             f"{EXTEND:.0%} of the range beyond the calibrated range")
+            elif bound < -1 or bound > 1:
+                parts.append(f"{name} bound lies beyond the calibrated range")
+        notes[i] = "; ".join(parts)
+    return tuple(map(InverseEstimate._make, zip(y0.tolist(), *cal.raw_x(zz).tolist(), notes)))
