@@ -76,6 +76,7 @@ class Curve:
         for column, c in enumerate((self.a, self._da, self._var_poly, self._dvar)):
             self.local_polynomials[: c.size, column] = c
         self._turns = None
+        self._turns_in: dict[tuple[float, float], np.ndarray] = {}
         self.stats = cal.stats(self.order)
         self.s = cal.scaled_residual_sd(self.order)  # in curve units
         self.df = self.stats.df_resid
@@ -116,7 +117,16 @@ class Curve:
         return self._t[level]
 
     def turning_points(self, lo: float = -1.0, hi: float = 1.0) -> np.ndarray:
-        """z in (lo, hi) where dy/dz changes sign, sorted."""
+        """z in (lo, hi) where dy/dz changes sign, sorted (read-only; kept per interval)."""
+        key = (lo, hi)
+        if key not in self._turns_in:
+            every = self._all_turns()
+            turns = every[(every > lo) & (every < hi)]
+            turns.flags.writeable = False
+            self._turns_in[key] = turns
+        return self._turns_in[key]
+
+    def _all_turns(self) -> np.ndarray:
         if self._turns is None:
             nonzero = np.flatnonzero(self._da)
             d = self._da[: nonzero[-1] + 1] if nonzero.size else self._da[:0]
@@ -129,7 +139,7 @@ class Curve:
                 # a double root is not a turn: keep those where the slope changes sign
                 turns = real[np.sign(self.slope(real - 1e-7)) != np.sign(self.slope(real + 1e-7))]
             self._turns = turns
-        return self._turns[(self._turns > lo) & (self._turns < hi)]
+        return self._turns
 
     @property
     def grid(self):
