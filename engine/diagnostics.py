@@ -52,6 +52,8 @@ def _back_calculate(cal: Calibration, curve: Curve):
     """x solving f(x) = y_i for each standard, nearest its own x, and how many solutions there are."""
     rows, zs = roots_of(curve, curve.from_y(cal.y), -1 - 2 * BACK_CALC_EXTEND, 1 + 2 * BACK_CALC_EXTEND)
     count = np.bincount(rows, minlength=cal.n_points)
+    if rows.size == cal.n_points and count.max() == 1:  # the usual case: one root per standard, in order
+        return cal.raw_x(zs), count
     back = np.full(cal.n_points, np.nan)
     if rows.size and count.max() > 1:  # keep the root nearest each standard's own x
         order = np.lexsort((np.abs(zs - cal.z[rows]), rows))

@@ -206,13 +206,18 @@ def _solve_on_monotonic_band(curve: Curve, cal: Calibration, y0: np.ndarray, m: 
     j_lo = np.searchsorted(table[1], inside, "left")  # first node where the upper edge reaches the reading
     j_hi = np.searchsorted(table[2], inside, "right")  # first node where the lower edge passes it
     lo_rows, hi_rows = (j_lo > 0).nonzero()[0], (j_hi < z.size).nonzero()[0]
-    which = np.concatenate([rows, rows[lo_rows], rows[hi_rows]])
-    kind = np.repeat(_KINDS, [rows.size, lo_rows.size, hi_rows.size])
-    right = np.concatenate([cell, j_lo[lo_rows], j_hi[hi_rows]])
-    edge = _EDGES[kind]
+    every = rows.size == lo_rows.size == hi_rows.size == y0.size  # the usual case: nothing left out
+    if every:
+        which, kind, edge, moving = _every_root(y0.size)
+        right = np.concatenate([cell, j_lo, j_hi])
+    else:
+        which = np.concatenate([rows, rows[lo_rows], rows[hi_rows]])
+        kind = np.repeat(_KINDS, [rows.size, lo_rows.size, hi_rows.size])
+        right = np.concatenate([cell, j_lo[lo_rows], j_hi[hi_rows]])
+        edge = _EDGES[kind]
+        moving = edge != 0
     mm, target = m[which], ys[which]
-
-    spread, moving, weighted = t2s2 / mm, edge != 0, cal.weighting.values is not None
+    spread, weighted = t2s2 / mm, cal.weighting.values is not None
 
     def value_and_slope(zz):  # called inside newton_in_cells, which ignores division warnings
         v = power_columns(zz, local.shape[0]) @ local
@@ -228,8 +233,22 @@ def _solve_on_monotonic_band(curve: Curve, cal: Calibration, y0: np.ndarray, m: 
 
     found = newton_in_cells(value_and_slope, z[right - 1], z[right], table[kind, right - 1] - target,
                             table[kind, right] - target)
+    if every:
+        return found.reshape(3, y0.size)
     out = np.full((3, y0.size), np.nan)
     out[kind, which] = found
+    return out
+
+
+@functools.lru_cache(maxsize=32)
+def _every_root(count: int):
+    """For ``count`` readings that all have an estimate and both bounds: the reading, kind and band edge
+    of each root (estimates, then lower ends, then upper ends), and which of them lie on a moving edge."""
+    which, kind = np.tile(np.arange(count), 3), np.repeat(_KINDS, count)
+    edge = _EDGES[kind]
+    out = which, kind, edge, edge != 0
+    for a in out:
+        a.flags.writeable = False
     return out
 
 
@@ -291,12 +310,10 @@ def inverse(cal: Calibration, readings, order: int, replicates=1, level: float =
     solved = _solve_on_monotonic_band(curve, cal, y0_curve, m, t)
     if solved is not None:
         z_hat, lower_z, upper_z = solved
-        rows = np.isfinite(z_hat).nonzero()[0]
-        zs = z_hat[rows]
+        count = np.isfinite(z_hat).astype(np.intp)  # one root or none
     else:
         rows, zs = roots_of(curve, y0_curve, -1.0, 1.0)
-    count = np.bincount(rows, minlength=y0.size)
-    if solved is None:
+        count = np.bincount(rows, minlength=y0.size)
         z_hat = np.full(y0.size, np.nan)
         single = count[rows] == 1
         z_hat[rows[single]] = zs[single]
