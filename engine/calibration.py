@@ -17,13 +17,13 @@ from __future__ import annotations
 import functools
 import math
 import operator
-from functools import cached_property
 
 import numpy as np
 
 from . import doubledouble as dd
 from .distributions import f_sf, t_two_sided
 from .errors import DataError, OrderError
+from .lazy import lazy
 from .polynomials import power_columns
 from .refine import conversion_matrix, refine
 from .results import FTest, LackOfFit, OrderFit, OrderStats, SequentialRow, SequentialTable
@@ -278,7 +278,7 @@ class Calibration:
 
     # -- refined solution ---------------------------------------------------------------------
 
-    @cached_property
+    @lazy
     def _powers(self):
         hi, lo = dd.powers(self._u, self.max_order)
         if self.weighting.values is None:
@@ -292,7 +292,7 @@ class Calibration:
             diag = self._covariance_diagonal(order)
         return coef, diag, self._residual_rows[order]
 
-    @cached_property
+    @lazy
     def _refined_all(self) -> tuple[dict, np.ndarray]:
         """Every order 0..K refined in one call: {order: (raw coefficients, covariance diagonal or None)}
         and the scaled weighted residuals of order k in row k.
@@ -319,7 +319,7 @@ class Calibration:
         return ({k: (b[j, : k + 1], diag[k * (k + 1) // 2: (k + 1) * (k + 2) // 2] if with_cov else None)
                  for k, j in enumerate(first.tolist())}, e_hi[first] + e_lo[first])
 
-    @cached_property
+    @lazy
     def _residual_rows(self) -> np.ndarray:
         return self._refined_all[1]
 
@@ -345,11 +345,11 @@ class Calibration:
         return [LackOfFit(self._ldexp(ss, ey2), test.df_num, pure, df_pe, test) if test.df_num >= 1 else None
                 for ss, test in zip(self._ss_lack_of_fit.tolist(), tests["lack of fit"])]
 
-    @cached_property
+    @lazy
     def _ss_lack_of_fit(self) -> np.ndarray:
         return np.maximum(self._all_rss - self._ss_pure, 0.0)
 
-    @cached_property
+    @lazy
     def _f_tests(self) -> dict[str, list[FTest]]:
         """Every F test of every order, from one vectorised pass: "overall" (orders 0..K: the regression
         against the mean; order 0 has none), "lack of fit" (orders 0..K; only with replicates), "step"
@@ -387,7 +387,7 @@ class Calibration:
     def _rss(self, order: int) -> float:
         return float(self._all_rss[order])
 
-    @cached_property
+    @lazy
     def _all_rss(self) -> np.ndarray:
         e = self._residual_rows
         return np.einsum("ij,ij->i", e, e)
@@ -468,7 +468,7 @@ class Calibration:
         """Type I ANOVA of the max-order model: each term against the max-order residual."""
         return self._sequential
 
-    @cached_property
+    @lazy
     def _sequential(self) -> SequentialTable:
         k = self.max_order
         st = self.stats(k)
@@ -485,6 +485,6 @@ class Calibration:
             raise OrderError("order must be at least 1 for a step test", argument="order")
         return self._steps[k - 1]
 
-    @cached_property
+    @lazy
     def _steps(self) -> tuple[FTest, ...]:
         return tuple(self._f_tests["step"])
