@@ -485,6 +485,10 @@ class Calibration:
             raise OrderError("order must be at least 1 for a step test", argument="order")
         return self._steps[k - 1]
 
+    def step_tests(self) -> tuple[FTest, ...]:
+        """``step_test`` of every order 1 .. max_order."""
+        return self._steps
+
     @lazy
     def _steps(self) -> tuple[FTest, ...]:
         return tuple(self._f_tests["step"])

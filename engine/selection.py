@@ -87,7 +87,7 @@ def _seqf(cal: Calibration, alpha: float):
 
 def forward_steps(cal: Calibration) -> list[FTest]:
     """Step test of x^k against order k-1, for k = 1..max_order."""
-    return [cal.step_test(k) for k in range(1, cal.max_order + 1)]
+    return list(cal.step_tests())
 
 
 def _forward(cal: Calibration, alpha: float):
@@ -115,15 +115,17 @@ _CRITERION_NAMES = {"aicc": "AICc", "bic": "BIC", "press": "PRESS"}
 
 def _criterion(cal: Calibration, rule: str):
     name = _CRITERION_NAMES[rule]
-    values = {k: getattr(st, rule) for k, st in cal.all_stats().items() if k >= 1}
-    usable = {k: v for k, v in values.items() if v == v and not math.isinf(v)}
-    if not usable:
+    values = [(k, getattr(st, rule)) for k, st in cal.all_stats().items() if k >= 1]
+    order, best = 1, None
+    for k, v in values:  # the smallest usable value; the lowest order on a tie
+        if v == v and not math.isinf(v) and (best is None or v < best):
+            order, best = k, v
+    if best is None:
         return 1, lambda: f"{name} is not available for any order; order 1 is the lowest offered."
-    order = min(usable, key=lambda k: (usable[k], k))
 
     def words() -> str:
-        others = ", ".join(f"order {k}: {v:.6g}" for k, v in usable.items() if k != order)
-        return f"smallest {name} at order {order} ({usable[order]:.6g}; {others})."
+        others = ", ".join(f"order {k}: {v:.6g}" for k, v in values if k != order and v == v and not math.isinf(v))
+        return f"smallest {name} at order {order} ({best:.6g}; {others})."
 
     return order, words
 
