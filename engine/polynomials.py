@@ -16,6 +16,16 @@ def power_columns(z: np.ndarray, width: int) -> np.ndarray:
     return out
 
 
+def power_rows(z: np.ndarray, width: int) -> np.ndarray:
+    """Rows z^0 .. z^(width-1) of a 1-D array z (the transpose of ``power_columns``, each row contiguous)."""
+    out = np.empty((width, z.size))
+    out[0] = 1.0
+    if width > 1:
+        out[1:] = z
+        np.multiply.accumulate(out[1:], axis=0, out=out[1:])
+    return out
+
+
 def horner(coefficients, z):
     """sum_j c_j z^j by Horner's rule (coefficients lowest power first)."""
     z = np.asarray(z, dtype=float)

@@ -24,7 +24,7 @@ import numpy as np
 from .calibration import Calibration
 from .curve import ENDS, EXTEND, GRID_Z, RANGE_NODES, Curve, check_level, curve_of, newton_in_cells, sign_changes
 from .errors import DataError, OptionError
-from .polynomials import power_columns
+from .polynomials import power_rows
 from .results import InverseEstimate, Prediction
 
 
@@ -219,17 +219,21 @@ def _solve_on_monotonic_band(curve: Curve, cal: Calibration, y0: np.ndarray, m: 
     mm, target = m[which], ys[which]
     spread, weighted = t2s2 / mm, cal.weighting.values is not None
 
+    local_rows = local.T.copy()
+    open_edges = weighted or t2s2 == 0  # where the band's half-width can be zero, or undefined
+
     def value_and_slope(zz):  # called inside newton_in_cells, which ignores division warnings
-        v = power_columns(zz, local.shape[0]) @ local
-        var = np.maximum(v[:, 2], 0.0)
+        f, df, var, dvar = local_rows @ power_rows(zz, local_rows.shape[1])
+        var = np.maximum(var, 0.0)
         if weighted:
-            vfz, dvf = _variance_factor_and_slope(curve, zz, sign * v[:, 0], sign * v[:, 1])
+            vfz, dvf = _variance_factor_and_slope(curve, zz, sign * f, sign * df)
             half = np.sqrt(spread * vfz + var)
-            dhalf = (spread * dvf + v[:, 3]) / (2 * half)
+            dhalf = (spread * dvf + dvar) / (2 * half)
         else:
             half = np.sqrt(spread + var)
-            dhalf = v[:, 3] / (2 * half)
-        return v[:, 0] + edge * half - target, v[:, 1] + edge * np.where(moving, dhalf, 0.0)
+            dhalf = dvar / (2 * half)
+        # on the curve itself (edge 0) the half-width's slope does not count, even where it is undefined
+        return f + edge * half - target, df + edge * (np.where(moving, dhalf, 0.0) if open_edges else dhalf)
 
     found = newton_in_cells(value_and_slope, z[right - 1], z[right], table[kind, right - 1] - target,
                             table[kind, right] - target)
