@@ -224,6 +224,8 @@ class Calibration:
 
     def resolve_order(self, order, name: str = "order") -> int:
         """Validate an order against this calibration's max order."""
+        if type(order) is int and 0 <= order <= self.max_order:  # the usual case
+            return order
         k = _whole(order, name)
         if k < 0 or k > self.max_order:
             raise OrderError(
