@@ -77,28 +77,28 @@ def point_diagnostics(cal: Calibration, order: int, alpha: float = 0.05) -> Poin
     fitted = cal.y - cal.weighted_residuals(curve.order) / cal.sqrt_w
     resid = cal.y - fitted
     back, count = _back_calculate(cal, curve)
-    notes, dev = [], []
-    for c, b, tt, d, hh, x, xb in zip(count.tolist(), bonf.tolist(), t.tolist(), cook.tolist(), h.tolist(),
-                                      cal.x.tolist(), back.tolist()):
+    x = cal.x
+    notes = [""] * cal.n_points
+    flagged = (count != 1) | (bonf < alpha) | (cook > cook_cut) | (h > 1 - 1e-10) | (x == 0)
+    for i in flagged.nonzero()[0].tolist():
         words = []
-        if c > 1:
+        if count[i] > 1:
             words.append("several x give this response; the one nearest the standard is shown")
-        elif c == 0:
+        elif count[i] == 0:
             words.append("no x near the calibrated range gives this response")
-        if b < alpha:
-            words.append(f"outlier (externally studentized {tt:.3g}, Bonferroni p = {fmt_p(b)})")
-        if d > cook_cut:
-            words.append(f"influential (Cook's distance {d:.3g} > {cook_cut:.3g})")
-        if hh > 1 - 1e-10:
+        if bonf[i] < alpha:
+            words.append(f"outlier (externally studentized {t[i]:.3g}, Bonferroni p = {fmt_p(float(bonf[i]))})")
+        if cook[i] > cook_cut:
+            words.append(f"influential (Cook's distance {cook[i]:.3g} > {cook_cut:.3g})")
+        if h[i] > 1 - 1e-10:
             words.append("leverage 1: this standard alone fixes the curve here")
-        if x == 0:
+        if x[i] == 0:
             words.append("deviation % not defined at x = 0")
-            dev.append(math.nan)
-        else:
-            dev.append(100.0 * (xb - x) / abs(x))
-        notes.append("; ".join(words))
-    columns = (fitted, resid, r, t, h, cook, back)
-    return PointDiagnostics(*(tuple(c.tolist()) for c in columns), tuple(dev), tuple(notes))
+        notes[i] = "; ".join(words)
+    dev = np.full(cal.n_points, np.nan)
+    np.divide(100.0 * (back - x), np.abs(x), out=dev, where=x != 0)
+    columns = (fitted, resid, r, t, h, cook, back, dev)
+    return PointDiagnostics(*(tuple(c.tolist()) for c in columns), tuple(notes))
 
 
 def runs_test(residuals_by_x: np.ndarray) -> tuple[float, float, int]:
