@@ -123,12 +123,14 @@ def refine(v_hi, v_lo, q, r_inv, t, y_hi, y_lo, c, mask=None):
     keeps each right-hand side to the leading powers it marks: the leading
     blocks of q, r_inv and t are those of the lower order, so one call solves
     nested orders side by side. Returns b (m, p) and the residual e (m, n),
-    each as a double-double pair. The first solution is the plain double one;
-    each refinement step then forms the residuals f = y - e - V b and
-    g = c - V'e in double-double from the exact products V_ik b_k and V_ik e_i
-    (as (m, p, rows) arrays, in blocks of rows) by one extraction pass
-    (``_high_parts``): the high parts sum exactly in any order, so sums are
-    taken as matrix products with vectors of ones.
+    each as an unevaluated sum hi + lo (the last, tiny correction is added to
+    the low parts only: callers round hi + lo). The first solution is the plain
+    double one; each refinement step then forms the residuals f = y - e - V b
+    and g = c - V'e from the exact products V_ik b_k and V_ik e_i (as (m, p, rows)
+    arrays, in blocks of rows) by one extraction pass (``_high_parts``): the
+    high parts sum exactly in any order, so sums are taken as matrix products
+    with vectors of ones, and each residual is rounded once to double (all the
+    correction needs), while b and e accumulate in double-double.
     """
     to_raw = (t @ r_inv).T
     from_raw = to_raw.T
@@ -153,7 +155,7 @@ def refine(v_hi, v_lo, q, r_inv, t, y_hi, y_lo, c, mask=None):
     previous = 1.0
     for step_count in range(_MAX_STEPS):
         first = step_count == 0  # b_lo and e_lo still hold zeros
-        f_hi, f_lo = np.empty_like(e_hi), np.empty_like(e_hi)
+        f = np.empty_like(e_hi)
         e_top = np.abs(e_hi).max(axis=1)
         nb_hi, nb_lo = -b_hi[:, :, None], None if first else -b_lo[:, :, None]
         g_sum = None  # -V'e, summed over the blocks
@@ -167,8 +169,8 @@ def refine(v_hi, v_lo, q, r_inv, t, y_hi, y_lo, c, mask=None):
             q_y = (sigma + y_part) - sigma
             q_e = (sigma - e_part) - sigma
             low = y_lo[:, s] if first else y_lo[:, s] - e_lo[:, s]
-            f_hi[:, s], f_lo[:, s] = dd.two_sum(ones_p @ high + q_y + q_e,
-                                                ones_p @ big + (y_part - q_y) - (e_part + q_e) + low)
+            # the high parts sum exactly; adding the small rest rounds once (the correction needs f in double)
+            f[:, s] = (ones_p @ high + q_y + q_e) + (ones_p @ big + (y_part - q_y) - (e_part + q_e) + low)
             # -V'e over the rows of the block
             ne_lo = None if first else -e_lo[:, None, s]
             big, small = _products(v, _pieces(-e_hi[:, None, s], ne_lo, shape, full))
@@ -176,17 +178,18 @@ def refine(v_hi, v_lo, q, r_inv, t, y_hi, y_lo, c, mask=None):
             big += small
             part = dd.two_sum(high @ ones_n, big @ ones_n)
             g_sum = part if g_sum is None else dd.add(*g_sum, *part)
-        g_hi, g_lo = dd.add_double(*g_sum, c)  # g = c - V'e
-        f = f_hi + f_lo
-        u = (f @ q - ((g_hi + g_lo) * keep) @ from_raw) * keep
-        db = u @ to_raw
-        b_hi, b_lo = dd.add_double(b_hi, b_lo, db)
-        e_hi, e_lo = dd.add_double(e_hi, e_lo, f - u @ q.T)
+        # g = c - V'e in double: c and the high part of -V'e cancel exactly where they nearly cancel
+        g = (g_sum[0] + c) + g_sum[1]
+        u = (f @ q - (g * keep) @ from_raw) * keep
+        db, de = u @ to_raw, f - u @ q.T
         scale = np.abs(b_hi).max(axis=1)
         scale[scale == 0] = 1.0
         step = float((np.abs(db).max(axis=1) / scale).max())
         # stop when converged, or when the next step (contraction step/previous) is below rounding
         if step <= _TOLERANCE or step * (step / previous) <= _ENOUGH:
-            break
+            # the last correction, far below b and e, only needs adding to their low parts
+            return (b_hi, b_lo + db), (e_hi, e_lo + de)
+        b_hi, b_lo = dd.add_double(b_hi, b_lo, db)
+        e_hi, e_lo = dd.add_double(e_hi, e_lo, de)
         previous = step
     return (b_hi, b_lo), (e_hi, e_lo)
