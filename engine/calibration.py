@@ -308,12 +308,12 @@ class Calibration:
         n, big_p = self.n_points, self.max_order + 1
         with_cov = n * (big_p * (big_p + 3) // 2) <= _ONE_CALL_LIMIT
         first, c, mask, diagonal = _rhs_layout(big_p, with_cov)
+        rhs_hi, rhs_lo = np.zeros((c.shape[0], n)), None
         if self.weighting.values is None:
-            y_hi, y_lo = self._ys, np.zeros(n)
+            rhs_hi[first] = self._ys
         else:
-            y_hi, y_lo = dd.two_prod(self._ys, self.sqrt_w)
-        rhs_hi, rhs_lo = np.zeros((c.shape[0], n)), np.zeros((c.shape[0], n))
-        rhs_hi[first], rhs_lo[first] = y_hi, y_lo
+            rhs_lo = np.zeros((c.shape[0], n))
+            rhs_hi[first], rhs_lo[first] = dd.two_prod(self._ys, self.sqrt_w)
         v_hi, v_lo = self._powers
         (b_hi, b_lo), (e_hi, e_lo) = refine(v_hi, v_lo, self._q, self._r_inv, self._t, rhs_hi, rhs_lo, c, mask)
         b = b_hi + b_lo
@@ -332,7 +332,7 @@ class Calibration:
             v_hi, v_lo = self._powers
             zeros = np.zeros((p, n))
             (b_hi, b_lo), _ = refine(v_hi[:, :p], v_lo[:, :p], self._q[:, :p], self._r_inv[:p, :p],
-                                     self._t[:p, :p], zeros, zeros, -np.eye(p))
+                                     self._t[:p, :p], zeros, None, -np.eye(p))
             self._cov[order] = np.maximum(np.diag(b_hi) + np.diag(b_lo), 0.0)
         return self._cov[order]
 

@@ -118,7 +118,7 @@ def refine(v_hi, v_lo, q, r_inv, t, y_hi, y_lo, c, mask=None):
 
     v_hi, v_lo: weighted raw design (n, p) in double-double; q (n, p) and r_inv
     (p, p), the inverse of r: QR of the weighted scaled basis; t (p, p): the
-    conversion matrix; y (m, n) in double-double and c (m, p) in double: the
+    conversion matrix; y (m, n) in double-double (y_lo None for zeros) and c (m, p) in double: the
     right-hand sides, one per row. ``mask`` (m, p) of ones and zeros, when given,
     keeps each right-hand side to the leading powers it marks: the leading
     blocks of q, r_inv and t are those of the lower order, so one call solves
@@ -135,7 +135,7 @@ def refine(v_hi, v_lo, q, r_inv, t, y_hi, y_lo, c, mask=None):
     to_raw = (t @ r_inv).T
     from_raw = to_raw.T
     keep = 1.0 if mask is None else mask
-    y = y_hi + y_lo
+    y = y_hi if y_lo is None else y_hi + y_lo
     u = (y @ q - c @ from_raw) * keep
     b_hi, b_lo = u @ to_raw, np.zeros((y_hi.shape[0], v_hi.shape[1]))
     e_hi, e_lo = y - u @ q.T, np.zeros_like(y_hi)
@@ -168,16 +168,20 @@ def refine(v_hi, v_lo, q, r_inv, t, y_hi, y_lo, c, mask=None):
             y_part, e_part = y_hi[:, s], e_hi[:, s]
             q_y = (sigma + y_part) - sigma
             q_e = (sigma - e_part) - sigma
-            low = y_lo[:, s] if first else y_lo[:, s] - e_lo[:, s]
+            rest = ones_p @ big + (y_part - q_y) - (e_part + q_e)
+            if y_lo is not None:
+                rest += y_lo[:, s] if first else y_lo[:, s] - e_lo[:, s]
+            elif not first:
+                rest -= e_lo[:, s]
             # the high parts sum exactly; adding the small rest rounds once (the correction needs f in double)
-            f[:, s] = (ones_p @ high + q_y + q_e) + (ones_p @ big + (y_part - q_y) - (e_part + q_e) + low)
+            f[:, s] = (ones_p @ high + q_y + q_e) + rest
             # -V'e over the rows of the block
             ne_lo = None if first else -e_lo[:, None, s]
             big, small = _products(v, _pieces(-e_hi[:, None, s], ne_lo, shape, full))
             high = _high_parts(big, _sigma(e_top * v_top, shape[2])[:, None, None])
             big += small
-            part = dd.two_sum(high @ ones_n, big @ ones_n)
-            g_sum = part if g_sum is None else dd.add(*g_sum, *part)
+            part = (high @ ones_n, big @ ones_n)  # the exact sum of the high parts, the rest
+            g_sum = part if g_sum is None else dd.add(*dd.two_sum(*g_sum), *dd.two_sum(*part))
         # g = c - V'e in double: c and the high part of -V'e cancel exactly where they nearly cancel
         g = (g_sum[0] + c) + g_sum[1]
         u = (f @ q - (g * keep) @ from_raw) * keep
