@@ -1,4 +1,5 @@
-"""Plain, immutable result objects handed out by the engine (named tuples: cheap to make, read by name).
+"""Plain result objects handed out by the engine: immutable named tuples (cheap to make, read by name),
+and OrderChoice, whose reason in words is written when first read (treat it as read-only too).
 
 Not-applicable values are ``nan`` (for example a predicted R-squared when a
 standard has leverage 1, or a lack-of-fit test without replicates).
