@@ -413,8 +413,12 @@ class Calibration:
         rss, e, h = self._all_rss, self._residual_rows, self._leverage
         orders = np.arange(big_k + 1)
         df = n - orders - 1
-        with np.errstate(divide="ignore", invalid="ignore"):
-            press = np.where(np.all(h < 1 - 1e-12, axis=1), np.sum((e / (1.0 - h)) ** 2, axis=1), math.nan)
+        defined = (h < 1 - 1e-12).all(axis=1)  # PRESS needs every leverage below 1
+        if defined.all():
+            press = ((e / (1.0 - h)) ** 2).sum(axis=1)
+        else:
+            with np.errstate(divide="ignore", invalid="ignore"):
+                press = np.where(defined, ((e / (1.0 - h)) ** 2).sum(axis=1), math.nan)
         tests = self._f_tests
         lack = self._lack_of_fit_tests(tests)
         ey2 = 2 * self._ey

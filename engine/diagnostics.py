@@ -98,7 +98,7 @@ def point_diagnostics(cal: Calibration, order: int, alpha: float = 0.05) -> Poin
     dev = np.full(cal.n_points, np.nan)
     np.divide(100.0 * (back - x), np.abs(x), out=dev, where=x != 0)
     columns = (fitted, resid, r, t, h, cook, back, dev)
-    return PointDiagnostics(*(tuple(c.tolist()) for c in columns), tuple(notes))
+    return PointDiagnostics(*map(tuple, np.array(columns).tolist()), tuple(notes))
 
 
 def runs_test(residuals_by_x: np.ndarray) -> tuple[float, float, int]:

@@ -337,7 +337,7 @@ def inverse(cal: Calibration, readings, order: int, replicates=1, level: float =
                         "no estimate outside the calibrated range")
         else:
             notes[i] = "no x within the calibrated range gives this reading"
-    zz = np.array([z_hat, lower_z, upper_z])
+    zz = solved if solved is not None else np.array([z_hat, lower_z, upper_z])
     # an estimate with a bound that is open (nan) or beyond the calibrated range gets a note
     flagged = np.isfinite(z_hat) & ~(np.abs(zz[1:]) <= 1).all(axis=0)
     for i in flagged.nonzero()[0].tolist():
