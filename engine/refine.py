@@ -29,7 +29,7 @@ from . import doubledouble as dd
 _MAX_STEPS = 10
 _TOLERANCE = 2.0**-100
 _ENOUGH = 2.0**-64
-_BLOCK = 2**20  # elements per temporary array (m, p, rows) in the residual computation
+_BLOCK = 2**18  # elements per temporary array (m, p, rows) in the residual computation
 _FULL = 2**14  # up to this many elements the pieces are laid out in full rather than broadcast
 
 
