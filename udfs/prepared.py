@@ -17,8 +17,7 @@ import numpy as np
 import engine
 from engine.weighting import SCHEMES as WEIGHT_SCHEMES
 
-from .coercion import (ERROR_TEXTS, CellError, Cells, describe, flatten, is_blank, is_omitted, numbers_or_blank,
-                       one_wide)
+from .coercion import ERROR_TEXTS, CellError, Cells, describe, flatten, is_blank, is_omitted, numbers_or_blank
 
 CACHE_SIZE = 128
 SCHEMES = tuple(WEIGHT_SCHEMES)
@@ -98,8 +97,13 @@ def _plain_key(x, y, weights):
 
     Floats only: True == 1.0 in Python, so cells of other types never share a key with numbers.
     """
-    xs, ys = one_wide(x), one_wide(y)
-    if xs is None or ys is None or len(xs) != len(ys) or set(map(type, xs + ys)) != {float}:
+    if not (type(x) is list and type(y) is list and len(x) == len(y)):
+        return None
+    try:  # rows of one cell each; which kind of sequence holds a cell does not matter for its value
+        xs, ys = tuple([v for (v,) in x]), tuple([v for (v,) in y])
+    except (TypeError, ValueError):
+        return None
+    if set(map(type, xs + ys)) != {float}:
         return None
     if weights is None or type(weights) is str:
         return xs, ys, weights
