@@ -54,16 +54,18 @@ def predict(cal: Calibration, new_x, order: int, level: float = 0.95) -> tuple[P
     level = check_level(level)
     x0 = _finite(new_x, "new_x")
     curve = curve_of(cal, order)
-    z0 = cal.scaled_x(x0)
-    fitted = curve.value(z0)  # curve units until the end
-    var_mean = curve.mean_variance(z0)
-    weighted = cal.weighting.values is not None
-    var_new = curve.s**2 * (cal.weighting.variance_factor(x0, curve.to_y(fitted)) if weighted else 1.0)
     t = curve.t_value(level)
-    half_mean = t * np.sqrt(var_mean)
-    half_pred = t * np.sqrt(var_new + var_mean)
-    columns = curve.to_y(np.array([fitted, fitted - half_mean, fitted + half_mean, fitted - half_pred,
-                                   fitted + half_pred])).tolist()
+    weighted = cal.weighting.values is not None
+    # an x far beyond the calibration's scale overflows to inf and its cells come out empty, without warnings
+    with np.errstate(over="ignore", invalid="ignore"):
+        z0 = cal.scaled_x(x0)
+        fitted = curve.value(z0)  # curve units until the end
+        var_mean = curve.mean_variance(z0)
+        var_new = curve.s**2 * (cal.weighting.variance_factor(x0, curve.to_y(fitted)) if weighted else 1.0)
+        half_mean = t * np.sqrt(var_mean)
+        half_pred = t * np.sqrt(var_new + var_mean)
+        columns = curve.to_y(np.array([fitted, fitted - half_mean, fitted + half_mean, fitted - half_pred,
+                                       fitted + half_pred])).tolist()
     far = ((x0 < curve.x_min) | (x0 > curve.x_max)).tolist()
     notes = [""] * x0.size
     if any(far):
@@ -310,7 +312,8 @@ def inverse(cal: Calibration, readings, order: int, replicates=1, level: float =
     m = _replicates(replicates, y0.size)
     curve = curve_of(cal, order)
     t = curve.t_value(level)
-    y0_curve = curve.from_y(y0)
+    with np.errstate(over="ignore"):  # a reading far beyond the responses' scale is inf: outside the range
+        y0_curve = curve.from_y(y0)
     solved = _solve_on_monotonic_band(curve, cal, y0_curve, m, t)
     if solved is not None:
         z_hat, lower_z, upper_z = solved

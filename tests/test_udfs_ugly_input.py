@@ -3,6 +3,7 @@
 import math
 
 import numpy as np
+import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
@@ -62,3 +63,20 @@ def test_huge_and_tiny_magnitudes(ex, ey, seed):
     for result in (udfs.calib_coefs(xs, ys), udfs.calib_orders(xs, ys), udfs.calib_checks(xs, ys),
                    udfs.calib_inverse(xs, ys, [[float(y[3])]])):
         assert _ok(result)
+
+
+def test_values_far_beyond_the_calibration_scale_give_empty_cells_quietly():
+    # standards near 1e-300 in x and y; a new x and a reading near 1e308 overflow in the calibration's
+    # scaled units: the rows come back empty with a note, and no warning reaches the console
+    import warnings
+
+    x = [[v * 1e-300] for v in (1.0, 2.0, 3.0, 4.0, 5.0, 6.0)]
+    y = [[v * 1e-300] for v in (2.1, 3.9, 6.2, 7.8, 10.1, 12.0)]
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        predicted = udfs.calib_predict(x, y, [[3e-300], [1e308]], 1)
+        inverse = udfs.calib_inverse(x, y, [[5e-300], [1e308]], None, 1)
+    assert predicted[0][0] == pytest.approx(6.0e-300, rel=0.05)
+    assert predicted[1][:5] == [None] * 5 and predicted[1][5].startswith("x outside the calibrated range")
+    assert inverse[0][0] == pytest.approx(2.5e-300, rel=0.05)
+    assert inverse[1][:3] == [None] * 3 and inverse[1][3].startswith("reading above the calibrated response range")
