@@ -24,7 +24,7 @@ from . import doubledouble as dd
 from .distributions import f_sf, t_two_sided
 from .errors import DataError, OrderError
 from .lazy import lazy
-from .polynomials import power_columns
+from .polynomials import power_rows
 from .refine import conversion_matrix, refine
 from .results import FTest, LackOfFit, OrderFit, OrderStats, SequentialRow, SequentialTable
 from .weighting import Weighting
@@ -178,7 +178,7 @@ class Calibration:
         self.dx_dz = math.ldexp(self.half_width, self._ex)  # x per unit of z
         self._u = u
         self.z = z = (u - self.centre) / self.half_width  # the standards' x in the scaled variable
-        zw = power_columns(z, k + 1)
+        zw = power_rows(z, k + 1).T
         if w is not None:
             zw *= self.sqrt_w[:, None]
         self._q, self._r = householder_qr(zw)

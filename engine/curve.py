@@ -16,7 +16,7 @@ import numpy as np
 from .calibration import Calibration
 from .distributions import t_quantile
 from .errors import OptionError
-from .polynomials import horner, power_columns
+from .polynomials import horner, power_rows
 
 # grid over z for locating roots and band edges: 400 cells across the calibrated
 # range [-1, 1] (its ends are nodes), and the curve is used up to EXTEND (in units
@@ -107,7 +107,7 @@ class Curve:
 
     def local(self, z: np.ndarray):
         """f(z), f'(z), the variance of the fitted mean and its slope, at the points z (1-D), in curve units."""
-        v = power_columns(z, self.local_polynomials.shape[0]) @ self.local_polynomials
+        v = power_rows(z, self.local_polynomials.shape[0]).T @ self.local_polynomials
         s2 = self.s**2
         return v[:, 0], v[:, 1], s2 * np.maximum(v[:, 2], 0.0), s2 * v[:, 3]
 

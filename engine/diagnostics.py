@@ -21,7 +21,7 @@ from scipy import special
 from .calibration import Calibration, householder_qr
 from .curve import ENDS, Curve, curve_of
 from .distributions import f_quantile, normal_two_sided, t_two_sided
-from .polynomials import power_columns
+from .polynomials import power_rows
 from .prediction import roots_of
 from .results import Check, PointDiagnostics
 from .selection import check_alpha, fmt_p, mandel_test
@@ -137,7 +137,7 @@ def breusch_pagan(residuals: np.ndarray, z: np.ndarray, order: int, q=None) -> t
     """
     e2 = residuals**2
     if q is None:  # an orthonormal basis of 1, z, ..., z^order
-        q, _ = householder_qr(power_columns(z, order + 1))
+        q, _ = householder_qr(power_rows(z, order + 1).T)
     d = e2 - e2.sum() / e2.size
     tss = float(d @ d)
     if tss == 0:

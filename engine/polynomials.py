@@ -1,23 +1,13 @@
-"""Evaluating polynomials in the scaled variable: Horner's rule and columns of powers."""
+"""Evaluating polynomials in the scaled variable: Horner's rule and rows of powers."""
 
 from __future__ import annotations
 
 import numpy as np
 
 
-def power_columns(z: np.ndarray, width: int) -> np.ndarray:
-    """Columns z^0 .. z^(width-1) of a 1-D array z, by repeated multiplication (as numpy.vander with
-    increasing=True, without its argument handling)."""
-    out = np.empty((z.size, width))
-    out[:, 0] = 1.0
-    if width > 1:
-        out[:, 1:] = z[:, None]
-        np.multiply.accumulate(out[:, 1:], axis=1, out=out[:, 1:])
-    return out
-
-
 def power_rows(z: np.ndarray, width: int) -> np.ndarray:
-    """Rows z^0 .. z^(width-1) of a 1-D array z (the transpose of ``power_columns``, each row contiguous)."""
+    """Rows z^0 .. z^(width-1) of a 1-D array z, each row contiguous, by repeated multiplication (as
+    numpy.vander with increasing=True, transposed, without its argument handling)."""
     out = np.empty((width, z.size))
     out[0] = 1.0
     if width > 1:
