@@ -352,7 +352,7 @@ class Calibration:
         return np.maximum(self._all_rss - self._ss_pure, 0.0)
 
     @lazy
-    def _f_tests(self) -> dict[str, list[FTest]]:
+    def _f_tests(self) -> dict[str, tuple[FTest, ...]]:
         """Every F test of every order, from one vectorised pass: "overall" (orders 0..K: the regression
         against the mean; order 0 has none), "lack of fit" (orders 0..K; only with replicates), "step"
         (x^k against order k - 1, k = 1..K) and "sequential" (x^k in the Type I table of order K)."""
@@ -379,7 +379,7 @@ class Calibration:
                                           f_sf(f, np.maximum(dfn, 1), dfd).tolist())))
         out, i = {}, 0
         for name, size in sizes.items():
-            out[name] = tests[i: i + size]
+            out[name] = tuple(tests[i: i + size])
             i += size
         return out
 
@@ -489,12 +489,8 @@ class Calibration:
         k = self.resolve_order(order)
         if k < 1:
             raise OrderError("order must be at least 1 for a step test", argument="order")
-        return self._steps[k - 1]
+        return self._f_tests["step"][k - 1]
 
     def step_tests(self) -> tuple[FTest, ...]:
         """``step_test`` of every order 1 .. max_order."""
-        return self._steps
-
-    @lazy
-    def _steps(self) -> tuple[FTest, ...]:
-        return tuple(self._f_tests["step"])
+        return self._f_tests["step"]
