@@ -20,7 +20,7 @@ from statsmodels.stats.anova import anova_lm
 sys.path.insert(0, str(Path(__file__).resolve().parent))
 import workloads  # noqa: E402
 
-import engine  # noqa: E402
+from degreewise import engine  # noqa: E402
 from conftest_free import load_filip  # noqa: E402
 
 

@@ -12,8 +12,8 @@ sys.path.insert(0, str(Path(__file__).resolve().parent))
 import workloads  # noqa: E402
 from bench_engine import median_time, ratio_words, side_by_side  # noqa: E402
 
-import udfs  # noqa: E402
-from udfs.prepared import clear_caches  # noqa: E402
+import degreewise  # noqa: E402
+from degreewise.prepared import clear_caches  # noqa: E402
 
 
 def column(values):
@@ -21,14 +21,14 @@ def column(values):
 
 
 def family(xs, ys, new_x, readings):
-    order = udfs.calib_order(xs, ys)
-    udfs.calib_orders(xs, ys)
-    udfs.calib_seqf(xs, ys)
-    udfs.calib_coefs(xs, ys, order)
-    udfs.calib_predict(xs, ys, new_x, order)
-    udfs.calib_inverse(xs, ys, readings, None, order)
-    udfs.calib_residuals(xs, ys, order)
-    udfs.calib_checks(xs, ys, order)
+    order = degreewise.calib_order(xs, ys)
+    degreewise.calib_orders(xs, ys)
+    degreewise.calib_seqf(xs, ys)
+    degreewise.calib_coefs(xs, ys, order)
+    degreewise.calib_predict(xs, ys, new_x, order)
+    degreewise.calib_inverse(xs, ys, readings, None, order)
+    degreewise.calib_residuals(xs, ys, order)
+    degreewise.calib_checks(xs, ys, order)
 
 
 def cold(*args):
@@ -40,7 +40,7 @@ def main():
     x, y, new_x, readings = workloads.typical()
     cells = (column(x), column(y), column(new_x), column(readings))
     family(*cells)
-    hit = median_time(udfs.calib_coefs, cells[0], cells[1], repeat=2000)
+    hit = median_time(degreewise.calib_coefs, cells[0], cells[1], repeat=2000)
 
     ours, ref, ratio = side_by_side(lambda *a: cold(*cells), workloads.statsmodels_pipeline, (x, y, new_x, readings))
     print(f"cache-hit CALIB_COEFS call (24 points)        {hit * 1e6:8.1f} us (median)")

@@ -19,7 +19,7 @@ from statsmodels.stats.diagnostic import het_breuschpagan
 from statsmodels.stats.outliers_influence import OLSInfluence
 from statsmodels.stats.stattools import durbin_watson
 
-import engine
+from degreewise import engine
 
 
 def typical(seed: int = 1):

@@ -2,7 +2,7 @@
 
 ``Calibration(x, y, max_order=None, weights=None)`` factorises the data once;
 its methods and the functions below hand out per-order results (named
-tuples, and ``OrderChoice``, from ``engine.results``). ``fit(x, y, order, weights=None)`` is the
+tuples, and ``OrderChoice``, from ``degreewise.engine.results``). ``fit(x, y, order, weights=None)`` is the
 shortest way to one order's coefficients.
 """
 

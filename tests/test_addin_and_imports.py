@@ -1,10 +1,10 @@
-"""Registration: the xlwings settings that `degreewise addin` writes, and what `import udfs` pulls in."""
+"""Registration: the xlwings settings that `degreewise addin` writes, and what `import degreewise` pulls in."""
 
 import subprocess
 import sys
 
-from udfs.addin import write_settings
-from udfs.cli import main
+from degreewise.addin import write_settings
+from degreewise.cli import main
 
 
 def test_settings_file_is_written_and_other_keys_kept(tmp_path):
@@ -12,9 +12,9 @@ def test_settings_file_is_written_and_other_keys_kept(tmp_path):
     conf.parent.mkdir()
     conf.write_text('"ONEDRIVE_WIN","C:\\\\Users\\\\me\\\\OneDrive"\n"UDF MODULES","old_module"\n')
     written = write_settings(conf, "C:\\Python\\python.exe")
-    assert written == {"UDF MODULES": "udfs", "INTERPRETER_WIN": "C:\\Python\\python.exe"}
+    assert written == {"UDF MODULES": "degreewise", "INTERPRETER_WIN": "C:\\Python\\python.exe"}
     assert conf.read_text().splitlines() == [
-        '"ONEDRIVE_WIN","C:\\\\Users\\\\me\\\\OneDrive"', '"UDF MODULES","udfs"',
+        '"ONEDRIVE_WIN","C:\\\\Users\\\\me\\\\OneDrive"', '"UDF MODULES","degreewise"',
         '"INTERPRETER_WIN","C:\\Python\\python.exe"']
 
 
@@ -22,21 +22,21 @@ def test_addin_command_prints_steps(tmp_path, capsys):
     conf = tmp_path / "xlwings.conf"
     assert main(["addin", "--config", str(conf)]) == 0
     out = capsys.readouterr().out
-    assert conf.read_text().startswith('"UDF MODULES","udfs"')
+    assert conf.read_text().startswith('"UDF MODULES","degreewise"')
     assert "xlwings addin install" in out and "Import Functions" in out
     if not sys.platform.startswith("win"):
         assert "This system cannot run the desktop add-in" in out
 
 
 def test_import_udfs_needs_no_file_system_modules_of_ours():
-    code = ("import sys, udfs; udfs.calib_order; mods = set(sys.modules);"
-            "print(sorted(m for m in mods if m.startswith('udfs') or m in ('openpyxl', 'tqdm', 'subprocess',"
+    code = ("import sys, degreewise; degreewise.calib_order; mods = set(sys.modules);"
+            "print(sorted(m for m in mods if m.startswith('degreewise') or m in ('openpyxl', 'tqdm', 'subprocess',"
             " 'multiprocessing', 'defusedxml')))")
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout
     loaded = eval(out)
-    assert "udfs.cli" not in loaded and "udfs.validation" not in loaded and "udfs.addin" not in loaded
+    assert "degreewise.cli" not in loaded and "degreewise.validation" not in loaded and "degreewise.addin" not in loaded
     assert "openpyxl" not in loaded and "tqdm" not in loaded and "multiprocessing" not in loaded
-    assert "udfs.functions" in loaded and "udfs.coercion" in loaded
+    assert "degreewise.functions" in loaded and "degreewise.coercion" in loaded
 
 
 REGISTRATION_PROBE = """
@@ -47,10 +47,10 @@ stub.func = lambda f: calls.append(("func", f.__name__)) or f
 stub.arg = lambda name, doc: (lambda f: calls.append(("arg", f.__name__, name, doc)) or f)
 sys.modules["xlwings"] = stub
 {setup}
-import udfs
-assert "udfs.functions" not in sys.modules  # the functions load on first use
-names = [n for n in dir(udfs) if n.startswith("calib_")]
-[getattr(udfs, n) for n in names]
+import degreewise
+assert "degreewise.functions" not in sys.modules  # the functions load on first use
+names = [n for n in dir(degreewise) if n.startswith("calib_")]
+[getattr(degreewise, n) for n in names]
 print(repr((names, calls)))
 """
 
@@ -62,11 +62,11 @@ def _probe(setup=""):
 
 
 def test_the_spreadsheet_sees_every_function_registered_with_its_argument_docs():
-    from udfs import FUNCTIONS
-    from udfs.functions import DOC
+    from degreewise import FUNCTIONS
+    from degreewise.functions import DOC
 
     names, calls = _probe()
-    assert names == sorted(FUNCTIONS)  # what the desktop add-in lists through dir(udfs)
+    assert names == sorted(FUNCTIONS)  # what the desktop add-in lists through dir(degreewise)
     assert sorted(c[1] for c in calls if c[0] == "func") == sorted(FUNCTIONS)
     args = [c[1:] for c in calls if c[0] == "arg"]
     assert ("calib_inverse", "replicates", DOC["replicates"]) in args
@@ -75,7 +75,7 @@ def test_the_spreadsheet_sees_every_function_registered_with_its_argument_docs()
 
 
 def test_the_command_line_loads_the_functions_without_registration():
-    names, calls = _probe("from udfs.registration import headless; headless()")
+    names, calls = _probe("from degreewise.registration import headless; headless()")
     assert len(names) == 11 and calls == []
 
 
@@ -89,7 +89,7 @@ def test_the_refresh_command_imports_neither_xlwings_nor_pandas(tmp_path):
         ws.cell(i, 2, float(b))
     ws["D1"] = "=CALIB_ORDER(A1:A6,B1:B6)"
     wb.save(tmp_path / "book.xlsx")
-    code = ("import sys; from udfs.cli import main; code = main(['refresh', sys.argv[1]]);"
+    code = ("import sys; from degreewise.cli import main; code = main(['refresh', sys.argv[1]]);"
             "print(code, 'xlwings' in sys.modules, 'pandas' in sys.modules, 'numpy.f2py.crackfortran' in sys.modules,"
             " 'numpy.testing._private.utils' in sys.modules)")
     out = subprocess.run([sys.executable, "-c", code, str(tmp_path / "book.xlsx")], capture_output=True, text=True,
@@ -99,7 +99,7 @@ def test_the_refresh_command_imports_neither_xlwings_nor_pandas(tmp_path):
 
 
 def test_numpy_modules_deferred_by_the_command_line_still_work():
-    code = ("import sys; from udfs.cli import _defer_unused_numpy_modules as defer; defer(); import numpy as np;"
+    code = ("import sys; from degreewise.cli import _defer_unused_numpy_modules as defer; defer(); import numpy as np;"
             "np.testing.assert_allclose(np.ma.masked_invalid([1.0, float('nan')]).sum(), 1.0);"
             "print(np.random.default_rng(7).integers(0, 10**6), 'numpy.f2py.crackfortran' in sys.modules)")
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout.split()

@@ -14,9 +14,9 @@ from statsmodels.stats.diagnostic import het_breuschpagan
 from statsmodels.stats.outliers_influence import OLSInfluence
 from statsmodels.stats.stattools import durbin_watson
 
-import engine
-from engine.diagnostics import breusch_pagan, runs_test
-from engine.diagnostics import durbin_watson as dw_engine
+from degreewise import engine
+from degreewise.engine.diagnostics import breusch_pagan, runs_test
+from degreewise.engine.diagnostics import durbin_watson as dw_engine
 
 RTOL = 1e-9
 

@@ -8,11 +8,11 @@ from pathlib import Path
 import openpyxl
 import pytest
 
-import udfs
-from udfs.cli import main
-from udfs.demo import GRID, LAYOUT
-from udfs.refresh import refresh_file
-from udfs.scenarios import all_scenarios
+import degreewise
+from degreewise.cli import main
+from degreewise.demo import GRID, LAYOUT
+from degreewise.refresh import refresh_file
+from degreewise.scenarios import all_scenarios
 
 FOLDER = Path(__file__).resolve().parent.parent / "workbooks"
 SCENARIOS = {sc.name: sc for sc in all_scenarios()}
@@ -45,27 +45,27 @@ def test_cached_values_equal_a_fresh_computation(name):
     xs = [[ws.cell(r, 1).value] for r in range(2, n + 2)]
     ys = [[ws.cell(r, 2).value] for r in range(2, n + 2)]
     w = sc.weights
-    order = udfs.calib_order(xs, ys, None, None, None, w)
+    order = degreewise.calib_order(xs, ys, None, None, None, w)
     assert ws[LAYOUT["order"]].value == order == sc.expected_order
     expected = {
-        "orders": udfs.calib_orders(xs, ys, None, None, w),
-        "seqf": udfs.calib_seqf(xs, ys, None, w),
-        "coefs": udfs.calib_coefs(xs, ys, order, None, w),
-        "stats": udfs.calib_stats(xs, ys, order, w),
-        "checks": udfs.calib_checks(xs, ys, order, None, w),
-        "residuals": udfs.calib_residuals(xs, ys, order, w),
-        "predict": udfs.calib_predict(xs, ys, [[ws.cell(r, 26).value] for r in range(2, GRID + 2)], order, None, w),
+        "orders": degreewise.calib_orders(xs, ys, None, None, w),
+        "seqf": degreewise.calib_seqf(xs, ys, None, w),
+        "coefs": degreewise.calib_coefs(xs, ys, order, None, w),
+        "stats": degreewise.calib_stats(xs, ys, order, w),
+        "checks": degreewise.calib_checks(xs, ys, order, None, w),
+        "residuals": degreewise.calib_residuals(xs, ys, order, w),
+        "predict": degreewise.calib_predict(xs, ys, [[ws.cell(r, 26).value] for r in range(2, GRID + 2)], order, None, w),
     }
     if sc.samples:
         readings = [[ws.cell(r, 34).value] for r in range(2, len(sc.samples) + 2)]
-        expected["inverse"] = udfs.calib_inverse(xs, ys, readings, None, order, None, w)
+        expected["inverse"] = degreewise.calib_inverse(xs, ys, readings, None, order, None, w)
     for key, table in expected.items():
         width = max(len(r) for r in table)
         got = block(ws, LAYOUT[key], len(table), width)
         want = [list(r) + [None] * (width - len(r)) for r in table]
         assert same_numbers(got, want), (key, got, want)
-    assert block(ws, "Q1", 1, 8) == udfs.calib_labels("residuals")
-    assert block(ws, "AA1", 1, 6) == udfs.calib_labels("predict")
+    assert block(ws, "Q1", 1, 8) == degreewise.calib_labels("residuals")
+    assert block(ws, "AA1", 1, 6) == degreewise.calib_labels("predict")
 
 
 def test_each_scenario_shows_what_it_was_built_to_show():

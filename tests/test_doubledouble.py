@@ -7,7 +7,7 @@ import numpy as np
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from engine import doubledouble as dd
+from degreewise.engine import doubledouble as dd
 
 finite = st.floats(min_value=-1e300, max_value=1e300, allow_nan=False, allow_infinity=False)
 # error-free products need the product and its error term above the underflow threshold, and no

@@ -5,8 +5,8 @@ import math
 import numpy as np
 import pytest
 
-import engine
-from engine import DataError, OptionError, OrderError, WeightError
+from degreewise import engine
+from degreewise.engine import DataError, OptionError, OrderError, WeightError
 
 X = [1.0, 2.0, 3.0, 4.0, 5.0, 6.0]
 Y = [1.1, 2.0, 2.9, 4.2, 5.0, 6.1]
@@ -130,7 +130,7 @@ def test_a_million_points():
 def test_an_overflow_leaves_the_calibration_as_it_was(monkeypatch):
     # an overflow in one order's statistics (simulated here for order 3) must not leave a half-filled
     # cache: every later question meets the same overflow, not a missing entry
-    import engine.calibration as calibration
+    import degreewise.engine.calibration as calibration
 
     real = calibration.OrderStats
 

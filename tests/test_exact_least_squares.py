@@ -9,7 +9,7 @@ from fractions import Fraction
 import numpy as np
 import pytest
 
-import engine
+from degreewise import engine
 
 ULP = Fraction(1, 2**53)
 

@@ -6,7 +6,7 @@ import numpy as np
 import pytest
 from scipy import stats
 
-import engine
+from degreewise import engine
 
 
 def fieller(x, y, reading, m, level):
@@ -112,8 +112,8 @@ def test_interval_bounds_lie_on_the_prediction_band(weights):
 def test_binary_search_of_a_monotonic_band_matches_the_grid_scan(weights, monkeypatch):
     # invented calibrations; the binary search over a rising band must give what the general grid scan gives
     # (x from about 35 to 70, so that x stays positive, and the weights defined, half the range beyond)
-    import engine.prediction as prediction
-    from engine.curve import curve_of
+    import degreewise.engine.prediction as prediction
+    from degreewise.engine.curve import curve_of
 
     rng = np.random.default_rng(23)
     searched = 0

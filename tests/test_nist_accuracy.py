@@ -13,7 +13,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-import engine
+from degreewise import engine
 from conftest import load_strd
 
 DATASETS = ["norris", "pontius", "filip", "wampler1", "wampler2", "wampler3"]
@@ -59,7 +59,7 @@ def test_engine_does_not_use_extended_precision():
 
 
 def test_validate_report_passes():
-    from udfs.validation import report
+    from degreewise.validation import report
 
     text, ok = report()
     assert ok
@@ -70,7 +70,7 @@ def test_refinement_in_blocks_of_rows_keeps_the_certified_digits(monkeypatch):
     """Large problems refine block by block (bounded temporaries): Filip's data repeated 40 times
     (3280 points, the same least-squares solution) in blocks of 1024 rows keeps LRE >= 12 on the
     certified coefficients (NIST StRD Filip)."""
-    import engine.refine
+    import degreewise.engine.refine
 
     monkeypatch.setattr(engine.refine, "_BLOCK", 1)  # every block at the 1024-row minimum
     x, y, cert = load_strd("filip")

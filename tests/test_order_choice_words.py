@@ -7,7 +7,7 @@ extra-sum-of-squares tests checked against statsmodels elsewhere (tests/test_aga
 
 import pytest
 
-import engine
+from degreewise import engine
 
 X = [0.5, 0.5, 0.5, 1.0, 1.0, 1.0, 2.0, 2.0, 2.0, 4.0, 4.0, 4.0, 6.0, 6.0, 6.0, 8.0, 8.0, 8.0, 10.0, 10.0, 10.0,
      12.0, 12.0, 12.0]
@@ -45,11 +45,11 @@ def test_the_reason_is_written_once_and_only_when_read():
 
 
 def test_the_why_row_of_calib_stats():
-    import udfs
+    import degreewise
 
     column = [[v] for v in X], [[v] for v in Y]
-    rows = dict(udfs.calib_stats(*column))
+    rows = dict(degreewise.calib_stats(*column))
     assert rows["why this order"] == WORDS["seqf"] + LACK
-    rows = dict(udfs.calib_stats(*column, 3))
+    rows = dict(degreewise.calib_stats(*column, 3))
     assert rows["why this order"] == ("given as the order argument; the seqf rule would pick order 2: "
                                       + WORDS["seqf"] + LACK)

@@ -13,9 +13,9 @@ import pytest
 from openpyxl.chart import Reference, ScatterChart, Series
 from openpyxl.workbook.defined_name import DefinedName
 
-import udfs
-from udfs.package import MAX_PART
-from udfs.refresh import lock_file, refresh_file, run
+import degreewise
+from degreewise.package import MAX_PART
+from degreewise.refresh import lock_file, refresh_file, run
 
 RNG = np.random.default_rng(31)
 X = np.repeat([1.0, 2.0, 5.0, 10.0, 20.0, 40.0], 2)
@@ -83,12 +83,12 @@ def test_refresh_stores_what_the_functions_return(tmp_path):
                                                "Summary!A1", "Summary!H1", "Summary!A22"])
     assert report.left_alone == [("Summary!A20", "the formula mixes CALIB_* with other functions or operators")]
     xs, ys = standards(path)
-    assert values(path, "Run 2", "D1", 1, 1) == [[udfs.calib_order(xs, ys)]]
-    assert values(path, "Run 2", "D3", 4, 7) == udfs.calib_coefs(xs, ys, 2)
-    assert values(path, "Run 2", "D10", 3, 6) == udfs.calib_predict(xs, ys, xs[:3], 2, 0.9)
+    assert values(path, "Run 2", "D1", 1, 1) == [[degreewise.calib_order(xs, ys)]]
+    assert values(path, "Run 2", "D3", 4, 7) == degreewise.calib_coefs(xs, ys, 2)
+    assert values(path, "Run 2", "D10", 3, 6) == degreewise.calib_predict(xs, ys, xs[:3], 2, 0.9)
     assert values(path, "Summary", "A1", 9, 6) == [[v for v in r] + [None] * (6 - len(r))
-                                                   for r in udfs.calib_seqf(xs, ys)]
-    stats = udfs.calib_stats(xs, ys, 2)
+                                                   for r in degreewise.calib_seqf(xs, ys)]
+    stats = degreewise.calib_stats(xs, ys, 2)
     assert values(path, "Summary", "H1", len(stats), 2) == stats
     # whole columns carry the header text, exactly as the spreadsheet would pass it
     assert values(path, "Summary", "A22", 1, 1) == [[
@@ -149,12 +149,12 @@ def test_results_that_grow_and_shrink(tmp_path):
     xs, ys = standards(path)
     _edit_formula(path, "CALIB_PREDICT(A2:A13,B2:B13,A2:A4,D1,0.9)", "CALIB_PREDICT(A2:A13,B2:B13,A2:A8,D1,0.9)")
     refresh_file(path)
-    assert values(path, "Run 2", "D10", 7, 6) == udfs.calib_predict(xs, ys, xs[:7], 2, 0.9)
+    assert values(path, "Run 2", "D10", 7, 6) == degreewise.calib_predict(xs, ys, xs[:7], 2, 0.9)
     assert openpyxl.load_workbook(path)["Run 2"]["D10"].value.ref == "D10:I16"
     _edit_formula(path, "CALIB_PREDICT(A2:A13,B2:B13,A2:A8,D1,0.9)", "CALIB_PREDICT(A2:A13,B2:B13,A2:A3,D1,0.9)")
     refresh_file(path)
     got = values(path, "Run 2", "D10", 7, 6)
-    assert got[:2] == udfs.calib_predict(xs, ys, xs[:2], 2, 0.9)
+    assert got[:2] == degreewise.calib_predict(xs, ys, xs[:2], 2, 0.9)
     assert got[2:] == [[None] * 6] * 5
     assert openpyxl.load_workbook(path)["Run 2"]["D10"].value.ref == "D10:I11"
 
@@ -280,8 +280,8 @@ def test_a_spreadsheet_program_reads_the_cached_numbers(tmp_path):
                     "--outdir", str(out), str(path)], check=True, capture_output=True, timeout=300)
     rows = [line.split(",") for line in (out / "book.csv").read_text().splitlines()]
     xs, ys = standards(path)
-    assert rows[0][3] == str(udfs.calib_order(xs, ys)) == "2"
-    assert rows[0][10] == udfs.calib_version()
+    assert rows[0][3] == str(degreewise.calib_order(xs, ys)) == "2"
+    assert rows[0][10] == degreewise.calib_version()
     for i in range(12):
         assert float(rows[i + 1][0]) == xs[i][0] and float(rows[i + 1][1]) == pytest.approx(ys[i][0], rel=1e-14)
 
@@ -296,7 +296,7 @@ def test_a_spreadsheet_program_reads_the_cached_numbers(tmp_path):
     ('<x:workbook xmlns:x="m"><x:sheets/></x:workbook>', '<x:workbook xmlns:x="m"><x:sheets/><x:calcPr fullCalcOnLoad="1"/></x:workbook>'),
 ])
 def test_full_recalculation_flag_is_set_in_place(before, after):
-    from udfs.package import set_full_calc_on_load
+    from degreewise.package import set_full_calc_on_load
 
     assert set_full_calc_on_load(before) == after
     assert set_full_calc_on_load(after) == after
@@ -327,8 +327,8 @@ def test_filled_formulas_are_computed_with_their_references_moved(tmp_path):
     assert sorted(report.refreshed) == ["Runs!E1", "Runs!F1"] and report.ok
     rows = values(path, "Runs", "A2", 12, 3)
     xs = [[r[0]] for r in rows]
-    assert values(path, "Runs", "E1", 1, 2) == [[udfs.calib_order(xs, [[r[1]] for r in rows]),
-                                                 udfs.calib_order(xs, [[r[2]] for r in rows])]]
+    assert values(path, "Runs", "E1", 1, 2) == [[degreewise.calib_order(xs, [[r[1]] for r in rows]),
+                                                 degreewise.calib_order(xs, [[r[2]] for r in rows])]]
     after = entries(path)["xl/worksheets/sheet1.xml"].decode()
     assert '<f t="shared" ref="E1:F1" si="0">CALIB_ORDER($A$2:$A$13,B2:B13)</f>' in after
     assert '<c r="F1"><f t="shared" si="0"/><v>1</v></c>' in after
@@ -356,7 +356,7 @@ def test_sheet_scoped_names_take_precedence(tmp_path):
     rows_a, rows_b = values(path, "Lab A", "A2", 12, 2), values(path, "Lab B", "A2", 12, 2)
     for sheet, rows in (("Lab A", rows_a), ("Lab B", rows_b)):
         xs, ys = [[r[0]] for r in rows], [[r[1]] for r in rows]
-        assert values(path, sheet, "D1", 3, 7) == udfs.calib_coefs(xs, ys, 1)
+        assert values(path, sheet, "D1", 3, 7) == degreewise.calib_coefs(xs, ys, 1)
 
 
 def _many_sheets(path: Path) -> Path:
@@ -382,7 +382,7 @@ def _many_sheets(path: Path) -> Path:
 
 
 def test_sheets_split_over_processes_give_the_same_file_and_report(tmp_path, monkeypatch):
-    import udfs.refresh as refresh
+    import degreewise.refresh as refresh
 
     monkeypatch.setattr(refresh, "PARALLEL_FROM", 1)
     one = _many_sheets(tmp_path / "one.xlsx")
@@ -398,7 +398,7 @@ def test_sheets_split_over_processes_give_the_same_file_and_report(tmp_path, mon
 
 
 def test_sheets_that_refer_to_each_other_share_a_process(tmp_path):
-    import udfs.refresh as refresh
+    import degreewise.refresh as refresh
 
     book = refresh.Refresher(refresh.read_package(_many_sheets(tmp_path / "book.xlsx"))[1])
     by_cell = {}
@@ -422,7 +422,7 @@ _BOMB_BODY = _bomb_xml().replace(b'<?xml version="1.0"?>', b"").decode("ascii")
     (b'<?xml version="1.0" encoding="cp037"?>' + _BOMB_BODY.encode("cp037"), "broken"),  # EBCDIC: not parsed
 ])
 def test_entity_declarations_are_refused_in_any_encoding(xml, message):
-    from udfs.package import PackageError, parse_xml
+    from degreewise.package import PackageError, parse_xml
 
     with pytest.raises(PackageError, match=rf"^{message} XML in part\.xml: "):
         parse_xml("part.xml", xml)
@@ -431,7 +431,7 @@ def test_entity_declarations_are_refused_in_any_encoding(xml, message):
 def test_plain_parts_parse_alike_on_both_paths():
     from defusedxml import ElementTree as SafeET
 
-    from udfs.package import parse_xml
+    from degreewise.package import parse_xml
 
     xml = ('<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n<worksheet xmlns="urn:x"><c r="A1" t="str">'
            '<v>a &amp; b &lt; c &#233;</v></c></worksheet>').encode()

@@ -13,10 +13,10 @@ import statsmodels.api as sm
 import statsmodels.formula.api as smf
 from statsmodels.stats.anova import anova_lm
 
-import engine
-import udfs
-from udfs.labels import HEADERS
-from udfs.prepared import clear_caches
+from degreewise import engine
+import degreewise
+from degreewise.labels import HEADERS
+from degreewise.prepared import clear_caches
 
 
 def column(values):
@@ -39,8 +39,8 @@ def data():
 
 def test_order_and_coefficients_match_statsmodels(data):
     x, y = data
-    assert udfs.calib_order(column(x), column(y)) == 2
-    table = udfs.calib_coefs(column(x), column(y))
+    assert degreewise.calib_order(column(x), column(y)) == 2
+    table = degreewise.calib_coefs(column(x), column(y))
     assert table[0] == list(HEADERS["coefs"])
     assert [r[0] for r in table[1:]] == ["intercept", "x", "x^2"]
     ref = sm.OLS(y, np.vander(x, 3, increasing=True)).fit()
@@ -54,7 +54,7 @@ def test_order_and_coefficients_match_statsmodels(data):
 
 def test_sequential_table_matches_anova_lm(data):
     x, y = data
-    table = udfs.calib_seqf(column(x), column(y), 3)
+    table = degreewise.calib_seqf(column(x), column(y), 3)
     assert table[0] == ["source", "df", "SS", "MS", "F", "p-value"]
     assert [r[0] for r in table[1:]] == ["x", "x^2", "x^3", "residual", "lack of fit", "pure error", "total"]
     ref = anova_lm(smf.ols("y ~ x + I(x**2) + I(x**3)", pd.DataFrame({"x": x, "y": y})).fit(), typ=1)
@@ -74,7 +74,7 @@ def test_sequential_table_matches_anova_lm(data):
 
 def test_orders_table_shape_and_picks(data):
     x, y = data
-    table = udfs.calib_orders(column(x), column(y))
+    table = degreewise.calib_orders(column(x), column(y))
     assert table[0] == list(HEADERS["orders"])
     assert [r[0] for r in table[1:]] == [1, 2, 3, 4]
     assert all(len(r) == 12 for r in table)
@@ -88,7 +88,7 @@ def test_orders_table_shape_and_picks(data):
 def test_predict_matches_get_prediction_and_keeps_rows_aligned(data):
     x, y = data
     new = [[3.0], [None], [25.0], [""]]
-    rows = udfs.calib_predict(column(x), column(y), new, 2, 0.9)
+    rows = degreewise.calib_predict(column(x), column(y), new, 2, 0.9)
     assert len(rows) == 4 and all(len(r) == 6 for r in rows)
     assert rows[1] == [None] * 6 and rows[3] == [None] * 6
     frame = sm.OLS(y, np.vander(x, 3, increasing=True)).fit().get_prediction(
@@ -103,7 +103,7 @@ def test_weighted_coefficients_match_wls(data):
     w = 1 / x**2
     ref = sm.WLS(y, np.vander(x, 3, increasing=True), weights=w).fit()
     for weights in ("1/x^2", column(w)):
-        rows = udfs.calib_coefs(column(x), column(y), 2, None, weights)
+        rows = degreewise.calib_coefs(column(x), column(y), 2, None, weights)
         np.testing.assert_allclose([r[1] for r in rows[1:]], ref.params, rtol=1e-10)
         np.testing.assert_allclose([r[2] for r in rows[1:]], ref.bse, rtol=1e-9)
 
@@ -113,7 +113,7 @@ def test_inverse_rows_and_round_trip(data):
     fit = engine.fit(x, y, 2)
     truth = [4.0, 17.5, 33.0]
     readings = [np.polynomial.polynomial.polyval(v, fit.coefficients) for v in truth]
-    rows = udfs.calib_inverse(column(x), column(y), [[readings[0]], [None], [readings[1]], [readings[2]], [1e6]], 2)
+    rows = degreewise.calib_inverse(column(x), column(y), [[readings[0]], [None], [readings[1]], [readings[2]], [1e6]], 2)
     assert len(rows) == 5 and all(len(r) == 4 for r in rows)
     assert rows[1] == [None] * 4
     for r, t in zip([rows[0], rows[2], rows[3]], truth):
@@ -127,7 +127,7 @@ def test_residuals_align_with_input_rows(data):
     x, y = data
     xs, ys = column(x), column(y)
     xs[4] = [None]
-    rows = udfs.calib_residuals(xs, ys, 2)
+    rows = degreewise.calib_residuals(xs, ys, 2)
     assert len(rows) == x.size and rows[4] == [None] * 8
     keep = np.arange(x.size) != 4
     d = engine.point_diagnostics(engine.Calibration(x[keep], y[keep]), 2)
@@ -139,7 +139,7 @@ def test_residuals_align_with_input_rows(data):
 
 def test_stats_and_checks_tables(data):
     x, y = data
-    stats = udfs.calib_stats(column(x), column(y))
+    stats = degreewise.calib_stats(column(x), column(y))
     labels = [r[0] for r in stats]
     assert labels == ["statistic", "points used", "points skipped", "order", "why this order", "residual df",
                       "residual SD", "R²", "adjusted R²", "predicted R²", "AICc", "BIC", "F", "p-value",
@@ -147,7 +147,7 @@ def test_stats_and_checks_tables(data):
     values = dict(stats[1:])
     assert values["points used"] == 21 and values["points skipped"] == 0 and values["order"] == 2
     assert values["why this order"].startswith("x^2 is the highest term significant")
-    checks = udfs.calib_checks(column(x), column(y))
+    checks = degreewise.calib_checks(column(x), column(y))
     assert checks[0] == list(HEADERS["checks"])
     assert [r[0] for r in checks[1:]] == ["lack of fit", "Mandel linear vs quadratic", "runs of residual signs",
                                           "Durbin-Watson", "Shapiro-Wilk", "Breusch-Pagan",
@@ -162,7 +162,7 @@ def test_checks_name_flagged_standards_by_their_input_row(data):
     xs, ys = column(x), column(y)
     xs.insert(1, [None])  # a blank row above it: the standard sits in input row 7
     ys.insert(1, [None])
-    checks = {r[0]: r for r in udfs.calib_checks(xs, ys, 2)}
+    checks = {r[0]: r for r in degreewise.calib_checks(xs, ys, 2)}
     assert checks["outliers"][3] == "warning"
     assert checks["outliers"][4].startswith("row 7 (externally studentized residual, Bonferroni at 0.05")
     assert checks["influential points"][4].startswith("none (Cook's distance above")  # low leverage there
@@ -170,25 +170,25 @@ def test_checks_name_flagged_standards_by_their_input_row(data):
 
 def test_row_and_column_orientation_agree(data):
     x, y = data
-    as_column = udfs.calib_coefs(column(x), column(y))
-    as_row = udfs.calib_coefs([list(x)], [list(y)])
+    as_column = degreewise.calib_coefs(column(x), column(y))
+    as_row = degreewise.calib_coefs([list(x)], [list(y)])
     assert as_column == as_row
-    assert udfs.calib_order([list(x)], column(y)) == udfs.calib_order(column(x), column(y))
+    assert degreewise.calib_order([list(x)], column(y)) == degreewise.calib_order(column(x), column(y))
 
 
 def test_optional_arguments_left_empty_take_defaults(data):
     x, y = data
-    assert udfs.calib_coefs(column(x), column(y), None, None, None) == udfs.calib_coefs(column(x), column(y))
-    assert udfs.calib_coefs(column(x), column(y), "", [[None]], "") == udfs.calib_coefs(column(x), column(y), 2)
-    assert udfs.calib_order(column(x), column(y), None, 0.05, "seqf", None) == 2
+    assert degreewise.calib_coefs(column(x), column(y), None, None, None) == degreewise.calib_coefs(column(x), column(y))
+    assert degreewise.calib_coefs(column(x), column(y), "", [[None]], "") == degreewise.calib_coefs(column(x), column(y), 2)
+    assert degreewise.calib_order(column(x), column(y), None, 0.05, "seqf", None) == 2
 
 
 def test_labels_and_version():
-    assert udfs.calib_labels("predict") == [["predicted y", "mean lower", "mean upper", "prediction lower",
+    assert degreewise.calib_labels("predict") == [["predicted y", "mean lower", "mean upper", "prediction lower",
                                              "prediction upper", "note"]]
-    assert udfs.calib_labels("INVERSE") == [["x estimate", "lower", "upper", "note"]]
-    assert len(udfs.calib_labels("residuals")[0]) == 8
-    assert udfs.calib_version().startswith(f"degreewise {udfs.VERSION}; numpy {np.__version__}; scipy ")
+    assert degreewise.calib_labels("INVERSE") == [["x estimate", "lower", "upper", "note"]]
+    assert len(degreewise.calib_labels("residuals")[0]) == 8
+    assert degreewise.calib_version().startswith(f"degreewise {degreewise.VERSION}; numpy {np.__version__}; scipy ")
 
 
 @pytest.mark.parametrize("bad,message", [
@@ -206,28 +206,28 @@ def test_bad_cells_in_data(data, bad, message):
     x, y = data
     xs = column(x)
     xs[6] = [bad]
-    for f in (udfs.calib_coefs, udfs.calib_seqf, udfs.calib_residuals, udfs.calib_checks):
+    for f in (degreewise.calib_coefs, degreewise.calib_seqf, degreewise.calib_residuals, degreewise.calib_checks):
         assert f(xs, column(y)) == [[message]]
-    assert udfs.calib_order(xs, column(y)) == message
+    assert degreewise.calib_order(xs, column(y)) == message
 
 
 def test_a_logical_never_shares_a_cached_result_with_the_number_it_equals(data):
     # True == 1.0 in Python; the cache of prepared inputs must still see a logical cell as bad
     x, y = data
     assert x[0] == 1.0
-    assert isinstance(udfs.calib_order(column(x), column(y)), int)
+    assert isinstance(degreewise.calib_order(column(x), column(y)), int)
     xs = column(x)
     xs[0] = [True]
-    assert udfs.calib_order(xs, column(y)) == (
+    assert degreewise.calib_order(xs, column(y)) == (
         "x, row 1 of 21: the logical value TRUE is not a number; enter a number or clear the cell")
 
 
 def test_a_ragged_range_never_shares_a_cached_result_with_the_column_it_flattens_to(data):
     # two cells in row 2 and none in row 1 hold the same numbers as a proper column: never the same key
     x, y = data
-    assert isinstance(udfs.calib_order(column(x), column(y)), int)
+    assert isinstance(degreewise.calib_order(column(x), column(y)), int)
     ragged = [[]] + [[x[0], x[1]]] + column(x[2:])
-    assert udfs.calib_order(ragged, column(y)) == (
+    assert degreewise.calib_order(ragged, column(y)) == (
         "x: the range is 21 rows by 2 columns; give a single row or column")
 
 
@@ -235,35 +235,35 @@ def test_bad_cell_in_a_row_range(data):
     x, y = data
     row = [list(x)]
     row[0][2] = "n.d."
-    assert udfs.calib_coefs(row, [list(y)]) == [[
+    assert degreewise.calib_coefs(row, [list(y)]) == [[
         "x, column 3 of 21: the text 'n.d.' is not a number; enter a number or clear the cell"]]
 
 
 @pytest.mark.parametrize("call,message", [
-    (lambda x, y: udfs.calib_coefs(x, y[:-1]), "x has 21 cells and y has 20: give ranges of the same size"),
-    (lambda x, y: udfs.calib_order(x, y, None, 5), "alpha: 5 is out of range; leave it empty or enter a level "
+    (lambda x, y: degreewise.calib_coefs(x, y[:-1]), "x has 21 cells and y has 20: give ranges of the same size"),
+    (lambda x, y: degreewise.calib_order(x, y, None, 5), "alpha: 5 is out of range; leave it empty or enter a level "
                                                      "such as 0.05"),
-    (lambda x, y: udfs.calib_order(x, y, None, None, "best"),
+    (lambda x, y: degreewise.calib_order(x, y, None, None, "best"),
      "rule: 'best' is not known; use one of 'seqf', 'forward', 'aicc', 'bic', 'press'"),
-    (lambda x, y: udfs.calib_coefs(x, y, 2.5), "order: 2.5 is not a whole number; leave it empty or enter a "
+    (lambda x, y: degreewise.calib_coefs(x, y, 2.5), "order: 2.5 is not a whole number; leave it empty or enter a "
                                                 "whole number such as 2, or the CALIB_ORDER cell"),
-    (lambda x, y: udfs.calib_coefs(x, y, 9), "order 9 needs at least 10 distinct x values and 11 points; "
+    (lambda x, y: degreewise.calib_coefs(x, y, 9), "order 9 needs at least 10 distinct x values and 11 points; "
                                               "there are 7 and 21"),
-    (lambda x, y: udfs.calib_coefs(x, y, None, "high"), "level: the text 'high' is not a number; leave it empty "
+    (lambda x, y: degreewise.calib_coefs(x, y, None, "high"), "level: the text 'high' is not a number; leave it empty "
                                                          "or enter a level such as 0.95"),
-    (lambda x, y: udfs.calib_coefs(x, y, None, None, "1/z"),
+    (lambda x, y: degreewise.calib_coefs(x, y, None, None, "1/z"),
      "weights: '1/z' is not a weighting; use one of '1/x', '1/x^2', '1/y', '1/y^2' or a range of positive numbers"),
-    (lambda x, y: udfs.calib_coefs(x, y, None, None, [[1.0]] * 20),
+    (lambda x, y: degreewise.calib_coefs(x, y, None, None, [[1.0]] * 20),
      "weights has 20 cells and x has 21: give one weight per row, or one of '1/x', '1/x^2', '1/y', '1/y^2'"),
-    (lambda x, y: udfs.calib_coefs(x, y, None, None, [[1.0]] * 4 + [[0.0]] + [[1.0]] * 16),
+    (lambda x, y: degreewise.calib_coefs(x, y, None, None, [[1.0]] * 4 + [[0.0]] + [[1.0]] * 16),
      "weights, row 5 of 21: the weight 0 is not positive; enter a positive number"),
-    (lambda x, y: udfs.calib_inverse(x, y, [[100.0]], 0), "replicates: 0 is out of range; leave it empty or enter "
+    (lambda x, y: degreewise.calib_inverse(x, y, [[100.0]], 0), "replicates: 0 is out of range; leave it empty or enter "
                                                           "a whole number such as 3"),
-    (lambda x, y: udfs.calib_orders(x, y, 9), "max_order 9 needs at least 10 distinct x values and 11 points; "
+    (lambda x, y: degreewise.calib_orders(x, y, 9), "max_order 9 needs at least 10 distinct x values and 11 points; "
                                               "there are 7 and 21"),
-    (lambda x, y: udfs.calib_coefs([[1, 2], [3, 4]], y), "x: the range is 2 rows by 2 columns; give a single row "
+    (lambda x, y: degreewise.calib_coefs([[1, 2], [3, 4]], y), "x: the range is 2 rows by 2 columns; give a single row "
                                                          "or column"),
-    (lambda x, y: udfs.calib_labels("chart"), "name: 'chart' is not known; use one of 'orders', 'seqf', 'coefs', "
+    (lambda x, y: degreewise.calib_labels("chart"), "name: 'chart' is not known; use one of 'orders', 'seqf', 'coefs', "
                                               "'stats', 'predict', 'inverse', 'residuals', 'checks'"),
 ])
 def test_bad_arguments(data, call, message):
@@ -273,31 +273,31 @@ def test_bad_arguments(data, call, message):
 
 
 def test_too_few_usable_points_and_all_x_equal():
-    assert udfs.calib_coefs([[1.0], [None], [2.0], [None]], [[1.0], [2.0], [3.0], [4.0]]) == [[
+    assert degreewise.calib_coefs([[1.0], [None], [2.0], [None]], [[1.0], [2.0], [3.0], [4.0]]) == [[
         "only 2 points: a calibration curve needs at least 3 (2 of 4 rows skipped as blank)"]]
-    assert udfs.calib_order([[2.0]] * 5, [[1.0], [2.0], [3.0], [4.0], [5.0]]) == (
+    assert degreewise.calib_order([[2.0]] * 5, [[1.0], [2.0], [3.0], [4.0], [5.0]]) == (
         "all 5 x values are equal (2.0): a curve needs at least 2 distinct x values")
-    assert udfs.calib_order(5.0, 3.0) == "only 1 point: a calibration curve needs at least 3"
+    assert degreewise.calib_order(5.0, 3.0) == "only 1 point: a calibration curve needs at least 3"
 
 
 def test_scheme_weights_need_positive_values(data):
     x, y = data
     xs = column(x)
     xs[2] = [0.0]
-    assert udfs.calib_coefs(xs, column(y), None, None, "1/x") == [[
+    assert degreewise.calib_coefs(xs, column(y), None, None, "1/x") == [[
         "x, row 3 of 21: weights '1/x' need every x > 0, but this x is 0"]]
 
 
 def test_cache_serves_identical_results_and_never_stale(data):
     x, y = data
-    first = udfs.calib_coefs(column(x), column(y))
-    again = udfs.calib_coefs(column(x), column(y))
+    first = degreewise.calib_coefs(column(x), column(y))
+    again = degreewise.calib_coefs(column(x), column(y))
     assert again == first and again is not first
     ys = column(y)
     ys[3] = [y[3] + 5.0]
-    changed = udfs.calib_coefs(column(x), ys)
+    changed = degreewise.calib_coefs(column(x), ys)
     assert changed != first
-    assert udfs.calib_coefs(column(x), column(y)) == first
+    assert degreewise.calib_coefs(column(x), column(y)) == first
 
 
 def test_one_factorisation_per_calibration(data, monkeypatch):
@@ -311,23 +311,23 @@ def test_one_factorisation_per_calibration(data, monkeypatch):
 
     monkeypatch.setattr(engine.Calibration, "__init__", counting)
     xs, ys = column(x), column(y)
-    order = udfs.calib_order(xs, ys)
-    udfs.calib_coefs(xs, ys, order)
-    udfs.calib_seqf(xs, ys)
-    udfs.calib_predict(xs, ys, [[5.0]], order)
-    udfs.calib_inverse(xs, ys, [[300.0]], None, order)
-    udfs.calib_residuals(xs, ys)
+    order = degreewise.calib_order(xs, ys)
+    degreewise.calib_coefs(xs, ys, order)
+    degreewise.calib_seqf(xs, ys)
+    degreewise.calib_predict(xs, ys, [[5.0]], order)
+    degreewise.calib_inverse(xs, ys, [[300.0]], None, order)
+    degreewise.calib_residuals(xs, ys)
     assert len(made) == 1
 
 
 def test_every_argument_is_documented_for_the_function_wizard():
     import inspect
 
-    from udfs.functions import DOC
+    from degreewise.functions import DOC
 
-    for name in udfs.__all__:
+    for name in degreewise.__all__:
         if name.startswith("calib_"):
-            f = getattr(udfs, name)
+            f = getattr(degreewise, name)
             assert f.__doc__, name
             for param in inspect.signature(f).parameters.values():
                 # xlwings registers positional-or-keyword arguments only
@@ -347,12 +347,12 @@ def test_huge_and_tiny_responses_give_the_same_curve(exponent):
     def times(rows):
         return [[np.ldexp(v, exponent) if isinstance(v, float) else v for v in row] for row in rows]
 
-    assert udfs.calib_predict(xs, scaled, [[2.5], [7.0]], 1) == times(udfs.calib_predict(xs, ys, [[2.5], [7.0]], 1))
-    assert udfs.calib_inverse(xs, scaled, times(readings), 2, 1) == udfs.calib_inverse(xs, ys, readings, 2, 1)
-    plain, big = udfs.calib_residuals(xs, ys, 1), udfs.calib_residuals(xs, scaled, 1)
+    assert degreewise.calib_predict(xs, scaled, [[2.5], [7.0]], 1) == times(degreewise.calib_predict(xs, ys, [[2.5], [7.0]], 1))
+    assert degreewise.calib_inverse(xs, scaled, times(readings), 2, 1) == degreewise.calib_inverse(xs, ys, readings, 2, 1)
+    plain, big = degreewise.calib_residuals(xs, ys, 1), degreewise.calib_residuals(xs, scaled, 1)
     assert [r[2:] for r in big] == [r[2:] for r in plain]  # studentized, leverage, Cook, back-calculated x
     assert [r[:2] for r in big] == [r[:2] for r in times(plain)]  # fitted and residual
-    assert udfs.calib_coefs(xs, scaled, 1)[2][1] == np.ldexp(udfs.calib_coefs(xs, ys, 1)[2][1], exponent)
+    assert degreewise.calib_coefs(xs, scaled, 1)[2][1] == np.ldexp(degreewise.calib_coefs(xs, ys, 1)[2][1], exponent)
 
 
 def test_blank_new_x_and_readings_keep_their_rows_in_cached_results(data):
@@ -360,9 +360,9 @@ def test_blank_new_x_and_readings_keep_their_rows_in_cached_results(data):
     # outputs aligned with their input rows)
     x, y = data
     xs, ys = column(x), column(y)
-    first = udfs.calib_predict(xs, ys, [[5.0], [None], [15.0]], 2)
-    moved = udfs.calib_predict(xs, ys, [[5.0], [15.0], [None]], 2)
+    first = degreewise.calib_predict(xs, ys, [[5.0], [None], [15.0]], 2)
+    moved = degreewise.calib_predict(xs, ys, [[5.0], [15.0], [None]], 2)
     assert first[1] == [None] * 6 and moved[2] == [None] * 6
     assert first[0] == moved[0] and first[2] == moved[1]
-    readings = udfs.calib_inverse(xs, ys, [[None], [200.0]], None, 2)
-    assert readings[0] == [None] * 4 and readings[1] == udfs.calib_inverse(xs, ys, [[200.0], [None]], None, 2)[0]
+    readings = degreewise.calib_inverse(xs, ys, [[None], [200.0]], None, 2)
+    assert readings[0] == [None] * 4 and readings[1] == degreewise.calib_inverse(xs, ys, [[200.0], [None]], None, 2)[0]

@@ -7,7 +7,7 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-import udfs
+import degreewise
 
 cell = st.one_of(
     st.floats(allow_nan=True, allow_infinity=True, width=64),
@@ -40,15 +40,15 @@ def _ok(result):
 def test_every_function_answers_with_cells(data, weights, order):
     xs, ys = ([[v] for v in col] for col in data)
     for result in (
-        udfs.calib_order(xs, ys, None, None, None, weights),
-        udfs.calib_orders(xs, ys, None, None, weights),
-        udfs.calib_seqf(xs, ys, None, weights),
-        udfs.calib_coefs(xs, ys, order, None, weights),
-        udfs.calib_stats(xs, ys, order, weights),
-        udfs.calib_predict(xs, ys, [[1.0], [None], [2.5]], order, None, weights),
-        udfs.calib_inverse(xs, ys, [[3.0], [None]], None, order, None, weights),
-        udfs.calib_residuals(xs, ys, order, weights),
-        udfs.calib_checks(xs, ys, order, None, weights),
+        degreewise.calib_order(xs, ys, None, None, None, weights),
+        degreewise.calib_orders(xs, ys, None, None, weights),
+        degreewise.calib_seqf(xs, ys, None, weights),
+        degreewise.calib_coefs(xs, ys, order, None, weights),
+        degreewise.calib_stats(xs, ys, order, weights),
+        degreewise.calib_predict(xs, ys, [[1.0], [None], [2.5]], order, None, weights),
+        degreewise.calib_inverse(xs, ys, [[3.0], [None]], None, order, None, weights),
+        degreewise.calib_residuals(xs, ys, order, weights),
+        degreewise.calib_checks(xs, ys, order, None, weights),
     ):
         assert _ok(result)
 
@@ -60,8 +60,8 @@ def test_huge_and_tiny_magnitudes(ex, ey, seed):
     x = np.repeat(np.linspace(1, 9, 5), 2) * 10.0**ex
     y = (1 + 2 * np.linspace(0, 1, 10) + rng.normal(0, 0.01, 10)) * 10.0**ey
     xs, ys = [[float(v)] for v in x], [[float(v)] for v in y]
-    for result in (udfs.calib_coefs(xs, ys), udfs.calib_orders(xs, ys), udfs.calib_checks(xs, ys),
-                   udfs.calib_inverse(xs, ys, [[float(y[3])]])):
+    for result in (degreewise.calib_coefs(xs, ys), degreewise.calib_orders(xs, ys), degreewise.calib_checks(xs, ys),
+                   degreewise.calib_inverse(xs, ys, [[float(y[3])]])):
         assert _ok(result)
 
 
@@ -74,8 +74,8 @@ def test_values_far_beyond_the_calibration_scale_give_empty_cells_quietly():
     y = [[v * 1e-300] for v in (2.1, 3.9, 6.2, 7.8, 10.1, 12.0)]
     with warnings.catch_warnings():
         warnings.simplefilter("error")
-        predicted = udfs.calib_predict(x, y, [[3e-300], [1e308]], 1)
-        inverse = udfs.calib_inverse(x, y, [[5e-300], [1e308]], None, 1)
+        predicted = degreewise.calib_predict(x, y, [[3e-300], [1e308]], 1)
+        inverse = degreewise.calib_inverse(x, y, [[5e-300], [1e308]], None, 1)
     assert predicted[0][0] == pytest.approx(6.0e-300, rel=0.05)
     assert predicted[1][:5] == [None] * 5 and predicted[1][5].startswith("x outside the calibrated range")
     assert inverse[0][0] == pytest.approx(2.5e-300, rel=0.05)

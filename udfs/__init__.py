@@ -3,7 +3,7 @@
 Importing this package needs no file system, subprocess or compiled code of
 its own, so it also serves in-workbook Python; the workbook refresh and the
 command line live in their own modules. The functions load on first use of any
-of them (``udfs.calib_order``, ``from udfs import *``, or the spreadsheet
+of them (``degreewise.calib_order``, ``from degreewise import *``, or the spreadsheet
 listing the package's names), so that the command line can load them without
 registration metadata (see ``registration``).
 """

@@ -10,13 +10,13 @@ import os
 import sys
 from pathlib import Path
 
-UDF_MODULE = "udfs"
+UDF_MODULE = "degreewise"
 
 STEPS = """Remaining steps, in a Windows desktop spreadsheet program with Python and this package installed:
   1. Install the xlwings add-in:  xlwings addin install
   2. Allow the add-in to register functions: File > Options > Trust Center > Trust Center Settings >
      Macro Settings > tick "Trust access to the VBA project object model".
-  3. Restart the spreadsheet program; on the xlwings tab check that UDF Modules reads "udfs",
+  3. Restart the spreadsheet program; on the xlwings tab check that UDF Modules reads "degreewise",
      then click "Import Functions".
   4. Type =CALIB_VERSION() into a cell: it shows the versions in use.
 Workbooks then contain only CALIB_* names and cell references, so a colleague with the add-in sees the same

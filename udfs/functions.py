@@ -22,7 +22,7 @@ import platform
 import numpy as np
 import scipy
 
-import engine
+from . import engine
 
 from . import VERSION
 from .coercion import CellError, flatten, number_option, numbers_or_blank, text_option

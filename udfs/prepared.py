@@ -14,8 +14,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-import engine
-from engine.weighting import SCHEMES as WEIGHT_SCHEMES
+from . import engine
+from .engine.weighting import SCHEMES as WEIGHT_SCHEMES
 
 from .coercion import ERROR_TEXTS, CellError, Cells, describe, flatten, is_blank, is_omitted, numbers_or_blank
 

@@ -1,6 +1,6 @@
 """`degreewise refresh`: recompute every CALIB_* cell of a workbook and store the results in place.
 
-Each CALIB_* formula is evaluated through the same ``udfs`` functions the
+Each CALIB_* formula is evaluated through the same ``degreewise`` functions the
 spreadsheet calls, in dependency order. The anchor keeps its formula; a result
 of more than one cell is stored as a dynamic-array formula over the range it
 covers (with the metadata that marks it dynamic); cells the previous result

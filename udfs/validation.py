@@ -19,7 +19,7 @@ from importlib import resources
 import numpy as np
 import scipy
 
-import engine
+from . import engine
 
 DATASETS = ("norris", "pontius", "filip", "wampler1", "wampler2", "wampler3")
 REQUIRED_LRE = 12.0
@@ -41,7 +41,7 @@ class Score:
 
 
 def load(name: str) -> tuple[np.ndarray, np.ndarray, dict]:
-    base = resources.files("udfs") / "reference"
+    base = resources.files("degreewise") / "reference"
     with (base / f"{name}.csv").open() as fh:
         rows = list(csv.reader(fh))[1:]
     data = np.array([[float(a), float(b)] for a, b in rows])
