@@ -7,6 +7,7 @@ shortest way to one order's coefficients.
 """
 
 from .calibration import Calibration, default_max_order
+from .compare import compare
 from .diagnostics import curve_checks, point_diagnostics
 from .errors import CalibrationError, DataError, OptionError, OrderError, WeightError
 from .prediction import inverse, predict
@@ -14,7 +15,7 @@ from .selection import RULES, choose_order, forward_steps, mandel_test
 
 __all__ = [
     "Calibration", "CalibrationError", "DataError", "OptionError", "OrderError", "RULES", "WeightError",
-    "choose_order", "curve_checks", "default_max_order", "fit", "forward_steps", "inverse", "mandel_test",
+    "choose_order", "compare", "curve_checks", "default_max_order", "fit", "forward_steps", "inverse", "mandel_test",
     "point_diagnostics", "predict",
 ]
 

@@ -172,3 +172,34 @@ class Check(NamedTuple):
     p_value: float
     verdict: str
     detail: str
+
+
+class DifferenceRow(NamedTuple):
+    """Today minus reference for one coefficient (``item`` its power) or one x (``item`` the x), with the
+    interval at the comparison's level and the two-sided p-value of no difference."""
+
+    item: float
+    reference: float
+    today: float
+    difference: float
+    lower: float
+    upper: float
+    p_value: float
+
+
+class Comparison(NamedTuple):
+    """Today's calibration against a reference at one order: the tests that the curves coincide, that
+    they have the same shape (all but the intercept) and the same residual SD (today^2 / reference^2);
+    coefficient and response differences; the x the reference curve reads for today's response at each
+    x of ``levels`` (nan outside the reference's calibrated range)."""
+
+    order: int
+    level: float
+    same_curve: FTest
+    same_shape: FTest
+    same_sd: FTest
+    reference_sd: float
+    today_sd: float
+    coefficients: tuple[DifferenceRow, ...]
+    levels: tuple[DifferenceRow, ...]
+    read_back: tuple[float, ...]

@@ -1,0 +1,98 @@
+"""Today's calibration against a reference: the coincidence and parallelism F tests, the residual-SD
+test, coefficient and response differences, each against statsmodels (a model with a set indicator
+and its interactions with every power of x, compared with ``compare_f_test``), and the level of the
+coincidence test by simulation."""
+
+import numpy as np
+import pytest
+import statsmodels.api as sm
+from scipy import stats
+
+from degreewise.engine import Calibration, OrderError, inverse
+from degreewise.engine.compare import compare
+
+LEVELS = np.repeat([0.5, 1.0, 2.0, 4.0, 6.0, 8.0, 10.0], 2)
+
+
+def two_sets(seed, shift=0.0, weights=None):
+    rng = np.random.default_rng(seed)
+    x_t, x_r = LEVELS, np.repeat([0.5, 1.0, 2.5, 5.0, 7.5, 10.0], 2)
+    sd_t = 0.02 * (1 if weights is None else x_t)
+    sd_r = 0.02 * (1 if weights is None else x_r)
+    y_t = 0.05 + (1.2 + shift) * x_t - 0.01 * x_t**2 + rng.normal(0, 1, x_t.size) * sd_t
+    y_r = 0.05 + 1.2 * x_r - 0.01 * x_r**2 + rng.normal(0, 1, x_r.size) * sd_r
+    return x_t, y_t, x_r, y_r
+
+
+def design(x, d, k, with_interactions, with_shift=False):
+    cols = [x**j for j in range(k + 1)]
+    if with_interactions:
+        cols += [d * x**j for j in range(k + 1)]
+    elif with_shift:
+        cols.append(d)
+    return np.column_stack(cols)
+
+
+@pytest.mark.parametrize("weights", [None, "1/x^2"])
+def test_tests_and_differences_match_statsmodels_indicator_model(weights):
+    x_t, y_t, x_r, y_r = two_sets(3, shift=0.01, weights=weights)
+    today, ref = Calibration(x_t, y_t, 3, weights), Calibration(x_r, y_r, 3, weights)
+    at = [1.0, 5.0, 9.0]
+    c = compare(today, ref, 2, 0.9, at)
+
+    x, y = np.concatenate([x_t, x_r]), np.concatenate([y_t, y_r])
+    d = np.concatenate([np.ones(x_t.size), np.zeros(x_r.size)])
+    w = np.ones(x.size) if weights is None else 1 / x**2
+    full = sm.WLS(y, design(x, d, 2, True), weights=w).fit()
+    one = sm.WLS(y, design(x, d, 2, False), weights=w).fit()
+    shifted = sm.WLS(y, design(x, d, 2, False, True), weights=w).fit()
+    for mine, (f, p, df) in ((c.same_curve, full.compare_f_test(one)), (c.same_shape, full.compare_f_test(shifted))):
+        assert mine.statistic == pytest.approx(f, rel=1e-9)
+        assert mine.p_value == pytest.approx(p, rel=1e-8)
+        assert mine.df_num == df and mine.df_den == full.df_resid
+    ci = full.conf_int(0.1)
+    for j, row in enumerate(c.coefficients):  # coefficient of d x^j = today - reference
+        assert row.difference == pytest.approx(full.params[3 + j], rel=1e-8, abs=1e-12)
+        assert (row.lower, row.upper) == pytest.approx(tuple(ci[3 + j]), rel=1e-8, abs=1e-12)
+        assert row.p_value == pytest.approx(full.pvalues[3 + j], rel=1e-7)
+    # responses at x0: contrast [x0^j] on the interaction block
+    for x0, row in zip(at, c.levels):
+        contrast = np.concatenate([np.zeros(3), x0 ** np.arange(3)])
+        t = full.t_test(contrast)
+        assert row.difference == pytest.approx(float(t.effect[0]), rel=1e-9)
+        assert (row.lower, row.upper) == pytest.approx(tuple(t.conf_int(0.1)[0]), rel=1e-8)
+        assert row.p_value == pytest.approx(float(t.pvalue), rel=1e-7)
+    # residual SDs: F = s_today^2 / s_ref^2, two-sided (scipy's F distribution)
+    s_t, s_r = today.fit(2).residual_sd, ref.fit(2).residual_sd
+    f = (s_t / s_r) ** 2
+    assert c.same_sd.statistic == pytest.approx(f, rel=1e-12)
+    assert c.same_sd.p_value == pytest.approx(2 * min(stats.f.sf(f, 11, 9), stats.f.cdf(f, 11, 9)), rel=1e-9)
+    # read-back: today's fitted response through the reference curve
+    fitted_today = [r.today for r in c.levels]
+    assert c.read_back == tuple(e.x for e in inverse(ref, fitted_today, 2))
+
+
+def test_coincidence_test_holds_its_level_when_both_sets_come_from_one_curve():
+    """1000 pairs of straight-line calibrations from one curve (fixed seed): the 5 % test rejects in
+    5 % +- 2.1 % (three binomial standard errors of 1000 trials: sqrt(0.05 * 0.95 / 1000) = 0.69 %)."""
+    rng = np.random.default_rng(2026)
+    x = np.repeat([1.0, 2.0, 4.0, 6.0, 8.0], 2)
+    rejected = 0
+    trials = 1000
+    for _ in range(trials):
+        y_t = 0.1 + 0.5 * x + rng.normal(0, 0.05, x.size)
+        y_r = 0.1 + 0.5 * x + rng.normal(0, 0.05, x.size)
+        c = compare(Calibration(x, y_t, 1), Calibration(x, y_r, 1), 1)
+        rejected += c.same_curve.p_value < 0.05
+    rate = rejected / trials
+    print(f"coincidence test, 5 % level, one true curve: {rate:.1%} rejected")
+    assert abs(rate - 0.05) <= 3 * np.sqrt(0.05 * 0.95 / trials)
+
+
+def test_an_order_the_reference_cannot_support_is_refused_in_words():
+    x_t, y_t, _, _ = two_sets(1)
+    ref = Calibration([1.0, 2.0, 3.0, 4.0], [1.1, 2.0, 3.2, 3.9], 1)
+    with pytest.raises(OrderError) as err:
+        compare(Calibration(x_t, y_t, 3), ref, 3)
+    assert str(err.value) == ("order 3 needs at least 4 distinct x values and 5 points in the reference "
+                              "calibration; it has 4 and 4")
