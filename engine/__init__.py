@@ -11,11 +11,12 @@ from .compare import compare
 from .diagnostics import curve_checks, point_diagnostics
 from .errors import CalibrationError, DataError, OptionError, OrderError, WeightError
 from .prediction import inverse, predict
-from .selection import RULES, choose_order, forward_steps, mandel_test
+from .selection import DEFAULT_RULE, RULES, choose_order, forward_steps, lack_of_fit_words, mandel_test
 
 __all__ = [
-    "Calibration", "CalibrationError", "DataError", "OptionError", "OrderError", "RULES", "WeightError",
-    "choose_order", "compare", "curve_checks", "default_max_order", "fit", "forward_steps", "inverse", "mandel_test",
+    "Calibration", "CalibrationError", "DataError", "DEFAULT_RULE", "OptionError", "OrderError", "RULES",
+    "WeightError", "choose_order", "compare", "curve_checks", "default_max_order", "fit", "forward_steps",
+    "inverse", "lack_of_fit_words", "mandel_test",
     "point_diagnostics", "predict",
 ]
 

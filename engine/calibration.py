@@ -30,6 +30,10 @@ from .results import FTest, LackOfFit, OrderFit, OrderStats, SequentialRow, Sequ
 from .weighting import Weighting
 
 DEFAULT_MAX_ORDER = 4
+# a sum of squares of the (weighted) responses at or below n (ROUNDING * max |sqrt(w) y|)^2 is rounding
+# error: about a thousand units in the last place of the largest response per point, far below the noise
+# of any instrument
+ROUNDING = 2.0**-42
 # points x right-hand sides up to which every order's covariance is refined in the same call
 _ONE_CALL_LIMIT = 4096
 # smallest |R_jj| / max |R_jj| of the scaled basis accepted as full rank (far below any real calibration)
@@ -84,8 +88,14 @@ def order_limit(n_points: int, n_distinct: int) -> int:
 
 
 def default_max_order(n_points: int, n_distinct: int) -> int:
-    """min(4, m - 2, n - 3): the largest model keeps one df for lack of fit and two for the residual."""
-    return min(DEFAULT_MAX_ORDER, n_distinct - 2, n_points - 3)
+    """max(min(4, m - 2, n - 5), min(2, m - 2, n - 3)) for n points at m distinct x.
+
+    The largest model keeps one distinct x beyond its coefficients (so lack of fit stays testable where x
+    repeats) and at least 4 residual degrees of freedom, up to order 4; with fewer than 9 points a
+    quadratic is still offered while it leaves 2 residual degrees of freedom. Below 1 the data are too
+    few to choose an order.
+    """
+    return max(min(DEFAULT_MAX_ORDER, n_distinct - 2, n_points - 5), min(2, n_distinct - 2, n_points - 3))
 
 
 @functools.lru_cache(maxsize=64)
@@ -111,7 +121,7 @@ def _rhs_layout(big_p: int, with_cov: bool):
 class Calibration:
     """Points (x, y), optional weights, factorised once up to ``max_order``.
 
-    ``max_order`` defaults to min(4, m - 2, n - 3) with m distinct x values and
+    ``max_order`` defaults to ``default_max_order(n, m)`` with m distinct x values and
     n points. ``weights`` is None, an array of positive numbers, or one of the
     schemes "1/x", "1/x^2", "1/y", "1/y^2".
     """
@@ -204,6 +214,7 @@ class Calibration:
             gmean = np.bincount(inverse, wy) / np.bincount(inverse, sw2)
             self._tss = float((sw2 * (self._ys - wy.sum() / sw2.sum()) ** 2).sum())
             self._ss_pure = float((sw2 * (self._ys - gmean[inverse]) ** 2).sum())
+        self._ss_rounding = n * (ROUNDING * float(np.abs(self._yw).max())) ** 2
         self._t = conversion_matrix(self.centre, self.half_width, k)
         self._stats: dict[int, OrderStats] = {}
         self._cov: dict[int, np.ndarray] = {}
@@ -344,8 +355,20 @@ class Calibration:
             return [None] * (self.max_order + 1)
         ey2 = 2 * self._ey
         pure, df_pe = self._ldexp(self._ss_pure, ey2), self.n_points - self.n_distinct
-        return [LackOfFit(self._ldexp(ss, ey2), test.df_num, pure, df_pe, test) if test.df_num >= 1 else None
-                for ss, test in zip(self._ss_lack_of_fit.tolist(), tests["lack of fit"])]
+        exact = self.exact_order
+        identical = "not testable: replicates are identical" if self._ss_pure <= self._ss_rounding else ""
+        return [LackOfFit(self._ldexp(ss, ey2), test.df_num, pure, df_pe, test,
+                          f"the data fit exactly at order {exact}" if exact is not None and k >= exact else identical)
+                if test.df_num >= 1 else None
+                for k, (ss, test) in enumerate(zip(self._ss_lack_of_fit.tolist(), tests["lack of fit"]))]
+
+    @lazy
+    def exact_order(self) -> int | None:
+        """The lowest order whose residual sum of squares is rounding error of the responses (at most
+        n (2^-42 max |sqrt(w) y|)^2), or None: at and above it the data fit exactly, and no F test with
+        that residual (or a pure error that small) in its denominator applies."""
+        exact = (self._all_rss <= self._ss_rounding).nonzero()[0]
+        return int(exact[0]) if exact.size else None
 
     @lazy
     def _ss_lack_of_fit(self) -> np.ndarray:
@@ -375,6 +398,7 @@ class Calibration:
         num, dfn, den, dfd = (np.array(v) for v in (num, dfn, den, dfd))
         with np.errstate(divide="ignore", invalid="ignore"):  # inf, or nan for 0/0
             f = (num / dfn) / (den / dfd)
+        f[den <= self._ss_rounding] = math.nan  # a denominator of rounding error tests nothing
         tests = list(map(FTest._make, zip(f.tolist(), dfn.tolist(), dfd.tolist(),
                                           f_sf(f, np.maximum(dfn, 1), dfd).tolist())))
         out, i = {}, 0
@@ -458,9 +482,11 @@ class Calibration:
         coef, diag, _ = self._refined(k)
         sd = math.sqrt(self._rss(k) / stats.df_resid)
         coefs, ses, ts = [], [], []
+        exact = self.exact_order is not None and k >= self.exact_order  # no t test on rounding error
         for j, (b, d) in enumerate(zip(coef.tolist(), diag.tolist())):
             se = sd * math.sqrt(d)
-            ts.append(b / se if se > 0 else (math.nan if b == 0 else math.copysign(math.inf, b)))
+            ts.append(math.nan if exact else
+                      b / se if se > 0 else (math.nan if b == 0 else math.copysign(math.inf, b)))
             # back to the units of x and y; t (a ratio) is taken before, so it survives over- or underflow
             e = self._ey - self._ex * j
             coefs.append(self._ldexp(b, e))

@@ -22,13 +22,16 @@ class FTest(NamedTuple):
 
 
 class LackOfFit(NamedTuple):
-    """Residual split into lack of fit and pure error (replicated x)."""
+    """Residual split into lack of fit and pure error (replicated x). ``note`` says why the test does not
+    apply ("the data fit exactly at order k", "not testable: replicates are identical"; its F and p are then
+    nan), else it is empty."""
 
     ss_lack_of_fit: float
     df_lack_of_fit: int
     ss_pure_error: float
     df_pure_error: int
     test: FTest
+    note: str = ""
 
 
 class OrderStats(NamedTuple):
@@ -103,13 +106,17 @@ class SequentialTable(NamedTuple):
 
 class OrderChoice:
     """The order a rule picks, and why, in words (written when first read: a table of every rule's
-    pick does not need them)."""
+    pick does not need them); ``settings`` names the rule, alpha and max order that decided it."""
 
-    __slots__ = ("order", "rule", "alpha", "_words", "_reason")
+    __slots__ = ("order", "rule", "alpha", "max_order", "_words", "_reason")
 
-    def __init__(self, order: int, rule: str, alpha: float, words):
-        self.order, self.rule, self.alpha = order, rule, alpha
+    def __init__(self, order: int, rule: str, alpha: float, words, max_order: int | None = None):
+        self.order, self.rule, self.alpha, self.max_order = order, rule, alpha, max_order
         self._words, self._reason = words, None  # words: a function that writes the reason
+
+    @property
+    def settings(self) -> str:
+        return f"rule {self.rule}, alpha {self.alpha:g}, max order {self.max_order}"
 
     @property
     def reason(self) -> str:
@@ -120,12 +127,14 @@ class OrderChoice:
     def __eq__(self, other):
         if not isinstance(other, OrderChoice):
             return NotImplemented
-        return (self.order, self.rule, self.alpha, self.reason) == (other.order, other.rule, other.alpha, other.reason)
+        return ((self.order, self.rule, self.alpha, self.max_order, self.reason)
+                == (other.order, other.rule, other.alpha, other.max_order, other.reason))
 
     __hash__ = None
 
     def __repr__(self) -> str:
-        return f"OrderChoice(order={self.order}, rule={self.rule!r}, alpha={self.alpha!r}, reason={self.reason!r})"
+        return (f"OrderChoice(order={self.order}, rule={self.rule!r}, alpha={self.alpha!r}, "
+                f"max_order={self.max_order!r}, reason={self.reason!r})")
 
 
 class Prediction(NamedTuple):

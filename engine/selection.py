@@ -1,13 +1,20 @@
 """Choosing the order, always keeping the hierarchy x, x^2, ... below the chosen term.
 
 Rules:
-- "seqf": fit the max order; keep the highest order whose own term is
-  significant in the sequential (Type I) table, with every lower term.
+- "stepdown" (default): T. W. Anderson's top-down procedure (The choice of the degree of a polynomial
+  regression as a multiple decision problem, Ann. Math. Statist. 33 (1962) 255-265; cited from memory).
+  Starting at the max order K, test the highest term x^k of the order-k fit (its extra-sum-of-squares F
+  against order k - 1, with order k's own residual); if it is not significant, drop it and test x^(k-1);
+  stop at the first significant term. Each of the K - 1 tests (x^K .. x^2) is made at alpha / (K - 1):
+  the procedure stops above the true order only if one of the tests of a zero term rejects, so by
+  Bonferroni's inequality the probability of choosing too high an order is at most alpha.
 - "forward": add the next term while its extra-sum-of-squares F test against
-  the model below is significant (Draper & Smith, Applied Regression Analysis,
-  3rd ed., Wiley 1998, sec. 6.1 and 12.1).
+  the model below is significant at alpha (Draper & Smith, Applied Regression Analysis,
+  3rd ed., Wiley 1998, sec. 6.1 and 12.1): too high an order for a straight line with probability alpha
+  at the first step alone, no overall control.
 - "aicc", "bic", "press": the order 1..max with the smallest AICc, BIC or PRESS.
-The lowest order offered is 1: a calibration needs a slope.
+The lowest order offered is 1: a calibration needs a slope. When the data fit exactly at some order
+(``Calibration.exact_order``), every rule picks it: the residual is rounding error and tests nothing.
 """
 
 from __future__ import annotations
@@ -18,7 +25,8 @@ from .calibration import Calibration
 from .errors import OptionError, OrderError
 from .results import FTest, OrderChoice
 
-RULES = ("seqf", "forward", "aicc", "bic", "press")
+RULES = ("stepdown", "forward", "aicc", "bic", "press")
+DEFAULT_RULE = RULES[0]
 
 
 def check_alpha(alpha, name: str = "alpha") -> float:
@@ -55,31 +63,56 @@ def fmt_p(p: float) -> str:
     return f"{p:.2g}" if p >= 1e-4 else f"{p:.1e}"
 
 
-def _lack_of_fit_words(cal: Calibration, order: int, alpha: float) -> str:
+def lack_of_fit_words(cal: Calibration, order: int, alpha: float = 0.05) -> str:
+    """The lack-of-fit verdict of ``order`` in words; when it is significant, the lowest order up to the
+    max order whose lack of fit is not, or else that no polynomial of order <= max order describes the data."""
+    return _lack_of_fit(cal, order, alpha)[0]
+
+
+def _lack_of_fit(cal: Calibration, order: int, alpha: float) -> tuple[str, bool]:
+    """``lack_of_fit_words`` and whether they say that no order up to the max order describes the data."""
     lof = cal.stats(order).lack_of_fit
     if lof is None:
-        return " Lack of fit cannot be tested (no replicated x or no spare distinct x)."
-    verdict = "significant: the curve misses the level means" if lof.test.p_value < alpha else "not significant"
-    return f" Lack of fit at order {order}: {verdict} (p = {fmt_p(lof.test.p_value)})."
+        return f"Lack of fit at order {order} cannot be tested (no replicated x or no spare distinct x).", False
+    if lof.note:
+        return f"Lack of fit at order {order}: {lof.note}.", False
+    p = lof.test.p_value
+    if p >= alpha:
+        return f"Lack of fit at order {order}: not significant (p = {fmt_p(p)}).", False
+    text = f"Lack of fit at order {order}: significant (p = {fmt_p(p)})"
+    for k in range(order + 1, cal.max_order + 1):
+        higher = cal.stats(k).lack_of_fit
+        if higher is not None and not higher.test.p_value < alpha:  # nan (exact fit) counts as adequate
+            found = f"p = {fmt_p(higher.test.p_value)}" if not higher.note else higher.note
+            return (text + f": the curve misses the level means; order {k} is the lowest whose lack of fit is "
+                    f"not significant ({found})."), False
+    return (text + f": a polynomial of order <= {cal.max_order} does not describe these data; consider a "
+            "narrower range or another model."), True
 
 
-def _seqf(cal: Calibration, alpha: float):
-    table = cal.sequential_table()
-    sig = [row.term for row in table.terms if row.test.p_value < alpha]
-    order = max(sig) if sig else 1
+_ONLY_LINE = "only order 1 is considered, so no term was tested (give max_order to test a curve)."
+
+
+def _levels(p_values) -> str:
+    return ", ".join(f"{term_name(k)} p = {fmt_p(p)}" for k, p in p_values)
+
+
+def _stepdown(cal: Calibration, alpha: float):
+    big_k = cal.max_order
+    if big_k == 1:
+        return 1, lambda: _ONLY_LINE
+    level = alpha / (big_k - 1)
+    steps = cal.step_tests()
+    order = next((k for k in range(big_k, 1, -1) if steps[k - 1].p_value < level), 1)
 
     def words() -> str:
-        above = [row for row in table.terms if row.term > order]
-        own = table.terms[order - 1].test.p_value
-        if sig:
-            text = (f"{term_name(order)} is the highest term significant in the sequential table "
-                    f"of order {table.max_order} (p = {fmt_p(own)} < {alpha:g})")
-        else:
-            text = (f"no term is significant in the sequential table of order {table.max_order} "
-                    f"(x: p = {fmt_p(own)}); order 1 is the lowest offered, check the data")
-        if above:
-            text += "; not significant: " + ", ".join(
-                f"{term_name(r.term)} p = {fmt_p(r.test.p_value)}" for r in above)
+        dropped = [(k, steps[k - 1].p_value) for k in range(big_k, order, -1)]
+        text = (f"the highest term is tested first, in its own fit, each at {alpha:g}/{big_k - 1} = {level:.3g} "
+                "(Anderson's top-down procedure)")
+        if dropped:
+            text += "; not significant: " + _levels(dropped)
+        if order > 1:
+            text += f"; significant: {term_name(order)} p = {fmt_p(steps[order - 1].p_value)}"
         return text + "."
 
     return order, words
@@ -97,6 +130,8 @@ def _forward(cal: Calibration, alpha: float):
         order += 1
 
     def words() -> str:
+        if cal.max_order == 1:
+            return _ONLY_LINE
         if order < cal.max_order:
             stop = steps[order]
             text = (f"adding {term_name(order + 1)} to order {order} is not significant "
@@ -130,7 +165,7 @@ def _criterion(cal: Calibration, rule: str):
     return order, words
 
 
-def choose_order(cal: Calibration, rule: str = "seqf", alpha: float = 0.05) -> OrderChoice:
+def choose_order(cal: Calibration, rule: str = DEFAULT_RULE, alpha: float = 0.05) -> OrderChoice:
     """The order ``rule`` picks for ``cal``, with the reason in words."""
     rule = check_rule(rule)
     alpha = check_alpha(alpha)
@@ -141,13 +176,32 @@ def choose_order(cal: Calibration, rule: str = "seqf", alpha: float = 0.05) -> O
 
 
 def _choose(cal: Calibration, rule: str, alpha: float) -> OrderChoice:
-    if rule == "seqf":
-        order, words = _seqf(cal, alpha)
+    exact = cal.exact_order
+    if exact is not None:
+        order = max(exact, 1)
+
+        def words() -> str:
+            return (f"the data fit exactly at order {exact} (the residual is at the rounding level of the "
+                    "responses), so no F test applies" + ("; order 1 is the lowest offered." if exact < 1 else "."))
+    elif rule == "stepdown":
+        order, words = _stepdown(cal, alpha)
     elif rule == "forward":
         order, words = _forward(cal, alpha)
     else:
         order, words = _criterion(cal, rule)
-    return OrderChoice(order, rule, alpha, lambda: words() + _lack_of_fit_words(cal, order, alpha))
+
+    def reason() -> str:
+        text = f"rule {rule}, alpha {alpha:g}, max order {cal.max_order}: {words()}"
+        if exact is not None:
+            return text
+        lack, inadequate = _lack_of_fit(cal, order, alpha)
+        if order == cal.max_order > 1 and not inadequate:
+            lack += (f" The rule stopped at the max order {order}, so no higher order was tried; if a "
+                     f"polynomial of order <= {order} does not describe these data, consider a narrower range "
+                     "or another model.")
+        return text + " " + lack
+
+    return OrderChoice(order, rule, alpha, reason, cal.max_order)
 
 
 def mandel_test(cal: Calibration) -> FTest:
@@ -157,7 +211,8 @@ def mandel_test(cal: Calibration) -> FTest:
     extra-sum-of-squares test of the quadratic term, as used in analytical
     calibration (J. Mandel, The Statistical Analysis of Experimental Data,
     Wiley 1964; ISO 8466-2 applies the same comparison, cited from memory). A
-    significant F means the linear model is not adequate.
+    significant F means the linear model is not adequate. F and p are nan when the quadratic fits
+    exactly (``Calibration.exact_order`` <= 2): its residual is rounding error.
     """
     if cal.max_order < 2:
         raise OrderError("Mandel's test needs a calibration fitted to order 2 or more", argument="max_order")

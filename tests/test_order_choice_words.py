@@ -1,8 +1,9 @@
 """The order each rule picks, with its reason in words (exact wording: ours), on invented data.
 
 The invented standards: 8 levels in triplicate on a gently bending response (seeded noise, values written
-out so that they do not depend on a random generator). The picks agree with the sequential table and the
-extra-sum-of-squares tests checked against statsmodels elsewhere (tests/test_against_statsmodels.py).
+out so that they do not depend on a random generator). The picks agree with the
+extra-sum-of-squares (step) tests checked against statsmodels elsewhere (tests/test_against_statsmodels.py);
+stepdown's per-test level is alpha / (max order - 1), after Anderson (1962) with an equal Bonferroni split.
 """
 
 import pytest
@@ -19,8 +20,8 @@ Y = [0.9442096383626593, 1.010487377015498, 1.0037360539292965, 1.64448464616061
 LACK = " Lack of fit at order 2: not significant (p = 0.45)."
 
 WORDS = {
-    "seqf": "x^2 is the highest term significant in the sequential table of order 4 (p = 2.4e-20 < 0.05); "
-            "not significant: x^3 p = 0.28, x^4 p = 0.73.",
+    "stepdown": "the highest term is tested first, in its own fit, each at 0.05/3 = 0.0167 (Anderson's top-down "
+                "procedure); not significant: x^4 p = 0.73, x^3 p = 0.27; significant: x^2 p = 4.8e-22.",
     "forward": "x^2 added significantly (p = 4.8e-22); adding x^3 to order 2 is not significant "
                "(F = 1.27, p = 0.27 >= 0.05).",
     "aicc": "smallest AICc at order 2 (-76.7345; order 1: 28.5291, order 3: -74.9869, order 4: -71.5315).",
@@ -29,11 +30,16 @@ WORDS = {
 }
 
 
+def reason(rule: str) -> str:
+    return f"rule {rule}, alpha 0.05, max order 4: " + WORDS[rule] + LACK
+
+
 @pytest.mark.parametrize("rule", engine.RULES)
 def test_each_rule_gives_its_order_and_reason(rule):
     choice = engine.choose_order(engine.Calibration(X, Y), rule)
-    assert (choice.order, choice.rule, choice.alpha) == (2, rule, 0.05)
-    assert choice.reason == WORDS[rule] + LACK
+    assert (choice.order, choice.rule, choice.alpha, choice.max_order) == (2, rule, 0.05, 4)
+    assert choice.reason == reason(rule)
+    assert choice.settings == f"rule {rule}, alpha 0.05, max order 4"
     assert engine.choose_order(engine.Calibration(X, Y), rule) == choice  # compared field by field
 
 
@@ -49,7 +55,10 @@ def test_the_why_row_of_calib_stats():
 
     column = [[v] for v in X], [[v] for v in Y]
     rows = dict(degreewise.calib_stats(*column))
-    assert rows["why this order"] == WORDS["seqf"] + LACK
+    assert (rows["why this order"], rows["settings"]) == (reason("stepdown"), "rule stepdown, alpha 0.05, max order 4")
     rows = dict(degreewise.calib_stats(*column, 3))
-    assert rows["why this order"] == ("given as the order argument; the seqf rule would pick order 2: "
-                                      + WORDS["seqf"] + LACK)
+    assert rows["why this order"] == (
+        "order 3 given as the order argument (a number, or a cell such as CALIB_ORDER with its own rule, alpha "
+        "and max order). Lack of fit at order 3: not significant (p = 0.47). For comparison, the default rule "
+        "picks order 2: " + reason("stepdown"))
+    assert rows["settings"] == "order argument; for comparison rule stepdown, alpha 0.05, max order 4"

@@ -45,7 +45,7 @@ def test_sequential_ss_add_up_to_regression_ss(data):
 
 
 @SETTINGS
-@given(calibrations(), st.integers(0, 2**31 - 1), st.sampled_from(["seqf", "forward", "aicc", "bic", "press"]))
+@given(calibrations(), st.integers(0, 2**31 - 1), st.sampled_from(engine.RULES))
 def test_row_order_does_not_matter(data, seed, rule):
     x, y = data
     perm = np.random.default_rng(seed).permutation(x.size)

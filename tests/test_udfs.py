@@ -56,7 +56,7 @@ def test_sequential_table_matches_anova_lm(data):
     x, y = data
     table = degreewise.calib_seqf(column(x), column(y), 3)
     assert table[0] == ["source", "df", "SS", "MS", "F", "p-value"]
-    assert [r[0] for r in table[1:]] == ["x", "x^2", "x^3", "residual", "lack of fit", "pure error", "total"]
+    assert [r[0] for r in table[1:]] == ["x", "x^2", "x^3", "residual", "lack of fit (order 3)", "pure error", "total"]
     ref = anova_lm(smf.ols("y ~ x + I(x**2) + I(x**3)", pd.DataFrame({"x": x, "y": y})).fit(), typ=1)
     for row, (_, r) in zip(table[1:5], ref.iterrows()):
         assert row[1] == r["df"]
@@ -79,7 +79,7 @@ def test_orders_table_shape_and_picks(data):
     assert [r[0] for r in table[1:]] == [1, 2, 3, 4]
     assert all(len(r) == 12 for r in table)
     picked = {r[0]: r[11] for r in table[1:]}
-    assert "seqf" in picked[2]
+    assert "stepdown" in picked[2]
     ref = sm.OLS(y, np.vander(x, 3, increasing=True)).fit()
     assert table[2][2] == pytest.approx(np.sqrt(ref.scale), rel=1e-10)
     assert table[2][3] == pytest.approx(ref.rsquared, rel=1e-12)
@@ -141,12 +141,14 @@ def test_stats_and_checks_tables(data):
     x, y = data
     stats = degreewise.calib_stats(column(x), column(y))
     labels = [r[0] for r in stats]
-    assert labels == ["statistic", "points used", "points skipped", "order", "why this order", "residual df",
+    assert labels == ["statistic", "points used", "points skipped", "order", "why this order", "settings", "residual df",
                       "residual SD", "R²", "adjusted R²", "predicted R²", "AICc", "BIC", "F", "p-value",
                       "lack-of-fit p", "x min", "x max", "weights", "caution"]
     values = dict(stats[1:])
     assert values["points used"] == 21 and values["points skipped"] == 0 and values["order"] == 2
-    assert values["why this order"].startswith("x^2 is the highest term significant")
+    assert values["why this order"].startswith("Rule stepdown, alpha 0.05, max order 4: the highest term is tested "
+                                               "first")
+    assert values["settings"] == "rule stepdown, alpha 0.05, max order 4"
     checks = degreewise.calib_checks(column(x), column(y))
     assert checks[0] == list(HEADERS["checks"])
     assert [r[0] for r in checks[1:]] == ["lack of fit", "Mandel linear vs quadratic", "runs of residual signs",
@@ -180,7 +182,7 @@ def test_optional_arguments_left_empty_take_defaults(data):
     x, y = data
     assert degreewise.calib_coefs(column(x), column(y), None, None, None) == degreewise.calib_coefs(column(x), column(y))
     assert degreewise.calib_coefs(column(x), column(y), "", [[None]], "") == degreewise.calib_coefs(column(x), column(y), 2)
-    assert degreewise.calib_order(column(x), column(y), None, 0.05, "seqf", None) == 2
+    assert degreewise.calib_order(column(x), column(y), None, 0.05, "stepdown", None) == 2
 
 
 def test_labels_and_version():
@@ -244,7 +246,7 @@ def test_bad_cell_in_a_row_range(data):
     (lambda x, y: degreewise.calib_order(x, y, None, 5), "alpha: 5 is out of range; leave it empty or enter a level "
                                                      "such as 0.05"),
     (lambda x, y: degreewise.calib_order(x, y, None, None, "best"),
-     "rule: 'best' is not known; use one of 'seqf', 'forward', 'aicc', 'bic', 'press'"),
+     "rule: 'best' is not known; use one of 'stepdown', 'forward', 'aicc', 'bic', 'press'"),
     (lambda x, y: degreewise.calib_coefs(x, y, 2.5), "order: 2.5 is not a whole number; leave it empty or enter a "
                                                 "whole number such as 2, or the CALIB_ORDER cell"),
     (lambda x, y: degreewise.calib_coefs(x, y, 9), "order 9 needs at least 10 distinct x values and 11 points; "

@@ -33,11 +33,11 @@ from .registration import described, worksheet_function
 DOC = {
     "x": "known x of the standards (concentrations): a row or column; blank rows are skipped",
     "y": "responses of the standards, same size as x",
-    "max_order": "highest order considered (default min(4, distinct x - 2, points - 3))",
+    "max_order": "highest order considered (default: up to 4, keeping 4 residual df; see the README)",
     "alpha": "significance level of the tests (default 0.05)",
-    "rule": "how to choose the order: seqf (default), forward, aicc, bic or press",
+    "rule": "how to choose the order: stepdown (default), forward, aicc, bic or press",
     "weights": "weights, one per row, or one of 1/x, 1/x^2, 1/y, 1/y^2 (default none)",
-    "order": "order of the curve (default: the order the seqf rule picks)",
+    "order": "order of the curve (default: the order the stepdown rule picks)",
     "level": "confidence level of intervals (default 0.95)",
     "new_x": "x values to predict responses at",
     "reading": "sample readings to turn into x (each the mean of `replicates` readings)",
@@ -120,32 +120,34 @@ def _order(v):
 
 
 def _fitted(prep, order):
-    """The calibration to use, the order, and a function that says why this order (in words: only
-    CALIB_STATS shows them)."""
+    """The calibration to use, the order, and a function that says why this order and with which
+    settings (in words: only CALIB_STATS shows them)."""
     try:
         default = calibration(prep)
     except CellError:
         if order is None:
             raise
         default = None
-    if default is not None:
-        choice = engine.choose_order(default)
-        if order is None:
-            return default, choice.order, lambda: choice.reason
-
-        def why() -> str:
-            if order == choice.order:
-                return f"given as the order argument; the seqf rule picks the same order: {choice.reason}"
-            return f"given as the order argument; the seqf rule would pick order {choice.order}: {choice.reason}"
-
-        if order <= default.max_order:
-            return default, order, why
+    choice = None if default is None else engine.choose_order(default)
+    if order is None:
+        return default, choice.order, lambda: (choice.reason, choice.settings)
+    if default is not None and order <= default.max_order:
+        cal = default
     else:
-        def why() -> str:
-            return "given as the order argument"
-    n, m = prep.x.size, np.unique(prep.x).size
-    engine.Calibration.check_order(order, "order", n, m)
-    return calibration(prep, max_order=order), order, why
+        n, m = prep.x.size, np.unique(prep.x).size
+        engine.Calibration.check_order(order, "order", n, m)
+        cal = calibration(prep, max_order=order)
+
+    def why() -> tuple[str, str]:
+        text = (f"order {order} given as the order argument (a number, or a cell such as CALIB_ORDER with its "
+                f"own rule, alpha and max order). {engine.lack_of_fit_words(cal, order)}")
+        if choice is None:
+            return text, "order argument"
+        pick = "the same order" if choice.order == order else f"order {choice.order}"
+        return (text + f" For comparison, the default rule picks {pick}: {choice.reason}",
+                f"order argument; for comparison {choice.settings}")
+
+    return cal, order, why
 
 
 @worksheet_function
@@ -155,7 +157,7 @@ def calib_order(x, y, max_order=None, alpha=None, rule=None, weights=None):
     """The chosen order of the calibration polynomial (one number)."""
     prep = prepare(x, y, weights)
     k, a = _max_order(max_order), _alpha(alpha)
-    r = text_option(rule, "rule", "seqf", engine.RULES)
+    r = text_option(rule, "rule", engine.DEFAULT_RULE, engine.RULES)
     return _cached("order", prep, (k, a, r), lambda: engine.choose_order(calibration(prep, k), r, a).order)
 
 
@@ -189,12 +191,14 @@ def calib_orders(x, y, max_order=None, alpha=None, weights=None):
 @_documented("x", "y", "max_order", "weights")
 @_guarded()
 def calib_seqf(x, y, max_order=None, weights=None):
-    """Header, then the sequential (Type I) ANOVA table: one row per term, residual, lack of fit, pure error, total."""
+    """Header, then the sequential (Type I) ANOVA table: one row per term, residual, lack of fit (of the max
+    order), pure error, total; then a row of words when a test does not apply."""
     prep = prepare(x, y, weights)
     k = _max_order(max_order)
 
     def compute():
-        table = calibration(prep, k).sequential_table()
+        cal = calibration(prep, k)
+        table = cal.sequential_table()
         rows = [list(HEADERS["seqf"])]
         for r in table.terms:
             rows.append([term(r.term), 1, _cell(r.ss), _cell(r.ss), _cell(r.test.statistic), _cell(r.test.p_value)])
@@ -202,12 +206,17 @@ def calib_seqf(x, y, max_order=None, weights=None):
                      None, None])
         lof = table.lack_of_fit
         if lof is not None:
-            rows.append(["lack of fit", lof.df_lack_of_fit, _cell(lof.ss_lack_of_fit),
+            rows.append([f"lack of fit (order {table.max_order})", lof.df_lack_of_fit, _cell(lof.ss_lack_of_fit),
                          _cell(lof.ss_lack_of_fit / lof.df_lack_of_fit), _cell(lof.test.statistic),
                          _cell(lof.test.p_value)])
             rows.append(["pure error", lof.df_pure_error, _cell(lof.ss_pure_error),
                          _cell(lof.ss_pure_error / lof.df_pure_error), None, None])
         rows.append(["total", table.df_total, _cell(table.ss_total), None, None, None])
+        if cal.exact_order is not None:
+            rows.append([f"the data fit exactly at order {cal.exact_order}: the residual is rounding error, "
+                         "so no F test applies", None, None, None, None, None])
+        elif lof is not None and lof.note:
+            rows.append([f"lack of fit: {lof.note}", None, None, None, None, None])
         return rows
 
     return _cached("seqf", prep, (k,), compute)
@@ -245,9 +254,10 @@ def calib_stats(x, y, order=None, weights=None):
         cal, chosen, why = _fitted(prep, k)
         st = cal.stats(chosen)
         lof = st.lack_of_fit
+        reason, settings = why()
         return [list(HEADERS["stats"]),
                 ["points used", prep.x.size], ["points skipped", prep.skipped], ["order", chosen],
-                ["why this order", why()], ["residual df", st.df_resid], ["residual SD", _cell(st.residual_sd)],
+                ["why this order", reason], ["settings", settings], ["residual df", st.df_resid], ["residual SD", _cell(st.residual_sd)],
                 ["R²", _cell(st.r_squared)], ["adjusted R²", _cell(st.adj_r_squared)],
                 ["predicted R²", _cell(st.predicted_r_squared)], ["AICc", _cell(st.aicc)], ["BIC", _cell(st.bic)],
                 ["F", _cell(st.overall.statistic)], ["p-value", _cell(st.overall.p_value)],
