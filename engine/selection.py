@@ -107,8 +107,8 @@ def _stepdown(cal: Calibration, alpha: float):
 
     def words() -> str:
         dropped = [(k, steps[k - 1].p_value) for k in range(big_k, order, -1)]
-        text = (f"the highest term is tested first, in its own fit, each at {alpha:g}/{big_k - 1} = {level:.3g} "
-                "(Anderson's top-down procedure)")
+        text = (f"the highest term is tested first, in its own fit, each at {alpha:g}/{big_k - 1} = {level:.3g}"
+                if big_k > 2 else f"x^2 is tested in the quadratic fit at {alpha:g}") + " (Anderson's top-down procedure)"
         if dropped:
             text += "; not significant: " + _levels(dropped)
         if order > 1:

@@ -146,7 +146,7 @@ def test_stats_and_checks_tables(data):
                       "lack-of-fit p", "x min", "x max", "weights", "caution"]
     values = dict(stats[1:])
     assert values["points used"] == 21 and values["points skipped"] == 0 and values["order"] == 2
-    assert values["why this order"].startswith("Rule stepdown, alpha 0.05, max order 4: the highest term is tested "
+    assert values["why this order"].startswith("rule stepdown, alpha 0.05, max order 4: the highest term is tested "
                                                "first")
     assert values["settings"] == "rule stepdown, alpha 0.05, max order 4"
     checks = degreewise.calib_checks(column(x), column(y))
