@@ -7,7 +7,9 @@ Rules:
   against order k - 1, with order k's own residual); if it is not significant, drop it and test x^(k-1);
   stop at the first significant term. Each of the K - 1 tests (x^K .. x^2) is made at alpha / (K - 1):
   the procedure stops above the true order only if one of the tests of a zero term rejects, so by
-  Bonferroni's inequality the probability of choosing too high an order is at most alpha.
+  Bonferroni's inequality the probability of choosing too high an order is at most alpha (for a true
+  polynomial of order <= K with independent normal errors: each test of a zero term is then an exact
+  F(1, n - k - 1) test).
 - "forward": add the next term while its extra-sum-of-squares F test against
   the model below is significant at alpha (Draper & Smith, Applied Regression Analysis,
   3rd ed., Wiley 1998, sec. 6.1 and 12.1): too high an order for a straight line with probability alpha
