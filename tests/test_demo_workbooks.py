@@ -71,8 +71,8 @@ def test_cached_values_equal_a_fresh_computation(name):
 def test_each_scenario_shows_what_it_was_built_to_show():
     curved = openpyxl.load_workbook(book("curved"), data_only=True).worksheets[1]
     seqf = block(curved, LAYOUT["seqf"], 9, 6)
-    assert [r[0] for r in seqf] == ["source", "x", "x^2", "x^3", "x^4", "residual", "lack of fit", "pure error",
-                                    "total"]
+    assert [r[0] for r in seqf] == ["source", "x", "x^2", "x^3", "x^4", "residual", "lack of fit (order 4)",
+                                    "pure error", "total"]
     assert seqf[2][5] < 0.05 and seqf[3][5] > 0.05 and seqf[4][5] > 0.05
     assert seqf[6][5] > 0.05  # lack of fit tested against replicates and not significant
     straight = openpyxl.load_workbook(book("straight"), data_only=True).worksheets[1]
@@ -80,9 +80,9 @@ def test_each_scenario_shows_what_it_was_built_to_show():
     r2 = [row[3] for row in orders[1:]]
     assert r2 == sorted(r2) and r2[-1] > r2[0]  # R^2 creeps up with every term ...
     assert all(row[8] > 0.05 for row in orders[2:])  # ... but no term beyond x is significant
-    assert orders[1][11].startswith("seqf")
+    assert orders[1][11].startswith("stepdown")
     weighted = openpyxl.load_workbook(book("weighted"), data_only=True).worksheets[1]
-    stats = dict(block(weighted, LAYOUT["stats"], 19, 2))
+    stats = dict(block(weighted, LAYOUT["stats"], 20, 2))
     assert stats["weights"] == "1/x^2"
     inverse = block(weighted, LAYOUT["inverse"], len(SCENARIOS["weighted"].samples), 4)
     assert all(isinstance(r[0], float) and r[1] < r[0] < r[2] for r in inverse[:-1])
@@ -128,8 +128,9 @@ def test_demo_command_writes_refreshed_workbooks(tmp_path, capsys):
     out = capsys.readouterr().out
     assert sorted(p.name for p in (tmp_path / "out").iterdir()) == [
         "degreewise-demo-curved.xlsx", "degreewise-demo-straight.xlsx", "degreewise-demo-weighted.xlsx"]
-    assert "chosen order 2: given as the order argument; the seqf rule picks the same order: x^2 is the highest" \
-        in out
+    assert ("chosen order 2: order 2 given as the order argument (a number, or a cell such as CALIB_ORDER with its "
+            "own rule, alpha and max order); the default rule picks the same order: rule stepdown, alpha 0.05, max "
+            "order 4: the highest term is tested first") in out
     assert "chosen order 1:" in out and "does not replace, method validation" in out
 
 

@@ -139,13 +139,15 @@ def _fitted(prep, order):
         cal = calibration(prep, max_order=order)
 
     def why() -> tuple[str, str]:
-        text = (f"order {order} given as the order argument (a number, or a cell such as CALIB_ORDER with its "
-                f"own rule, alpha and max order). {engine.lack_of_fit_words(cal, order)}")
+        given = (f"order {order} given as the order argument (a number, or a cell such as CALIB_ORDER with its "
+                 "own rule, alpha and max order)")
         if choice is None:
-            return text, "order argument"
-        pick = "the same order" if choice.order == order else f"order {choice.order}"
-        return (text + f" For comparison, the default rule picks {pick}: {choice.reason}",
-                f"order argument; for comparison {choice.settings}")
+            return f"{given}. {engine.lack_of_fit_words(cal, order)}", "order argument"
+        settings = f"order argument; for comparison {choice.settings}"
+        if choice.order == order:
+            return f"{given}; the default rule picks the same order: {choice.reason}", settings
+        return (f"{given}. {engine.lack_of_fit_words(cal, order)} For comparison, the default rule picks order "
+                f"{choice.order}: {choice.reason}", settings)
 
     return cal, order, why
 
