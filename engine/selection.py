@@ -12,8 +12,9 @@ Rules:
   F(1, n - k - 1) test).
 - "forward": add the next term while its extra-sum-of-squares F test against
   the model below is significant at alpha (Draper & Smith, Applied Regression Analysis,
-  3rd ed., Wiley 1998, sec. 6.1 and 12.1): too high an order for a straight line with probability alpha
-  at the first step alone, no overall control.
+  3rd ed., Wiley 1998, sec. 6.1 and 12.1). It too chooses too high an order with probability at most
+  alpha (the exact test of the term just above the true order must reject), but it stops below a needed
+  term that follows a non-significant one (a cubic behind a small quadratic term).
 - "aicc", "bic", "press": the order 1..max with the smallest AICc, BIC or PRESS.
 The lowest order offered is 1: a calibration needs a slope. When the data fit exactly at some order
 (``Calibration.exact_order``), every rule picks it: the residual is rounding error and tests nothing.
@@ -95,7 +96,7 @@ def _lack_of_fit(cal: Calibration, order: int, alpha: float) -> tuple[str, bool]
 _ONLY_LINE = "only order 1 is considered, so no term was tested (give max_order to test a curve)."
 
 
-def _levels(p_values) -> str:
+def _p_values(p_values) -> str:
     return ", ".join(f"{term_name(k)} p = {fmt_p(p)}" for k, p in p_values)
 
 
@@ -110,9 +111,10 @@ def _stepdown(cal: Calibration, alpha: float):
     def words() -> str:
         dropped = [(k, steps[k - 1].p_value) for k in range(big_k, order, -1)]
         text = (f"the highest term is tested first, in its own fit, each at {alpha:g}/{big_k - 1} = {level:.3g}"
-                if big_k > 2 else f"x^2 is tested in the quadratic fit at {alpha:g}") + " (Anderson's top-down procedure)"
+                if big_k > 2 else f"x^2 is tested in the quadratic fit at {alpha:g}")
+        text += " (Anderson's top-down procedure)"
         if dropped:
-            text += "; not significant: " + _levels(dropped)
+            text += "; not significant: " + _p_values(dropped)
         if order > 1:
             text += f"; significant: {term_name(order)} p = {fmt_p(steps[order - 1].p_value)}"
         return text + "."

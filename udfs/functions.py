@@ -259,7 +259,8 @@ def calib_stats(x, y, order=None, weights=None):
         reason, settings = why()
         return [list(HEADERS["stats"]),
                 ["points used", prep.x.size], ["points skipped", prep.skipped], ["order", chosen],
-                ["why this order", reason], ["settings", settings], ["residual df", st.df_resid], ["residual SD", _cell(st.residual_sd)],
+                ["why this order", reason], ["settings", settings], ["residual df", st.df_resid],
+                ["residual SD", _cell(st.residual_sd)],
                 ["R²", _cell(st.r_squared)], ["adjusted R²", _cell(st.adj_r_squared)],
                 ["predicted R²", _cell(st.predicted_r_squared)], ["AICc", _cell(st.aicc)], ["BIC", _cell(st.bic)],
                 ["F", _cell(st.overall.statistic)], ["p-value", _cell(st.overall.p_value)],
