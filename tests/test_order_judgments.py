@@ -8,6 +8,8 @@ import math
 
 import numpy as np
 import pytest
+from hypothesis import assume, given, settings
+from hypothesis import strategies as st
 
 import degreewise
 from degreewise import engine
@@ -131,3 +133,17 @@ def test_default_max_order_keeps_residual_degrees_of_freedom(n, m, expected):
     # max(min(4, m - 2, n - 5), min(2, m - 2, n - 3)): at least 4 residual df up to order 4, a quadratic while
     # it leaves 2, and one distinct x beyond the curve
     assert default_max_order(n, m) == expected
+
+
+@settings(max_examples=60, deadline=None)
+@given(st.integers(1, 3), st.lists(st.integers(-5, 5), min_size=4, max_size=4), st.integers(5, 9),
+       st.integers(1, 3), st.integers(-40, 40))
+def test_exact_polynomials_are_recognised_at_their_order(degree, coefs, levels, reps, scale):
+    # integer coefficients on integer x: y is exact in double precision, so the order-`degree` fit leaves
+    # rounding error only, and every lower order a real residual; an exact power-of-two scaling changes nothing
+    assume(coefs[degree] != 0 and levels >= degree + 2)
+    x = np.repeat(np.arange(1.0, levels + 1), reps)
+    y = np.polynomial.polynomial.polyval(x, coefs[: degree + 1])
+    cal = engine.Calibration(np.ldexp(x, scale), np.ldexp(y, -scale), min(degree + 1, levels - 1, x.size - 2))
+    assert cal.exact_order == degree
+    assert {engine.choose_order(cal, rule).order for rule in engine.RULES} == {degree}
