@@ -29,3 +29,13 @@ def f_quantile(p, df_num, df_den):
 def normal_two_sided(z):
     """P(|Z| > |z|) for the standard normal."""
     return special.erfc(np.abs(z) / np.sqrt(2.0))
+
+
+def beta_cdf(x, a, b):
+    """P(X <= x) for the beta distribution with shapes a and b."""
+    return special.betainc(a, b, np.clip(x, 0.0, 1.0))
+
+
+def log_binomial(n, k):
+    """ln C(n, k) (0 <= k <= n), through the log-gamma function."""
+    return special.gammaln(n + 1.0) - special.gammaln(k + 1.0) - special.gammaln(n - k + 1.0)

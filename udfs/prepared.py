@@ -43,8 +43,8 @@ class Prepared:
         return self.n_input - self.used.size
 
     def label(self, point: int) -> str:
-        """Name of engine point ``point`` in the input range (e.g. 'row 7')."""
-        return f"{self.x_cells.axis} {int(self.used[point]) + 1}"
+        """Position of engine point ``point`` in the input range (e.g. 'standard 7 of 24')."""
+        return f"standard {int(self.used[point]) + 1} of {self.n_input}"
 
 
 def _weights(weights, x_cells: Cells, used: np.ndarray, x: np.ndarray, y: np.ndarray):
