@@ -27,7 +27,7 @@ from .lazy import lazy
 from .polynomials import power_rows
 from .refine import conversion_matrix, refine
 from .results import FTest, LackOfFit, OrderFit, OrderStats, SequentialRow, SequentialTable
-from .weighting import Weighting
+from .weighting import Weighting, weight_order
 
 DEFAULT_MAX_ORDER = 4
 # a sum of squares of the (weighted) responses at or below n (ROUNDING * max |sqrt(w) y|)^2 is rounding
@@ -188,7 +188,12 @@ class Calibration:
         self.dx_dz = math.ldexp(self.half_width, self._ex)  # x per unit of z
         self._u = u
         self.z = z = (u - self.centre) / self.half_width  # the standards' x in the scaled variable
-        zw = power_rows(z, k + 1).T
+        basis = power_rows(z, k + 1).T
+        if self.weighting.iterative:
+            self.weighting.settle(x, y, functools.partial(self._fitted_under, basis[:, : weight_order(k) + 1]))
+            w = self.weighting.values
+            self.sqrt_w = np.sqrt(w)
+        zw = basis.copy()
         if w is not None:
             zw *= self.sqrt_w[:, None]
         self._q, self._r = householder_qr(zw)
@@ -219,6 +224,12 @@ class Calibration:
         self._stats: dict[int, OrderStats] = {}
         self._cov: dict[int, np.ndarray] = {}
         self._fits: dict[int, OrderFit] = {}
+
+    def _fitted_under(self, basis: np.ndarray, w: np.ndarray) -> np.ndarray:
+        """Fitted y of the standards on ``basis`` under weights w (one QR; for ``Weighting.settle``)."""
+        sw = np.sqrt(w)
+        q, _ = householder_qr(basis * sw[:, None])
+        return np.ldexp(q @ (q.T @ (self._ys * sw)) / sw, self._ey)
 
     # -- orders ---------------------------------------------------------------------------
 

@@ -26,6 +26,7 @@ from .curve import ENDS, EXTEND, GRID_Z, RANGE_NODES, Curve, check_level, curve_
 from .errors import DataError, OptionError
 from .polynomials import power_rows
 from .results import InverseEstimate, Prediction
+from .weighting import weight_order
 
 
 def _finite(values, name: str) -> np.ndarray:
@@ -61,7 +62,8 @@ def predict(cal: Calibration, new_x, order: int, level: float = 0.95) -> tuple[P
         z0 = cal.scaled_x(x0)
         fitted = curve.value(z0)  # curve units until the end
         var_mean = curve.mean_variance(z0)
-        var_new = curve.s**2 * (cal.weighting.variance_factor(x0, curve.to_y(fitted)) if weighted else 1.0)
+        var_new = curve.s**2 * (cal.weighting.variance_factor(x0, _weight_response(curve, z0, fitted))
+                                if weighted else 1.0)
         half_mean = t * np.sqrt(var_mean)
         half_pred = t * np.sqrt(var_new + var_mean)
         columns = curve.to_y(np.array([fitted, fitted - half_mean, fitted + half_mean, fitted - half_pred,
@@ -134,6 +136,17 @@ def _monotonic_roots(curve: Curve, readings: np.ndarray, z_lo: float, z_hi: floa
     return rows, zs
 
 
+def _weight_curve(curve: Curve) -> Curve:
+    """The curve whose fitted values give 1/y weights (``weighting.weight_order``)."""
+    return curve_of(curve.cal, weight_order(curve.cal.max_order)) if curve.cal.weighting.iterative else curve
+
+
+def _weight_response(curve: Curve, zz: np.ndarray, fz: np.ndarray) -> np.ndarray:
+    """The response at z that a 1/y scheme weights by, in units of y (fz: ``curve`` at zz, curve units)."""
+    base = _weight_curve(curve)
+    return curve.to_y(fz if base is curve else base.value(zz))
+
+
 def _variance_factor_and_slope(curve: Curve, zz: np.ndarray, fz: np.ndarray, dfz: np.ndarray):
     """1/w0 of a new reading at z and its derivative along z (1 and 0 when unweighted); f and f'
     in curve units."""
@@ -141,6 +154,9 @@ def _variance_factor_and_slope(curve: Curve, zz: np.ndarray, fz: np.ndarray, dfz
     weighting = cal.weighting
     if weighting.values is None:
         return 1.0, 0.0
+    base = _weight_curve(curve)
+    if base is not curve:
+        fz, dfz = base.value(zz), base.slope(zz)
     x, y = cal.raw_x(zz), curve.to_y(fz)
     return (weighting.variance_factor(x, y),
             weighting.variance_factor_slope(x, y, curve.to_y(dfz) / cal.dx_dz) * cal.dx_dz)
@@ -150,7 +166,7 @@ def _grid_variance_factor(curve: Curve, cal: Calibration) -> np.ndarray:
     """1/w0 of a new reading at every grid node (one 1 when unweighted), made once per curve."""
     if "_grid_vf" not in curve.__dict__:
         weighting = cal.weighting
-        z, f, _ = curve.grid
+        z, f, _ = _weight_curve(curve).grid
         curve._grid_vf = (np.ones(1) if weighting.values is None
                           else weighting.variance_factor(cal.raw_x(z), curve.to_y(f)))
     return curve._grid_vf

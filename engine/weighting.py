@@ -5,9 +5,24 @@ A weight w_i says that the variance of y_i is sigma^2 / w_i. The schemes
 calibration (common practice; see e.g. Almeida, Castel-Branco & Falcao,
 J. Chromatogr. B 774 (2002) 215-222).
 
+The 1/y and 1/y^2 schemes read the fitted curve, not the observed responses
+(whose errors the weights would then share, which biases the slope by about
+-CV^2 for 1/y and -2 CV^2 for 1/y^2): iteratively reweighted least squares,
+starting from the observed responses' weights (or the unweighted fit where a
+response is not positive), each cycle weighting by the fitted values of
+order WEIGHT_ORDER (or the max order, if lower) from the cycle before, until no weight changes by
+more than SETTLED (relative) from one cycle to the next, at most CYCLES cycles
+(generalized least squares iterated to convergence: Carroll & Ruppert,
+Transformation and Weighting in Regression, Chapman & Hall 1988, sec. 2.1-2.3,
+from memory). One weight vector serves every order, so that nested orders can
+be compared; a quadratic follows the bend of a calibration curve closely enough
+for weights, and the fewer coefficients it has, the less a standard's weight
+follows that standard's own error (with the max order of 4 on 6 levels x 3 at a
+CV of 20 %, a slope bias of -0.7 % for 1/y was left; measured, common practice).
+
 For a new reading the variance factor 1/w0 is needed too: under a scheme it is
-the scheme evaluated at the new point (x0, or for the y schemes the fitted
-response f(x0), in forward and inverse prediction alike);
+the scheme evaluated at the new point (x0, or for the y schemes the same fitted
+curve at x0, the max order's, in forward and inverse prediction alike);
 under explicit weights it is 1/w interpolated linearly in x between the
 standards (the mean of 1/w at each distinct x), held constant beyond them.
 """
@@ -19,6 +34,14 @@ import numpy as np
 from .errors import WeightError
 
 SCHEMES = {"1/x": ("x", 1), "1/x^2": ("x", 2), "1/y": ("y", 1), "1/y^2": ("y", 2)}
+SETTLED = 1e-10
+CYCLES = 100
+WEIGHT_ORDER = 2
+
+
+def weight_order(max_order: int) -> int:
+    """The order of the curve whose fitted values give 1/y weights."""
+    return min(WEIGHT_ORDER, max_order)
 
 
 class Weighting:
@@ -40,17 +63,10 @@ class Weighting:
                 )
             self.scheme = key
             var, power = SCHEMES[key]
-            base = x if var == "x" else y
-            bad = np.flatnonzero(~(base > 0))
-            if bad.size:
-                i = int(bad[0])
-                raise WeightError(
-                    f"weights '{key}' needs every {var} > 0, but {var}[{i}] is {float(base[i])!r}",
-                    argument="weights",
-                    index=i,
-                )
-            with np.errstate(over="ignore"):  # a weight beyond the double range is reported just below
-                self.values = base ** (-float(power))
+            if var == "y":  # set by ``settle`` from the fitted curve
+                self.values = np.ones_like(x)
+                return
+            self.values = _from_base(key, x, x)
         else:
             w = np.asarray(weights, dtype=float).ravel()
             if w.size != x.size:
@@ -68,20 +84,42 @@ class Weighting:
                     index=i,
                 )
             self.values = w
-        bad = np.flatnonzero(~np.isfinite(self.values) | (self.values <= 0))
-        if bad.size:
-            i = int(bad[0])
-            raise WeightError(
-                f"weights[{i}] works out as {float(self.values[i])!r}: every weight must be a "
-                "positive finite number",
-                argument="weights",
-                index=i,
-            )
         if self.scheme is None:
             ux, inv = np.unique(x, return_inverse=True)
             self._grid = ux
             self._var = np.bincount(inv, 1.0 / self.values) / np.bincount(inv)
             self._slopes = np.diff(self._var) / np.diff(ux)
+
+    @property
+    def iterative(self) -> bool:
+        """True for the 1/y schemes, whose weights come from the fitted curve (``settle``)."""
+        return self.scheme is not None and SCHEMES[self.scheme][0] == "y"
+
+    def settle(self, x: np.ndarray, y: np.ndarray, fitted_for) -> None:
+        """Iterate the 1/y weights (module docstring); ``fitted_for(w)`` gives the fitted y of the
+        standards under weights w."""
+        values = _from_base(self.scheme, y, x) if (y > 0).all() else np.ones_like(x)
+        for _ in range(CYCLES):
+            fitted = fitted_for(values)
+            bad = np.flatnonzero(~(fitted > 0))
+            if bad.size:
+                i = int(bad[0])
+                raise WeightError(
+                    f"weights '{self.scheme}' need a fitted y > 0 at every standard, but the curve gives "
+                    f"{float(fitted[i]):.6g} at x = {float(x[i])!r} (point {i}); use 1/x weights or none",
+                    argument="weights",
+                    index=i,
+                )
+            new = _from_base(self.scheme, fitted, x)
+            if np.max(np.abs(new / values - 1.0)) <= SETTLED:
+                self.values = values
+                return
+            values = new
+        raise WeightError(
+            f"weights '{self.scheme}' did not settle in {CYCLES} cycles of reweighting by the fitted curve; "
+            "use 1/x weights or none",
+            argument="weights",
+        )
 
     @property
     def label(self) -> str:
@@ -115,3 +153,27 @@ class Weighting:
         chain = 1.0 if var == "x" else dy_dx
         with np.errstate(invalid="ignore"):
             return np.where(base > 0, power * base ** float(power - 1) * chain, np.nan)
+
+
+def _from_base(key: str, base: np.ndarray, x: np.ndarray) -> np.ndarray:
+    """The weights base^-power of scheme ``key``, each a positive finite number."""
+    var, power = SCHEMES[key]
+    bad = np.flatnonzero(~(base > 0))
+    if bad.size:
+        i = int(bad[0])
+        raise WeightError(
+            f"weights '{key}' needs every {var} > 0, but {var}[{i}] is {float(base[i])!r}",
+            argument="weights",
+            index=i,
+        )
+    with np.errstate(over="ignore"):
+        values = base ** (-float(power))
+    bad = np.flatnonzero(~np.isfinite(values) | (values <= 0))
+    if bad.size:
+        i = int(bad[0])
+        raise WeightError(
+            f"weights[{i}] works out as {float(values[i])!r}: every weight must be a positive finite number",
+            argument="weights",
+            index=i,
+        )
+    return values
