@@ -275,12 +275,15 @@ def _every_root(count: int):
 
 
 def _band_edges(curve: Curve, cal: Calibration, y0: np.ndarray, m: np.ndarray, z_hat: np.ndarray, t: float):
-    """Lower and upper z of the band component holding z_hat (nan where it stays open).
+    """Lower and upper z of the band component holding z_hat (nan where it stays open), and whether
+    each stays open because the band reaches the edge of the weights' domain (x <= 0 under 1/x
+    schemes, a fitted y <= 0 under 1/y schemes).
 
     gap(z) = (f(z) - y0)^2 - t^2 (s^2 / (m w(z)) + Var f(z)) is negative at z_hat;
     each edge lies in the cell between the nearest grid node where gap > 0 and
     its neighbour towards z_hat (or z_hat itself). Both edges of every reading
-    are refined together by Newton's method on gap.
+    are refined together by Newton's method on gap. A node where the weights
+    are not defined counts as outside; a bound in the cell next to it is open.
     """
     z, f, vm = curve.grid
     t2, t2s2 = t**2, t**2 * curve.s**2
@@ -294,8 +297,8 @@ def _band_edges(curve: Curve, cal: Calibration, y0: np.ndarray, m: np.ndarray, z
     vf = _grid_variance_factor(curve, cal)
     with np.errstate(invalid="ignore"):
         g = (f[None, :] - y0[:, None]) ** 2 - t2s2 * vf[None, :] / m[:, None] - t2 * vm[None, :]
-    if cal.weighting.values is not None:
-        g[~np.isfinite(g)] = np.inf  # no weight for a reading there: outside the band
+    undefined = ~np.isfinite(g)
+    g[undefined] = np.inf  # no weight for a reading there: outside the band
     outside = g > 0
     below = outside & (z[None, :] < z_hat[:, None])
     above = outside & (z[None, :] > z_hat[:, None])
@@ -318,7 +321,14 @@ def _band_edges(curve: Curve, cal: Calibration, y0: np.ndarray, m: np.ndarray, z
     lower, upper = np.full(y0.size, np.nan), np.full(y0.size, np.nan)
     lower[rows_lo] = found[: rows_lo.size]
     upper[rows_hi] = found[rows_lo.size:]
-    return lower, upper
+    edge_lo, edge_hi = np.zeros(y0.size, bool), np.zeros(y0.size, bool)
+    edge_lo[rows_lo], edge_hi[rows_hi] = undefined[rows_lo, j_lo], undefined[rows_hi, j_hi]
+    lower[edge_lo], upper[edge_hi] = np.nan, np.nan
+    return lower, upper, edge_lo, edge_hi
+
+
+def _domain_edge(cal: Calibration) -> str:
+    return "x <= 0" if not cal.weighting.iterative else "a fitted y <= 0"
 
 
 def inverse(cal: Calibration, readings, order: int, replicates=1, level: float = 0.95) -> tuple[InverseEstimate, ...]:
@@ -331,6 +341,7 @@ def inverse(cal: Calibration, readings, order: int, replicates=1, level: float =
     with np.errstate(over="ignore"):  # a reading far beyond the responses' scale is inf: outside the range
         y0_curve = curve.from_y(y0)
     solved = _solve_on_monotonic_band(curve, cal, y0_curve, m, t)
+    at_edge = np.zeros((2, y0.size), bool)  # bounds open at the edge of the weights' domain
     if solved is not None:
         z_hat, lower_z, upper_z = solved
         count = np.isfinite(z_hat).astype(np.intp)  # one root or none
@@ -343,7 +354,8 @@ def inverse(cal: Calibration, readings, order: int, replicates=1, level: float =
         ok = np.flatnonzero(np.isfinite(z_hat))
         lower_z, upper_z = np.full(y0.size, np.nan), np.full(y0.size, np.nan)
         if ok.size:
-            lower_z[ok], upper_z[ok] = _band_edges(curve, cal, y0_curve[ok], m[ok], z_hat[ok], t)
+            lower_z[ok], upper_z[ok], at_edge[0, ok], at_edge[1, ok] = _band_edges(
+                curve, cal, y0_curve[ok], m[ok], z_hat[ok], t)
     notes = [""] * y0.size
     for i in (count != 1).nonzero()[0].tolist():
         if count[i] > 1:
@@ -361,8 +373,11 @@ def inverse(cal: Calibration, readings, order: int, replicates=1, level: float =
     flagged = np.isfinite(z_hat) & ~(np.abs(zz[1:]) <= 1).all(axis=0)
     for i in flagged.nonzero()[0].tolist():
         parts = []
-        for bound, name in ((lower_z[i], "lower"), (upper_z[i], "upper")):
-            if not math.isfinite(bound):
+        for bound, name, edge in ((lower_z[i], "lower", at_edge[0, i]), (upper_z[i], "upper", at_edge[1, i])):
+            if edge:
+                parts.append(f"{name} bound open: the prediction band reaches {_domain_edge(cal)}, where "
+                             f"weights '{cal.weighting.label}' are not defined")
+            elif not math.isfinite(bound):
                 parts.append(f"{name} bound open: the prediction band does not close within "
                              f"{EXTEND:.0%} of the range beyond the calibrated range")
             elif bound < -1 or bound > 1:
