@@ -166,8 +166,10 @@ def test_checks_name_flagged_standards_by_their_input_row(data):
     ys.insert(1, [None])
     checks = {r[0]: r for r in degreewise.calib_checks(xs, ys, 2)}
     assert checks["outliers"][3] == "warning"
-    assert checks["outliers"][4].startswith("row 7 (externally studentized residual, Bonferroni at 0.05")
-    assert checks["influential points"][4].startswith("none (Cook's distance above")  # low leverage there
+    n = len(xs)
+    assert checks["outliers"][4].startswith(
+        f"standard 7 of {n}, x = {x[5]:.6g}, y = {y[5]:.6g} (externally studentized residual, Bonferroni over")
+    assert checks["influential points"][4].startswith("none (Cook's distance")  # low leverage there
 
 
 def test_row_and_column_orientation_agree(data):

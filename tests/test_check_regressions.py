@@ -1,0 +1,114 @@
+"""Judgments that were wrong, each reproduced as a user met it (public functions only)."""
+
+import math
+
+import numpy as np
+import pytest
+
+from conftest import load_strd
+from degreewise import engine
+from degreewise.scenarios import curved_detector, weighted_assay
+
+
+def _checks(cal, order):
+    return {c.name: c for c in engine.curve_checks(cal, order)}
+
+
+def test_serial_checks_do_not_depend_on_the_order_replicate_rows_were_typed():
+    # NIST StRD Pontius (40 points, 20 levels in duplicate, certified quadratic): the same data in 200
+    # row orders once gave Durbin-Watson 1.66 to 2.69 and runs p 0.034 to 0.88
+    x, y, _ = load_strd("pontius")
+    rng = np.random.default_rng(40)
+    seen = set()
+    for _ in range(200):
+        rows = rng.permutation(x.size)
+        c = _checks(engine.Calibration(x[rows], y[rows], max_order=2), 2)
+        seen.add(tuple(round(c[name].statistic, 9) for name in ("Durbin-Watson", "runs of residual signs"))
+                 + tuple(round(c[name].p_value, 9) for name in ("Durbin-Watson", "runs of residual signs")))
+    assert len(seen) == 1
+
+
+def test_breusch_pagan_on_the_weighted_demo_is_a_chance_result_and_never_advises_the_weights_in_use():
+    sc = weighted_assay()
+    c = _checks(engine.Calibration(sc.x, sc.y, weights=sc.weights), 1)["Breusch-Pagan"]
+    assert c.p_value == pytest.approx(0.0485, abs=5e-4)  # 18 points, weighted 1/x^2: p once read as a warning
+    assert c.verdict == "ok"
+    assert "1/x" not in c.detail
+
+
+def test_breusch_pagan_advice_fits_the_weights_in_use():
+    # invented: the SD grows as x^2, far more than 1/x weights allow for
+    rng = np.random.default_rng(0)
+    x = np.repeat(np.linspace(1.0, 100.0, 10), 3)
+    y = 2.0 + 3.0 * x + rng.normal(0, 1, x.size) * 0.002 * x**2
+    none, inverse_x = (_checks(engine.Calibration(x, y, weights=w), 1)["Breusch-Pagan"] for w in (None, "1/x"))
+    assert none.verdict == inverse_x.verdict == "warning"
+    assert "the residual spread grows with x: consider weights such as 1/x or 1/x^2" in none.detail
+    assert ("under weights '1/x' the weighted residual spread still grows with x: stronger weights may fit"
+            in inverse_x.detail)
+
+
+def test_mandel_reads_relative_to_the_chosen_order():
+    sc = curved_detector()  # a quadratic term is justified, and order 2 is chosen
+    cal = engine.Calibration(sc.x, sc.y)
+    assert engine.choose_order(cal).order == 2
+    c = _checks(cal, 2)["Mandel linear vs quadratic"]
+    assert c.verdict == "ok"
+    assert c.detail.endswith("the quadratic term is justified (order 2 chosen; p < 0.05)")
+    assert _checks(cal, 1)["Mandel linear vs quadratic"].verdict == "warning"  # a straight line would not do
+
+
+def test_too_many_runs_is_alternation_not_clustering():
+    x = np.arange(1.0, 13.0)
+    y = 1.0 + 2.0 * x + 0.1 * (-1.0) ** np.arange(12)  # residual signs alternate at every standard
+    c = _checks(engine.Calibration(x, y, max_order=1), 1)["runs of residual signs"]
+    assert c.p_value == pytest.approx(2 * 2 / math.comb(12, 6), rel=1e-12)  # 12 runs of 6 + and 6 -
+    assert c.verdict == "warning"
+    assert "the signs alternate more often than chance" in c.detail
+    assert "cluster" not in c.detail
+
+
+def test_misfit_is_named_and_not_taken_for_a_weighting_problem():
+    # invented saturating response: no polynomial up to order 4 follows it within the replicate scatter
+    rng = np.random.default_rng(9)
+    x = np.repeat(np.linspace(0.5, 20.0, 9), 3)
+    y = 100 * (1 - np.exp(-x / 3)) + rng.normal(0, 0.2, x.size) * (1 + x / 5)
+    cal = engine.Calibration(x, y)
+    c = _checks(cal, cal.max_order)
+    assert c["lack of fit"].verdict == "warning"
+    assert c["lack of fit"].detail.endswith(
+        "a polynomial of order <= 4 does not describe these data; consider a narrower range or another model; "
+        "warning below p = 0.00625")
+    for k in range(1, cal.max_order + 1):
+        assert "consider weights" not in _checks(cal, k)["Breusch-Pagan"].detail
+
+
+def test_response_weights_come_from_the_fitted_curve_without_slope_bias():
+    # invented: errors with a CV of 20 %; weighting by the observed responses biased the slope by about
+    # -2 CV^2 = -8 % under 1/y^2 (a standard's weight then shares its own error)
+    rng = np.random.default_rng(21)
+    x = np.repeat([1.0, 2.0, 5.0, 10.0, 20.0, 50.0], 3)
+    slopes, observed = [], []
+    while len(slopes) < 300:
+        y = (0.2 + x) * (1 + 0.2 * rng.standard_normal(x.size))
+        if (y <= 0).any():
+            continue
+        slopes.append(engine.fit(x, y, 1, weights="1/y^2").coefficients[1])
+        observed.append(engine.fit(x, y, 1, weights=y**-2.0).coefficients[1])
+    se = np.std(slopes) / np.sqrt(len(slopes))
+    print(f"\nslope bias, 1/y^2 at CV 20 %: fitted-curve weights {np.mean(slopes) - 1:+.2%} (SE {se:.2%}), "
+          f"observed-response weights {np.mean(observed) - 1:+.2%}")
+    assert abs(np.mean(slopes) - 1) < 3 * se + 0.005
+    assert np.mean(observed) - 1 < -0.05
+
+
+def test_an_interval_bound_at_the_edge_of_the_weights_domain_is_open():
+    # invented 1/x-weighted line; the band for a reading of 0.06 reaches x = 0, where 1/x is not defined:
+    # the lower bound was once an arbitrary point of the grid cell there (-0.00825)
+    x = np.repeat([0.2, 1, 2, 4, 6, 8, 10.0], 2)
+    y = [0.0445, 0.0353, 0.1712, 0.1284, 0.1594, 0.2609, 0.6286, 0.5715, 0.4821, 0.372, 0.679, 0.8294,
+         0.4318, 0.9646]
+    est = engine.inverse(engine.Calibration(x, y, max_order=1, weights="1/x"), [0.06], 1)[0]
+    assert est.x == pytest.approx(0.29874772359485213, rel=1e-9)
+    assert math.isnan(est.lower)
+    assert est.note == "lower bound open: the prediction band reaches x <= 0, where weights '1/x' are not defined"
