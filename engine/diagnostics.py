@@ -45,6 +45,8 @@ BACK_CALC_EXTEND = 0.25
 # outliers, influential points): each warns below alpha / FAMILY
 FAMILY = 8
 _LEVERAGE_ONE = 1 - 1e-10
+# a residual sum of squares at most this fraction of the total is rounding: the data fit exactly
+EXACT_FIT = 2.0**-80
 
 
 def check_level(alpha: float) -> float:
@@ -108,6 +110,12 @@ def _influence(cook: np.ndarray, h: np.ndarray, p: int, df: int, level: float):
     return p_max, sorted(by_size[:lo].tolist())
 
 
+def _fits_exactly(cal: Calibration, curve: Curve) -> bool:
+    """RSS <= EXACT_FIT * TSS, from the scaled residual SDs (no overflow at any magnitude of y)."""
+    n = cal.n_points
+    return cal.scaled_residual_sd(curve.order) ** 2 * curve.df <= EXACT_FIT * cal.scaled_residual_sd(0) ** 2 * (n - 1)
+
+
 def _back_calculate(cal: Calibration, curve: Curve):
     """x solving f(x) = y_i for each standard, nearest its own x, and how many solutions there are."""
     rows, zs = roots_of(curve, curve.from_y(cal.y), -1 - 2 * BACK_CALC_EXTEND, 1 + 2 * BACK_CALC_EXTEND)
@@ -129,7 +137,10 @@ def point_diagnostics(cal: Calibration, order: int, alpha: float = 0.05) -> Poin
     level = check_level(alpha)
     curve = curve_of(cal, order)
     h, r, t, cook, bonf = _studentized(cal, curve)
-    influential = set(_influence(cook, h, curve.order + 1, curve.df, level)[1])
+    exact = _fits_exactly(cal, curve)  # then the residuals are rounding, and no standard stands out
+    influential = set() if exact else set(_influence(cook, h, curve.order + 1, curve.df, level)[1])
+    if exact:
+        bonf = np.ones_like(bonf)
     fitted = cal.y - cal.weighted_residuals(curve.order) / cal.sqrt_w
     resid = cal.y - fitted
     back, count = _back_calculate(cal, curve)
@@ -313,12 +324,13 @@ def curve_checks(cal: Calibration, order: int, alpha: float = 0.05, point_labels
     if lof is None:
         rows["lack of fit"] = Check("lack of fit", math.nan, math.nan, "n/a",
                                     "needs replicated x and more distinct x values than coefficients")
+    elif lof.ss_pure_error == 0 or lof.test.p_value != lof.test.p_value:
+        rows["lack of fit"] = Check("lack of fit", math.nan, math.nan, "n/a", "not testable: replicates are identical"
+                                    if lof.ss_pure_error == 0 else "not testable")
     else:
         test = lof.test
         v = _verdict(test.p_value, level)
-        if v == "n/a":
-            words = ("not testable: replicates are identical" if lof.ss_pure_error == 0 else "not testable")
-        elif v == "warning":
+        if v == "warning":
             misfit = True
             fits = [j for j in range(k + 1, big_k + 1)
                     if (cal.stats(j).lack_of_fit or lof).test.p_value >= level]
@@ -339,7 +351,7 @@ def curve_checks(cal: Calibration, order: int, alpha: float = 0.05, point_labels
             words = ("the quadratic term is significant: a straight line is not adequate" if v == "warning"
                      else "a straight line is adequate against a quadratic") + f"; {at}"
         else:  # the chosen curve already holds the quadratic term: the test says whether it is needed
-            v = "ok"
+            v = _verdict(mt.p_value, 0.0)  # "ok", or "n/a" without a p-value
             words = (f"the quadratic term is justified (order {k} chosen; p < {alpha:g})" if mt.p_value < alpha
                      else f"the quadratic term alone is not significant against a straight line (p >= {alpha:g}); "
                           f"order {k} rests on its higher terms or was given")
@@ -421,6 +433,13 @@ def curve_checks(cal: Calibration, order: int, alpha: float = 0.05, point_labels
     rows["influence"] = Check("influential points", float(len(infl)), p_infl, _verdict(p_infl, level),
                               named(infl) + " (Cook's distance against its distribution under the model, "
                               f"Bonferroni over the standards; p-value is the largest distance's; {at})")
+    if _fits_exactly(cal, curve):  # residuals are rounding: nothing to test in them
+        exact = f"the data fit exactly at order {k} (residuals at rounding level): nothing to test"
+        for key in ("lack of fit", "runs", "DW", "BP", "outliers", "influence") + (("Mandel",) if k == 1 else ()):
+            if key in rows:
+                rows[key] = Check(rows[key].name, math.nan, math.nan, "n/a", exact)
+        # W is scale-free and describes the rounding residuals as they are; it is not a verdict on the curve
+        rows["SW"] = rows["SW"]._replace(verdict="n/a", detail=exact)
     keys = ("lack of fit", "Mandel", "runs", "DW", "SW", "BP", "monotonic", "outliers", "influence")
     return tuple(rows[key] for key in keys if key in rows)
 

@@ -112,3 +112,20 @@ def test_an_interval_bound_at_the_edge_of_the_weights_domain_is_open():
     assert est.x == pytest.approx(0.29874772359485213, rel=1e-9)
     assert math.isnan(est.lower)
     assert est.note == "lower bound open: the prediction band reaches x <= 0, where weights '1/x' are not defined"
+
+
+def test_data_that_fit_exactly_are_not_tested_as_signal():
+    # y = 2x exactly: Mandel's F was 9.3e29 ("a straight line is not adequate"), rounding tested as signal
+    x = np.arange(1.0, 7.0)
+    checks = engine.curve_checks(engine.Calibration(x, 2 * x), 1)
+    assert [c.verdict for c in checks] == ["n/a"] * 6 + ["ok", "n/a", "n/a"]
+    assert checks[1].detail == "the data fit exactly at order 1 (residuals at rounding level): nothing to test"
+
+
+def test_identical_replicates_leave_lack_of_fit_untestable():
+    # every level's duplicates read the same: pure error 0 once gave p = 0 and a warning
+    x = np.repeat(np.arange(1.0, 7.0), 2)
+    y = np.repeat(1 + 2 * np.arange(1.0, 7.0) + np.array([0, 0.1, -0.1, 0, 0.05, 0]), 2)
+    lof = _checks(engine.Calibration(x, y), 1)["lack of fit"]
+    assert (lof.verdict, lof.detail) == ("n/a", "not testable: replicates are identical")
+    assert math.isnan(lof.p_value)
