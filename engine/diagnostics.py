@@ -333,7 +333,7 @@ def curve_checks(cal: Calibration, order: int, alpha: float = 0.05, point_labels
         if v == "warning":
             misfit = True
             fits = [j for j in range(k + 1, big_k + 1)
-                    if (cal.stats(j).lack_of_fit or lof).test.p_value >= level]
+                    if cal.stats(j).lack_of_fit is not None and cal.stats(j).lack_of_fit.test.p_value >= level]
             words = "the curve misses the level means by more than replicate scatter; " + (
                 f"order {fits[0]} agrees with them" if fits else _inadequate_words(cal))
         else:

@@ -10,8 +10,9 @@ The 1/y and 1/y^2 schemes read the fitted curve, not the observed responses
 -CV^2 for 1/y and -2 CV^2 for 1/y^2): iteratively reweighted least squares,
 starting from the observed responses' weights (or the unweighted fit where a
 response is not positive), each cycle weighting by the fitted values of
-order WEIGHT_ORDER (or the max order, if lower) from the cycle before, until no weight changes by
-more than SETTLED (relative) from one cycle to the next, at most CYCLES cycles
+order WEIGHT_ORDER (or the max order, if lower) from the cycle before, until
+no weight changes by more than SETTLED (relative) from one cycle to the next,
+at most CYCLES cycles
 (generalized least squares iterated to convergence: Carroll & Ruppert,
 Transformation and Weighting in Regression, Chapman & Hall 1988, sec. 2.1-2.3,
 from memory). One weight vector serves every order, so that nested orders can
@@ -22,7 +23,7 @@ CV of 20 %, a slope bias of -0.7 % for 1/y was left; measured, common practice).
 
 For a new reading the variance factor 1/w0 is needed too: under a scheme it is
 the scheme evaluated at the new point (x0, or for the y schemes the same fitted
-curve at x0, the max order's, in forward and inverse prediction alike);
+curve of order WEIGHT_ORDER at x0, in forward and inverse prediction alike);
 under explicit weights it is 1/w interpolated linearly in x between the
 standards (the mean of 1/w at each distinct x), held constant beyond them.
 """
@@ -66,7 +67,7 @@ class Weighting:
             if var == "y":  # set by ``settle`` from the fitted curve
                 self.values = np.ones_like(x)
                 return
-            self.values = _from_base(key, x, x)
+            self.values = _from_base(key, x)
         else:
             w = np.asarray(weights, dtype=float).ravel()
             if w.size != x.size:
@@ -98,7 +99,7 @@ class Weighting:
     def settle(self, x: np.ndarray, y: np.ndarray, fitted_for) -> None:
         """Iterate the 1/y weights (module docstring); ``fitted_for(w)`` gives the fitted y of the
         standards under weights w."""
-        values = _from_base(self.scheme, y, x) if (y > 0).all() else np.ones_like(x)
+        values = _from_base(self.scheme, y) if (y > 0).all() else np.ones_like(x)
         for _ in range(CYCLES):
             fitted = fitted_for(values)
             bad = np.flatnonzero(~(fitted > 0))
@@ -110,7 +111,7 @@ class Weighting:
                     argument="weights",
                     index=i,
                 )
-            new = _from_base(self.scheme, fitted, x)
+            new = _from_base(self.scheme, fitted)
             if np.max(np.abs(new / values - 1.0)) <= SETTLED:
                 self.values = values
                 return
@@ -155,7 +156,7 @@ class Weighting:
             return np.where(base > 0, power * base ** float(power - 1) * chain, np.nan)
 
 
-def _from_base(key: str, base: np.ndarray, x: np.ndarray) -> np.ndarray:
+def _from_base(key: str, base: np.ndarray) -> np.ndarray:
     """The weights base^-power of scheme ``key``, each a positive finite number."""
     var, power = SCHEMES[key]
     bad = np.flatnonzero(~(base > 0))

@@ -129,3 +129,29 @@ def test_identical_replicates_leave_lack_of_fit_untestable():
     lof = _checks(engine.Calibration(x, y), 1)["lack of fit"]
     assert (lof.verdict, lof.detail) == ("n/a", "not testable: replicates are identical")
     assert math.isnan(lof.p_value)
+
+
+@pytest.mark.parametrize("weights", ["1/y", "1/y^2"])
+def test_response_weighted_intervals_use_the_fits_own_variance_model(weights):
+    # order 1 of a calibration fitted up to order 3: its weights come from the quadratic's fitted values,
+    # and the inverse interval's bounds lie exactly on the prediction band CALIB_PREDICT reports
+    rng = np.random.default_rng(8)
+    x = np.repeat([1.0, 2.0, 5.0, 10.0, 20.0, 40.0], 3)
+    y = 0.5 + 2.0 * x + rng.normal(0, 1, x.size) * 0.03 * x
+    cal = engine.Calibration(x, y, max_order=3, weights=weights)
+    quadratic = cal.fit(2).coefficients
+    fitted = quadratic[0] + quadratic[1] * x + quadratic[2] * x**2
+    np.testing.assert_allclose(cal.weighting.values, fitted ** -{"1/y": 1.0, "1/y^2": 2.0}[weights], rtol=1e-8)
+    for reading in (6.0, 30.0, 60.0):
+        est = engine.inverse(cal, [reading], 1)[0]
+        low, high = engine.predict(cal, [est.lower, est.upper], 1)
+        assert low.pred_upper == pytest.approx(reading, rel=1e-9)
+        assert high.pred_lower == pytest.approx(reading, rel=1e-9)
+
+
+def test_response_weights_need_a_positive_fitted_curve():
+    x = np.arange(0.0, 6.0)
+    with pytest.raises(engine.WeightError) as err:
+        engine.Calibration(x, x - 0.5, max_order=1, weights="1/y")
+    assert str(err.value) == ("weights '1/y' need a fitted y > 0 at every standard, but the curve gives -0.5 at "
+                              "x = 0.0 (point 0); use 1/x weights or none")
