@@ -45,8 +45,6 @@ BACK_CALC_EXTEND = 0.25
 # outliers, influential points): each warns below alpha / FAMILY
 FAMILY = 8
 _LEVERAGE_ONE = 1 - 1e-10
-# a residual sum of squares at most this fraction of the total is rounding: the data fit exactly
-EXACT_FIT = 2.0**-80
 
 
 def check_level(alpha: float) -> float:
@@ -111,9 +109,8 @@ def _influence(cook: np.ndarray, h: np.ndarray, p: int, df: int, level: float):
 
 
 def _fits_exactly(cal: Calibration, curve: Curve) -> bool:
-    """RSS <= EXACT_FIT * TSS, from the scaled residual SDs (no overflow at any magnitude of y)."""
-    n = cal.n_points
-    return cal.scaled_residual_sd(curve.order) ** 2 * curve.df <= EXACT_FIT * cal.scaled_residual_sd(0) ** 2 * (n - 1)
+    """The residuals of ``curve`` are rounding error (``Calibration.exact_order``)."""
+    return cal.exact_order is not None and curve.order >= cal.exact_order
 
 
 def _back_calculate(cal: Calibration, curve: Curve):
@@ -324,16 +321,15 @@ def curve_checks(cal: Calibration, order: int, alpha: float = 0.05, point_labels
     if lof is None:
         rows["lack of fit"] = Check("lack of fit", math.nan, math.nan, "n/a",
                                     "needs replicated x and more distinct x values than coefficients")
-    elif lof.ss_pure_error == 0 or lof.test.p_value != lof.test.p_value:
-        rows["lack of fit"] = Check("lack of fit", math.nan, math.nan, "n/a", "not testable: replicates are identical"
-                                    if lof.ss_pure_error == 0 else "not testable")
+    elif lof.note or lof.test.p_value != lof.test.p_value:
+        rows["lack of fit"] = Check("lack of fit", math.nan, math.nan, "n/a", lof.note or "not testable")
     else:
         test = lof.test
         v = _verdict(test.p_value, level)
         if v == "warning":
             misfit = True
-            fits = [j for j in range(k + 1, big_k + 1)
-                    if cal.stats(j).lack_of_fit is not None and cal.stats(j).lack_of_fit.test.p_value >= level]
+            higher = [cal.stats(j).lack_of_fit for j in range(k + 1, big_k + 1)]
+            fits = [j for j, h in enumerate(higher, k + 1) if h is not None and not h.test.p_value < level]
             words = "the curve misses the level means by more than replicate scatter; " + (
                 f"order {fits[0]} agrees with them" if fits else _inadequate_words(cal))
         else:
@@ -345,13 +341,15 @@ def curve_checks(cal: Calibration, order: int, alpha: float = 0.05, point_labels
         rows["Mandel"] = Check("Mandel linear vs quadratic", math.nan, math.nan, "n/a", "needs a max order of 2 or more")
     else:
         mt = mandel_test(cal)
-        if k == 1:
+        if mt.p_value != mt.p_value:
+            v, words = "n/a", "the quadratic fits exactly: nothing to test"
+        elif k == 1:
             v = _verdict(mt.p_value, level)
             misfit |= v == "warning"
             words = ("the quadratic term is significant: a straight line is not adequate" if v == "warning"
                      else "a straight line is adequate against a quadratic") + f"; {at}"
         else:  # the chosen curve already holds the quadratic term: the test says whether it is needed
-            v = _verdict(mt.p_value, 0.0)  # "ok", or "n/a" without a p-value
+            v = "ok"
             words = (f"the quadratic term is justified (order {k} chosen; p < {alpha:g})" if mt.p_value < alpha
                      else f"the quadratic term alone is not significant against a straight line (p >= {alpha:g}); "
                           f"order {k} rests on its higher terms or was given")
