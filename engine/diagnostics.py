@@ -186,7 +186,10 @@ def runs_distribution(n1: int, n2: int) -> tuple[np.ndarray, np.ndarray]:
     from memory)."""
     r = np.arange(2, n1 + n2 + 1)
     k = r // 2
-    lc = lambda n, j: np.where((j >= 0) & (j <= n), log_binomial(n, np.clip(j, 0, n)), -np.inf)  # noqa: E731
+
+    def lc(n: int, j: np.ndarray) -> np.ndarray:  # ln C(n, j), -inf outside 0 <= j <= n
+        return np.where((j >= 0) & (j <= n), log_binomial(n, np.clip(j, 0, n)), -np.inf)
+
     total = log_binomial(n1 + n2, n1)
     with np.errstate(divide="ignore"):
         even = math.log(2.0) + lc(n1 - 1, k - 1) + lc(n2 - 1, k - 1)
@@ -329,7 +332,7 @@ def curve_checks(cal: Calibration, order: int, alpha: float = 0.05, point_labels
         if v == "warning":
             misfit = True
             higher = [cal.stats(j).lack_of_fit for j in range(k + 1, big_k + 1)]
-            fits = [j for j, h in enumerate(higher, k + 1) if h is not None and not h.test.p_value < level]
+            fits = [j for j, lof_j in enumerate(higher, k + 1) if lof_j is not None and not lof_j.test.p_value < level]
             words = "the curve misses the level means by more than replicate scatter; " + (
                 f"order {fits[0]} agrees with them" if fits else _inadequate_words(cal))
         else:
@@ -338,7 +341,8 @@ def curve_checks(cal: Calibration, order: int, alpha: float = 0.05, point_labels
                                     f"F({test.df_num}, {test.df_den}); {words}; {at}")
 
     if big_k < 2:
-        rows["Mandel"] = Check("Mandel linear vs quadratic", math.nan, math.nan, "n/a", "needs a max order of 2 or more")
+        rows["Mandel"] = Check("Mandel linear vs quadratic", math.nan, math.nan, "n/a",
+                               "needs a max order of 2 or more")
     else:
         mt = mandel_test(cal)
         if mt.p_value != mt.p_value:
@@ -393,7 +397,8 @@ def curve_checks(cal: Calibration, order: int, alpha: float = 0.05, point_labels
         # algorithm takes a range below 1e-19 as zero
         w_stat, w_p = _shapiro()(np.ldexp(e, -math.frexp(float(np.abs(e).max()))[1]))
         v = _verdict(float(w_p), level)
-        words = "residuals depart from a normal distribution" if v == "warning" else "no evidence against normal residuals"
+        words = ("residuals depart from a normal distribution" if v == "warning"
+                 else "no evidence against normal residuals")
         rows["SW"] = Check("Shapiro-Wilk", float(w_stat), float(w_p), v, f"{words}; {at}")
     else:
         rows["SW"] = Check("Shapiro-Wilk", math.nan, math.nan, "n/a", "needs 3 or more distinct residuals")
