@@ -85,19 +85,25 @@ def cook_tail(d: float, h: np.ndarray, p: int, df: int) -> np.ndarray:
     return np.where(inside, t_two_sided(np.sqrt(t2), df - 1), 0.0)
 
 
-def _influence(cook: np.ndarray, h: np.ndarray, p: int, df: int, level: float):
-    """The p-value S(max D) of the largest Cook's distance, and the standards whose S(D_i) < level
-    (a prefix of the standards by falling D, found by binary search: S falls as d grows)."""
-    usable = np.flatnonzero((h < _LEVERAGE_ONE) & np.isfinite(cook))
-    if df < 2 or not usable.size:
+def _influence(cook: np.ndarray, h: np.ndarray, t: np.ndarray, p: int, df: int, level: float):
+    """The p-value S(max D) of the largest Cook's distance, and the standards whose S(D_i) < level.
+
+    S(D_i) holds the standard's own term P(D_i >= D_i) = P(|T_(df-1)| >= |t_i|) (t_i externally
+    studentized), so only standards whose own term is below the level can be flagged; among them, by
+    falling D, the flagged ones are a prefix (S falls as d grows), found by binary search."""
+    usable = (h < _LEVERAGE_ONE) & np.isfinite(cook)
+    if df < 2 or not usable.any():
         return math.nan, []
     hu = h[usable]
 
     def tail_sum(d: float) -> float:
         return float(cook_tail(d, hu, p, df).sum())
 
-    by_size = usable[np.argsort(-cook[usable], kind="stable")]
-    p_max = min(1.0, tail_sum(float(cook[by_size[0]])))
+    p_max = min(1.0, tail_sum(float(cook[usable].max())))
+    if not p_max < level:  # not even the largest distance
+        return p_max, []
+    candidates = np.flatnonzero(usable & (t_two_sided(t, df - 1) < level))
+    by_size = candidates[np.argsort(-cook[candidates], kind="stable")]
     lo, hi = 0, by_size.size  # S(D) < level holds for the first `lo` of by_size
     while lo < hi:
         mid = (lo + hi) // 2
@@ -135,7 +141,7 @@ def point_diagnostics(cal: Calibration, order: int, alpha: float = 0.05) -> Poin
     curve = curve_of(cal, order)
     h, r, t, cook, bonf = _studentized(cal, curve)
     exact = _fits_exactly(cal, curve)  # then the residuals are rounding, and no standard stands out
-    influential = set() if exact else set(_influence(cook, h, curve.order + 1, curve.df, level)[1])
+    influential = set() if exact else set(_influence(cook, h, t, curve.order + 1, curve.df, level)[1])
     if exact:
         bonf = np.ones_like(bonf)
     fitted = cal.y - cal.weighted_residuals(curve.order) / cal.sqrt_w
@@ -310,7 +316,7 @@ def curve_checks(cal: Calibration, order: int, alpha: float = 0.05, point_labels
     level = check_level(alpha)
     curve = curve_of(cal, order)
     k, big_k = curve.order, cal.max_order
-    h, _, _, cook, bonf = _studentized(cal, curve)
+    h, _, t, cook, bonf = _studentized(cal, curve)
     n, p = cal.n_points, k + 1
     position = point_labels or (lambda i: f"standard {i + 1} of {n}")
     at = f"warning below p = {level:.3g}"
@@ -432,7 +438,7 @@ def curve_checks(cal: Calibration, order: int, alpha: float = 0.05, point_labels
                              named(flagged) + " (externally studentized residual, Bonferroni over the "
                              f"standards; p-value is the smallest; {at})")
 
-    p_infl, infl = _influence(cook, h, p, curve.df, level)
+    p_infl, infl = _influence(cook, h, t, p, curve.df, level)
     rows["influence"] = Check("influential points", float(len(infl)), p_infl, _verdict(p_infl, level),
                               named(infl) + " (Cook's distance against its distribution under the model, "
                               f"Bonferroni over the standards; p-value is the largest distance's; {at})")
