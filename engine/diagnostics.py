@@ -6,10 +6,11 @@ t_i = r_i sqrt((df - 1) / (df - r_i^2)); Cook's D_i = r_i^2 h_i / (p (1 - h_i)) 
 Residuals and Influence in Regression, Chapman & Hall 1982, ch. 2 and 3). Back-calculated x solves
 f(x) = y_i, up to a quarter of the range beyond either end, nearest the standard's own x.
 
-The checks table holds its own error rate: it has FAMILY tests, and each warns when its p-value is
-below alpha / FAMILY (Bonferroni), so that on a correct curve (normal errors, the model and weights
-right) the table as a whole warns with probability at most alpha. The standards' notes flag outliers
-and influential points at the same level.
+The checks table holds its own error rate. Lack of fit warns below alpha, the level at which the order
+rules read the same test (so that CALIB_STATS, CALIB_ORDERS and the checks never disagree on it); each
+of the FAMILY other tests warns when its p-value is below alpha / FAMILY (Bonferroni). On a correct
+curve (normal errors, the model and weights right) the table as a whole then warns with probability
+at most 2 alpha. The standards' notes flag outliers and influential points at alpha / FAMILY.
 
 - Outliers: Bonferroni p = n P(|T_(df-1)| > |t_i|), t_i following Student's t (Cook & Weisberg 1982,
   sec. 2.2.1, from memory).
@@ -41,14 +42,14 @@ from .results import Check, PointDiagnostics
 from .selection import check_alpha, fmt_p, mandel_test
 
 BACK_CALC_EXTEND = 0.25
-# tests in the checks table (lack of fit, Mandel, runs, Durbin-Watson, Shapiro-Wilk, Breusch-Pagan,
-# outliers, influential points): each warns below alpha / FAMILY
-FAMILY = 8
+# tests in the checks table besides lack of fit (Mandel, runs, Durbin-Watson, Shapiro-Wilk,
+# Breusch-Pagan, outliers, influential points): each warns below alpha / FAMILY
+FAMILY = 7
 _LEVERAGE_ONE = 1 - 1e-10
 
 
 def check_level(alpha: float) -> float:
-    """The level at which each test of the checks table (and each standard's note) warns."""
+    """The level at which each test of the checks table but lack of fit (and each standard's note) warns."""
     return check_alpha(alpha) / FAMILY
 
 
@@ -334,17 +335,17 @@ def curve_checks(cal: Calibration, order: int, alpha: float = 0.05, point_labels
         rows["lack of fit"] = Check("lack of fit", math.nan, math.nan, "n/a", lof.note or "not testable")
     else:
         test = lof.test
-        v = _verdict(test.p_value, level)
+        v = _verdict(test.p_value, alpha)
         if v == "warning":
             misfit = True
             higher = [cal.stats(j).lack_of_fit for j in range(k + 1, big_k + 1)]
-            fits = [j for j, lof_j in enumerate(higher, k + 1) if lof_j is not None and not lof_j.test.p_value < level]
+            fits = [j for j, lof_j in enumerate(higher, k + 1) if lof_j is not None and not lof_j.test.p_value < alpha]
             words = "the curve misses the level means by more than replicate scatter; " + (
                 f"order {fits[0]} agrees with them" if fits else _inadequate_words(cal))
         else:
             words = "the curve agrees with the level means within replicate scatter"
         rows["lack of fit"] = Check("lack of fit", test.statistic, test.p_value, v,
-                                    f"F({test.df_num}, {test.df_den}); {words}; {at}")
+                                    f"F({test.df_num}, {test.df_den}); {words}; warning below p = {alpha:.3g}")
 
     if big_k < 2:
         rows["Mandel"] = Check("Mandel linear vs quadratic", math.nan, math.nan, "n/a",

@@ -1,9 +1,10 @@
 """How often the checks table warns on correct calibrations (fixed seeds, deterministic).
 
 Straight lines with independent normal errors of constant SD, checked at their true order 1, on the
-designs 6 levels x 3, 8 x 2 and 10 x 1. Each test of the table warns below alpha / FAMILY, so the table
-as a whole should warn on at most alpha = 5 % of these curves (Bonferroni) and each test on about
-alpha / FAMILY. Tolerances are three binomial standard errors of the simulated rate.
+designs 6 levels x 3, 8 x 2 and 10 x 1. Lack of fit warns below alpha (where replicates allow it) and
+each other test below alpha / FAMILY, so the table as a whole should warn on at most 2 alpha = 10 % of
+these curves (Bonferroni), lack of fit on about alpha and each other test on about alpha / FAMILY.
+Tolerances are three binomial standard errors of the simulated rate.
 """
 
 import math
@@ -39,17 +40,17 @@ def warnings_by_design():
     return out
 
 
-def test_the_table_warns_on_at_most_alpha_of_correct_curves(warnings_by_design):
+def test_the_table_warns_on_at_most_two_alpha_of_correct_curves(warnings_by_design):
     for name, rows in warnings_by_design.items():
         rate = sum("warning" in r.values() for r in rows) / len(rows)
         print(f"\n{name}: the table warns on {rate:.1%} of {len(rows)} correct straight lines")
-        assert rate <= ALPHA + 3 * _se(ALPHA, len(rows))  # and so well below the 10 % aimed at
+        assert rate <= 2 * ALPHA + 3 * _se(2 * ALPHA, len(rows))
 
 
 def test_each_check_warns_near_its_own_level(warnings_by_design):
-    level = ALPHA / FAMILY
     names = [n for n in next(iter(warnings_by_design.values()))[0]]
     for name in names:
+        level = ALPHA if name == "lack of fit" else ALPHA / FAMILY
         verdicts = [r[name] for rows in warnings_by_design.values() for r in rows if r[name] != "n/a"]
         rate = verdicts.count("warning") / len(verdicts)
         print(f"\n{name}: warns on {rate:.2%} of {len(verdicts)} (level {level:.3%})")

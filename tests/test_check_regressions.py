@@ -78,7 +78,7 @@ def test_misfit_is_named_and_not_taken_for_a_weighting_problem():
     assert c["lack of fit"].verdict == "warning"
     assert c["lack of fit"].detail.endswith(
         "a polynomial of order <= 4 does not describe these data; consider a narrower range or another model; "
-        "warning below p = 0.00625")
+        "warning below p = 0.05")
     for k in range(1, cal.max_order + 1):
         assert "consider weights" not in _checks(cal, k)["Breusch-Pagan"].detail
 
