@@ -327,11 +327,13 @@ def _canvas(footer: tuple[str, str]):
             for state in self._held:
                 self.__dict__.update(state)
                 w, _ = self._pagesize
-                self.setFont(FONT, 6.5)
                 self.setFillColor(colors.HexColor("#444444"))
-                self.drawString(MARGIN, 11 * mm, footer[0])
-                self.drawString(MARGIN, 8 * mm, footer[1])
-                self.drawRightString(w - MARGIN, 11 * mm, f"page {self._pageNumber} of {len(self._held)}")
+                self.setFont(FONT, 6.5)
+                self.drawString(MARGIN, 15 * mm, footer[0])
+                room = w - 2 * MARGIN  # the caution line shrinks to fit the narrower paper
+                self.setFont(FONT, min(6.5, 6.5 * room / pdfmetrics.stringWidth(footer[1], FONT, 6.5)))
+                self.drawString(MARGIN, 12 * mm, footer[1])
+                self.drawRightString(w - MARGIN, 15 * mm, f"page {self._pageNumber} of {len(self._held)}")
                 super().showPage()
             super().save()
 
@@ -349,7 +351,7 @@ def write_report(path: Path, out: Path, paper: str = "a4") -> tuple[Path, int]:
     st = _Styles()
     size = PAPER[paper]
     doc = SimpleDocTemplate(str(out), pagesize=size, leftMargin=MARGIN, rightMargin=MARGIN, topMargin=MARGIN,
-                            bottomMargin=MARGIN + 6 * mm, title=f"Calibration report: {path.name}",
+                            bottomMargin=MARGIN + 8 * mm, title=f"Calibration report: {path.name}",
                             author=f"Degreewise {VERSION}", subject="calibration report")
     width = size[0] - 2 * MARGIN
     story = _front(path, found, refresh_report, st, width)
