@@ -1,10 +1,14 @@
 """The demo workbooks: invented calibrations laid out with CALIB_* formulas and native charts.
 
 One workbook per scenario (see ``scenarios``). Each calibration sheet holds the
-standards, the order choice, the tables, the aligned residuals and a fine-grid
-prediction spill with CALIB_LABELS headers, and two scatter charts that read
-the spill ranges (curve with prediction band; residuals against x), so they
-follow a refresh. The weighted scenario adds unknown samples read back with
+standards, the order choice, the tables, the back-calculated standards and a
+fine-grid prediction spill with CALIB_LABELS headers, and two scatter charts
+that read the spill ranges (standards with visible markers, curve and
+prediction band, log axes where the range or the weighting asks for them;
+residuals against x, or the deviation % of the back-calculated x for a
+weighted fit), so they follow a refresh. Header cells are styled before the
+refresh fills them, texts wrap, and each sheet prints as its calibration on a
+few landscape pages. The weighted scenario adds unknown samples read back with
 CALIB_INVERSE. A first sheet states the scenario and the cautions.
 """
 
@@ -16,10 +20,9 @@ from pathlib import Path
 import numpy as np
 from openpyxl import Workbook
 from openpyxl.chart import Reference, ScatterChart, Series
-from openpyxl.chart.layout import Layout, ManualLayout
-from openpyxl.worksheet.pagebreak import Break
 from openpyxl.styles import Alignment, Font, PatternFill
 from openpyxl.utils import get_column_letter, range_boundaries
+from openpyxl.worksheet.pagebreak import Break
 
 from .labels import CAUTION, HEADERS
 from .scenarios import Scenario, all_scenarios

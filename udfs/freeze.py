@@ -18,6 +18,7 @@ import tempfile
 import time
 from pathlib import Path
 
+from . import VERSION
 from .package import PackageError, SheetText, escape, read_package, write_package
 from .refresh import Refresher, Report
 
@@ -27,12 +28,6 @@ CORE_REL = "http://schemas.openxmlformats.org/package/2006/relationships/metadat
 CORE_XML = ('<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n<cp:coreProperties '
             'xmlns:cp="http://schemas.openxmlformats.org/package/2006/metadata/core-properties" '
             'xmlns:dc="http://purl.org/dc/elements/1.1/"></cp:coreProperties>')
-
-
-def _version() -> str:
-    from importlib.metadata import version
-
-    return version("degreewise")
 
 
 def frozen_cell(xml: str, p: str) -> str:
@@ -47,7 +42,7 @@ def frozen_cell(xml: str, p: str) -> str:
 
 
 def note(when: str) -> str:
-    return (f"Frozen by Degreewise {_version()} on {when}: every CALIB_* formula was replaced by the value it "
+    return (f"Frozen by Degreewise {VERSION} on {when}: every CALIB_* formula was replaced by the value it "
             "returned; the copy no longer recomputes.")
 
 

@@ -158,14 +158,6 @@ def _standards(s: Section):
     return out
 
 
-def _axes_scale(ax, s: Section, ys) -> None:
-    grid = s.tables.get("grid", [])
-    if len(grid) > 2 and grid[1] - grid[0] < grid[-1] - grid[-2] - 1e-12 * abs(grid[-1]):  # geometric grid
-        ax.set_xscale("log")
-        if all(v is not None and v > 0 for v in ys):
-            ax.set_yscale("log")
-
-
 def _curve_chart(s: Section, width: float, height: float) -> Image:
     pts = _standards(s)
     rows = s.tables.get("predict")
@@ -188,7 +180,10 @@ def _curve_chart(s: Section, width: float, height: float) -> Image:
         if gone:
             ax.plot(*zip(*gone), "x", ms=6, mew=1.5, color=EXCLUDED_COLOUR, label="excluded")
         ys = [y for _, y, _ in pts] + ([r[3] for r in band] if band else [])
-        _axes_scale(ax, s, ys)
+        if s.log_x:
+            ax.set_xscale("log")
+            if all(v is not None and v > 0 for v in ys):
+                ax.set_yscale("log")
         ax.set_xlabel(s.x_label or "x", fontsize=7)
         ax.set_ylabel(s.y_label or "y", fontsize=7)
         ax.set_title("standards, fitted curve, prediction band", fontsize=8)
@@ -217,8 +212,7 @@ def _residual_chart(s: Section, width: float, height: float) -> Image:
             if gone:
                 ax.legend(fontsize=6, frameon=False)
         ax.axhline(0, color="black", lw=0.7)
-        grid = s.tables.get("grid", [])
-        if len(grid) > 2 and grid[1] - grid[0] < grid[-1] - grid[-2] - 1e-12 * abs(grid[-1]):
+        if s.log_x:
             ax.set_xscale("log")
         ax.set_xlabel(s.x_label or "x", fontsize=7)
         ax.set_ylabel(label, fontsize=7)

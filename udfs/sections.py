@@ -13,7 +13,6 @@ report draws from it.
 from __future__ import annotations
 
 import inspect
-import math
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -72,6 +71,7 @@ class Section:
     x_label: str | None
     y_label: str | None
     tables: dict = field(default_factory=dict)
+    log_x: bool = False  # the standards span more than two decades, or the fit is weighted: log x axes
     readbacks: list = field(default_factory=list)  # (reading range, readings, rows of CALIB_INVERSE)
 
     @property
@@ -179,7 +179,8 @@ class Book:
         xs = [v for v in s.x if isinstance(v, (int, float)) and not isinstance(v, bool)]
         if xs:
             lo, hi = min(xs), max(xs)
-            if lo > 0 and (hi / lo > 100 or s.args.get("weights") is not None):
+            s.log_x = lo > 0 and (hi / lo > 100 or s.args.get("weights") is not None)
+            if s.log_x:
                 grid = [lo * (hi / lo) ** (i / (GRID - 1)) for i in range(GRID)]
             else:
                 grid = [lo + (hi - lo) * i / (GRID - 1) for i in range(GRID)]
@@ -211,8 +212,4 @@ def summary(s: Section) -> list[str]:
     lines.append(f"  residual SD {number(s.stat('residual SD'))}, R² {number(s.stat('R²'), 8)}, "
                  f"lack-of-fit p {p_text(lof) if lof is not None else 'n/a (no replicates)'}")
     return lines
-
-
-def finite(v) -> bool:
-    return isinstance(v, (int, float)) and not isinstance(v, bool) and math.isfinite(v)
 
