@@ -220,16 +220,3 @@ def test_libreoffice_shows_the_frozen_numbers(tmp_path):
     for term, b, *_ in coefs[1:]:
         assert math.isclose(float(shown[term]), b, rel_tol=1e-12), term  # LibreOffice writes 15 digits
     assert "seqf, forward, aicc, bic, press" in text
-
-
-def test_demo_prints_units_points_range_settings_and_reports(tmp_path, capsys):
-    assert main(["demo", str(tmp_path / "out")]) == 0
-    out = capsys.readouterr().out
-    assert "  x: tracer Q (ug/L), 21 points at 7 levels, from 0.5 to 40; y: detector counts" in out
-    assert ("  settings: rule seqf (default); alpha 0.05 (default); max order 4 (default); order 1 from "
-            "'Weighted'!E1; level 0.95 (default); weights 1/x^2; exclude none") in out
-    for name in SCENARIOS:
-        report = tmp_path / "out" / f"degreewise-demo-{name}-report.pdf"
-        assert f"  report: {report}" in out and report.read_bytes().startswith(b"%PDF-")
-    p_values = re.findall(r"lack-of-fit p (\S+)", out)
-    assert len(p_values) == 3 and all(re.fullmatch(r"0\.\d{3}", p) for p in p_values)
