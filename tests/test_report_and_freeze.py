@@ -220,3 +220,29 @@ def test_libreoffice_shows_the_frozen_numbers(tmp_path):
     for term, b, *_ in coefs[1:]:
         assert math.isclose(float(shown[term]), b, rel_tol=1e-12), term  # LibreOffice writes 15 digits
     assert "seqf, forward, aicc, bic, press" in text
+
+
+@needs_poppler
+def test_limits_appear_when_the_functions_provide_them(tmp_path, monkeypatch):
+    """The report shows the limits table only when the add-in has CALIB_LIMITS (a stand-in here, with the
+    columns the design fixes), evaluated with the calibration's order, alpha and weights."""
+    from degreewise import functions, refresh
+
+    seen = []
+
+    def calib_limits(x, y, blank=None, replicates=None, order=None, alpha=None, weights=None, exclude=None):
+        seen.append((order, alpha, weights))
+        return [["method", "critical response", "decision limit", "detection limit", "quantitation limit", "note"],
+                ["stand-in method", 0.125, 0.25, 0.5, 1.5, "a row of the stand-in"]]
+
+    book = FOLDER / "degreewise-demo-weighted.xlsx"
+    before = words(pdf_text(write_report(book, tmp_path / "before.pdf")[0]))
+    assert not hasattr(functions, "calib_limits") or "CALIB_LIMITS" in refresh.CALLABLE
+    if "Detection and quantitation limits" in before:  # the real function is there: nothing to stand in for
+        return
+    monkeypatch.setattr(functions, "calib_limits", calib_limits, raising=False)
+    monkeypatch.setitem(refresh.CALLABLE, "CALIB_LIMITS", calib_limits)
+    text = words(pdf_text(write_report(book, tmp_path / "after.pdf")[0]))
+    assert "Detection and quantitation limits" in text
+    assert "stand-in method 0.125 0.25 0.5 1.5 a row of the stand-in" in text
+    assert seen == [(1.0, None, "1/x^2")]  # the order from the sheet's CALIB_ORDER cell, default alpha

@@ -156,7 +156,7 @@ def calibration_sheet(wb: Workbook, sc: Scenario):
 
 def _lines(text, width: float) -> int:
     """Lines a wrapped text takes in a column ``width`` characters wide (a character-count estimate)."""
-    return max(1, *(math.ceil(len(part) / (0.95 * width)) for part in str(text or "").split("\n")))
+    return max(1, *(math.ceil(len(part) / (1.2 * width)) for part in str(text or "").split("\n")))
 
 
 def _row_heights(ws, sc: Scenario) -> None:

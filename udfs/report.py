@@ -106,7 +106,10 @@ def _table(rows, width: float, wrap=(), digits=None, size: float = 7.5, header: 
         widths = fixed
     numeric = [all(isinstance(r[j], (int, float)) or r[j] is None for r in rows[1 if header else 0:])
                for j in range(ncol)]
-    cells = [[_cell(v, size, header and i == 0, numeric[j], digits.get(j, 6))
+    def right(i, j, v):  # numbers to the right; a header over a column of numbers too
+        return numeric[j] if header and i == 0 else isinstance(v, (int, float)) and not isinstance(v, bool)
+
+    cells = [[_cell(v, size, header and i == 0, right(i, j, v), digits.get(j, 6))
               for j, v in enumerate(r)] for i, r in enumerate(rows)]
     t = Table(cells, colWidths=widths, repeatRows=1 if header else 0, hAlign="LEFT")
     style = [("VALIGN", (0, 0), (-1, -1), "TOP"), ("LEFTPADDING", (0, 0), (-1, -1), 2),
