@@ -79,46 +79,41 @@ def _words(text: str) -> list[str]:
     return text.split() or [""]
 
 
-def _table(rows, width: float, wrap=(), digits=None, size: float = 7.5, header: bool = True) -> Table:
-    """A table that fits ``width``: numeric columns as wide as their widest entry (header words may
-    wrap), the ``wrap`` columns share the rest; the header row repeats on every page it spans."""
+def _table(rows, width: float, wrap=(), digits=None, size: float = 7.5) -> Table:
+    """A table that fits ``width``: each column as wide as its widest entry (header words may wrap), the
+    ``wrap`` columns sharing what is left (the font shrinks, down to 6 pt, until each of them gets 70 pt
+    or, without them, until the table fits); the header row repeats on every page the table spans."""
     digits = digits or {}
     ncol = max(len(r) for r in rows)
     rows = [list(r) + [None] * (ncol - len(r)) for r in rows]
     while True:
-        pad = 6
         fixed = []
         for j in range(ncol):
-            body = [number(r[j], digits.get(j, 6)) for r in rows[1 if header else 0:]]
-            widest = max([pdfmetrics.stringWidth(t, FONT, size) for t in body] + [0])
-            if header:
-                widest = max([widest] + [pdfmetrics.stringWidth(w, BOLD, size) for w in _words(str(rows[0][j] or ""))])
-            fixed.append(widest + pad)
+            body = [pdfmetrics.stringWidth(number(r[j], digits.get(j, 6)), FONT, size) for r in rows[1:]]
+            head = [pdfmetrics.stringWidth(w, BOLD, size) for w in _words(str(rows[0][j] or ""))]
+            fixed.append(max(body + head) + 6)
         free = width - sum(w for j, w in enumerate(fixed) if j not in wrap)
-        if not wrap or free >= 70 * len(wrap) or size <= 6:
+        if (free >= 70 * len(wrap) if wrap else free >= 0) or size <= 6:
             break
         size -= 0.5
-    if wrap:
+    widths = list(fixed)
+    if wrap and sum(fixed) > width:
         share = sum(fixed[j] for j in wrap)
-        widths = [(max(free, 0) * fixed[j] / share if j in wrap else fixed[j]) for j in range(ncol)]
-        widths = [min(w, fixed[j]) if j in wrap and sum(fixed) <= width else w for j, w in enumerate(widths)]
-    else:
-        widths = fixed
-    numeric = [all(isinstance(r[j], (int, float)) or r[j] is None for r in rows[1 if header else 0:])
-               for j in range(ncol)]
-    def right(i, j, v):  # numbers to the right; a header over a column of numbers too
-        return numeric[j] if header and i == 0 else isinstance(v, (int, float)) and not isinstance(v, bool)
+        for j in wrap:
+            widths[j] = max(free, 0) * fixed[j] / share
+    numeric = [all(isinstance(r[j], (int, float)) or r[j] is None for r in rows[1:]) for j in range(ncol)]
 
-    cells = [[_cell(v, size, header and i == 0, right(i, j, v), digits.get(j, 6))
-              for j, v in enumerate(r)] for i, r in enumerate(rows)]
-    t = Table(cells, colWidths=widths, repeatRows=1 if header else 0, hAlign="LEFT")
+    def right(i, j, v):  # numbers to the right, and the header over a column of numbers
+        return numeric[j] if i == 0 else isinstance(v, (int, float)) and not isinstance(v, bool)
+
+    cells = [[_cell(v, size, i == 0, right(i, j, v), digits.get(j, 6)) for j, v in enumerate(r)]
+             for i, r in enumerate(rows)]
+    t = Table(cells, colWidths=widths, repeatRows=1, hAlign="LEFT")
     style = [("VALIGN", (0, 0), (-1, -1), "TOP"), ("LEFTPADDING", (0, 0), (-1, -1), 2),
              ("RIGHTPADDING", (0, 0), (-1, -1), 2), ("TOPPADDING", (0, 0), (-1, -1), 1),
-             ("BOTTOMPADDING", (0, 0), (-1, -1), 1.5), ("LINEBELOW", (0, -1), (-1, -1), 0.4, colors.grey)]
-    if header:
-        style += [("BACKGROUND", (0, 0), (-1, 0), HEADER_FILL), ("LINEBELOW", (0, 0), (-1, 0), 0.6, colors.black)]
-    style += [("BACKGROUND", (0, i), (-1, i), colors.HexColor("#f4f6f8")) for i in range(2 if header else 1,
-                                                                                     len(rows), 2)]
+             ("BOTTOMPADDING", (0, 0), (-1, -1), 1.5), ("LINEBELOW", (0, -1), (-1, -1), 0.4, colors.grey),
+             ("BACKGROUND", (0, 0), (-1, 0), HEADER_FILL), ("LINEBELOW", (0, 0), (-1, 0), 0.6, colors.black)]
+    style += [("BACKGROUND", (0, i), (-1, i), colors.HexColor("#f4f6f8")) for i in range(2, len(rows), 2)]
     t.setStyle(TableStyle(style))
     return t
 
@@ -145,83 +140,77 @@ def _chart_png(draw, width: float, height: float) -> Image:
     return Image(buf, width=width, height=height)
 
 
-def _excluded(s: Section) -> list[bool]:
+def _points(s: Section, values) -> tuple[list, list]:
+    """(x, value) of the standards that have both, split into those fitted and those excluded (whose
+    diagnostics note says "excluded")."""
     rows = s.tables["residuals"]
-    if _message(rows):
-        return [False] * len(s.x)
-    return [bool(r[7]) and str(r[7]).startswith("excluded") for r in rows]
+    notes = [None] * len(s.x) if _message(rows) else [r[7] for r in rows]
+    kept, gone = [], []
+    for x, v, note in zip(_numbers(s.x), _numbers(values), notes):
+        if x is not None and v is not None:
+            (gone if str(note or "").startswith("excluded") else kept).append((x, v))
+    return kept, gone
 
 
-def _standards(s: Section):
-    """(x, y, excluded) of the standards that have both numbers."""
-    out = []
-    for x, y, ex in zip(_numbers(s.x), _numbers(s.y), _excluded(s)):
-        if x is not None and y is not None:
-            out.append((x, y, ex))
-    return out
+def _plot_points(ax, kept, gone) -> None:
+    if kept:
+        ax.plot(*zip(*kept), "o", ms=4, color=STANDARD_COLOUR, label="standards")
+    if gone:
+        ax.plot(*zip(*gone), "x", ms=6, mew=1.5, color=EXCLUDED_COLOUR, label="excluded")
+
+
+def _finish(ax, s: Section, title: str, y_label: str) -> None:
+    ax.set_xlabel(s.x_label or "x", fontsize=7)
+    ax.set_ylabel(y_label, fontsize=7)
+    ax.set_title(title, fontsize=8)
+    ax.tick_params(labelsize=6.5)
+    ax.grid(True, lw=0.3, alpha=0.6)
 
 
 def _curve_chart(s: Section, width: float, height: float) -> Image:
-    pts = _standards(s)
     rows = s.tables.get("predict")
+    band = [] if not rows or _message(rows) else rows
     grid = s.tables.get("grid", [])
     level = s.settings.get("level")
     lev = number(level * 100 if isinstance(level, (int, float)) else 95)
+    kept, gone = _points(s, s.y)
 
     def draw(ax):
-        band = [] if _message(rows) or not rows else rows
         if band:
-            fitted = [r[0] for r in band]
-            lower, upper = [r[3] for r in band], [r[4] for r in band]
-            ax.fill_between(grid, _numbers(lower), _numbers(upper), color=CURVE_COLOUR, alpha=0.15, lw=0,
+            lower, upper = _numbers(r[3] for r in band), _numbers(r[4] for r in band)
+            ax.fill_between(grid, lower, upper, color=CURVE_COLOUR, alpha=0.15, lw=0,
                             label=f"{lev} % prediction band")
-            ax.plot(grid, _numbers(fitted), color=CURVE_COLOUR, lw=1.4, label=f"fitted, order {number(s.order)}")
-        kept = [(x, y) for x, y, ex in pts if not ex]
-        if kept:
-            ax.plot(*zip(*kept), "o", ms=4, color=STANDARD_COLOUR, label="standards")
-        gone = [(x, y) for x, y, ex in pts if ex]
-        if gone:
-            ax.plot(*zip(*gone), "x", ms=6, mew=1.5, color=EXCLUDED_COLOUR, label="excluded")
-        ys = [y for _, y, _ in pts] + ([r[3] for r in band] if band else [])
+            ax.plot(grid, _numbers(r[0] for r in band), color=CURVE_COLOUR, lw=1.4,
+                    label=f"fitted, order {number(s.order)}")
+        else:
+            lower = []
+        _plot_points(ax, kept, gone)
         if s.log_x:
             ax.set_xscale("log")
-            if all(v is not None and v > 0 for v in ys):
+            if all(v is not None and v > 0 for v in [y for _, y in kept + gone] + lower):
                 ax.set_yscale("log")
-        ax.set_xlabel(s.x_label or "x", fontsize=7)
-        ax.set_ylabel(s.y_label or "y", fontsize=7)
-        ax.set_title("standards, fitted curve, prediction band", fontsize=8)
-        ax.tick_params(labelsize=6.5)
-        ax.grid(True, lw=0.3, alpha=0.6)
+        _finish(ax, s, "standards, fitted curve, prediction band", s.y_label or "y")
         ax.legend(fontsize=6, loc="best", frameon=False)
 
     return _chart_png(draw, width, height)
 
 
 def _residual_chart(s: Section, width: float, height: float) -> Image:
+    """Residuals against x; for a weighted fit the deviation % of the back-calculated x (raw residuals
+    fan out by design there)."""
     rows = s.tables["residuals"]
     weighted = s.args.get("weights") is not None
     column, label = (6, "deviation of back-calculated x (%)") if weighted else (1, f"residual ({s.y_label or 'y'})")
+    kept, gone = _points(s, [None] * len(s.x) if _message(rows) else [r[column] for r in rows])
 
     def draw(ax):
-        if not _message(rows):
-            pts = [(x, r[column], str(r[7] or "").startswith("excluded"))
-                   for x, r in zip(_numbers(s.x), rows) if x is not None and r[column] is not None]
-            kept = [(x, v) for x, v, ex in pts if not ex]
-            gone = [(x, v) for x, v, ex in pts if ex]
-            if kept:
-                ax.plot(*zip(*kept), "o", ms=4, color=STANDARD_COLOUR, label="standards")
-            if gone:
-                ax.plot(*zip(*gone), "x", ms=6, mew=1.5, color=EXCLUDED_COLOUR, label="excluded")
-            if gone:
-                ax.legend(fontsize=6, frameon=False)
+        _plot_points(ax, kept, gone)
+        if gone:
+            ax.legend(fontsize=6, frameon=False)
         ax.axhline(0, color="black", lw=0.7)
         if s.log_x:
             ax.set_xscale("log")
-        ax.set_xlabel(s.x_label or "x", fontsize=7)
-        ax.set_ylabel(label, fontsize=7)
-        ax.set_title("deviation % against x (weighted fit)" if weighted else "residuals against x", fontsize=8)
-        ax.tick_params(labelsize=6.5)
-        ax.grid(True, lw=0.3, alpha=0.6)
+        _finish(ax, s, "deviation % against x (weighted fit)" if weighted else "residuals against x", label)
 
     return _chart_png(draw, width, height)
 
