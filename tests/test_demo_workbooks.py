@@ -159,7 +159,7 @@ def test_demo_command_writes_refreshed_workbooks(tmp_path, capsys):
     assert "chosen order 1:" in out and "does not replace, method validation" in out
     # units, points, levels, range, every setting, one way of writing p-values, and the reports written
     assert "  x: tracer Q (ug/L), 21 points at 7 levels, from 0.5 to 40; y: detector counts" in out
-    assert ("  settings: rule seqf (default); alpha 0.05 (default); max order 4 (default); order 1 from "
+    assert ("  settings: rule stepdown (default); alpha 0.05 (default); max order 4 (default); order 1 from "
             "'Weighted'!E1; level 0.95 (default); weights 1/x^2; exclude none") in out
     for name in SCENARIOS:
         report = tmp_path / "out" / f"degreewise-demo-{name}-report.pdf"

@@ -16,7 +16,7 @@ import inspect
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from . import functions
+from . import engine, functions
 from .formula import Area, Call, column_letters
 from .package import read_package
 from .refresh import CALLABLE, Refresher, Report
@@ -97,7 +97,7 @@ class Section:
         max_order = len(orders) - 1 if isinstance(orders, list) and len(orders) > 1 else None
         order = s.get("order")
         return [
-            ("rule", f"{s['rule']}" if s.get("rule") else "seqf (default)"),
+            ("rule", f"{s['rule']}" if s.get("rule") else f"{engine.DEFAULT_RULE} (default)"),
             ("alpha", number(s["alpha"]) if s.get("alpha") is not None else "0.05 (default)"),
             ("max order", (number(max_order) + ("" if s.get("max_order") is not None else " (default)"))
              if max_order else "n/a"),
