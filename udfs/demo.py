@@ -37,7 +37,7 @@ LAYOUT = {
     "order": "E1", "orders": "D3", "seqf": "D9", "coefs": "D19", "stats": "N26", "checks": "K47",
     "curve_chart": "D26", "residual_chart": "D47", "residuals": "D66", "grid": "Z2", "predict": "AA2",
 }
-WIDTHS = {"A": 14, "B": 14, "C": 2, "D": 22, "K": 16, "N": 14, "O": 50}  # the others: NUMBER_WIDTH
+WIDTHS = {"A": 17, "B": 17, "C": 2, "D": 22, "K": 16, "N": 14, "O": 50}  # the others: NUMBER_WIDTH
 NUMBER_WIDTH = 12.5
 FONT = "Calibri"  # the workbook's default font, named so that styled cells keep it
 HEADER_FONT = Font(name=FONT, bold=True, color="1F3B57")
