@@ -35,7 +35,7 @@ GRID = 41  # points of the fine x grid for the fitted curve
 # prediction spill) sit to the right of the print area.
 LAYOUT = {
     "order": "E1", "orders": "D3", "seqf": "D9", "coefs": "D19", "stats": "N26", "checks": "K47",
-    "curve_chart": "D26", "residual_chart": "D47", "residuals": "D66", "grid": "Z2", "predict": "AA2",
+    "curve_chart": "D26", "residual_chart": "D48", "residuals": "D66", "grid": "Z2", "predict": "AA2",
 }
 WIDTHS = {"A": 17, "B": 17, "C": 2, "D": 22, "K": 16, "N": 14, "O": 50}  # the others: NUMBER_WIDTH
 NUMBER_WIDTH = 12.5
