@@ -45,6 +45,7 @@ LINE = 15.0  # points per line of wrapped text
 HEADER_FILL = PatternFill("solid", fgColor="DDE5EE")
 WRAP = Alignment(wrap_text=True, vertical="top")
 MARKER = "1F4E79"
+ABOUT_WIDTH = 68  # the About sheet's one column: fits a portrait A4 or Letter page at full size
 
 
 def _args(sc: Scenario, n: int) -> tuple[str, str, str]:
@@ -280,9 +281,9 @@ def about_sheet(wb: Workbook, sc: Scenario) -> None:
     for i, (text, strong) in enumerate(lines, start=1):
         cell = ws.cell(i, 1, text)
         cell.font = Font(name=FONT, bold=strong, size=13 if i == 1 else 11)
-        ws.row_dimensions[i].height = LINE * _lines(text, 80)
+        ws.row_dimensions[i].height = LINE * _lines(text, ABOUT_WIDTH * (0.8 if strong else 1))  # bold is wider
         cell.alignment = WRAP
-    ws.column_dimensions["A"].width = 80
+    ws.column_dimensions["A"].width = ABOUT_WIDTH
     ws.print_area = f"A1:A{len(lines)}"
     ws.page_setup.paperSize = ws.PAPERSIZE_A4
     ws.page_setup.fitToWidth, ws.page_setup.fitToHeight = 1, 0
