@@ -55,8 +55,11 @@ def _freeze(args) -> int:
 
 
 def _report(args) -> int:
-    from .report import run
-
+    try:
+        from .report import run
+    except ImportError as err:  # the report extra is not installed
+        print(f"degreewise report needs {err.name}: pip install \"degreewise[report]\"", file=sys.stderr)
+        return 2
     return run(args.paths, args.out, args.paper)
 
 

@@ -76,7 +76,9 @@ class Section:
 
     @property
     def order(self):
-        return self.tables["order"]
+        """The order of the curve the tables describe (CALIB_STATS's), else CALIB_ORDER's answer or message."""
+        chosen = self.stat("order")
+        return chosen if chosen is not None else self.tables["order"]
 
     def stat(self, label: str):
         return next((r[1] for r in self.tables["stats"][1:] if r[0] == label), None)
@@ -96,14 +98,19 @@ class Section:
         orders = self.tables["orders"]
         max_order = len(orders) - 1 if isinstance(orders, list) and len(orders) > 1 else None
         order = s.get("order")
+
+        def given(name: str, default: str) -> str:
+            v = s.get(name)
+            return default + " (default)" if v is None else where(v) if isinstance(v, Area) else number(v)
+
         return [
-            ("rule", f"{s['rule']}" if s.get("rule") else f"{engine.DEFAULT_RULE} (default)"),
-            ("alpha", number(s["alpha"]) if s.get("alpha") is not None else "0.05 (default)"),
+            ("rule", given("rule", engine.DEFAULT_RULE)),
+            ("alpha", given("alpha", "0.05")),
             ("max order", (number(max_order) + ("" if s.get("max_order") is not None else " (default)"))
              if max_order else "n/a"),
             ("order", f"{number(self.order)} from {where(order)}" if isinstance(order, Area)
              else number(order) if order is not None else f"{number(self.order)}, chosen by the rule"),
-            ("level", number(s["level"]) if s.get("level") is not None else "0.95 (default)"),
+            ("level", given("level", "0.95")),
             ("weights", str(self.stat("weights") or "none")),
             ("exclude", where(self.args["exclude"]) if isinstance(self.args.get("exclude"), Area) else "none"),
         ]
