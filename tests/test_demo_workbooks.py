@@ -10,7 +10,7 @@ import pytest
 
 import degreewise
 from degreewise.cli import main
-from degreewise.demo import GRID, LAYOUT
+from degreewise.demo import GRID, LAYOUT, samples_anchor
 from degreewise.refresh import refresh_file
 from degreewise.scenarios import all_scenarios
 
@@ -54,18 +54,21 @@ def test_cached_values_equal_a_fresh_computation(name):
         "stats": degreewise.calib_stats(xs, ys, order, w),
         "checks": degreewise.calib_checks(xs, ys, order, None, w),
         "residuals": degreewise.calib_residuals(xs, ys, order, w),
-        "predict": degreewise.calib_predict(xs, ys, [[ws.cell(r, 26).value] for r in range(2, GRID + 2)], order, None, w),
+        "predict": degreewise.calib_predict(xs, ys, block(ws, LAYOUT["grid"], GRID, 1), order, None, w),
     }
+    anchors = dict(LAYOUT)
     if sc.samples:
-        readings = [[ws.cell(r, 34).value] for r in range(2, len(sc.samples) + 2)]
+        readings = block(ws, samples_anchor(n), len(sc.samples), 1)
+        assert [r[0] for r in readings] == list(sc.samples)
         expected["inverse"] = degreewise.calib_inverse(xs, ys, readings, None, order, None, w)
+        anchors["inverse"] = ws[samples_anchor(n)].offset(0, 1).coordinate
     for key, table in expected.items():
         width = max(len(r) for r in table)
-        got = block(ws, LAYOUT[key], len(table), width)
+        got = block(ws, anchors[key], len(table), width)
         want = [list(r) + [None] * (width - len(r)) for r in table]
         assert same_numbers(got, want), (key, got, want)
-    assert block(ws, "Q1", 1, 8) == degreewise.calib_labels("residuals")
-    assert block(ws, "AA1", 1, 6) == degreewise.calib_labels("predict")
+    assert block(ws, ws[LAYOUT["residuals"]].offset(-1, 0).coordinate, 1, 8) == degreewise.calib_labels("residuals")
+    assert block(ws, ws[LAYOUT["predict"]].offset(-1, 0).coordinate, 1, 6) == degreewise.calib_labels("predict")
 
 
 def test_each_scenario_shows_what_it_was_built_to_show():
@@ -84,7 +87,8 @@ def test_each_scenario_shows_what_it_was_built_to_show():
     weighted = openpyxl.load_workbook(book("weighted"), data_only=True).worksheets[1]
     stats = dict(block(weighted, LAYOUT["stats"], 20, 2))
     assert stats["weights"] == "1/x^2"
-    inverse = block(weighted, LAYOUT["inverse"], len(SCENARIOS["weighted"].samples), 4)
+    inverse_at = weighted[samples_anchor(len(SCENARIOS["weighted"].x))].offset(0, 1).coordinate
+    inverse = block(weighted, inverse_at, len(SCENARIOS["weighted"].samples), 4)
     assert all(isinstance(r[0], float) and r[1] < r[0] < r[2] for r in inverse[:-1])
     assert inverse[-1][3].startswith("reading above the calibrated response range")
     residuals = block(weighted, LAYOUT["residuals"], len(SCENARIOS["weighted"].x), 8)
@@ -92,22 +96,42 @@ def test_each_scenario_shows_what_it_was_built_to_show():
 
 
 @pytest.mark.parametrize("name", sorted(SCENARIOS))
-def test_charts_read_the_spill_ranges(name):
+def test_charts_read_ranges_that_hold_numbers_with_visible_markers(name):
     sc = SCENARIOS[name]
     sheet = sc.name.capitalize()
     with zipfile.ZipFile(book(name)) as z:
-        charts = [z.read(n).decode() for n in sorted(z.namelist()) if n.startswith("xl/charts/chart")]
+        charts = [z.read(n).decode().replace(" />", "/>") for n in sorted(z.namelist())
+                  if n.startswith("xl/charts/chart")]
     assert len(charts) == 2
-    refs = [set(re.findall(r"<(?:c:)?f>([^<]+)</(?:c:)?f>", c)) for c in charts]
-    n, last = len(sc.x), GRID + 1
-    assert refs[0] == {f"'{sheet}'!$A$2:$A${n + 1}", f"'{sheet}'!$B$2:$B${n + 1}", f"'{sheet}'!$Z$2:$Z${last}",
-                       f"'{sheet}'!$AA$2:$AA${last}", f"'{sheet}'!$AD$2:$AD${last}",
-                       f"'{sheet}'!$AE$2:$AE${last}"}
-    assert refs[1] == {f"'{sheet}'!$A$2:$A${n + 1}", f"'{sheet}'!$R$2:$R${n + 1}"}
-    wb = openpyxl.load_workbook(book(name))
-    ws = wb[sheet]
-    assert ws["AA2"].value.ref == f"AA2:AF{last}"  # the fitted curve and band come from the PREDICT spill
-    assert ws["Q2"].value.ref == f"Q2:X{n + 1}"  # the residuals from the RESIDUALS spill
+    ws = openpyxl.load_workbook(book(name), data_only=True)[sheet]
+    n = len(sc.x)
+    for chart in charts:
+        for ref in re.findall(r"<(?:c:)?f>([^<]+)</(?:c:)?f>", chart):
+            where, cells = ref.split("!")
+            assert where == f"'{sheet}'"
+            values = [c.value for row in ws[cells.replace("$", "")] for c in row]
+            assert len(values) in (n, GRID), ref
+            assert all(isinstance(v, (int, float)) and math.isfinite(v) for v in values), ref
+        first = re.search(r"<(?:c:)?ser>.*?</(?:c:)?ser>", chart, re.S).group(0)  # the standards
+        assert re.search(r'<(?:c:)?marker><(?:c:)?symbol val="circle"/><(?:c:)?size val="6"/><(?:c:)?spPr>'
+                         r'<a:solidFill><a:srgbClr val="1F4E79"/>', first), first
+        logs = re.findall(r'<(?:c:)?logBase val="10(?:\.0)?"/>', chart)
+        assert len(logs) == {"weighted": 2 if chart is charts[0] else 1}.get(name, 0)
+    # the weighted fit's residual chart shows the deviation % of the back-calculated x
+    column = 6 if sc.weights else 1
+    resid = ws[LAYOUT["residuals"]].offset(0, column).column_letter
+    top = ws[LAYOUT["residuals"]].row
+    assert f"'{sheet}'!${resid}${top}:${resid}${top + n - 1}" in charts[1]
+
+
+def test_calibration_sheets_print_on_a_few_pages():
+    for name in SCENARIOS:
+        ws = openpyxl.load_workbook(book(name))[name.capitalize()]
+        assert ws.page_setup.orientation == "landscape" and ws.page_setup.fitToWidth == 1
+        assert ws.page_setup.fitToHeight == 0 and ws.sheet_properties.pageSetUpPr.fitToPage
+        assert ws.print_title_rows == "$1:$1"
+        assert ws.print_area.startswith("'%s'!$A$1:$O$" % name.capitalize())
+        assert [b.id for b in ws.row_breaks.brk] == [ws[LAYOUT["checks"]].row - 1, ws[LAYOUT["residuals"]].row - 2]
 
 
 def cached_values(path):
@@ -127,11 +151,21 @@ def test_demo_command_writes_refreshed_workbooks(tmp_path, capsys):
     assert main(["demo", str(tmp_path / "out")]) == 0
     out = capsys.readouterr().out
     assert sorted(p.name for p in (tmp_path / "out").iterdir()) == [
-        "degreewise-demo-curved.xlsx", "degreewise-demo-straight.xlsx", "degreewise-demo-weighted.xlsx"]
+        "degreewise-demo-curved-report.pdf", "degreewise-demo-curved.xlsx", "degreewise-demo-straight-report.pdf",
+        "degreewise-demo-straight.xlsx", "degreewise-demo-weighted-report.pdf", "degreewise-demo-weighted.xlsx"]
     assert ("chosen order 2: order 2 given as the order argument (a number, or a cell such as CALIB_ORDER with its "
             "own rule, alpha and max order); the default rule picks the same order: rule stepdown, alpha 0.05, max "
             "order 4: the highest term is tested first") in out
     assert "chosen order 1:" in out and "does not replace, method validation" in out
+    # units, points, levels, range, every setting, one way of writing p-values, and the reports written
+    assert "  x: tracer Q (ug/L), 21 points at 7 levels, from 0.5 to 40; y: detector counts" in out
+    assert ("  settings: rule stepdown (default); alpha 0.05 (default); max order 4 (default); order 1 from "
+            "'Weighted'!E1; level 0.95 (default); weights 1/x^2; exclude none") in out
+    for name in SCENARIOS:
+        report = tmp_path / "out" / f"degreewise-demo-{name}-report.pdf"
+        assert f"  report: {report}" in out and report.read_bytes().startswith(b"%PDF-")
+    p_values = re.findall(r"lack-of-fit p (\S+)", out)
+    assert len(p_values) == 3 and all(re.fullmatch(r"0\.\d{3}", p) for p in p_values)
 
 
 def test_validate_command(capsys):

@@ -1,4 +1,4 @@
-"""The ``degreewise`` command: demo, validate, refresh, addin."""
+"""The ``degreewise`` command: demo, validate, refresh, report, freeze, addin."""
 
 from __future__ import annotations
 
@@ -12,27 +12,23 @@ CAUTION = ("Degreewise supports, and does not replace, method validation under y
 def _demo(args) -> int:
     from pathlib import Path
 
-    import openpyxl
+    from .demo import write_demo
+    from .scenarios import all_scenarios
+    from .sections import sections, summary
 
-    from .demo import LAYOUT, write_demo
-
-    folder = Path(args.folder)
-    for path in write_demo(folder):
-        wb = openpyxl.load_workbook(path, data_only=True)
-        ws = wb.worksheets[1]
-        stats = {}
-        row = ws[LAYOUT["stats"]].row
-        while ws.cell(row, 4).value is not None:
-            stats[ws.cell(row, 4).value] = ws.cell(row, 5).value
-            row += 1
-        print(f"{wb.worksheets[0]['A2'].value}  [{path}]")
-        print(f"  chosen order {ws[LAYOUT['order']].value}: {stats['why this order']}")
-        row = ws[LAYOUT["coefs"]].row + 1
-        while ws.cell(row, 4).value is not None:
-            term, b, se = (ws.cell(row, c).value for c in (4, 5, 6))
-            print(f"    {term:<10} {b: .10g}  (std error {se:.3g})")
-            row += 1
-        print(f"  residual SD {stats['residual SD']:.6g}, R^2 {stats['R²']:.8f}, weights {stats['weights']}")
+    try:
+        from .report import report_path, write_report
+    except ImportError as err:  # the report extra is not installed
+        write_report, missing = None, err.name
+    for sc, path in zip(all_scenarios(), write_demo(Path(args.folder))):
+        found, _ = sections(path)
+        print(f"{sc.title}  [{path}]")
+        for s in found:
+            print("\n".join(summary(s)))
+        if write_report:
+            print(f"  report: {write_report(path, report_path(path, None))[0]}")
+        else:
+            print(f"  no report: {missing} is not installed (pip install \"degreewise[report]\")")
         print()
     print(CAUTION)
     return 0
@@ -50,6 +46,21 @@ def _refresh(args) -> int:
     from .refresh import run
 
     return run(args.paths, check=args.check, backup=args.backup, jobs=args.jobs)
+
+
+def _freeze(args) -> int:
+    from .freeze import run
+
+    return run(args.book, args.out)
+
+
+def _report(args) -> int:
+    try:
+        from .report import run
+    except ImportError as err:  # the report extra is not installed
+        print(f"degreewise report needs {err.name}: pip install \"degreewise[report]\"", file=sys.stderr)
+        return 2
+    return run(args.paths, args.out, args.paper)
 
 
 def _addin(args) -> int:
@@ -75,6 +86,15 @@ def main(argv=None) -> int:
                    help="processes to use (default: one per CPU core): several workbooks at a time, "
                         "or the sheets of one large workbook")
     p.set_defaults(run=_refresh)
+    p = sub.add_parser("freeze", help="write a copy whose CALIB_* formulas are replaced by their values")
+    p.add_argument("book", help="the workbook (.xlsx, .xlsm); it is not changed")
+    p.add_argument("out", help="the copy to write (a folder: the same file name in it)")
+    p.set_defaults(run=_freeze)
+    p = sub.add_parser("report", help="write a printable PDF calibration report for each workbook")
+    p.add_argument("paths", nargs="+", help="workbooks (.xlsx, .xlsm) or folders searched recursively")
+    p.add_argument("--out", help="folder for the reports (default: beside each workbook)")
+    p.add_argument("--paper", choices=("a4", "letter"), default="a4", help="page size (default: a4)")
+    p.set_defaults(run=_report)
     p = sub.add_parser("addin", help="write the xlwings settings for the desktop add-in and print the steps")
     p.add_argument("--config", help="settings file to write (default: the xlwings user settings file)")
     p.set_defaults(run=_addin)

@@ -1,32 +1,51 @@
 """The demo workbooks: invented calibrations laid out with CALIB_* formulas and native charts.
 
 One workbook per scenario (see ``scenarios``). Each calibration sheet holds the
-standards, the order choice, the tables, the aligned residuals and a fine-grid
-prediction spill with CALIB_LABELS headers, and two scatter charts that read
-the spill ranges (curve with prediction band; residuals against x), so they
-follow a refresh. The weighted scenario adds unknown samples read back with
+standards, the order choice, the tables, the back-calculated standards and a
+fine-grid prediction spill with CALIB_LABELS headers, and two scatter charts
+that read the spill ranges (standards with visible markers, curve and
+prediction band, log axes where the range or the weighting asks for them;
+residuals against x, or the deviation % of the back-calculated x for a
+weighted fit), so they follow a refresh. Header cells are styled before the
+refresh fills them, texts wrap, and each sheet prints as its calibration on a
+few landscape pages. The weighted scenario adds unknown samples read back with
 CALIB_INVERSE. A first sheet states the scenario and the cautions.
 """
 
 from __future__ import annotations
 
+import math
 from pathlib import Path
 
 import numpy as np
 from openpyxl import Workbook
 from openpyxl.chart import Reference, ScatterChart, Series
-from openpyxl.styles import Font
+from openpyxl.styles import Alignment, Font, PatternFill
+from openpyxl.utils import get_column_letter, range_boundaries
+from openpyxl.worksheet.pagebreak import Break
 
-from .labels import CAUTION
+from .labels import CAUTION, HEADERS
 from .scenarios import Scenario, all_scenarios
 
 GRID = 41  # points of the fine x grid for the fitted curve
 
-# where each block sits on a calibration sheet (anchor cells); tables spill right and down
+# where each block sits on a calibration sheet (anchor cells); tables spill right and down. Columns A:O read
+# top to bottom as the printed page (orders, sequential table, coefficients; the charts beside the statistics
+# and the checks; the back-calculated standards and the samples below); the chart data (x grid and
+# prediction spill) sit to the right of the print area.
 LAYOUT = {
-    "order": "E1", "orders": "D3", "seqf": "D10", "coefs": "D22", "stats": "D30", "checks": "D51",
-    "residuals": "Q2", "grid": "Z2", "predict": "AA2", "samples": "AH2", "inverse": "AI2", "charts": "D64",
+    "order": "E1", "orders": "D3", "seqf": "D9", "coefs": "D19", "stats": "N26", "checks": "K47",
+    "curve_chart": "D26", "residual_chart": "D48", "residuals": "D66", "grid": "Z2", "predict": "AA2",
 }
+WIDTHS = {"A": 17, "B": 17, "C": 2, "D": 22, "K": 16, "N": 14, "O": 50}  # the others: NUMBER_WIDTH
+NUMBER_WIDTH = 12.5
+FONT = "Calibri"  # the workbook's default font, named so that styled cells keep it
+HEADER_FONT = Font(name=FONT, bold=True, color="1F3B57")
+LINE = 15.0  # points per line of wrapped text
+HEADER_FILL = PatternFill("solid", fgColor="DDE5EE")
+WRAP = Alignment(wrap_text=True, vertical="top")
+MARKER = "1F4E79"
+ABOUT_WIDTH = 68  # the About sheet's one column: fits a portrait A4 or Letter page at full size
 
 
 def _args(sc: Scenario, n: int) -> tuple[str, str, str]:
@@ -41,79 +60,209 @@ def _formula(name: str, *args: str) -> str:
     return f"={name}({','.join(args)})"
 
 
+def _log_axes(sc: Scenario) -> bool:
+    """Log axes when the standards span more than two decades or the fit is weighted."""
+    return min(sc.x) > 0 and (max(sc.x) / min(sc.x) > 100 or sc.weights is not None)
+
+
+def _header(ws, cells: str) -> None:
+    """Style a header row (the cells a table's header will fill; the refresh keeps cell styles)."""
+    for row in ws[cells]:
+        for c in row:
+            c.font, c.fill, c.alignment = HEADER_FONT, HEADER_FILL, WRAP
+
+
+def _wrap(ws, cells: str) -> None:
+    for row in ws[cells]:
+        for c in row:
+            c.alignment = WRAP
+
+
+def _cell(anchor: str, rows: int = 0, cols: int = 0) -> str:
+    col, row, _, _ = range_boundaries(anchor)
+    return f"{get_column_letter(col + cols)}{row + rows}"
+
+
+def _span(anchor: str, rows: int, cols: int) -> str:
+    """The range of ``rows`` x ``cols`` cells from ``anchor``."""
+    return f"{anchor}:{_cell(anchor, rows - 1, cols - 1)}"
+
+
+def samples_anchor(n: int) -> str:
+    """The first sample reading, two rows below the back-calculated standards of ``n`` standards; the
+    CALIB_INVERSE anchor is the cell to its right."""
+    return _cell(LAYOUT["residuals"], n + 2)
+
+
 def calibration_sheet(wb: Workbook, sc: Scenario):
     ws = wb.create_sheet(sc.name.capitalize())
     n = len(sc.x)
-    bold = Font(bold=True)
     ws["A1"], ws["B1"] = sc.x_label, sc.y_label
-    ws["A1"].font = ws["B1"].font = bold
     for i, (a, b) in enumerate(zip(sc.x, sc.y), start=2):
         ws.cell(i, 1, a)
         ws.cell(i, 2, b)
     x, y, w = _args(sc, n)
     order = "$E$1"
     ws["D1"] = "chosen order"
-    ws["D1"].font = bold
     ws[LAYOUT["order"]] = _formula("CALIB_ORDER", x, y, "", "", "", w)
+    ws[LAYOUT["order"]].font = Font(name=FONT, bold=True, size=13)
     ws[LAYOUT["orders"]] = _formula("CALIB_ORDERS", x, y, "", "", w)
     ws[LAYOUT["seqf"]] = _formula("CALIB_SEQF", x, y, "", w)
     ws[LAYOUT["coefs"]] = _formula("CALIB_COEFS", x, y, order, "", w)
     ws[LAYOUT["stats"]] = _formula("CALIB_STATS", x, y, order, w)
     ws[LAYOUT["checks"]] = _formula("CALIB_CHECKS", x, y, order, "", w)
-    ws["Q1"] = '=CALIB_LABELS("residuals")'
-    ws[LAYOUT["residuals"]] = _formula("CALIB_RESIDUALS", x, y, order, w)
-    ws["Z1"] = "x grid"
-    ws["Z1"].font = bold
-    grid = np.linspace(min(sc.x), max(sc.x), GRID)
-    for i, v in enumerate(grid, start=2):
-        ws.cell(i, 26, float(v))
-    ws["AA1"] = '=CALIB_LABELS("predict")'
-    ws[LAYOUT["predict"]] = _formula("CALIB_PREDICT", x, y, f"$Z$2:$Z${GRID + 1}", order, "", w)
+    residuals = LAYOUT["residuals"]
+    ws[_cell(residuals, -1)] = '=CALIB_LABELS("residuals")'
+    ws[residuals] = _formula("CALIB_RESIDUALS", x, y, order, w)
+    grid_at, predict = LAYOUT["grid"], LAYOUT["predict"]
+    ws[_cell(grid_at, -1)] = "x grid"
+    lo, hi = min(sc.x), max(sc.x)
+    grid = np.geomspace(lo, hi, GRID) if _log_axes(sc) else np.linspace(lo, hi, GRID)
+    first = ws[grid_at]
+    for i, v in enumerate(grid):
+        ws.cell(first.row + i, first.column, float(v))
+    grid_range = f"${first.column_letter}${first.row}:${first.column_letter}${first.row + GRID - 1}"
+    ws[_cell(predict, -1)] = '=CALIB_LABELS("predict")'
+    ws[predict] = _formula("CALIB_PREDICT", x, y, grid_range, order, "", w)
+    last = _cell(residuals, n - 1)
+    headers = [_span("A1", 1, 2), _span("D1", 1, 1), _span(LAYOUT["orders"], 1, 12), _span(LAYOUT["seqf"], 1, 6),
+               _span(LAYOUT["coefs"], 1, 7), _span(LAYOUT["stats"], 1, 2), _span(LAYOUT["checks"], 1, 5),
+               _span(_cell(residuals, -1), 1, 8), _span(_cell(grid_at, -1), 1, 1), _span(_cell(predict, -1), 1, 6)]
     if sc.samples:
-        ws["AH1"] = "sample reading"
-        ws["AH1"].font = bold
-        for i, v in enumerate(sc.samples, start=2):
-            ws.cell(i, 34, v)
-        ws["AI1"] = '=CALIB_LABELS("inverse")'
-        ws[LAYOUT["inverse"]] = _formula("CALIB_INVERSE", x, y, f"$AH$2:$AH${len(sc.samples) + 1}", "", order, "",
-                                         w)
+        at = samples_anchor(n)
+        ws[_cell(at, -1)] = "sample reading"
+        for i, v in enumerate(sc.samples):
+            ws[_cell(at, i)] = v
+        inverse = _cell(at, 0, 1)
+        ws[_cell(inverse, -1)] = '=CALIB_LABELS("inverse")'
+        readings = f"${at[0]}${ws[at].row}:${at[0]}${ws[at].row + len(sc.samples) - 1}"
+        ws[inverse] = _formula("CALIB_INVERSE", x, y, readings, "", order, "", w)
+        headers.append(_span(_cell(at, -1), 1, 5))
+        last = _cell(inverse, len(sc.samples) - 1, 3)
+    for h in headers:
+        _header(ws, h)
+    _wrap(ws, _span(_cell(LAYOUT["orders"], 1, 11), 4, 1))   # picked by
+    _wrap(ws, _span(_cell(LAYOUT["stats"], 1), 30, 2))       # labels and values, among them why this order
+    _wrap(ws, _span(_cell(LAYOUT["checks"], 1), 15, 5))      # check names and details
+    for col in range(1, 16):
+        letter = get_column_letter(col)
+        ws.column_dimensions[letter].width = WIDTHS.get(letter, NUMBER_WIDTH)
+    for col in range(first.column, first.column + 7):
+        ws.column_dimensions[get_column_letter(col)].width = NUMBER_WIDTH
+    _row_heights(ws, sc)
+    _page_setup(ws, f"A1:O{ws[last].row}", (ws[LAYOUT["checks"]].row - 1, ws[residuals].row - 2))
     _charts(ws, sc, n)
     return ws
 
 
-def _series(ws, x_col, y_col, first, last, title, marker=False, dash=None):
-    s = Series(Reference(ws, min_col=y_col, min_row=first, max_row=last),
-               Reference(ws, min_col=x_col, min_row=first, max_row=last), title=title)
-    if marker:
+def _lines(text, width: float) -> int:
+    """Lines a wrapped text takes in a column ``width`` characters wide (a character-count estimate)."""
+    return max(1, *(math.ceil(len(part) / (1.2 * width)) for part in str(text or "").split("\n")))
+
+
+def _row_heights(ws, sc: Scenario) -> None:
+    """Heights for rows whose wrapped texts need more than one line (spreadsheet programs do not fit rows
+    on opening a file); the texts are those the functions return for this calibration."""
+    from . import functions
+
+    x, y = [[v] for v in sc.x], [[v] for v in sc.y]
+    order = functions.calib_order(x, y, None, None, None, sc.weights)
+    blocks = [(LAYOUT["stats"], functions.calib_stats(x, y, order, sc.weights)),
+              (LAYOUT["checks"], functions.calib_checks(x, y, order, None, sc.weights)),
+              (LAYOUT["orders"], functions.calib_orders(x, y, None, None, sc.weights)),
+              (_cell(LAYOUT["residuals"], -1), [HEADERS["residuals"]]), ("A1", [(sc.x_label, sc.y_label)])]
+    if sc.samples:
+        blocks.append((_cell(samples_anchor(len(sc.x)), -1), [("sample reading",) + HEADERS["inverse"]]))
+    need: dict[int, int] = {}
+    for anchor, rows in blocks:
+        col0, row0, _, _ = range_boundaries(anchor)
+        for i, row in enumerate(rows):
+            for j, value in enumerate(row):
+                width = ws.column_dimensions[get_column_letter(col0 + j)].width or NUMBER_WIDTH
+                if isinstance(value, str):
+                    need[row0 + i] = max(need.get(row0 + i, 1), _lines(value, width))
+    for r, lines in need.items():
+        if lines > 1:
+            ws.row_dimensions[r].height = LINE * lines
+
+
+def _page_setup(ws, area: str, breaks: tuple[int, ...]) -> None:
+    """Landscape A4, fitted to one page wide, row 1 repeated on every page, the calibration as print area,
+    pages broken after the rows ``breaks`` (so that no chart or table is cut)."""
+    ws.print_area = area
+    ws.print_title_rows = "1:1"
+    ws.page_setup.orientation = "landscape"
+    ws.page_setup.paperSize = ws.PAPERSIZE_A4
+    ws.page_setup.fitToWidth, ws.page_setup.fitToHeight = 1, 0
+    ws.sheet_properties.pageSetUpPr.fitToPage = True
+    ws.print_options.gridLines = False
+    ws.oddFooter.center.text = "&A, page &P of &N"
+    ws.freeze_panes = "A2"
+    for row in breaks:
+        ws.row_breaks.append(Break(id=row))
+
+
+def _series(ws, x_ref: str, y_ref: str, title, marker=False, dash=None):
+    s = Series(Reference(ws, range_string=y_ref), Reference(ws, range_string=x_ref), title=title)
+    if marker:  # filled markers, no line
         s.marker.symbol = "circle"
+        s.marker.size = 6
+        s.marker.graphicalProperties.solidFill = MARKER
+        s.marker.graphicalProperties.line.solidFill = MARKER
         s.graphicalProperties.line.noFill = True
     else:
         s.marker.symbol = "none"
         s.smooth = False
+        s.graphicalProperties.line.width = 19050  # 1.5 pt
         if dash:
             s.graphicalProperties.line.dashStyle = dash
     return s
 
 
+def _column(ws, anchor: str, offset: int, rows: int) -> str:
+    """Absolute range of ``rows`` cells in the column ``offset`` to the right of ``anchor``."""
+    top = _cell(anchor, 0, offset)
+    col, row, _, _ = range_boundaries(top)
+    letter = get_column_letter(col)
+    return f"'{ws.title}'!${letter}${row}:${letter}${row + rows - 1}"
+
+
+def _chart(title: str, x_title: str, y_title: str, log: bool) -> ScatterChart:
+    chart = ScatterChart()
+    chart.title = title
+    chart.style = 2
+    chart.x_axis.title, chart.y_axis.title = x_title, y_title
+    for axis in (chart.x_axis, chart.y_axis):
+        axis.delete = False
+        if log:
+            axis.scaling.logBase = 10
+    chart.x_axis.tickLblPos = "low"  # labels at the bottom, also when values go below zero
+    chart.legend.position = "b"
+    return chart
+
+
 def _charts(ws, sc: Scenario, n: int) -> None:
-    curve = ScatterChart()
-    curve.title = f"{sc.title}: standards, fitted curve and prediction band"
-    curve.style = 13
-    curve.x_axis.title, curve.y_axis.title = sc.x_label, sc.y_label
-    curve.series.append(_series(ws, 1, 2, 2, n + 1, "standards", marker=True))
-    last = GRID + 1
-    curve.series.append(_series(ws, 26, 27, 2, last, "fitted"))            # AA: predicted y
-    curve.series.append(_series(ws, 26, 30, 2, last, "prediction lower", dash="dash"))  # AD
-    curve.series.append(_series(ws, 26, 31, 2, last, "prediction upper", dash="dash"))  # AE
-    curve.width, curve.height = 18, 10
-    ws.add_chart(curve, LAYOUT["charts"])
-    resid = ScatterChart()
-    resid.title = "residuals against x"
-    resid.style = 13
-    resid.x_axis.title, resid.y_axis.title = sc.x_label, "residual"
-    resid.series.append(_series(ws, 1, 18, 2, n + 1, "residual", marker=True))  # R: residual
+    log = _log_axes(sc)
+    x = _column(ws, "A2", 0, n)
+    grid = _column(ws, LAYOUT["grid"], 0, GRID)
+    curve = _chart(f"{sc.title}: standards, fitted curve, prediction band" + (" (log axes)" if log else ""),
+                   sc.x_label, sc.y_label, log)
+    curve.series.append(_series(ws, x, _column(ws, "A2", 1, n), "standards", marker=True))
+    predict = LAYOUT["predict"]
+    curve.series.append(_series(ws, grid, _column(ws, predict, 0, GRID), "fitted"))
+    curve.series.append(_series(ws, grid, _column(ws, predict, 3, GRID), "prediction lower", dash="dash"))
+    curve.series.append(_series(ws, grid, _column(ws, predict, 4, GRID), "prediction upper", dash="dash"))
+    curve.width, curve.height = 18, 9.5
+    ws.add_chart(curve, LAYOUT["curve_chart"])
+    # weighted fit: the deviation % of the back-calculated x (raw residuals fan out by design); else residuals
+    column, label = (6, "deviation of back-calculated x (%)") if sc.weights else (1, "residual")
+    resid = _chart(f"{label} against x", sc.x_label, label, False)
+    if log:
+        resid.x_axis.scaling.logBase = 10
+    resid.series.append(_series(ws, x, _column(ws, LAYOUT["residuals"], column, n), label, marker=True))
+    resid.legend = None
     resid.width, resid.height = 18, 8
-    ws.add_chart(resid, "P64")
+    ws.add_chart(resid, LAYOUT["residual_chart"])
 
 
 def about_sheet(wb: Workbook, sc: Scenario) -> None:
@@ -125,12 +274,20 @@ def about_sheet(wb: Workbook, sc: Scenario) -> None:
         (sc.story, False),
         ("The data are invented for this demonstration (seeded random numbers); no real instrument or sample.", False),
         (f"Weights: {sc.weights or 'none'}. The calibration sheet holds every CALIB_* function; "
-         "'degreewise refresh' recomputes them without a spreadsheet program.", False),
+         "'degreewise refresh' recomputes them without a spreadsheet program, 'degreewise report' writes a "
+         "printable PDF of each calibration, and 'degreewise freeze' writes a copy with values only.", False),
         ("Caution: " + CAUTION, True),
     ]
     for i, (text, strong) in enumerate(lines, start=1):
-        ws.cell(i, 1, text).font = Font(bold=strong)
-    ws.column_dimensions["A"].width = 110
+        cell = ws.cell(i, 1, text)
+        cell.font = Font(name=FONT, bold=strong, size=13 if i == 1 else 11)
+        ws.row_dimensions[i].height = LINE * _lines(text, ABOUT_WIDTH * (0.8 if strong else 1))  # bold is wider
+        cell.alignment = WRAP
+    ws.column_dimensions["A"].width = ABOUT_WIDTH
+    ws.print_area = f"A1:A{len(lines)}"
+    ws.page_setup.paperSize = ws.PAPERSIZE_A4
+    ws.page_setup.fitToWidth, ws.page_setup.fitToHeight = 1, 0
+    ws.sheet_properties.pageSetUpPr.fitToPage = True
 
 
 def build(sc: Scenario, path: Path) -> Path:

@@ -1,0 +1,249 @@
+"""`degreewise report` and `degreewise freeze`, checked on the committed demo workbooks.
+
+The report's text is read back with poppler's pdftotext and its pages rendered
+with pdftoppm (the tests skip without them); the frozen copy is opened by
+LibreOffice when it is installed. Numbers in the report are compared with the
+worksheet functions called directly on the standards (not through the report's
+own code), formatted to the digits the report shows.
+"""
+
+import math
+import re
+import shutil
+import subprocess
+import zipfile
+from pathlib import Path
+
+import openpyxl
+import pytest
+
+import degreewise
+from degreewise.cli import main
+from degreewise.freeze import freeze
+from degreewise.refresh import refresh_file
+from degreewise.report import write_report
+from degreewise.scenarios import all_scenarios
+from degreewise.sections import number
+
+FOLDER = Path(__file__).resolve().parent.parent / "workbooks"
+SCENARIOS = {sc.name: sc for sc in all_scenarios()}
+POPPLER = shutil.which("pdftotext") and shutil.which("pdftoppm") and shutil.which("pdfinfo")
+needs_poppler = pytest.mark.skipif(not POPPLER, reason="poppler (pdftotext, pdftoppm) is not installed")
+PAGE_WIDTH = {"a4": 595.2756, "letter": 612.0}  # points (ISO 216 and ANSI sizes)
+PAGE_HEIGHT = {"a4": 841.8898, "letter": 792.0}
+
+
+def words(text: str) -> str:
+    return " ".join(text.split())
+
+
+def pdf_text(path: Path, page: int | None = None) -> str:
+    """The text of the PDF (or one page), each table row on one line (pdftotext -layout)."""
+    pages = ["-f", str(page), "-l", str(page)] if page else []
+    return subprocess.run(["pdftotext", "-layout", *pages, str(path), "-"], capture_output=True, text=True,
+                          check=True).stdout
+
+
+def page_count(path: Path) -> int:
+    info = subprocess.run(["pdfinfo", str(path)], capture_output=True, text=True, check=True).stdout
+    return int(re.search(r"^Pages:\s+(\d+)", info, re.M).group(1))
+
+
+def standards(name):
+    sc = SCENARIOS[name]
+    return [[v] for v in sc.x], [[v] for v in sc.y], sc.weights
+
+
+@pytest.fixture(scope="module")
+def reports(tmp_path_factory):
+    folder = tmp_path_factory.mktemp("reports")
+    return {(name, paper): write_report(FOLDER / f"degreewise-demo-{name}.xlsx",
+                                        folder / f"{name}-{paper}.pdf", paper)[0]
+            for name in SCENARIOS for paper in ("a4", "letter")}
+
+
+@needs_poppler
+@pytest.mark.parametrize("paper", ["a4", "letter"])
+@pytest.mark.parametrize("name", sorted(SCENARIOS))
+def test_report_shows_what_the_functions_return(reports, name, paper):
+    pdf = reports[name, paper]
+    text = words(pdf_text(pdf))
+    x, y, w = standards(name)
+    order = degreewise.calib_order(x, y, None, None, None, w)
+    assert order == SCENARIOS[name].expected_order
+    assert f"Chosen order: {order}" in text
+    stats = dict(degreewise.calib_stats(x, y, order, w)[1:])
+    assert f"Why this order: {words(stats['why this order'])}" in text
+    for term, b, se, t, p, lower, upper in degreewise.calib_coefs(x, y, order, None, w)[1:]:
+        assert re.search(rf"{re.escape(term)} {re.escape(number(b, 10))} {re.escape(number(se))} ", text), term
+    for row in degreewise.calib_seqf(x, y, None, w)[1:]:  # the sequential table, row by row
+        assert " ".join(number(v) for v in row if v is not None) in text, row
+    assert "prepared by name" in text and "reviewed by name" in text and text.count("date ___") >= 2
+    assert "does not replace, method validation under the laboratory's quality system" in text
+    assert "reviewed by qualified staff" in text
+    assert "numpy" in text and "scipy" in text and f"degreewise {degreewise.VERSION}" in text
+
+
+@needs_poppler
+@pytest.mark.parametrize("paper", ["a4", "letter"])
+@pytest.mark.parametrize("name", sorted(SCENARIOS))
+def test_report_pages_render_none_blank_nothing_beyond_the_margins(reports, name, paper, tmp_path):
+    pdf = reports[name, paper]
+    pages = page_count(pdf)
+    assert pages == 3  # front matter and charts, tables, back-calculated standards and samples
+    subprocess.run(["pdftoppm", "-r", "30", "-png", str(pdf), str(tmp_path / "p")], check=True)
+    assert len(list(tmp_path.glob("p-*.png"))) == pages
+    for page in range(1, pages + 1):
+        body = [line for line in pdf_text(pdf, page).splitlines() if line.strip()]
+        assert len(body) > 5, page  # more than the two footer lines
+        assert f"page {page} of {pages}" in " ".join(body)
+    bbox = subprocess.run(["pdftotext", "-bbox", str(pdf), "-"], capture_output=True, text=True, check=True).stdout
+    lefts = [float(v) for v in re.findall(r'xMin="([\d.]+)"', bbox)]
+    rights = [float(v) for v in re.findall(r'xMax="([\d.]+)"', bbox)]
+    tops = [float(v) for v in re.findall(r'yMin="([\d.]+)"', bbox)]
+    bottoms = [float(v) for v in re.findall(r'yMax="([\d.]+)"', bbox)]
+    # at least 10 mm of white paper on every side (printers need about 5 mm), on either paper
+    edge = 10 * 72 / 25.4
+    assert min(lefts) >= edge and max(rights) <= PAGE_WIDTH[paper] - edge
+    assert min(tops) >= edge and max(bottoms) <= PAGE_HEIGHT[paper] - edge
+
+
+@needs_poppler
+def test_a_long_table_repeats_its_header_on_every_page(tmp_path):
+    """120 standards: the back-calculated table spans pages; each page it continues on starts with its header."""
+    wb = openpyxl.Workbook()
+    ws = wb.active
+    ws.title = "Long run"
+    ws["A1"], ws["B1"] = "x (mg/L)", "y (AU)"
+    for i in range(120):
+        x = float(i % 12 + 1)
+        ws.cell(i + 2, 1, x)
+        ws.cell(i + 2, 2, 0.1 + 0.5 * x + 0.01 * ((i * 7919) % 13 - 6))
+    ws["D1"] = "=CALIB_COEFS(A2:A121,B2:B121)"
+    book = tmp_path / "long.xlsx"
+    wb.save(book)
+    pdf = write_report(book, tmp_path / "long.pdf")[0]
+    pages = page_count(pdf)
+    first = next(p for p in range(1, pages + 1) if "Back-calculated standards" in pdf_text(pdf, p))
+    assert pages - first >= 2  # the table continues on at least two more pages
+    for page in range(first + 1, pages + 1):
+        lines = [line for line in pdf_text(pdf, page).splitlines() if line.strip()]
+        assert lines[:2] == ["x", "y"] or "back-calculated" in " ".join(lines[:12]), page
+
+
+def test_report_command_names_each_report_and_refuses_what_it_cannot_read(tmp_path, capsys):
+    bad = tmp_path / "broken.xlsx"
+    bad.write_bytes(b"not a zip")
+    assert main(["report", str(FOLDER / "degreewise-demo-straight.xlsx"), str(bad), "--out", str(tmp_path)]) == 1
+    out = capsys.readouterr().out
+    assert f"report with 1 calibration written to {tmp_path / 'degreewise-demo-straight-report.pdf'}" in out
+    assert f"{bad}: no report: not a workbook package (zip)" in out
+    assert (tmp_path / "degreewise-demo-straight-report.pdf").read_bytes().startswith(b"%PDF-")
+
+
+def sheet_parts_with_calib(path):
+    with zipfile.ZipFile(path) as z:
+        return {n for n in z.namelist() if n.startswith("xl/worksheets/") and b"CALIB_" in z.read(n)}
+
+
+@pytest.mark.parametrize("name", sorted(SCENARIOS))
+def test_freeze_keeps_values_and_every_other_part(name, tmp_path):
+    book = tmp_path / "book.xlsx"
+    shutil.copy(FOLDER / f"degreewise-demo-{name}.xlsx", book)
+    assert refresh_file(book).error is None
+    formula_parts = sheet_parts_with_calib(book)
+    out = tmp_path / "frozen.xlsx"
+    report = freeze(book, out)
+    assert report.error is None and len(report.refreshed) == 12
+    with zipfile.ZipFile(book) as a, zipfile.ZipFile(out) as b:
+        assert a.namelist() == b.namelist()
+        for n in a.namelist():
+            if n not in formula_parts | {"docProps/core.xml"}:
+                assert a.read(n) == b.read(n), n
+        for n in formula_parts:
+            assert not re.search(rb"<f[ >][^<]*CALIB_", b.read(n)), n
+        core = b.read("docProps/core.xml").decode()
+    assert re.search(rf"<dc:description>Frozen by Degreewise {re.escape(degreewise.VERSION)} on \d{{4}}-\d\d-\d\d ", core)
+    before = openpyxl.load_workbook(book, data_only=True)
+    after = openpyxl.load_workbook(out, data_only=True)
+    for ws in before.worksheets:
+        got = after[ws.title]
+        for row in ws.iter_rows():
+            for c in row:
+                assert got[c.coordinate].value == c.value, (ws.title, c.coordinate)
+    formulas = openpyxl.load_workbook(out)
+    assert not any(isinstance(c.value, str) and "CALIB_" in c.value and c.value.startswith("=")
+                   for ws in formulas.worksheets for row in ws.iter_rows() for c in row)
+    assert not any(type(c.value).__name__ == "ArrayFormula" for ws in formulas.worksheets for row in ws.iter_rows()
+                   for c in row)
+
+
+def test_freeze_refuses_to_overwrite_the_workbook(tmp_path, capsys):
+    book = tmp_path / "book.xlsx"
+    shutil.copy(FOLDER / "degreewise-demo-straight.xlsx", book)
+    original = book.read_bytes()
+    assert main(["freeze", str(book), str(book)]) == 1
+    assert main(["freeze", str(book), str(tmp_path)]) == 1  # a folder: the same name in it, the book itself
+    out = capsys.readouterr().out
+    assert out.count(f"{book}: not frozen: {book} is the workbook itself; give another name for the frozen copy") == 2
+    assert book.read_bytes() == original
+
+
+def test_freeze_refuses_when_a_formula_cannot_be_computed(tmp_path, capsys):
+    wb = openpyxl.Workbook()
+    ws = wb.active
+    for i, (x, y) in enumerate([(1, 2.1), (2, 3.9), (3, 6.2), (4, 7.8), (5, 10.1)], start=1):
+        ws.cell(i, 1, x), ws.cell(i, 2, y)
+    ws["D1"] = "=ROUND(CALIB_ORDER(A1:A5,B1:B5),0)"
+    book = tmp_path / "mixed.xlsx"
+    wb.save(book)
+    assert main(["freeze", str(book), str(tmp_path / "out.xlsx")]) == 1
+    out = capsys.readouterr().out
+    assert "not frozen: not every CALIB_* cell could be computed (listed below); nothing was written" in out
+    assert "  left alone Sheet!D1: " in out
+    assert not (tmp_path / "out.xlsx").exists()
+
+
+@pytest.mark.skipif(not shutil.which("soffice"), reason="LibreOffice is not installed")
+def test_libreoffice_shows_the_frozen_numbers(tmp_path):
+    out = tmp_path / "frozen.xlsx"
+    assert freeze(FOLDER / "degreewise-demo-weighted.xlsx", out).error is None
+    subprocess.run(["soffice", f"-env:UserInstallation=file://{tmp_path}/profile", "--headless", "--convert-to",
+                    "csv:Text - txt - csv (StarCalc):44,34,76,1,,0,false,true,false,false,false,-1",
+                    "--outdir", str(tmp_path), str(out)], check=True, capture_output=True, timeout=180)
+    text = (tmp_path / "frozen-Weighted.csv").read_text(encoding="utf-8")
+    assert "#NAME?" not in text
+    x, y, w = standards("weighted")
+    rows = list(map(lambda line: line.split(","), text.splitlines()))
+    coefs = degreewise.calib_coefs(x, y, 1, None, w)
+    shown = {r[3]: r[4] for r in rows if len(r) > 4}
+    for term, b, *_ in coefs[1:]:
+        assert math.isclose(float(shown[term]), b, rel_tol=1e-12), term  # LibreOffice writes 15 digits
+    picked = degreewise.calib_orders(x, y, None, None, w)[1][11]  # a text cell of a table, e.g. "stepdown, aicc"
+    assert "," in picked and f'"{picked}"' in text
+
+
+@needs_poppler
+def test_limits_appear_when_the_functions_provide_them(tmp_path, monkeypatch):
+    """The report shows the limits table only when the add-in has CALIB_LIMITS (a stand-in here, with the
+    columns the design fixes), evaluated with the calibration's order, alpha and weights."""
+    from degreewise import functions, refresh
+
+    seen = []
+
+    def calib_limits(x, y, blank=None, replicates=None, order=None, alpha=None, weights=None, exclude=None):
+        seen.append((order, alpha, weights))
+        return [["method", "critical response", "decision limit", "detection limit", "quantitation limit", "note"],
+                ["stand-in method", 0.125, 0.25, 0.5, 1.5, "a row of the stand-in"]]
+
+    book = FOLDER / "degreewise-demo-weighted.xlsx"
+    before = words(pdf_text(write_report(book, tmp_path / "before.pdf")[0]))
+    assert not hasattr(functions, "calib_limits") or "CALIB_LIMITS" in refresh.CALLABLE
+    if "Detection and quantitation limits" in before:  # the real function is there: nothing to stand in for
+        return
+    monkeypatch.setattr(functions, "calib_limits", calib_limits, raising=False)
+    monkeypatch.setitem(refresh.CALLABLE, "CALIB_LIMITS", calib_limits)
+    text = words(pdf_text(write_report(book, tmp_path / "after.pdf")[0]))
+    assert "Detection and quantitation limits" in text
+    assert "stand-in method 0.125 0.25 0.5 1.5 a row of the stand-in" in text
+    assert seen == [(1.0, None, "1/x^2")]  # the order from the sheet's CALIB_ORDER cell, default alpha

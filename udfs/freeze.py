@@ -1,0 +1,126 @@
+"""`degreewise freeze BOOK OUT`: a copy whose CALIB_* formulas are replaced by their values.
+
+The workbook is refreshed in memory first (``refresh.Refresher``, the same
+computation as `degreewise refresh`); then each CALIB_* anchor loses its
+formula and keeps its value, and text results become inline strings, which
+need no formula. The document properties' description says that the copy was
+frozen, when, and by which version. Only the sheets that held CALIB_* formulas
+and docProps/core.xml change; every other part stays byte for byte. A copy is
+written only when every CALIB_* cell was computed: a frozen value must be one
+the functions returned.
+"""
+
+from __future__ import annotations
+
+import os
+import re
+import tempfile
+import time
+from pathlib import Path
+
+from . import VERSION
+from .package import PackageError, SheetText, escape, read_package, write_package
+from .refresh import Refresher, Report
+
+CORE = "docProps/core.xml"
+CORE_TYPE = "application/vnd.openxmlformats-package.core-properties+xml"
+CORE_REL = "http://schemas.openxmlformats.org/package/2006/relationships/metadata/core-properties"
+CORE_XML = ('<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n<cp:coreProperties '
+            'xmlns:cp="http://schemas.openxmlformats.org/package/2006/metadata/core-properties" '
+            'xmlns:dc="http://purl.org/dc/elements/1.1/"></cp:coreProperties>')
+
+
+def frozen_cell(xml: str, p: str) -> str:
+    """One cell's XML without its formula (and without the dynamic-array mark); a text value inline."""
+    xml = re.sub(rf"<{p}f\b[^>]*?(?:/>|>.*?</{p}f>)", "", xml, flags=re.S)
+    xml = re.sub(r'\s+cm\s*=\s*"[^"]*"', "", xml, count=1)
+    m = re.match(rf'<{p}c\b([^>]*?)\bt="str"([^>]*)><{p}v>(.*?)</{p}v></{p}c>$', xml, re.S)
+    if m:
+        xml = f'<{p}c{m.group(1)}t="inlineStr"{m.group(2)}><{p}is><{p}t xml:space="preserve">{m.group(3)}' \
+              f"</{p}t></{p}is></{p}c>"
+    return xml
+
+
+def note(when: str) -> str:
+    return (f"Frozen by Degreewise {VERSION} on {when}: every CALIB_* formula was replaced by the value it "
+            "returned; the copy no longer recomputes.")
+
+
+def _describe(parts: dict[str, bytes], text: str) -> list[str]:
+    """docProps/core.xml with ``text`` put before any existing description; names of parts added."""
+    added = []
+    if CORE not in parts:
+        parts[CORE] = CORE_XML.encode()
+        added.append(CORE)
+        types = parts["[Content_Types].xml"].decode("utf-8")
+        parts["[Content_Types].xml"] = re.sub(
+            r"</(\w+:)?Types>", lambda m: f'<{m.group(1) or ""}Override PartName="/{CORE}" '
+            f'ContentType="{CORE_TYPE}"/></{m.group(1) or ""}Types>', types, count=1).encode("utf-8")
+        rels = parts["_rels/.rels"].decode("utf-8")
+        parts["_rels/.rels"] = re.sub(
+            r"</(\w+:)?Relationships>", lambda m: f'<{m.group(1) or ""}Relationship Id="rIdFrozenCore" '
+            f'Type="{CORE_REL}" Target="{CORE}"/></{m.group(1) or ""}Relationships>', rels, count=1).encode("utf-8")
+    xml = parts[CORE].decode("utf-8")
+    m = re.search(r"<dc:description>(.*?)</dc:description>", xml, re.S)
+    if m:
+        xml = xml[: m.start(1)] + escape(text) + "\n" + xml[m.start(1):]
+    else:
+        if "xmlns:dc=" not in xml:
+            xml = re.sub(r"<cp:coreProperties\b", '<cp:coreProperties xmlns:dc="http://purl.org/dc/elements/1.1/"',
+                         xml, count=1)
+        xml = re.sub(r"</cp:coreProperties>", f"<dc:description>{escape(text)}</dc:description></cp:coreProperties>",
+                     xml, count=1)
+    parts[CORE] = xml.encode("utf-8")
+    return added
+
+
+def freeze(book: Path, out: Path) -> Report:
+    """Write the frozen copy of ``book`` to ``out``; the report says what was computed, or why not."""
+    report = Report(book)
+    try:
+        if out.exists() and book.exists() and os.path.samefile(book, out):
+            raise PackageError(f"{out} is the workbook itself; give another name for the frozen copy")
+        infos, parts = read_package(book)
+        refresher = Refresher(parts)
+        changed, added = refresher.run(report, workers=1)
+        if report.blocked or report.left_alone or report.failed:
+            raise PackageError("not every CALIB_* cell could be computed (listed below); nothing was written")
+        parts.update(changed)
+        edits: dict[str, SheetText] = {}
+        for f in refresher.formulas:
+            part = refresher.book.sheets[f.sheet].part
+            text = edits.setdefault(part, SheetText(parts[part].decode("utf-8")))
+            text.set_cell(f.row, f.col, frozen_cell(text.rows[f.row][1][f.col], re.escape(text.p)))
+        for part, text in edits.items():
+            parts[part] = text.render().encode("utf-8")
+        added += _describe(parts, note(time.strftime("%Y-%m-%d %H:%M:%S %z")))
+        fd, tmp = tempfile.mkstemp(prefix=".~degreewise-", suffix=out.suffix, dir=out.parent)
+        os.close(fd)
+        try:
+            write_package(tmp, infos, parts, added)
+            os.replace(tmp, out)
+        finally:
+            if os.path.exists(tmp):
+                os.unlink(tmp)
+    except PackageError as err:
+        report.error = str(err)
+    except OSError as err:
+        report.error = f"{type(err).__name__}: {err}"
+    return report
+
+
+def run(book: str, out: str) -> int:
+    """The command: freeze one workbook; exit 0 on success, 1 otherwise."""
+    book_path, out_path = Path(book), Path(out)
+    if out_path.is_dir():
+        out_path = out_path / book_path.name
+    report = freeze(book_path, out_path)
+    if report.error:
+        print(f"{book_path}: not frozen: {report.error}")
+        for label, cells in (("blocked", report.blocked), ("left alone", report.left_alone),
+                             ("failed", report.failed)):
+            for cell, why in cells:
+                print(f"  {label} {cell}: {why}")
+        return 1
+    print(f"{book_path}: {len(report.refreshed)} CALIB_* formulas frozen into {out_path}")
+    return 0

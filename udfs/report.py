@@ -1,0 +1,374 @@
+"""`degreewise report`: a printable PDF per workbook, one section per calibration.
+
+The numbers come from ``sections`` (every table evaluated through the CALIB_*
+functions, as a refresh evaluates them). The document is laid out with
+reportlab's page-layout engine (Platypus: paragraphs wrap, tables split between
+pages with their header row repeated, page templates for the footer) and the
+charts are drawn with matplotlib (its object interface, no global plotting
+state), both long-maintained libraries. They are the optional extra
+``degreewise[report]``, which the worksheet functions never import. Text is set
+in DejaVu Sans, the font matplotlib ships, so that every character of the
+functions' words prints and the charts match the text.
+"""
+
+from __future__ import annotations
+
+import io
+import time
+from pathlib import Path
+from xml.sax.saxutils import escape
+
+import matplotlib
+from matplotlib.figure import Figure
+from reportlab.lib import colors
+from reportlab.lib.enums import TA_RIGHT
+from reportlab.lib.pagesizes import A4, LETTER
+from reportlab.lib.styles import ParagraphStyle
+from reportlab.lib.units import mm
+from reportlab.pdfbase import pdfmetrics
+from reportlab.pdfbase.ttfonts import TTFont
+from reportlab.pdfgen.canvas import Canvas
+from reportlab.platypus import Image, KeepTogether, PageBreak, Paragraph, SimpleDocTemplate, Spacer, Table, TableStyle
+
+from . import VERSION, functions
+from .labels import CAUTION
+from .package import PackageError
+from .refresh import workbooks
+from .sections import Section, number, sections, where
+
+PAPER = {"a4": A4, "letter": LETTER}
+MARGIN = 16 * mm
+FONT, BOLD = "DejaVuSans", "DejaVuSans-Bold"
+CAUTION_TEXT = ("Degreewise supports, and does not replace, method validation under the laboratory's quality "
+                "system and the standards that apply to its work. Every result in this report must be reviewed "
+                "by qualified staff before it is used.")
+SIGN_OFF = ("prepared by", "reviewed by")  # blank lines for names, signatures and dates (common practice)
+HEADER_FILL = colors.HexColor("#dde5ee")
+STANDARD_COLOUR, EXCLUDED_COLOUR, CURVE_COLOUR = "#1f4e79", "#c0392b", "#2e7d32"
+
+
+def _fonts() -> None:
+    folder = Path(matplotlib.get_data_path()) / "fonts" / "ttf"
+    for name in (FONT, BOLD):
+        if name not in pdfmetrics.getRegisteredFontNames():
+            pdfmetrics.registerFont(TTFont(name, str(folder / f"{name}.ttf")))
+    pdfmetrics.registerFontFamily(FONT, normal=FONT, bold=BOLD, italic=FONT, boldItalic=BOLD)
+
+
+def _style(name: str, size: float, bold: bool = False, **kw) -> ParagraphStyle:
+    return ParagraphStyle(name, fontName=BOLD if bold else FONT, fontSize=size, leading=size * 1.25, **kw)
+
+
+class _Styles:
+    def __init__(self):
+        self.title = _style("title", 15, True, spaceAfter=4)
+        self.h1 = _style("h1", 12.5, True, spaceBefore=2, spaceAfter=4, keepWithNext=1)
+        self.h2 = _style("h2", 10, True, spaceBefore=8, spaceAfter=3, keepWithNext=1)
+        self.body = _style("body", 8.5, spaceAfter=3)
+        self.order = _style("order", 11, True, spaceAfter=2)
+        self.caution = _style("caution", 8.5, True, borderColor=colors.HexColor("#b03a2e"), borderWidth=0.8,
+                              borderPadding=5, spaceBefore=6, spaceAfter=10)
+
+
+def _cell(v, size: float, bold: bool, right: bool, digits: int = 6) -> Paragraph:
+    style = _style(f"c{size}{bold}{right}", size, bold, alignment=TA_RIGHT if right else 0)
+    return Paragraph(escape(number(v, digits)), style)
+
+
+def _words(text: str) -> list[str]:
+    return text.split() or [""]
+
+
+def _table(rows, width: float, wrap=(), digits=None, size: float = 7.5) -> Table:
+    """A table that fits ``width``: each column as wide as its widest entry (header words may wrap), the
+    ``wrap`` columns sharing what is left (the font shrinks, down to 6 pt, until each of them gets 70 pt
+    or, without them, until the table fits); the header row repeats on every page the table spans."""
+    digits = digits or {}
+    ncol = max(len(r) for r in rows)
+    rows = [list(r) + [None] * (ncol - len(r)) for r in rows]
+    while True:
+        fixed = []
+        for j in range(ncol):
+            body = [pdfmetrics.stringWidth(number(r[j], digits.get(j, 6)), FONT, size) for r in rows[1:]]
+            head = [pdfmetrics.stringWidth(w, BOLD, size) for w in _words(str(rows[0][j] or ""))]
+            fixed.append(max(body + head) + 6)
+        free = width - sum(w for j, w in enumerate(fixed) if j not in wrap)
+        if (free >= 70 * len(wrap) if wrap else free >= 0) or size <= 6:
+            break
+        size -= 0.5
+    widths = list(fixed)
+    if wrap and sum(fixed) > width:
+        share = sum(fixed[j] for j in wrap)
+        for j in wrap:
+            widths[j] = max(free, 0) * fixed[j] / share
+    numeric = [all(isinstance(r[j], (int, float)) or r[j] is None for r in rows[1:]) for j in range(ncol)]
+
+    def right(i, j, v):  # numbers to the right, and the header over a column of numbers
+        return numeric[j] if i == 0 else isinstance(v, (int, float)) and not isinstance(v, bool)
+
+    cells = [[_cell(v, size, i == 0, right(i, j, v), digits.get(j, 6)) for j, v in enumerate(r)]
+             for i, r in enumerate(rows)]
+    t = Table(cells, colWidths=widths, repeatRows=1, hAlign="LEFT")
+    style = [("VALIGN", (0, 0), (-1, -1), "TOP"), ("LEFTPADDING", (0, 0), (-1, -1), 2),
+             ("RIGHTPADDING", (0, 0), (-1, -1), 2), ("TOPPADDING", (0, 0), (-1, -1), 1),
+             ("BOTTOMPADDING", (0, 0), (-1, -1), 1.5), ("LINEBELOW", (0, -1), (-1, -1), 0.4, colors.grey),
+             ("BACKGROUND", (0, 0), (-1, 0), HEADER_FILL), ("LINEBELOW", (0, 0), (-1, 0), 0.6, colors.black)]
+    style += [("BACKGROUND", (0, i), (-1, i), colors.HexColor("#f4f6f8")) for i in range(2, len(rows), 2)]
+    t.setStyle(TableStyle(style))
+    return t
+
+
+def _message(result) -> str | None:
+    """The one-cell message a function returns instead of a table, if it did."""
+    if isinstance(result, str):
+        return result
+    if isinstance(result, list) and len(result) == 1 and len(result[0]) == 1 and isinstance(result[0][0], str):
+        return result[0][0]
+    return None
+
+
+def _numbers(values):
+    return [v if isinstance(v, (int, float)) and not isinstance(v, bool) else None for v in values]
+
+
+def _chart_png(draw, width: float, height: float) -> Image:
+    fig = Figure(figsize=(width / 72, height / 72), dpi=200, layout="constrained")
+    draw(fig.add_subplot())
+    buf = io.BytesIO()
+    fig.savefig(buf, format="png")
+    buf.seek(0)
+    return Image(buf, width=width, height=height)
+
+
+def _points(s: Section, values) -> tuple[list, list]:
+    """(x, value) of the standards that have both, split into those fitted and those excluded (whose
+    diagnostics note says "excluded")."""
+    rows = s.tables["residuals"]
+    notes = [None] * len(s.x) if _message(rows) else [r[7] for r in rows]
+    kept, gone = [], []
+    for x, v, note in zip(_numbers(s.x), _numbers(values), notes):
+        if x is not None and v is not None:
+            (gone if str(note or "").startswith("excluded") else kept).append((x, v))
+    return kept, gone
+
+
+def _plot_points(ax, kept, gone) -> None:
+    if kept:
+        ax.plot(*zip(*kept), "o", ms=4, color=STANDARD_COLOUR, label="standards")
+    if gone:
+        ax.plot(*zip(*gone), "x", ms=6, mew=1.5, color=EXCLUDED_COLOUR, label="excluded")
+
+
+def _finish(ax, s: Section, title: str, y_label: str) -> None:
+    ax.set_xlabel(s.x_label or "x", fontsize=7)
+    ax.set_ylabel(y_label, fontsize=7)
+    ax.set_title(title, fontsize=8)
+    ax.tick_params(labelsize=6.5)
+    ax.grid(True, lw=0.3, alpha=0.6)
+
+
+def _curve_chart(s: Section, width: float, height: float) -> Image:
+    rows = s.tables.get("predict")
+    band = [] if not rows or _message(rows) else rows
+    grid = s.tables.get("grid", [])
+    level = s.settings.get("level")
+    lev = number(level * 100 if isinstance(level, (int, float)) else 95)
+    kept, gone = _points(s, s.y)
+
+    def draw(ax):
+        if band:
+            lower, upper = _numbers(r[3] for r in band), _numbers(r[4] for r in band)
+            ax.fill_between(grid, lower, upper, color=CURVE_COLOUR, alpha=0.15, lw=0,
+                            label=f"{lev} % prediction band")
+            ax.plot(grid, _numbers(r[0] for r in band), color=CURVE_COLOUR, lw=1.4,
+                    label=f"fitted, order {number(s.order)}")
+        else:
+            lower = []
+        _plot_points(ax, kept, gone)
+        if s.log_x:
+            ax.set_xscale("log")
+            if all(v is not None and v > 0 for v in [y for _, y in kept + gone] + lower):
+                ax.set_yscale("log")
+        _finish(ax, s, "standards, fitted curve, prediction band", s.y_label or "y")
+        ax.legend(fontsize=6, loc="best", frameon=False)
+
+    return _chart_png(draw, width, height)
+
+
+def _residual_chart(s: Section, width: float, height: float) -> Image:
+    """Residuals against x; for a weighted fit the deviation % of the back-calculated x (raw residuals
+    fan out by design there)."""
+    rows = s.tables["residuals"]
+    weighted = s.args.get("weights") is not None
+    column, label = (6, "deviation of back-calculated x (%)") if weighted else (1, f"residual ({s.y_label or 'y'})")
+    kept, gone = _points(s, [None] * len(s.x) if _message(rows) else [r[column] for r in rows])
+
+    def draw(ax):
+        _plot_points(ax, kept, gone)
+        if gone:
+            ax.legend(fontsize=6, frameon=False)
+        ax.axhline(0, color="black", lw=0.7)
+        if s.log_x:
+            ax.set_xscale("log")
+        _finish(ax, s, "deviation % against x (weighted fit)" if weighted else "residuals against x", label)
+
+    return _chart_png(draw, width, height)
+
+
+def _tables(s: Section, st: _Styles, width: float) -> list:
+    """Headed tables of one calibration (a function's message in words where it gave no table)."""
+    t = s.tables
+    flow = []
+
+    def add(title: str, rows, **kw):
+        flow.append(Paragraph(escape(title), st.h2))
+        message = _message(rows)
+        flow.append(Paragraph(escape(message), st.body) if message else _table(rows, width, **kw))
+
+    add("Coefficients (raw powers of x, in the units of x and y)", t["coefs"], digits={1: 10})
+    add("Sequential (Type I) table", t["seqf"])
+    add("Statistics of every order", t["orders"], wrap=(11,))
+    stats = t["stats"]
+    if not _message(stats):
+        stats = [r for r in stats if r[0] not in ("why this order", "caution")]
+    add("Statistics of the chosen order", stats, wrap=(1,))
+    checks = t["checks"]
+    if not _message(checks):
+        checks = [r for r in checks if r[0] != "caution"]
+    add("Checks of the curve", checks, wrap=(4,))
+    if "limits" in t:
+        add("Detection and quantitation limits", t["limits"], wrap=(5,))
+    res = t["residuals"]
+    if _message(res):
+        add("Back-calculated standards", res)
+    else:
+        rows = [["x", "y", "fitted", "residual", "back-calculated x", "deviation %", "note"]]
+        rows += [[x, y, r[0], r[1], r[5], r[6], r[7]] for x, y, r in zip(s.x, s.y, res)]
+        add("Back-calculated standards", rows, wrap=(6,))
+    for area, readings, result in s.readbacks:
+        title = f"Samples read back ({where(area)})"
+        if _message(result):
+            add(title, result)
+        else:
+            add(title, [["reading", "x estimate", "lower", "upper", "note"]]
+                + [[v, *r] for v, r in zip(readings, result)], wrap=(4,))
+    return flow
+
+
+def _section(s: Section, n: int, st: _Styles, width: float) -> list:
+    flow = [Paragraph(escape(f"Calibration {n}: sheet '{s.sheet}'"), st.h1),
+            Paragraph(escape(f"Standards: {s.ranges}. x: {s.x_label or 'x'}; y: {s.y_label or 'y'}."), st.body)]
+    order = s.order
+    if isinstance(order, str):
+        flow.append(Paragraph(escape(f"No order could be chosen: {order}"), st.order))
+    else:
+        flow.append(Paragraph(escape(f"Chosen order: {number(order)}"), st.order))
+        flow.append(Paragraph(escape(f"Why this order: {s.stat('why this order')}"), st.body))
+    settings = [["setting", "value"]] + [list(r) for r in s.setting_rows()]
+    flow.append(KeepTogether([Paragraph("Settings", st.h2), _table(settings, width, wrap=(1,))]))
+    half = (width - 8) / 2
+    charts = Table([[_curve_chart(s, half, half * 0.78), _residual_chart(s, half, half * 0.78)]],
+                   colWidths=[half + 4, half + 4], hAlign="LEFT")
+    charts.setStyle(TableStyle([("LEFTPADDING", (0, 0), (-1, -1), 0), ("RIGHTPADDING", (0, 0), (-1, -1), 4)]))
+    flow += [Spacer(1, 6), charts]
+    return flow + _tables(s, st, width)
+
+
+def _front(path: Path, found: list[Section], refresh_report, st: _Styles, width: float) -> list:
+    stamp = time.strftime("%Y-%m-%d %H:%M:%S %z")
+    flow = [Paragraph(escape(f"Calibration report: {path.name}"), st.title),
+            Paragraph(escape(f"Workbook: {path.resolve()}"), st.body),
+            Paragraph(escape(f"Computed: {stamp}, by the CALIB_* functions (the same computation as "
+                             f"'degreewise refresh'); {functions.calib_version()}"), st.body),
+            Paragraph(escape(f"Calibrations: {len(found)} (one per distinct set of standards that the workbook's "
+                             "CALIB_* formulas use)"), st.body)]
+    problems = ([(c, f"blocked: {w}") for c, w in refresh_report.blocked]
+                + [(c, f"left alone: {w}") for c, w in refresh_report.left_alone]
+                + [(c, f"failed: {w}") for c, w in refresh_report.failed])
+    if problems:
+        flow.append(Paragraph("Cells the computation could not fill (not in this report)", st.h2))
+        flow.append(_table([["cell", "why"]] + [list(p) for p in problems], width, wrap=(1,)))
+    flow.append(Paragraph(escape("Caution. " + CAUTION_TEXT), st.caution))
+    line = "_" * 34
+    sign = [[Paragraph(f"<b>{escape(who)}</b>", st.body), Paragraph(f"name {line}", st.body),
+             Paragraph(f"signature {'_' * 22}", st.body), Paragraph(f"date {'_' * 14}", st.body)] for who in SIGN_OFF]
+    table = Table(sign, colWidths=[0.14 * width, 0.36 * width, 0.3 * width, 0.2 * width], hAlign="LEFT")
+    table.setStyle(TableStyle([("TOPPADDING", (0, 0), (-1, -1), 9), ("LEFTPADDING", (0, 0), (-1, -1), 0)]))
+    return flow + [table, Spacer(1, 10)]
+
+
+def _canvas(footer: tuple[str, str]):
+    class Numbered(Canvas):
+        """Pages held back until the end, so that each footer can say "page n of N"."""
+
+        def __init__(self, *args, **kwargs):
+            super().__init__(*args, **kwargs)
+            self._held = []
+
+        def showPage(self):
+            self._held.append(dict(self.__dict__))
+            self._startPage()
+
+        def save(self):
+            for state in self._held:
+                self.__dict__.update(state)
+                w, _ = self._pagesize
+                self.setFillColor(colors.HexColor("#444444"))
+                self.setFont(FONT, 6.5)
+                self.drawString(MARGIN, 15 * mm, footer[0])
+                room = w - 2 * MARGIN  # the caution line shrinks to fit the narrower paper
+                self.setFont(FONT, min(6.5, 6.5 * room / pdfmetrics.stringWidth(footer[1], FONT, 6.5)))
+                self.drawString(MARGIN, 12 * mm, footer[1])
+                self.drawRightString(w - MARGIN, 15 * mm, f"page {self._pageNumber} of {len(self._held)}")
+                super().showPage()
+            super().save()
+
+    return Numbered
+
+
+def write_report(path: Path, out: Path, paper: str = "a4") -> tuple[Path, int]:
+    """Write the report of the workbook at ``path`` to the PDF ``out``; return it and its calibration count."""
+    found, refresh_report = sections(path)
+    if refresh_report.error:
+        raise PackageError(refresh_report.error)
+    if not found:
+        raise PackageError("no CALIB_* formula with standards (x and y ranges) in the workbook")
+    _fonts()
+    st = _Styles()
+    size = PAPER[paper]
+    doc = SimpleDocTemplate(str(out), pagesize=size, leftMargin=MARGIN, rightMargin=MARGIN, topMargin=MARGIN,
+                            bottomMargin=MARGIN + 8 * mm, title=f"Calibration report: {path.name}",
+                            author=f"Degreewise {VERSION}", subject="calibration report")
+    width = size[0] - 2 * MARGIN
+    story = _front(path, found, refresh_report, st, width)
+    for n, s in enumerate(found, start=1):
+        if n > 1:
+            story.append(PageBreak())
+        story += _section(s, n, st, width)
+    footer = (f"{path.name}: calibration report, Degreewise {VERSION}", f"Caution: {CAUTION}")
+    doc.build(story, canvasmaker=_canvas(footer))
+    return out, len(found)
+
+
+def report_path(book: Path, folder: Path | None) -> Path:
+    return (folder or book.parent) / f"{book.stem}-report.pdf"
+
+
+def run(paths, out: str | None = None, paper: str = "a4") -> int:
+    """The command: one report per workbook; exit 0 only when every report was written."""
+    files = workbooks(paths)
+    if not files:
+        print("no workbooks (.xlsx, .xlsm) found in " + ", ".join(map(str, paths)))
+        return 2
+    folder = Path(out) if out else None
+    if folder:
+        folder.mkdir(parents=True, exist_ok=True)
+    status = 0
+    for book in files:
+        try:
+            written, count = write_report(book, report_path(book, folder), paper)
+            print(f"{book}: report with {count} calibration{'s' if count != 1 else ''} written to {written}")
+        except (PackageError, OSError) as err:
+            print(f"{book}: no report: {err}")
+            status = 1
+    return status
