@@ -18,11 +18,13 @@ __all__ = ["VERSION", *FUNCTIONS]
 
 
 def __getattr__(name: str):
-    if name in FUNCTIONS:
+    """The functions, loaded on first use; also under their names in capitals, which is how the desktop
+    add-in's wrappers call them (``dir`` lists each function once, so that it gets one wrapper)."""
+    if name.lower() in FUNCTIONS:
         from . import functions
 
         globals().update({n: getattr(functions, n) for n in FUNCTIONS})
-        return globals()[name]
+        return globals()[name.lower()]
     raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
 
 

@@ -1,18 +1,24 @@
 """Cell values as the spreadsheet hands them to a function, turned into numbers or a clear message.
 
-What arrives: a scalar for one cell; nested lists for a range (a row, a column
-or a one-wide block); None for a blank; floats and ints; strings; booleans;
-error values as text ("#N/A", "#DIV/0!", ...) or, from the desktop add-in, as
-integer codes (the COM error numbers 0x800A07D0 + n, e.g. -2146826246 for
-#N/A; values recalled from memory of the COM interface). A cell holding only
-spaces or the empty text "" counts as blank.
+What arrives (every argument is declared 2-D with error values as text, see ``registration``): a list of
+rows for a range, a scalar or a one-cell list for one cell; None for a blank (the runtimes turn the empty
+text into None too); floats, and ints for whole numbers in the browser runtime; strings; booleans; error
+values as text ("#N/A", "#DIV/0!", ...) or, for the newer error values on the desktop, as integer codes
+(the COM error numbers 0x800A07D0 + n, e.g. -2146826246 for #N/A; values recalled from memory of the COM
+interface); Decimal for currency-formatted cells and datetime for date-formatted cells on the desktop.
+A cell holding only spaces counts as blank.
+
+Dates count as the number the cell holds, the serial day number (days since 1899-12-30): the browser
+runtime and the workbook file only ever see that number, so every runtime and the refresh agree.
 """
 
 from __future__ import annotations
 
+import datetime
+import decimal
 import math
 import numbers
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -22,9 +28,12 @@ ERROR_CODES = {
     -2146826259: "#NAME?", -2146826252: "#NUM!", -2146826246: "#N/A",
 }
 _COM_ERROR_BASE = -2146828288  # 0x800A0000; error values are this plus 2000..2100
+_COM_ERRORS = (_COM_ERROR_BASE + 2000, _COM_ERROR_BASE + 2100)
 ERROR_TEXTS = frozenset(ERROR_CODES.values()) | {
     "#SPILL!", "#CALC!", "#GETTING_DATA", "#FIELD!", "#BLOCKED!", "#CONNECT!", "#BUSY!", "#UNKNOWN!",
 }
+_EPOCH = datetime.datetime(1899, 12, 30)  # serial day 0 of the spreadsheet's dates (1900 date system)
+_DAY = datetime.timedelta(days=1)
 
 
 class CellError(Exception):
@@ -33,24 +42,40 @@ class CellError(Exception):
 
 @dataclass(frozen=True)
 class Cells:
-    """A range flattened to one dimension, with how to name a position in it."""
+    """A range as one sequence of cells, cut after its last filled cell, with how to name a position in it."""
 
     name: str
-    values: tuple
+    values: tuple  # the cells up to the last one that is not blank
     axis: str  # "row" for a column of cells, "column" for a row of cells
+    size: int  # cells in the range
 
     def where(self, i: int) -> str:
-        return f"{self.name}, {self.axis} {i + 1} of {len(self.values)}"
+        return f"{self.name}, {self.axis} {i + 1} of {self.size}"
+
+    def padded(self, n: int) -> "Cells":
+        """The first n cells, blanks added where the cut left fewer."""
+        return replace(self, values=self.values + (None,) * (n - len(self.values)))
 
 
 def is_blank(v) -> bool:
     return v is None or (isinstance(v, str) and v.strip() == "")
 
 
+def number(v) -> float:
+    """The number a cell holds; a date or time as its serial day number (days since 1899-12-30)."""
+    if isinstance(v, datetime.datetime):
+        return (v.replace(tzinfo=None) - _EPOCH) / _DAY
+    if isinstance(v, datetime.date):
+        return float((v - _EPOCH.date()).days)
+    return float(v)
+
+
 def describe(v) -> str | None:
     """Why v is not a usable number, or None when it is one."""
     if isinstance(v, bool):
         return f"the logical value {'TRUE' if v else 'FALSE'} is not a number"
+    if isinstance(v, (datetime.date, decimal.Decimal)):  # a date-formatted or currency-formatted cell
+        v = number(v)
     if isinstance(v, numbers.Integral):
         code = int(v)
         if code in ERROR_CODES:
@@ -78,51 +103,92 @@ def describe(v) -> str | None:
 
 
 def one_wide(value):
-    """The cells of a list of one-cell lists (a column as xlwings hands it over) as a tuple, else None."""
+    """The cells of a list of one-cell rows (a column as xlwings hands it over) as a tuple, else None.
+
+    (A flat list of one-character texts unpacks too, and means the same column.)"""
     if type(value) is not list:
         return None
     try:
-        cells = tuple([v for (v,) in value])
+        return tuple([v for (v,) in value])
     except (TypeError, ValueError):
         return None
-    return cells if set(map(type, value)) == {list} else None
+
+
+def filled_length(cells) -> int:
+    """How many leading cells to keep: up to the last one that is not None.
+
+    Whole-column references hand over about a million blank cells; they are counted in C (None is one
+    object, so each comparison is an identity test) over chunks that double from the end, then the chunk
+    holding the last filled cell is halved, so that the cut costs milliseconds.
+    """
+    n, step, lo = len(cells), 16, 0
+    while n:
+        lo = max(0, n - step)
+        if cells[lo:n].count(None) != n - lo:
+            break
+        n, step = lo, 2 * step
+    while n - lo > 16:
+        mid = (lo + n) // 2
+        if cells[mid:n].count(None) == n - mid:
+            n = mid
+        else:
+            lo = mid
+    while n and cells[n - 1] is None:
+        n -= 1
+    return n
 
 
 def flatten(value, name: str) -> Cells:
-    """A scalar, a row, a column or a one-wide block as one sequence of cells."""
+    """A scalar, a row, a column or a one-wide block as one sequence of cells, cut after its last filled cell."""
     if not isinstance(value, (list, tuple)):
-        return Cells(name, (value,), "row")
+        return Cells(name, () if is_blank(value) else (value,), "row", 1)
     column = one_wide(value)
     if column is not None:  # the usual case
-        return Cells(name, column, "row")
+        return Cells(name, column[:filled_length(column)], "row", len(value))
     rows = [list(r) if isinstance(r, (list, tuple)) else [r] for r in value]
     if not rows:
-        return Cells(name, (), "row")
+        return Cells(name, (), "row", 0)
     width = max(len(r) for r in rows)
     if len(rows) == 1 and width > 1:
-        return Cells(name, tuple(rows[0]), "column")
+        cells = rows[0]
+        return Cells(name, tuple(cells[:filled_length(cells)]), "column", width)
     if width == 1:
-        return Cells(name, tuple(r[0] if r else None for r in rows), "row")
+        cells = [r[0] if r else None for r in rows]
+        return Cells(name, tuple(cells[:filled_length(cells)]), "row", len(rows))
     raise CellError(f"{name}: the range is {len(rows)} rows by {width} columns; give a single row or column")
+
+
+def cell_numbers(cells: Cells) -> tuple[np.ndarray, np.ndarray, list]:
+    """Values (nan where blank or not a number), the blank mask, and (position, why) for each cell that is
+    neither blank nor a number."""
+    kinds = set(map(type, cells.values))
+    if kinds <= {float, int}:  # the usual case: every cell a number (ints: whole numbers in the browser)
+        out = np.array(cells.values, dtype=float)
+        codes = int in kinds and ((out >= _COM_ERRORS[0]) & (out <= _COM_ERRORS[1])).any()
+        if np.isfinite(out).all() and not codes:
+            return out, np.zeros(out.size, dtype=bool), []
+    out = np.empty(len(cells.values))
+    blank = np.zeros(len(cells.values), dtype=bool)
+    problems = []
+    for i, v in enumerate(cells.values):
+        why = None if is_blank(v) else describe(v)
+        if why is None and not is_blank(v):
+            out[i] = number(v)
+            continue
+        out[i] = math.nan
+        if why is None:
+            blank[i] = True
+        else:
+            problems.append((i, why))
+    return out, blank, problems
 
 
 def numbers_or_blank(cells: Cells) -> tuple[np.ndarray, np.ndarray]:
     """Values (nan where blank) and the blank mask; any other non-number is a CellError."""
-    if set(map(type, cells.values)) == {float}:  # the usual case: every cell a number
-        out = np.array(cells.values, dtype=float)
-        if np.isfinite(out).all():
-            return out, np.zeros(out.size, dtype=bool)
-    out = np.empty(len(cells.values))
-    blank = np.zeros(len(cells.values), dtype=bool)
-    for i, v in enumerate(cells.values):
-        if is_blank(v):
-            blank[i] = True
-            out[i] = math.nan
-            continue
-        why = describe(v)
-        if why is not None:
-            raise CellError(f"{cells.where(i)}: {why}; enter a number or clear the cell")
-        out[i] = float(v)
+    out, blank, problems = cell_numbers(cells)
+    if problems:
+        i, why = problems[0]
+        raise CellError(f"{cells.where(i)}: {why}; enter a number or clear the cell")
     return out, blank
 
 
@@ -137,7 +203,7 @@ def scalar(v, name: str):
     """The single value of a one-cell argument."""
     while isinstance(v, (list, tuple)):
         if len(v) != 1:
-            raise CellError(f"{name}: give a single value, not a range of {len(flatten(v, name).values)} cells")
+            raise CellError(f"{name}: give a single value, not a range of {flatten(v, name).size} cells")
         v = v[0]
     return v
 
@@ -151,7 +217,7 @@ def number_option(v, name: str, default, low: float, high: float, example: str, 
         why = describe(v)
         if why is not None:
             raise CellError(f"{name}: {why}; leave it empty or enter {example}")
-    f = float(v)
+    f = number(v)
     if whole and f != int(f):
         raise CellError(f"{name}: {f:g} is not a whole number; leave it empty or enter {example}")
     if not low < f < high:

@@ -25,10 +25,10 @@ import scipy
 from . import engine
 
 from . import VERSION
-from .coercion import CellError, flatten, number_option, numbers_or_blank, text_option
+from .coercion import CellError, cell_numbers, flatten, number_option, text_option
 from .labels import CAUTION, HEADERS, term
 from .prepared import RESULTS, calibration, prepare
-from .registration import described, worksheet_function
+from .registration import declared
 
 DOC = {
     "x": "known x of the standards (concentrations): a row or column; blank rows are skipped",
@@ -46,15 +46,7 @@ DOC = {
 }
 
 
-def _documented(*names):
-    """Argument descriptions (shown by the function wizard), one per argument."""
-
-    def apply(f):
-        for name in reversed(names):
-            f = described(name, DOC[name])(f)
-        return f
-
-    return apply
+worksheet_function = declared(DOC)  # each argument described by DOC[its name]
 
 
 def _cell(v):
@@ -98,7 +90,7 @@ def _guarded(single: bool = False):
 
 
 def _cached(name: str, prep, options: tuple, compute):
-    rows = RESULTS.get((name, prep.key, options), compute)
+    rows = RESULTS.get((name, prep.key, prep.layout, options), compute)
     return [list(r) for r in rows] if isinstance(rows, list) else rows
 
 
@@ -153,7 +145,6 @@ def _fitted(prep, order):
 
 
 @worksheet_function
-@_documented("x", "y", "max_order", "alpha", "rule", "weights")
 @_guarded(single=True)
 def calib_order(x, y, max_order=None, alpha=None, rule=None, weights=None):
     """The chosen order of the calibration polynomial (one number)."""
@@ -164,7 +155,6 @@ def calib_order(x, y, max_order=None, alpha=None, rule=None, weights=None):
 
 
 @worksheet_function
-@_documented("x", "y", "max_order", "alpha", "weights")
 @_guarded()
 def calib_orders(x, y, max_order=None, alpha=None, weights=None):
     """Header, then one row per order 1..max: df, SD, R², adjusted and predicted R², AICc, BIC, p-values, rules."""
@@ -190,7 +180,6 @@ def calib_orders(x, y, max_order=None, alpha=None, weights=None):
 
 
 @worksheet_function
-@_documented("x", "y", "max_order", "weights")
 @_guarded()
 def calib_seqf(x, y, max_order=None, weights=None):
     """Header, then the sequential (Type I) ANOVA table: one row per term, residual, lack of fit (of the max
@@ -225,7 +214,6 @@ def calib_seqf(x, y, max_order=None, weights=None):
 
 
 @worksheet_function
-@_documented("x", "y", "order", "level", "weights")
 @_guarded()
 def calib_coefs(x, y, order=None, level=None, weights=None):
     """Header, then one row per term (intercept, x, x^2 ...): coefficient, std error, t, p-value, lower, upper."""
@@ -245,7 +233,6 @@ def calib_coefs(x, y, order=None, level=None, weights=None):
 
 
 @worksheet_function
-@_documented("x", "y", "order", "weights")
 @_guarded()
 def calib_stats(x, y, order=None, weights=None):
     """Header, then label/value rows: points, order and why, residual SD, R² family, AICc, BIC, F, lack of fit, range."""
@@ -272,57 +259,64 @@ def calib_stats(x, y, order=None, weights=None):
 
 
 def _aligned(cells_arg, name: str):
-    """The numbers of a range whose output rows stay aligned with it: the filled cells' values, their
-    positions (a range or a tuple) and the range's size."""
+    """A range whose output rows stay aligned with it: the filled cells' values, their positions, the
+    number of rows, and a note for each cell that is not a number (that row gets the note, the others
+    are computed)."""
     cells = flatten(cells_arg, name)
-    values, blank = numbers_or_blank(cells)
-    if not blank.any():
-        return values, range(values.size), values.size
-    filled = np.flatnonzero(~blank)
-    return values[filled], tuple(filled.tolist()), len(cells.values)
+    values, blank, problems = cell_numbers(cells)
+    notes = {i: f"{cells.where(i)}: {why}; enter a number or clear the cell" for i, why in problems}
+    if not (blank.any() or notes):
+        return values, range(values.size), values.size, notes
+    filled = np.flatnonzero(~blank & ~np.isnan(values))
+    return values[filled], tuple(filled.tolist()), len(cells.values), notes
+
+
+def _rows(size: int, width: int, notes: dict) -> list:
+    """Empty output rows, the note of a bad cell in the last column of its row."""
+    rows = [[None] * width for _ in range(size)]
+    for i, note in notes.items():
+        rows[i][-1] = note
+    return rows
 
 
 @worksheet_function
-@_documented("x", "y", "new_x", "order", "level", "weights")
 @_guarded()
 def calib_predict(x, y, new_x, order=None, level=None, weights=None):
     """One row per new_x cell (no header): predicted y, mean lower/upper, prediction lower/upper, note."""
     prep = prepare(x, y, weights)
     k, lev = _order(order), _level(level)
-    values, filled, size = _aligned(new_x, "new_x")
+    values, filled, size, notes = _aligned(new_x, "new_x")
 
     def compute():
         cal, chosen, _ = _fitted(prep, k)
-        rows = [[None] * 6 for _ in range(size)]
+        rows = _rows(size, 6, notes)
         for i, p in zip(filled, engine.predict(cal, values, chosen, lev)):
             rows[i] = _column((p.fitted, p.mean_lower, p.mean_upper, p.pred_lower, p.pred_upper)) + [p.note or None]
         return rows
 
-    return _cached("predict", prep, (k, lev, values.tobytes(), filled, size), compute)
+    return _cached("predict", prep, (k, lev, values.tobytes(), filled, size, tuple(notes.items())), compute)
 
 
 @worksheet_function
-@_documented("x", "y", "reading", "replicates", "order", "level", "weights")
 @_guarded()
 def calib_inverse(x, y, reading, replicates=None, order=None, level=None, weights=None):
     """One row per reading cell (no header): x estimate, lower, upper, note."""
     prep = prepare(x, y, weights)
     reps = number_option(replicates, "replicates", 1, 0.5, 1e9, "a whole number such as 3", whole=True)
     k, lev = _order(order), _level(level)
-    values, filled, size = _aligned(reading, "reading")
+    values, filled, size, notes = _aligned(reading, "reading")
 
     def compute():
         cal, chosen, _ = _fitted(prep, k)
-        rows = [[None] * 4 for _ in range(size)]
+        rows = _rows(size, 4, notes)
         for i, e in zip(filled, engine.inverse(cal, values, chosen, reps, lev)):
             rows[i] = _column((e.x, e.lower, e.upper)) + [e.note or None]
         return rows
 
-    return _cached("inverse", prep, (reps, k, lev, values.tobytes(), filled, size), compute)
+    return _cached("inverse", prep, (reps, k, lev, values.tobytes(), filled, size, tuple(notes.items())), compute)
 
 
 @worksheet_function
-@_documented("x", "y", "order", "weights")
 @_guarded()
 def calib_residuals(x, y, order=None, weights=None):
     """One row per input row (no header; blank where skipped): fitted, residual, studentized, leverage, Cook's D,
@@ -347,7 +341,6 @@ def calib_residuals(x, y, order=None, weights=None):
 
 
 @worksheet_function
-@_documented("x", "y", "order", "alpha", "weights")
 @_guarded()
 def calib_checks(x, y, order=None, alpha=None, weights=None):
     """Header, then one row per check of the curve: check, statistic, p-value, verdict, detail."""
@@ -366,7 +359,6 @@ def calib_checks(x, y, order=None, alpha=None, weights=None):
 
 
 @worksheet_function
-@_documented("name")
 @_guarded()
 def calib_labels(name):
     """The header row of a table, e.g. CALIB_LABELS("predict") for the headerless CALIB_PREDICT."""

@@ -1,8 +1,9 @@
 """From cell arguments to a (cached) engine calibration.
 
 Blank x or y skips the pair; everything else that is not a number is a
-CellError naming the argument and position. Calibrations are cached by the
-content of x, y and weights and by the max order (never by object identity),
+CellError naming the argument and position. Rows after the last filled one
+are cut (a whole-column reference ends where its data ends). Calibrations are
+cached by the content of x, y and weights and by the max order (never by object identity),
 least recently used first out, so that the functions of one sheet share one
 factorisation and a changed cell is never served stale.
 """
@@ -17,7 +18,8 @@ import numpy as np
 from . import engine
 from .engine.weighting import SCHEMES as WEIGHT_SCHEMES
 
-from .coercion import ERROR_TEXTS, CellError, Cells, describe, flatten, is_blank, is_omitted, numbers_or_blank
+from .coercion import (_COM_ERRORS, ERROR_TEXTS, CellError, Cells, describe, flatten, is_blank, is_omitted, number,
+                       numbers_or_blank)
 
 CACHE_SIZE = 128
 SCHEMES = tuple(WEIGHT_SCHEMES)
@@ -32,7 +34,12 @@ class Prepared:
     x: np.ndarray
     y: np.ndarray
     weights: object  # None, a scheme name or an array over the used points
-    key: tuple
+    key: tuple  # the content: what the calibration depends on
+
+    @property
+    def layout(self) -> tuple:
+        """Where the points sit in the input: what aligned outputs and positions in messages depend on."""
+        return self.x_cells.axis, self.x_cells.size, self.n_input, self.used.tobytes()
 
     @property
     def n_input(self) -> int:
@@ -63,13 +70,14 @@ def _weights(weights, x_cells: Cells, used: np.ndarray, x: np.ndarray, y: np.nda
         bad = np.flatnonzero(~(values > 0))
         if bad.size:
             i = int(used[bad[0]])
-            raise CellError(f"{which}, {x_cells.axis} {i + 1} of {len(x_cells.values)}: weights '{key}' "
+            raise CellError(f"{which}, {x_cells.axis} {i + 1} of {x_cells.size}: weights '{key}' "
                             f"need every {which} > 0, but this {which} is {values[bad[0]]:g}")
         return key, key.encode()
     cells = flatten(weights, "weights")
-    if len(cells.values) != len(x_cells.values):
-        raise CellError(f"weights has {len(cells.values)} cells and x has {len(x_cells.values)}: "
+    if cells.size != x_cells.size:
+        raise CellError(f"weights has {cells.size} cells and x has {x_cells.size}: "
                         "give one weight per row, or one of " + ", ".join(f"'{s}'" for s in SCHEMES))
+    cells = cells.padded(max(len(cells.values), len(x_cells.values)))
     w = np.empty(used.size)
     for j, i in enumerate(used):
         v = cells.values[i]
@@ -79,42 +87,45 @@ def _weights(weights, x_cells: Cells, used: np.ndarray, x: np.ndarray, y: np.nda
         if why is not None:
             raise CellError(f"{cells.where(i)}: {why}; enter a positive number")
         if not float(v) > 0:
-            raise CellError(f"{cells.where(i)}: the weight {float(v):g} is not positive; enter a positive number")
-        w[j] = float(v)
+            raise CellError(f"{cells.where(i)}: the weight {number(v):g} is not positive; enter a positive number")
+        w[j] = number(v)
     return w, w.tobytes()
 
 
 def prepare(x, y, weights=None) -> Prepared:
     """The usable points of x and y (and their weights), or a CellError naming the bad cell."""
-    key = _plain_key(x, y, weights)
+    x_cells, y_cells = flatten(x, "x"), flatten(y, "y")
+    key = _plain_key(x_cells, y_cells, weights)
     if key is None:
-        return _prepare(x, y, weights)
-    return PREPARED.get(key, lambda: _prepare(x, y, weights))
+        return _prepare(x_cells, y_cells, weights)
+    return PREPARED.get(key, lambda: _prepare(x_cells, y_cells, weights))
 
 
-def _plain_key(x, y, weights):
-    """A content key for the usual call, columns of plain floats (no blanks, no other types), else None.
+def _plain_key(x_cells: Cells, y_cells: Cells, weights):
+    """A key for the usual call, numbers only (no blanks, no other types) and no range of weights, else None.
 
-    Floats only: True == 1.0 in Python, so cells of other types never share a key with numbers.
+    Floats and ints only: True == 1 in Python, so cells of other types never share a key with numbers;
+    an int that is a desktop error code is not a number.
     """
-    if not (type(x) is list and type(y) is list and len(x) == len(y)):
+    if x_cells.size != y_cells.size or len(x_cells.values) != len(y_cells.values):
         return None
-    try:  # rows of one cell each; which kind of sequence holds a cell does not matter for its value
-        xs, ys = tuple([v for (v,) in x]), tuple([v for (v,) in y])
-    except (TypeError, ValueError):
+    if not set(map(type, x_cells.values + y_cells.values)) <= {float, int}:
         return None
-    if set(map(type, xs + ys)) != {float}:
+    low, high = _COM_ERRORS
+    if any(type(v) is int and low <= v <= high for v in x_cells.values + y_cells.values):
         return None
+    while isinstance(weights, list) and len(weights) == 1:
+        weights = weights[0]
     if weights is None or type(weights) is str:
-        return xs, ys, weights
+        return x_cells.values, y_cells.values, x_cells.axis, x_cells.size, weights
     return None
 
 
-def _prepare(x, y, weights) -> Prepared:
-    x_cells, y_cells = flatten(x, "x"), flatten(y, "y")
-    if len(x_cells.values) != len(y_cells.values):
-        raise CellError(f"x has {len(x_cells.values)} cells and y has {len(y_cells.values)}: "
-                        "give ranges of the same size")
+def _prepare(x_cells: Cells, y_cells: Cells, weights) -> Prepared:
+    if x_cells.size != y_cells.size:
+        raise CellError(f"x has {x_cells.size} cells and y has {y_cells.size}: give ranges of the same size")
+    n = max(len(x_cells.values), len(y_cells.values))
+    x_cells, y_cells = x_cells.padded(n), y_cells.padded(n)
     xv, x_blank = numbers_or_blank(x_cells)
     yv, y_blank = numbers_or_blank(y_cells)
     skipped = x_blank | y_blank
