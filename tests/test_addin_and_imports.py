@@ -10,22 +10,43 @@ from degreewise.cli import main
 def test_settings_file_is_written_and_other_keys_kept(tmp_path):
     conf = tmp_path / ".xlwings" / "xlwings.conf"
     conf.parent.mkdir()
-    conf.write_text('"ONEDRIVE_WIN","C:\\\\Users\\\\me\\\\OneDrive"\n"UDF MODULES","old_module"\n')
-    written = write_settings(conf, "C:\\Python\\python.exe")
-    assert written == {"UDF MODULES": "degreewise", "INTERPRETER_WIN": "C:\\Python\\python.exe"}
+    conf.write_text('"ONEDRIVE_WIN","C:\\\\Users\\\\me\\\\OneDrive"\n"UDF MODULES","old_module;lab_tools"\n')
+    done = write_settings(conf, "C:\\Python\\python.exe")
     assert conf.read_text().splitlines() == [
-        '"ONEDRIVE_WIN","C:\\\\Users\\\\me\\\\OneDrive"', '"UDF MODULES","degreewise"',
+        '"ONEDRIVE_WIN","C:\\\\Users\\\\me\\\\OneDrive"', '"UDF MODULES","old_module;lab_tools;degreewise"',
         '"INTERPRETER_WIN","C:\\Python\\python.exe"']
+    assert done == ["added degreewise to UDF MODULES (now old_module;lab_tools;degreewise)",
+                    "INTERPRETER_WIN = C:\\Python\\python.exe"]
+    assert write_settings(conf, "C:\\Other\\python.exe")[0] == "UDF MODULES already lists degreewise"
+    assert conf.read_text().count("degreewise") == 1 and "Other" not in conf.read_text()  # nothing doubled or lost
 
 
-def test_addin_command_prints_steps(tmp_path, capsys):
+def test_conda_settings_and_an_existing_interpreter_are_kept(tmp_path):
+    conf = tmp_path / "xlwings.conf"
+    conda = '"CONDA PATH","C:\\\\Users\\\\me\\\\miniconda3"\n"CONDA ENV","lab"\n'
+    conf.write_text(conda)
+    assert write_settings(conf, "C:\\Python\\python.exe")[1] == (
+        "kept your conda settings (the add-in activates that environment); no interpreter written")
+    assert conf.read_text() == conda + '"UDF MODULES","degreewise"\n'
+    conf.write_text('"INTERPRETER_WIN","D:\\\\py\\\\python.exe"\n')
+    assert write_settings(conf, "C:\\Python\\python.exe")[1].startswith("kept your interpreter D:")
+    assert "C:\\Python" not in conf.read_text()
+
+
+def test_addin_command_prints_the_numbered_steps_that_the_readme_gives(tmp_path, capsys):
+    from pathlib import Path
+
+    from degreewise.addin import STEPS
+
     conf = tmp_path / "xlwings.conf"
     assert main(["addin", "--config", str(conf)]) == 0
     out = capsys.readouterr().out
     assert conf.read_text().startswith('"UDF MODULES","degreewise"')
-    assert "xlwings addin install" in out and "Import Functions" in out
+    assert STEPS in out
     if not sys.platform.startswith("win"):
-        assert "This system cannot run the desktop add-in" in out
+        assert "This system cannot run the desktop add-in" in out and "INTERPRETER" not in conf.read_text()
+    readme = (Path(__file__).resolve().parent.parent / "README.md").read_text()
+    assert STEPS in readme  # the README's desktop set-up is exactly what the command prints
 
 
 def test_import_udfs_needs_no_file_system_modules_of_ours():
@@ -93,3 +114,31 @@ def test_numpy_modules_deferred_by_the_command_line_still_work():
     reference = subprocess.run([sys.executable, "-c", "import numpy as np; print(np.random.default_rng(7)"
                                 ".integers(0, 10**6))"], capture_output=True, text=True, check=True).stdout.split()
     assert out == reference + ["False"]
+
+
+def test_the_wheel_for_in_workbook_python_is_pure_python_and_runs_from_the_archive(tmp_path):
+    # what the README tells a user without a package index to build and put into requirements.txt
+    from pathlib import Path
+
+    from degreewise import VERSION
+
+    import shutil
+
+    source = tmp_path / "source"  # a copy, so that the build leaves nothing in the working tree
+    shutil.copytree(Path(__file__).resolve().parent.parent, source,
+                    ignore=shutil.ignore_patterns(".git", "build", "*.egg-info", "tests", "workbooks", "__pycache__"))
+    subprocess.run([sys.executable, "-m", "pip", "wheel", str(source), "--no-deps", "-q", "-w", str(tmp_path)],
+                   check=True, capture_output=True)
+    wheel = tmp_path / f"degreewise-{VERSION}-py3-none-any.whl"
+    import zipfile
+
+    names = zipfile.ZipFile(wheel).namelist()
+    assert {n.split("/")[0] for n in names} == {"degreewise", f"degreewise-{VERSION}.dist-info"}
+    assert all(n.endswith((".py", ".csv", ".json")) for n in names if n.startswith("degreewise/"))
+    assert "degreewise/engine/calibration.py" in names
+    # the main.py line, run from the archive itself (no file system of ours, no compiled code)
+    code = ("import sys; sys.path.insert(0, sys.argv[1]); from degreewise import *; import degreewise;"
+            "assert degreewise.__file__.startswith(sys.argv[1]);"
+            "print(calib_order([[1.0], [2.0], [3.0], [4.0], [5.0]], [[2.1], [3.9], [6.2], [7.8], [10.1]]))")
+    out = subprocess.run([sys.executable, "-c", code, str(wheel)], capture_output=True, text=True, check=True)
+    assert out.stdout.strip() == "1"

@@ -31,19 +31,34 @@ RANGE_IID = "{00020846-0000-0000-C000-000000000046}"  # the COM Range interface 
 
 
 class ComRange:
-    """A worksheet range as the COM layer hands it to xlwings: its Value is what pywin32 returns."""
+    """A worksheet range as the COM layer hands it to xlwings: its Value is what pywin32 returns (a tuple of
+    row tuples, or a scalar for one cell). ``blank_rows`` adds empty rows below, as a whole column has."""
 
     Row = Column = 1  # where the range is: xlwings reads its engine through the worksheet
 
-    def __init__(self, value):
-        self.Value = value
+    def __init__(self, value, blank_rows: int = 0):
+        self.filled, self.blank_rows = value, blank_rows
         rows = value if isinstance(value, tuple) else ((value,),)
-        self.Rows, self.Columns = _Count(len(rows)), _Count(len(rows[0]))
+        self.Rows, self.Columns = _Count(len(rows) + blank_rows), _Count(len(rows[0]))
         self.Worksheet = _Parent()
+
+    @property
+    def Value(self):
+        if not self.blank_rows:
+            return self.filled
+        return self.filled + tuple((None,) for _ in range(self.blank_rows))
 
     @property
     def _oleobj_(self):  # what xlwings' is_range_instance looks at
         return _TypeInfo()
+
+
+class Column(list):
+    """A column as Office.js hands it over: one-cell rows, ``blank_rows`` of them null at the bottom."""
+
+    def __init__(self, values, blank_rows: int = 0):
+        super().__init__([[v] for v in values])
+        self.blank_rows = blank_rows
 
 
 class _Count:
@@ -184,7 +199,7 @@ def _as_com(value, time_type):
     import datetime
 
     if isinstance(value, ComRange):
-        return ComRange(_as_com(value.Value, time_type))
+        return ComRange(_as_com(value.filled, time_type), value.blank_rows)
     if isinstance(value, tuple):
         return tuple(_as_com(v, time_type) for v in value)
     if isinstance(value, datetime.datetime):
@@ -217,6 +232,8 @@ def _browser_session():
     null = ffi.JsNull()
 
     def js(value):
+        if isinstance(value, Column):
+            return js(list(value)) + [[null] for _ in range(value.blank_rows)]
         if isinstance(value, list):
             return [js(v) for v in value]
         return null if value is None else value

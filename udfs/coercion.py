@@ -114,26 +114,26 @@ def one_wide(value):
         return None
 
 
-def filled_length(cells) -> int:
-    """How many leading cells to keep: up to the last one that is not None.
+def filled_length(cells: tuple, blank=None) -> int:
+    """How many leading cells to keep: up to the last one that is not ``blank``.
 
-    Whole-column references hand over about a million blank cells; they are counted in C (None is one
-    object, so each comparison is an identity test) over chunks that double from the end, then the chunk
-    holding the last filled cell is halved, so that the cut costs milliseconds.
+    Whole-column references hand over about a million blank cells; they are counted in C (the blank is
+    one object, so each comparison is an identity test) over chunks that double from the end, then the
+    chunk holding the last filled cell is halved, so that the cut costs milliseconds.
     """
     n, step, lo = len(cells), 16, 0
     while n:
         lo = max(0, n - step)
-        if cells[lo:n].count(None) != n - lo:
+        if cells[lo:n].count(blank) != n - lo:
             break
         n, step = lo, 2 * step
     while n - lo > 16:
         mid = (lo + n) // 2
-        if cells[mid:n].count(None) == n - mid:
+        if cells[mid:n].count(blank) == n - mid:
             n = mid
         else:
             lo = mid
-    while n and cells[n - 1] is None:
+    while n and cells[n - 1] is blank:
         n -= 1
     return n
 
@@ -142,7 +142,9 @@ def flatten(value, name: str) -> Cells:
     """A scalar, a row, a column or a one-wide block as one sequence of cells, cut after its last filled cell."""
     if not isinstance(value, (list, tuple)):
         return Cells(name, () if is_blank(value) else (value,), "row", 1)
-    column = one_wide(value)
+    shared = len(value) > 1 and value[-1] is value[-2] and value[-1] == [None]  # blank rows put back by xlwings
+    rows = value[:filled_length(value, value[-1])] if shared else value
+    column = one_wide(rows)
     if column is not None:  # the usual case
         return Cells(name, column[:filled_length(column)], "row", len(value))
     rows = [list(r) if isinstance(r, (list, tuple)) else [r] for r in value]
