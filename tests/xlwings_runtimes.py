@@ -20,6 +20,7 @@ travel as pickles.
 
 from __future__ import annotations
 
+import functools
 import os
 import pickle
 import subprocess
@@ -42,7 +43,7 @@ class ComRange:
         self.Rows, self.Columns = _Count(len(rows) + blank_rows), _Count(len(rows[0]))
         self.Worksheet = _Parent()
 
-    @property
+    @functools.cached_property
     def Value(self):
         if not self.blank_rows:
             return self.filled
