@@ -109,7 +109,7 @@ def best(f):
 def read(rng):  # xlwings' conversion as declared before the cut: ndim=2, error values as text
     return conversion.read(xlwings.Range(impl=xlwings._xlwindows.Range(xl=rng)), None, dict(ndim=2, err_to_str=True))
 plain = best(lambda: [read(rng) for rng in whole])
-call = best(lambda: server.CallUDF("degreewise", "CALIB_COEFS", whole + (r.MISSING,) * 3, book, None))
+call = best(lambda: server.CallUDF("degreewise", "calib_coefs", whole + (r.MISSING,) * 3, book, None))
 print(f"{{plain * 1e3:.0f}} {{call * 1e3:.0f}}")
 """
 

@@ -134,7 +134,7 @@ def test_import_functions_writes_one_wrapper_per_function_with_optional_argument
     for name in degreewise.FUNCTIONS:
         args = ", ".join(("Optional " if p.default is not p.empty else "") + p.name for p in signature(name))
         assert f"\nFunction {name.upper()}({args})\n" in vba
-        assert f'XLPy.CallUDF("degreewise", "{name.upper()}", Array(' in vba
+        assert f'Py.CallUDF("degreewise", "{name.upper()}", Array(' in vba  # Py. in xlwings 0.30, XLPy. later
     # VBA keywords cannot name arguments (the language reference's list, recalled from memory: the ones
     # that could plausibly name an argument)
     keywords = {"and", "as", "call", "case", "const", "date", "dim", "do", "each", "else", "end", "error", "for",
@@ -228,5 +228,6 @@ def test_long_columns_are_cut_after_their_last_filled_row():
     assert degreewise.calib_residuals(xs, ys, 1) == degreewise.calib_residuals(column(X), column(Y), 1)
     stats = dict(map(tuple, degreewise.calib_stats(xs, ys, 1)[1:]))
     assert stats["points skipped"] == 0
-    assert degreewise.calib_coefs(xs, ys[:-1]) == [[f"x has {rows} cells and y has {rows - 1}: give ranges of the same size"]]
+    assert degreewise.calib_coefs(xs, ys[:-1]) == [[
+        f"x has {rows} cells and y has {rows - 1}: give ranges of the same size"]]
     assert np.isfinite(degreewise.calib_coefs(xs, ys)[1][1])

@@ -80,3 +80,27 @@ def test_values_far_beyond_the_calibration_scale_give_empty_cells_quietly():
     assert predicted[1][:5] == [None] * 5 and predicted[1][5].startswith("x outside the calibrated range")
     assert inverse[0][0] == pytest.approx(2.5e-300, rel=0.05)
     assert inverse[1][:3] == [None] * 3 and inverse[1][3].startswith("reading above the calibrated response range")
+
+
+@settings(max_examples=300, deadline=None)
+@given(st.lists(st.one_of(st.none(), st.floats(-10, 10), st.just("n.d.")), max_size=300))
+def test_the_cut_after_the_last_filled_cell_keeps_exactly_the_cells_up_to_it(cells):
+    from degreewise.coercion import filled_length, flatten
+
+    last = max((i + 1 for i, v in enumerate(cells) if v is not None), default=0)
+    assert filled_length(tuple(cells)) == last
+    column = flatten([[v] for v in cells], "x")
+    assert column.values == tuple(cells[:last]) and column.size == len(cells) and column.axis == "row"
+    row = flatten([cells], "x") if len(cells) > 1 else column
+    assert row.values == tuple(cells[:last])
+
+
+def test_a_bad_new_x_cell_gets_a_note_in_its_own_row_and_the_others_are_computed():
+    x = [[float(v)] for v in (1, 1, 2, 2, 3, 3, 4, 4, 5, 5)]
+    y = [[v] for v in (1.1, 0.9, 2.1, 1.9, 3.2, 2.8, 4.1, 3.9, 5.0, 5.1)]
+    rows = degreewise.calib_predict(x, y, [[2.5], ["#N/A"], [True], [3.5]], 1)
+    assert [r[-1] for r in rows[1:3]] == [
+        "new_x, row 2 of 4: the cell holds the error #N/A; enter a number or clear the cell",
+        "new_x, row 3 of 4: the logical value TRUE is not a number; enter a number or clear the cell"]
+    assert rows[1][:5] == rows[2][:5] == [None] * 5
+    assert [rows[0], rows[3]] == degreewise.calib_predict(x, y, [[2.5], [3.5]], 1)

@@ -41,6 +41,7 @@ class ComRange:
         self.filled, self.blank_rows = value, blank_rows
         rows = value if isinstance(value, tuple) else ((value,),)
         self.Rows, self.Columns = _Count(len(rows) + blank_rows), _Count(len(rows[0]))
+        self.Count = self.Rows.Count * self.Columns.Count
         self.Worksheet = _Parent()
 
     @functools.cached_property
@@ -183,7 +184,10 @@ def _desktop_session():
     try:
         with pydll:
             import xlwings
-            from xlwings import com_server
+            try:
+                from xlwings import com_server
+            except ImportError:  # xlwings 0.30 (the declared floor) named it xlwings.server
+                from xlwings import server as com_server
     finally:
         sys.platform = platform
     assert xlwings.func.__module__ == "xlwings.udfs"  # the desktop decorators, as on Windows

@@ -18,7 +18,7 @@ import datetime
 import decimal
 import math
 import numbers
-from dataclasses import dataclass, replace
+from typing import NamedTuple
 
 import numpy as np
 
@@ -28,7 +28,7 @@ ERROR_CODES = {
     -2146826259: "#NAME?", -2146826252: "#NUM!", -2146826246: "#N/A",
 }
 _COM_ERROR_BASE = -2146828288  # 0x800A0000; error values are this plus 2000..2100
-_COM_ERRORS = (_COM_ERROR_BASE + 2000, _COM_ERROR_BASE + 2100)
+COM_ERRORS = (_COM_ERROR_BASE + 2000, _COM_ERROR_BASE + 2100)
 ERROR_TEXTS = frozenset(ERROR_CODES.values()) | {
     "#SPILL!", "#CALC!", "#GETTING_DATA", "#FIELD!", "#BLOCKED!", "#CONNECT!", "#BUSY!", "#UNKNOWN!",
 }
@@ -40,8 +40,7 @@ class CellError(Exception):
     """A message for the user, shown as the function's only cell."""
 
 
-@dataclass(frozen=True)
-class Cells:
+class Cells(NamedTuple):
     """A range as one sequence of cells, cut after its last filled cell, with how to name a position in it."""
 
     name: str
@@ -54,7 +53,7 @@ class Cells:
 
     def padded(self, n: int) -> "Cells":
         """The first n cells, blanks added where the cut left fewer."""
-        return replace(self, values=self.values + (None,) * (n - len(self.values)))
+        return self._replace(values=self.values + (None,) * (n - len(self.values)))
 
 
 def is_blank(v) -> bool:
@@ -166,21 +165,19 @@ def cell_numbers(cells: Cells) -> tuple[np.ndarray, np.ndarray, list]:
     kinds = set(map(type, cells.values))
     if kinds <= {float, int}:  # the usual case: every cell a number (ints: whole numbers in the browser)
         out = np.array(cells.values, dtype=float)
-        codes = int in kinds and ((out >= _COM_ERRORS[0]) & (out <= _COM_ERRORS[1])).any()
+        codes = int in kinds and ((out >= COM_ERRORS[0]) & (out <= COM_ERRORS[1])).any()
         if np.isfinite(out).all() and not codes:
             return out, np.zeros(out.size, dtype=bool), []
     out = np.empty(len(cells.values))
     blank = np.zeros(len(cells.values), dtype=bool)
     problems = []
     for i, v in enumerate(cells.values):
-        why = None if is_blank(v) else describe(v)
-        if why is None and not is_blank(v):
+        if is_blank(v):
+            blank[i], out[i] = True, math.nan
+        elif (why := describe(v)) is None:
             out[i] = number(v)
-            continue
-        out[i] = math.nan
-        if why is None:
-            blank[i] = True
         else:
+            out[i] = math.nan
             problems.append((i, why))
     return out, blank, problems
 

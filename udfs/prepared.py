@@ -18,8 +18,8 @@ import numpy as np
 from . import engine
 from .engine.weighting import SCHEMES as WEIGHT_SCHEMES
 
-from .coercion import (_COM_ERRORS, ERROR_TEXTS, CellError, Cells, describe, flatten, is_blank, is_omitted, number,
-                       numbers_or_blank)
+from .coercion import (COM_ERRORS, ERROR_TEXTS, CellError, Cells, describe, flatten, is_blank, is_omitted,
+                       number, numbers_or_blank)
 
 CACHE_SIZE = 128
 SCHEMES = tuple(WEIGHT_SCHEMES)
@@ -35,11 +35,7 @@ class Prepared:
     y: np.ndarray
     weights: object  # None, a scheme name or an array over the used points
     key: tuple  # the content: what the calibration depends on
-
-    @property
-    def layout(self) -> tuple:
-        """Where the points sit in the input: what aligned outputs and positions in messages depend on."""
-        return self.x_cells.axis, self.x_cells.size, self.n_input, self.used.tobytes()
+    layout: tuple  # where the points sit in the input: what aligned outputs and messages depend on
 
     @property
     def n_input(self) -> int:
@@ -109,10 +105,12 @@ def _plain_key(x_cells: Cells, y_cells: Cells, weights):
     """
     if x_cells.size != y_cells.size or len(x_cells.values) != len(y_cells.values):
         return None
-    if not set(map(type, x_cells.values + y_cells.values)) <= {float, int}:
+    values = x_cells.values + y_cells.values
+    kinds = set(map(type, values))
+    if not kinds <= {float, int}:
         return None
-    low, high = _COM_ERRORS
-    if any(type(v) is int and low <= v <= high for v in x_cells.values + y_cells.values):
+    low, high = COM_ERRORS
+    if int in kinds and any(type(v) is int and low <= v <= high for v in values):
         return None
     while isinstance(weights, list) and len(weights) == 1:
         weights = weights[0]
@@ -135,7 +133,8 @@ def _prepare(x_cells: Cells, y_cells: Cells, weights) -> Prepared:
     else:
         used, xu, yu = np.arange(xv.size), xv, yv
     w, wkey = _weights(weights, x_cells, used, xu, yu)
-    return Prepared(x_cells, used, xu, yu, w, (xu.tobytes(), yu.tobytes(), wkey))
+    layout = (x_cells.axis, x_cells.size, n, used.tobytes())
+    return Prepared(x_cells, used, xu, yu, w, (xu.tobytes(), yu.tobytes(), wkey), layout)
 
 
 class LRU:

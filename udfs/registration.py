@@ -6,12 +6,11 @@ by its name, the way both runtimes must hand it over (xlwings' conversion option
 - ``ndim=2``: a range always as a list of rows, so that a row of cells and a column of cells stay apart
   (without it an n x 1 and a 1 x n range both arrive as one flat list);
 - ``err_to_str=True``: an error value as its text ("#N/A"); without it xlwings hands over None, which
-  would look like a blank cell and silently drop the standard.
-
+  would look like a blank cell and silently drop the standard;
 - ``convert=``: xlwings' own value conversion with two stages added (``_reader``): the rows after the last
   filled one are cut before xlwings cleans every cell in Python, and put back afterwards as one shared
-  blank row, so that a whole-column reference (1,048,576 rows) costs milliseconds instead of seconds and
-  the function still sees the range's size.
+  blank row, so that a whole-column reference (1,048,576 rows) costs a fraction of a second instead of
+  seconds, and the function still sees the range's size.
 
 Numbers need no option: the desktop hands over floats (Decimal for currency, datetime for dates), the
 browser floats and ints; ``coercion`` takes them all. The description of each argument comes from
