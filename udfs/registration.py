@@ -1,4 +1,4 @@
-"""How the worksheet functions are registered with the spreadsheet: xlwings metadata, nothing else.
+"""How the worksheet functions are registered with the spreadsheet: xlwings metadata and conversion options.
 
 ``declared(docs)`` gives the one decorator every worksheet function carries. It declares each argument,
 by its name, the way both runtimes must hand it over (xlwings' conversion options):
