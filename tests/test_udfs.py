@@ -141,8 +141,8 @@ def test_stats_and_checks_tables(data):
     x, y = data
     stats = degreewise.calib_stats(column(x), column(y))
     labels = [r[0] for r in stats]
-    assert labels == ["statistic", "points used", "points skipped", "order", "why this order", "settings", "residual df",
-                      "residual SD", "R²", "adjusted R²", "predicted R²", "AICc", "BIC", "F", "p-value",
+    assert labels == ["statistic", "points used", "points skipped", "points excluded", "order", "why this order",
+                      "settings", "residual df", "residual SD", "R²", "adjusted R²", "predicted R²", "AICc", "BIC", "F", "p-value",
                       "lack-of-fit p", "x min", "x max", "weights", "caution"]
     values = dict(stats[1:])
     assert values["points used"] == 21 and values["points skipped"] == 0 and values["order"] == 2
@@ -268,7 +268,7 @@ def test_bad_cell_in_a_row_range(data):
     (lambda x, y: degreewise.calib_coefs([[1, 2], [3, 4]], y), "x: the range is 2 rows by 2 columns; give a single row "
                                                          "or column"),
     (lambda x, y: degreewise.calib_labels("chart"), "name: 'chart' is not known; use one of 'orders', 'seqf', 'coefs', "
-                                              "'stats', 'predict', 'inverse', 'residuals', 'checks'"),
+                                              "'stats', 'predict', 'inverse', 'residuals', 'checks', 'compare'"),
 ])
 def test_bad_arguments(data, call, message):
     x, y = data

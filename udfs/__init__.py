@@ -11,7 +11,7 @@ registration metadata (see ``registration``).
 VERSION = "0.1.0"
 
 FUNCTIONS = (
-    "calib_checks", "calib_coefs", "calib_inverse", "calib_labels", "calib_order", "calib_orders",
+    "calib_checks", "calib_coefs", "calib_compare", "calib_inverse", "calib_labels", "calib_order", "calib_orders",
     "calib_predict", "calib_residuals", "calib_seqf", "calib_stats", "calib_version",
 )
 __all__ = ["VERSION", *FUNCTIONS]

@@ -14,7 +14,7 @@ import re
 from dataclasses import dataclass
 
 NAMES = ("CALIB_ORDER", "CALIB_ORDERS", "CALIB_SEQF", "CALIB_COEFS", "CALIB_STATS", "CALIB_PREDICT",
-         "CALIB_INVERSE", "CALIB_RESIDUALS", "CALIB_CHECKS", "CALIB_LABELS", "CALIB_VERSION")
+         "CALIB_INVERSE", "CALIB_RESIDUALS", "CALIB_CHECKS", "CALIB_COMPARE", "CALIB_LABELS", "CALIB_VERSION")
 MENTION = re.compile(r"CALIB_[A-Z]+\s*\(", re.IGNORECASE)
 _PREFIX = re.compile(r"^(?:_xludf\.|_xll\.)", re.IGNORECASE)
 _NUMBER = re.compile(r"^[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?$")

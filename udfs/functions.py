@@ -25,9 +25,10 @@ import scipy
 from . import engine
 
 from . import VERSION
-from .coercion import CellError, cell_numbers, flatten, number_option, text_option
+from .coercion import CellError, cell_numbers, flatten, is_omitted, number_option, numbers_or_blank, text_option
+from .engine.calibration import order_limit
 from .labels import CAUTION, HEADERS, term
-from .prepared import RESULTS, calibration, prepare
+from .prepared import RESULTS, SCHEMES, calibration, prepare, prepare_named
 from .registration import declared
 
 DOC = {
@@ -42,11 +43,20 @@ DOC = {
     "new_x": "x values to predict responses at",
     "reading": "sample readings to turn into x (each the mean of `replicates` readings)",
     "replicates": "how many readings each reading averages (default 1)",
+    "exclude": "TRUE or a reason in a standard's row takes it out of the fit and keeps it on the record "
+               "(default: none excluded)",
+    "ref_x": "known x of the reference calibration's standards (an earlier run)",
+    "ref_y": "responses of the reference calibration's standards, same size as ref_x",
+    "at": "x values at which to compare the two curves' responses (optional)",
     "name": "which table: predict, inverse or residuals (or orders, seqf, coefs, stats, checks)",
 }
 
 
 worksheet_function = declared(DOC)  # each argument described by DOC[its name]
+
+
+# checks that name single standards: their rows also name the excluded ones, apart from the flagged
+POINT_CHECKS = ("outliers", "influential points")
 
 
 def _cell(v):
@@ -146,9 +156,9 @@ def _fitted(prep, order):
 
 @worksheet_function
 @_guarded(single=True)
-def calib_order(x, y, max_order=None, alpha=None, rule=None, weights=None):
+def calib_order(x, y, max_order=None, alpha=None, rule=None, weights=None, exclude=None):
     """The chosen order of the calibration polynomial (one number)."""
-    prep = prepare(x, y, weights)
+    prep = prepare(x, y, weights, exclude)
     k, a = _max_order(max_order), _alpha(alpha)
     r = text_option(rule, "rule", engine.DEFAULT_RULE, engine.RULES)
     return _cached("order", prep, (k, a, r), lambda: engine.choose_order(calibration(prep, k), r, a).order)
@@ -156,9 +166,9 @@ def calib_order(x, y, max_order=None, alpha=None, rule=None, weights=None):
 
 @worksheet_function
 @_guarded()
-def calib_orders(x, y, max_order=None, alpha=None, weights=None):
+def calib_orders(x, y, max_order=None, alpha=None, weights=None, exclude=None):
     """Header, then one row per order 1..max: df, SD, R², adjusted and predicted R², AICc, BIC, p-values, rules."""
-    prep = prepare(x, y, weights)
+    prep = prepare(x, y, weights, exclude)
     k, a = _max_order(max_order), _alpha(alpha)
 
     def compute():
@@ -181,10 +191,10 @@ def calib_orders(x, y, max_order=None, alpha=None, weights=None):
 
 @worksheet_function
 @_guarded()
-def calib_seqf(x, y, max_order=None, weights=None):
+def calib_seqf(x, y, max_order=None, weights=None, exclude=None):
     """Header, then the sequential (Type I) ANOVA table: one row per term, residual, lack of fit (of the max
     order), pure error, total; then a row of words when a test does not apply."""
-    prep = prepare(x, y, weights)
+    prep = prepare(x, y, weights, exclude)
     k = _max_order(max_order)
 
     def compute():
@@ -215,9 +225,9 @@ def calib_seqf(x, y, max_order=None, weights=None):
 
 @worksheet_function
 @_guarded()
-def calib_coefs(x, y, order=None, level=None, weights=None):
+def calib_coefs(x, y, order=None, level=None, weights=None, exclude=None):
     """Header, then one row per term (intercept, x, x^2 ...): coefficient, std error, t, p-value, lower, upper."""
-    prep = prepare(x, y, weights)
+    prep = prepare(x, y, weights, exclude)
     k, lev = _order(order), _level(level)
 
     def compute():
@@ -234,9 +244,9 @@ def calib_coefs(x, y, order=None, level=None, weights=None):
 
 @worksheet_function
 @_guarded()
-def calib_stats(x, y, order=None, weights=None):
+def calib_stats(x, y, order=None, weights=None, exclude=None):
     """Header, then label/value rows: points, order and why, residual SD, R² family, AICc, BIC, F, lack of fit, range."""
-    prep = prepare(x, y, weights)
+    prep = prepare(x, y, weights, exclude)
     k = _order(order)
 
     def compute():
@@ -245,7 +255,9 @@ def calib_stats(x, y, order=None, weights=None):
         lof = st.lack_of_fit
         reason, settings = why()
         return [list(HEADERS["stats"]),
-                ["points used", prep.x.size], ["points skipped", prep.skipped], ["order", chosen],
+                ["points used", prep.x.size], ["points skipped", prep.skipped],
+                ["points excluded", len(prep.excluded)],
+                *(["excluded standard", prep.describe_excluded(e)] for e in prep.excluded), ["order", chosen],
                 ["why this order", reason], ["settings", settings], ["residual df", st.df_resid],
                 ["residual SD", _cell(st.residual_sd)],
                 ["R²", _cell(st.r_squared)], ["adjusted R²", _cell(st.adj_r_squared)],
@@ -281,9 +293,9 @@ def _rows(size: int, width: int, notes: dict) -> list:
 
 @worksheet_function
 @_guarded()
-def calib_predict(x, y, new_x, order=None, level=None, weights=None):
+def calib_predict(x, y, new_x, order=None, level=None, weights=None, exclude=None):
     """One row per new_x cell (no header): predicted y, mean lower/upper, prediction lower/upper, note."""
-    prep = prepare(x, y, weights)
+    prep = prepare(x, y, weights, exclude)
     k, lev = _order(order), _level(level)
     values, filled, size, notes = _aligned(new_x, "new_x")
 
@@ -299,9 +311,9 @@ def calib_predict(x, y, new_x, order=None, level=None, weights=None):
 
 @worksheet_function
 @_guarded()
-def calib_inverse(x, y, reading, replicates=None, order=None, level=None, weights=None):
+def calib_inverse(x, y, reading, replicates=None, order=None, level=None, weights=None, exclude=None):
     """One row per reading cell (no header): x estimate, lower, upper, note."""
-    prep = prepare(x, y, weights)
+    prep = prepare(x, y, weights, exclude)
     reps = number_option(replicates, "replicates", 1, 0.5, 1e9, "a whole number such as 3", whole=True)
     k, lev = _order(order), _level(level)
     values, filled, size, notes = _aligned(reading, "reading")
@@ -316,12 +328,32 @@ def calib_inverse(x, y, reading, replicates=None, order=None, level=None, weight
     return _cached("inverse", prep, (reps, k, lev, values.tobytes(), filled, size, tuple(notes.items())), compute)
 
 
+def _excluded_rows(cal, order: int, excluded) -> list[list]:
+    """Residual-table rows of excluded standards, against a curve they took no part in: fitted value at
+    their x, residual, back-calculated x (the inverse of their response within the calibrated range) and
+    deviation %; no leverage, studentized residual or Cook's distance."""
+    rows = []
+    for e in excluded:
+        note = f"excluded: {e.reason}"
+        if not (math.isfinite(e.x) and math.isfinite(e.y)):
+            rows.append([None] * 7 + [note])
+            continue
+        fitted = engine.predict(cal, [e.x], order)[0].fitted
+        read = engine.inverse(cal, [e.y], order)[0]
+        back = read.x
+        if not math.isfinite(back) and read.note:
+            note = f"{note}; {read.note}"
+        deviation = 100.0 * (back - e.x) / abs(e.x) if e.x != 0 else math.nan
+        rows.append([_cell(fitted), _cell(e.y - fitted), None, None, None, _cell(back), _cell(deviation), note])
+    return rows
+
+
 @worksheet_function
 @_guarded()
-def calib_residuals(x, y, order=None, weights=None):
+def calib_residuals(x, y, order=None, weights=None, exclude=None):
     """One row per input row (no header; blank where skipped): fitted, residual, studentized, leverage, Cook's D,
     back-calculated x, deviation %, note."""
-    prep = prepare(x, y, weights)
+    prep = prepare(x, y, weights, exclude)
     k = _order(order)
 
     def compute():
@@ -330,11 +362,13 @@ def calib_residuals(x, y, order=None, weights=None):
         columns = [_column(c) for c in (d.fitted, d.residual, d.studentized, d.leverage, d.cooks_distance,
                                         d.back_calculated, d.deviation_percent)]
         filled = [list(row) for row in zip(*columns, [note or None for note in d.notes])]
-        if not prep.skipped:
+        if not (prep.skipped or prep.excluded):
             return filled
         rows = [[None] * 8 for _ in range(prep.n_input)]
         for i, row in zip(prep.used.tolist(), filled):
             rows[i] = row
+        for e, row in zip(prep.excluded, _excluded_rows(cal, chosen, prep.excluded)):
+            rows[e.position] = row
         return rows
 
     return _cached("residuals", prep, (k,), compute)
@@ -342,20 +376,103 @@ def calib_residuals(x, y, order=None, weights=None):
 
 @worksheet_function
 @_guarded()
-def calib_checks(x, y, order=None, alpha=None, weights=None):
+def calib_checks(x, y, order=None, alpha=None, weights=None, exclude=None):
     """Header, then one row per check of the curve: check, statistic, p-value, verdict, detail."""
-    prep = prepare(x, y, weights)
+    prep = prepare(x, y, weights, exclude)
     k, a = _order(order), _alpha(alpha)
 
     def compute():
         cal, chosen, _ = _fitted(prep, k)
         rows = [list(HEADERS["checks"])]
+        excluded = "; ".join(f"excluded from the fit (not tested): {prep.describe_excluded(e)}"
+                             for e in prep.excluded)
         for c in engine.curve_checks(cal, chosen, a, prep.label):
-            rows.append([c.name, _cell(c.statistic), _cell(c.p_value), c.verdict, c.detail or None])
+            detail = c.detail
+            if excluded and c.name in POINT_CHECKS:
+                detail = f"{detail}; {excluded}" if detail else excluded
+            rows.append([c.name, _cell(c.statistic), _cell(c.p_value), c.verdict, detail or None])
         rows.append(["caution", None, None, None, CAUTION])
         return rows
 
     return _cached("checks", prep, (k, a), compute)
+
+
+def _scheme_only(weights):
+    """CALIB_COMPARE's weights: omitted or a scheme applied to each set on its own data."""
+    if is_omitted(weights):
+        return None
+    value = weights
+    while isinstance(value, (list, tuple)) and len(value) == 1:
+        value = value[0]
+    if not isinstance(value, str):
+        raise CellError("weights: CALIB_COMPARE takes a scheme (" + ", ".join(f"'{s}'" for s in SCHEMES)
+                        + ") applied to each set on its own data, not a range of weights")
+    return value
+
+
+def _test_row(item: str, test, alpha: float, differ: str, agree: str, extra: str = "") -> list:
+    verdict, words = ("warning", differ) if test.p_value < alpha else ("ok", agree)
+    detail = f"F = {test.statistic:.4g} on {test.df_num} and {test.df_den} df: {words}{extra}"
+    return [item, None, None, None, None, None, _cell(test.p_value), verdict, detail]
+
+
+def _percent(difference: float, reference: float) -> str:
+    return f"{100.0 * difference / reference:+.3g} % of the reference" if reference else "reference is 0"
+
+
+@worksheet_function
+@_guarded()
+def calib_compare(x, y, ref_x, ref_y, at=None, order=None, level=None, weights=None, exclude=None):
+    """Header, then today's calibration against a reference: tests that the curves coincide, have the same
+    shape and the same residual SD; coefficient differences; fitted responses compared at each x of `at`."""
+    scheme = _scheme_only(weights)
+    prep = prepare(x, y, scheme, exclude)
+    try:
+        ref = prepare_named(ref_x, ref_y, scheme, ("ref_x", "ref_y"))
+    except CellError as err:
+        raise CellError(f"reference calibration: {err}") from None
+    k, lev = _order(order), _level(level)
+    values, blank = numbers_or_blank(flatten(at, "at"))
+    values = values[~blank]
+
+    def compute():
+        today, chosen, _ = _fitted(prep, k)
+        how = "given as the order argument" if k is not None else "the order the default rule picks for today's standards"
+        limit = order_limit(ref.x.size, np.unique(ref.x).size)
+        try:
+            reference = calibration(ref, max_order=max(1, min(chosen, limit)))
+        except CellError as err:
+            raise CellError(f"reference calibration (ref_x, ref_y): {err}") from None
+        c = engine.compare(today, reference, chosen, lev, values)
+        alpha = 1.0 - lev
+        shared = f"; both curves of order {chosen} ({how}); tested at {alpha:.3g}"
+        approximate = ("; approximate, since the residual SDs differ" if c.same_sd.p_value < alpha else "")
+        no_replicates = [name for name, p in (("today's", prep), ("the reference", ref)) if np.unique(p.x).size == p.x.size]
+        sd_extra = "".join(f"; {name} standards have no replicates, so their residual SD includes any lack of fit"
+                           for name in no_replicates)
+        rows = [list(HEADERS["compare"]),
+                _test_row("same curve", c.same_curve, alpha, "the curves differ beyond their scatter",
+                          "no evidence that the curves differ", shared + approximate),
+                _test_row("same shape", c.same_shape, alpha,
+                          "the curves differ in more than the intercept (sensitivity or curvature changed)",
+                          "no evidence of a change beyond the intercept", approximate)]
+        sd = _test_row("same residual SD", c.same_sd, alpha, "the residual SDs differ (two-sided F test)",
+                       "no evidence that the residual SDs differ (two-sided F test)", sd_extra)
+        sd[1:3] = [_cell(c.reference_sd), _cell(c.today_sd)]
+        rows.append(sd)
+        for r in c.coefficients:
+            rows.append([term(r.item), _cell(r.reference), _cell(r.today), _cell(r.difference), _cell(r.lower),
+                         _cell(r.upper), _cell(r.p_value), None, _percent(r.difference, r.reference)])
+        for r, back in zip(c.levels, c.read_back):
+            reads = (f"the reference curve reads today's response as x = {back:.6g}" if math.isfinite(back)
+                     else "today's response lies outside the reference's calibrated range")
+            rows.append([f"at x = {r.item:g}", _cell(r.reference), _cell(r.today), _cell(r.difference),
+                         _cell(r.lower), _cell(r.upper), _cell(r.p_value), None,
+                         f"{_percent(r.difference, r.reference)} response; {reads}"])
+        rows.append(["caution", None, None, None, None, None, None, None, CAUTION])
+        return rows
+
+    return _cached("compare", prep, (ref.key, k, lev, values.tobytes()), compute)
 
 
 @worksheet_function

@@ -13,6 +13,7 @@ HEADERS = {
     "residuals": ("fitted", "residual", "studentized residual", "leverage", "Cook's distance",
                   "back-calculated x", "deviation %", "note"),
     "checks": ("check", "statistic", "p-value", "verdict", "detail"),
+    "compare": ("item", "reference", "today", "difference", "lower", "upper", "p-value", "verdict", "detail"),
 }
 
 CAUTION = ("Supports, and does not replace, method validation under your quality system and applicable "

@@ -2,8 +2,10 @@
 
 Blank x or y skips the pair; everything else that is not a number is a
 CellError naming the argument and position. Rows after the last filled one
-are cut (a whole-column reference ends where its data ends). Calibrations are
-cached by the content of x, y and weights and by the max order (never by object identity),
+are cut (a whole-column reference ends where its data ends). A non-blank
+``exclude`` cell (TRUE or a reason) takes its standard out of the fit and keeps
+it on the record. Calibrations are cached by the content of x, y, weights and
+the exclusions and by the max order (never by object identity),
 least recently used first out, so that the functions of one sheet share one
 factorisation and a changed cell is never served stale.
 """
@@ -26,6 +28,16 @@ SCHEMES = tuple(WEIGHT_SCHEMES)
 
 
 @dataclass(frozen=True)
+class Excluded:
+    """A standard taken out of the fit: its input position, x and y (nan where not a number) and reason."""
+
+    position: int
+    x: float
+    y: float
+    reason: str
+
+
+@dataclass(frozen=True)
 class Prepared:
     """The usable points of x and y and where they sit in the input ranges."""
 
@@ -36,6 +48,7 @@ class Prepared:
     weights: object  # None, a scheme name or an array over the used points
     key: tuple  # the content: what the calibration depends on
     layout: tuple  # where the points sit in the input: what aligned outputs and messages depend on
+    excluded: tuple = ()  # Excluded standards, in input order
 
     @property
     def n_input(self) -> int:
@@ -43,11 +56,17 @@ class Prepared:
 
     @property
     def skipped(self) -> int:
-        return self.n_input - self.used.size
+        return self.n_input - self.used.size - len(self.excluded)
 
     def label(self, point: int) -> str:
         """Position of engine point ``point`` in the input range (e.g. 'standard 7 of 24')."""
         return f"standard {int(self.used[point]) + 1} of {self.n_input}"
+
+    def describe_excluded(self, e: Excluded) -> str:
+        """'standard 6 of 12, x = 25, y = 0.4: air bubble' (position, values and reason)."""
+        values = ", ".join(f"{name} = {v:.6g}" if v == v else f"{name} not a number"
+                           for name, v in (("x", e.x), ("y", e.y)))
+        return f"standard {e.position + 1} of {self.n_input}, {values}: {e.reason}"
 
 
 def _weights(weights, x_cells: Cells, used: np.ndarray, x: np.ndarray, y: np.ndarray):
@@ -88,9 +107,11 @@ def _weights(weights, x_cells: Cells, used: np.ndarray, x: np.ndarray, y: np.nda
     return w, w.tobytes()
 
 
-def prepare(x, y, weights=None) -> Prepared:
+def prepare(x, y, weights=None, exclude=None) -> Prepared:
     """The usable points of x and y (and their weights), or a CellError naming the bad cell."""
     x_cells, y_cells = flatten(x, "x"), flatten(y, "y")
+    if not is_omitted(exclude):
+        return _prepare(x_cells, y_cells, weights, flatten(exclude, "exclude"))
     key = _plain_key(x_cells, y_cells, weights)
     if key is None:
         return _prepare(x_cells, y_cells, weights)
@@ -119,11 +140,54 @@ def _plain_key(x_cells: Cells, y_cells: Cells, weights):
     return None
 
 
-def _prepare(x_cells: Cells, y_cells: Cells, weights) -> Prepared:
+def prepare_named(x, y, weights, names: tuple[str, str]) -> Prepared:
+    """``prepare`` for a second set of standards whose arguments have other names (e.g. ref_x, ref_y)."""
+    return _prepare(flatten(x, names[0]), flatten(y, names[1]), weights)
+
+
+def _reasons(cells: Cells | None, size: int) -> dict[int, str]:
+    """{input position: reason} of the standards that the ``exclude`` cells take out: TRUE ("no reason
+    given") or a text (the reason); blank, FALSE and 0 keep a standard."""
+    if cells is None:
+        return {}
+    if cells.size != size:
+        raise CellError(f"exclude has {cells.size} cells and x has {size}: give one cell per standard (TRUE or a "
+                        "reason excludes it; blank, FALSE or 0 keeps it)")
+    reasons = {}
+    for i, v in enumerate(cells.values):
+        if is_blank(v) or v is False or (type(v) in (int, float) and v == 0):
+            continue
+        if v is True:
+            reasons[i] = "no reason given"
+            continue
+        why = describe(v)
+        if isinstance(v, str) and why is not None and v.strip().upper() not in ERROR_TEXTS:
+            reasons[i] = v.strip()  # any text is the reason
+            continue
+        if why is None:
+            why = f"the number {number(v):g} is not a reason"
+        raise CellError(f"{cells.where(i)}: {why}; enter TRUE or a reason to exclude the standard, "
+                        "or FALSE, 0 or nothing to keep it")
+    return reasons
+
+
+def _loose_number(v) -> float:
+    """An excluded standard's value as recorded: the number, or nan when the cell holds none."""
+    return number(v) if not is_blank(v) and describe(v) is None else float("nan")
+
+
+def _prepare(x_cells: Cells, y_cells: Cells, weights, exclude: Cells | None = None) -> Prepared:
     if x_cells.size != y_cells.size:
-        raise CellError(f"x has {x_cells.size} cells and y has {y_cells.size}: give ranges of the same size")
-    n = max(len(x_cells.values), len(y_cells.values))
+        raise CellError(f"{x_cells.name} has {x_cells.size} cells and {y_cells.name} has {y_cells.size}: "
+                        "give ranges of the same size")
+    reasons = _reasons(exclude, x_cells.size)
+    n = max(len(x_cells.values), len(y_cells.values), max(reasons, default=-1) + 1)
     x_cells, y_cells = x_cells.padded(n), y_cells.padded(n)
+    excluded = tuple(Excluded(i, _loose_number(x_cells.values[i]), _loose_number(y_cells.values[i]), r)
+                     for i, r in reasons.items())
+    if reasons:  # excluded cells are recorded, never read as data
+        x_cells, y_cells = (c._replace(values=tuple(None if i in reasons else v for i, v in enumerate(c.values)))
+                            for c in (x_cells, y_cells))
     xv, x_blank = numbers_or_blank(x_cells)
     yv, y_blank = numbers_or_blank(y_cells)
     skipped = x_blank | y_blank
@@ -134,7 +198,8 @@ def _prepare(x_cells: Cells, y_cells: Cells, weights) -> Prepared:
         used, xu, yu = np.arange(xv.size), xv, yv
     w, wkey = _weights(weights, x_cells, used, xu, yu)
     layout = (x_cells.axis, x_cells.size, n, used.tobytes())
-    return Prepared(x_cells, used, xu, yu, w, (xu.tobytes(), yu.tobytes(), wkey), layout)
+    key = (xu.tobytes(), yu.tobytes(), wkey) + ((repr(sorted(reasons.items())),) if reasons else ())
+    return Prepared(x_cells, used, xu, yu, w, key, layout, excluded)
 
 
 class LRU:

@@ -30,7 +30,8 @@ from .package import (PackageError, SheetText, Workbook, dynamic_array_metadata,
 
 SUFFIXES = (".xlsx", ".xlsm")
 CALLABLE = {f"CALIB_{n.upper()}": getattr(functions, f"calib_{n}") for n in (
-    "order", "orders", "seqf", "coefs", "stats", "predict", "inverse", "residuals", "checks", "labels", "version")}
+    "order", "orders", "seqf", "coefs", "stats", "predict", "inverse", "residuals", "checks", "compare", "labels",
+    "version")}
 
 
 @dataclass
