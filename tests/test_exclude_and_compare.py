@@ -54,7 +54,7 @@ def test_stats_count_and_name_the_excluded_standard_and_agree_otherwise():
     got = degreewise.calib_stats(column(X), column(Y), None, None, EXCLUDE)
     plain = degreewise.calib_stats(without(X), without(Y))
     assert got[3] == ["points excluded", 1]
-    assert got[4] == ["excluded standard", f"row 6 of 12: x = 25, y = 0.4; {REASON}"]
+    assert got[4] == ["excluded standard", f"standard 6 of 12, x = 25, y = 0.4: {REASON}"]
     assert got[:3] + got[5:] == plain[:3] + plain[4:]  # the rest: the row-removed calibration's
     assert plain[3] == ["points excluded", 0]
 
@@ -79,7 +79,7 @@ def test_residual_rows_keep_the_excluded_standard_against_the_curve():
 def test_checks_name_excluded_standards_apart_from_flagged_ones():
     rows = {r[0]: r for r in degreewise.calib_checks(column(X), column(Y), None, None, None, EXCLUDE)}
     for name in ("outliers", "influential points"):
-        assert rows[name][4].endswith(f"excluded from the fit (not tested): row 6 of 12: x = 25, y = 0.4; {REASON}")
+        assert rows[name][4].endswith(f"excluded from the fit (not tested): standard 6 of 12, x = 25, y = 0.4: {REASON}")
     assert "excluded" not in rows["lack of fit"][4]
 
 
@@ -106,7 +106,7 @@ def test_an_excluded_row_may_hold_a_failed_reading():
     rows = degreewise.calib_residuals(column(X), column(y), None, None, EXCLUDE)
     assert rows[BAD] == [None] * 7 + [f"excluded: {REASON}"]
     stats = degreewise.calib_stats(column(X), column(y), None, None, EXCLUDE)
-    assert stats[4] == ["excluded standard", f"row 6 of 12: x = 25, y not a number; {REASON}"]
+    assert stats[4] == ["excluded standard", f"standard 6 of 12, x = 25, y not a number: {REASON}"]
 
 
 @pytest.mark.parametrize("cell, message", [
