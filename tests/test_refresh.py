@@ -79,7 +79,7 @@ def test_refresh_stores_what_the_functions_return(tmp_path):
     before = entries(path)
     report = refresh_file(path)
     assert report.error is None
-    assert sorted(report.refreshed) == sorted(["Run 2!D1", "Run 2!D3", "Run 2!D10", "Run 2!K1",
+    assert sorted(report.refreshed) == sorted(["'Run 2'!D1", "'Run 2'!D3", "'Run 2'!D10", "'Run 2'!K1",
                                                "Summary!A1", "Summary!H1", "Summary!A22"])
     assert report.left_alone == [("Summary!A20", "the formula mixes CALIB_* with other functions or operators")]
     xs, ys = standards(path)
@@ -173,7 +173,7 @@ def test_blocked_result_overwrites_nothing(tmp_path):
     wb["Run 2"]["F5"] = "my note"
     wb.save(path)
     report = refresh_file(path)
-    assert report.blocked == [("Run 2!D3", "the result (4 x 7) would cover F5, which is not empty; "
+    assert report.blocked == [("'Run 2'!D3", "the result (4 x 7) would cover F5, which is not empty; "
                                            "nothing was overwritten")]
     assert values(path, "Run 2", "F5", 1, 1) == [["my note"]]
     assert values(path, "Run 2", "D3", 1, 1) == [["#SPILL!"]]
@@ -191,7 +191,7 @@ def test_cycle_is_reported_not_looped(tmp_path):
     reasons = dict(report.failed)
     assert set(reasons) == {"Summary!P1", "Summary!Q1"}
     assert reasons["Summary!P1"].startswith("circular reference: Summary!")
-    assert "Run 2!D3" in report.refreshed
+    assert "'Run 2'!D3" in report.refreshed
 
 
 def test_check_writes_nothing_and_backup_keeps_the_original(tmp_path):
@@ -389,7 +389,7 @@ def test_sheets_split_over_processes_give_the_same_file_and_report(tmp_path, mon
     three = Path(shutil.copy(one, tmp_path / "three.xlsx"))  # one build: openpyxl stamps the time it saved
     serial = refresh_file(one, workers=1)
     split = refresh_file(three, workers=3)
-    assert [c for c, _ in serial.blocked] == ["Cal 5!D10"]
+    assert [c for c, _ in serial.blocked] == ["'Cal 5'!D10"]
     assert [c for c, _ in serial.failed] == ["Check!F1", "Check!F2"]
     for name in ("refreshed", "blocked", "left_alone", "failed"):
         assert getattr(split, name) == getattr(serial, name)

@@ -9,6 +9,23 @@ CAUTION = ("Degreewise supports, and does not replace, method validation under y
            "system and applicable standards; results must be reviewed by qualified staff.")
 
 
+class _Parser(argparse.ArgumentParser):
+    """Bad arguments: one line naming the problem, exit code 2 (argparse's usage block goes to --help)."""
+
+    def error(self, message):
+        self.exit(2, f"{self.prog}: {message} (see {self.prog.split()[0]} --help)\n")
+
+
+def _jobs(text: str) -> int:
+    try:
+        jobs = int(text)
+    except ValueError:
+        jobs = 0
+    if jobs < 1:
+        raise argparse.ArgumentTypeError(f"needs a whole number of at least 1, not {text!r}")
+    return jobs
+
+
 def _demo(args) -> int:
     from pathlib import Path
 
@@ -16,11 +33,21 @@ def _demo(args) -> int:
     from .scenarios import all_scenarios
     from .sections import sections, summary
 
+    folder = Path(args.folder)
+    if folder.exists() and not folder.is_dir():
+        print(f"degreewise demo: {folder} is a file; give a folder to write the demo workbooks into", file=sys.stderr)
+        return 2
+    try:
+        paths = write_demo(folder)
+    except OSError as err:
+        print(f"degreewise demo: cannot write the demo workbooks into {folder}: {err.strerror or err}",
+              file=sys.stderr)
+        return 1
     try:
         from .report import report_path, write_report
     except ImportError as err:  # the report extra is not installed
         write_report, missing = None, err.name
-    for sc, path in zip(all_scenarios(), write_demo(Path(args.folder))):
+    for sc, path in zip(all_scenarios(), paths):
         found, _ = sections(path)
         print(f"{sc.title}  [{path}]")
         for s in found:
@@ -70,8 +97,11 @@ def _addin(args) -> int:
 
 
 def main(argv=None) -> int:
-    parser = argparse.ArgumentParser(prog="degreewise", description="Polynomial calibration curves: order, "
-                                     "coefficients, intervals, checks.")
+    from . import VERSION
+
+    parser = _Parser(prog="degreewise", description="Polynomial calibration curves: order, coefficients, "
+                     "intervals, checks.")
+    parser.add_argument("--version", action="version", version=f"degreewise {VERSION}")
     sub = parser.add_subparsers(dest="command", required=True)
     p = sub.add_parser("demo", help="write and refresh the demo workbooks, and print each calibration")
     p.add_argument("folder", nargs="?", default="degreewise-demo", help="where to write them (default: ./degreewise-demo)")
@@ -82,7 +112,7 @@ def main(argv=None) -> int:
     p.add_argument("paths", nargs="+", help="workbooks (.xlsx, .xlsm) or folders searched recursively")
     p.add_argument("--check", action="store_true", help="compute and report what would change; write nothing")
     p.add_argument("--backup", action="store_true", help="keep the original beside each refreshed workbook")
-    p.add_argument("--jobs", type=int, default=None,
+    p.add_argument("--jobs", type=_jobs, default=None,
                    help="processes to use (default: one per CPU core): several workbooks at a time, "
                         "or the sheets of one large workbook")
     p.set_defaults(run=_refresh)

@@ -13,10 +13,20 @@ import functools
 import re
 from dataclasses import dataclass
 
-NAMES = ("CALIB_ORDER", "CALIB_ORDERS", "CALIB_SEQF", "CALIB_COEFS", "CALIB_STATS", "CALIB_PREDICT",
-         "CALIB_INVERSE", "CALIB_RESIDUALS", "CALIB_CHECKS", "CALIB_COMPARE", "CALIB_LABELS", "CALIB_VERSION")
+from . import FUNCTIONS
+
+NAMES = frozenset(name.upper() for name in FUNCTIONS)  # the family, as the spreadsheet shows it
 MENTION = re.compile(r"CALIB_[A-Z]+\s*\(", re.IGNORECASE)
-_PREFIX = re.compile(r"^(?:_xludf\.|_xll\.)", re.IGNORECASE)
+# How a stored formula names a user-defined function (ECMA-376 Part 1, 18.17 and MS-XLSX 2.2.2, formula
+# grammar: user-defined-function-call with an optional book-prefix "[n]!"), each form optional:
+#   [1]!                an add-in's function, the add-in being external book 1 of the workbook
+#   _xludf.             a function the program did not know when it saved (future/unknown functions)
+#   _xll.               a function registered by a compiled (XLL) add-in
+#   _xldudf_NS_         a custom function of an Office.js add-in (in-workbook Python), namespace NS
+#   NS.                 the same as typed, with its namespace
+# then the name in any case: CALIB_ORDER, or calib_order as the VBA wrappers declare it.
+HEAD = re.compile(r"(?:\[\d+\]!)?(?:_xludf\.|_xll\.|_xldudf_(?:[A-Za-z0-9]+_)*?)?(?:[A-Za-z][A-Za-z0-9]*\.)*"
+                  r"(CALIB_[A-Za-z]+)\s*\(", re.IGNORECASE)
 _NUMBER = re.compile(r"^[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?$")
 _CELL = r"\$?([A-Za-z]{1,3})\$?(\d{1,7})"
 _COL = r"\$?([A-Za-z]{1,3})"
@@ -86,48 +96,55 @@ class Call:
     args: tuple  # each: None (omitted), float, str, bool, Area or Call
 
 
-def _split_args(text: str) -> list[str]:
-    args, depth, quoted, start = [], 0, False, 0
-    i = 0
-    while i < len(text):
+def _tokens(text: str):
+    """(index, character) of every character outside texts ("..." with "" for a quote) and quoted
+    sheet names ('Run (2'!, 'it''s'!): the one scan behind every bracket and comma of a formula."""
+    i, n = 0, len(text)
+    while i < n:
         ch = text[i]
-        if quoted:
-            if ch == '"':
-                if i + 1 < len(text) and text[i + 1] == '"':
-                    i += 1
-                else:
-                    quoted = False
-        elif ch == '"':
-            quoted = True
-        elif ch == "'":
-            close = text.find("'!", i + 1)
-            i = close if close > i else i
-        elif ch in "({":
+        if ch == '"' or ch == "'":
+            end = i
+            while True:
+                end = text.find(ch, end + 1)
+                if end < 0:
+                    raise Unsupported("the formula's quotes or brackets do not balance")
+                if text.startswith(ch, end + 1):  # a doubled quote stands for itself
+                    end += 1
+                    continue
+                break
+            i = end + 1
+            continue
+        yield i, ch
+        i += 1
+
+
+def _split_args(text: str) -> list[str]:
+    """The top-level arguments of an argument list."""
+    args, depth, start = [], 0, 0
+    for i, ch in _tokens(text):
+        if ch in "({":
             depth += 1
         elif ch in ")}":
             depth -= 1
         elif ch == "," and depth == 0:
             args.append(text[start:i])
             start = i + 1
-        i += 1
-    if quoted or depth != 0:
+    if depth != 0:
         raise Unsupported("the formula's quotes or brackets do not balance")
     args.append(text[start:])
     return args
 
 
 def _closing(text: str, open_at: int) -> int:
-    depth, quoted = 0, False
-    for i in range(open_at, len(text)):
-        ch = text[i]
-        if ch == '"':
-            quoted = not quoted
-        elif not quoted and ch == "(":
+    """The index of the bracket that closes the one at ``open_at``; -1 if none does."""
+    depth = 0
+    for i, ch in _tokens(text[open_at:]):
+        if ch == "(":
             depth += 1
-        elif not quoted and ch == ")":
+        elif ch == ")":
             depth -= 1
             if depth == 0:
-                return i
+                return open_at + i
     return -1
 
 
@@ -144,8 +161,8 @@ def parse_call(text: str, sheet: str, names: dict) -> Call:
 @functools.lru_cache(maxsize=4096)
 def _call_parts(text: str) -> tuple[str, tuple[str, ...]]:
     """The function name and the raw argument texts of a CALIB_* call (the same on every sheet)."""
-    body = _PREFIX.sub("", text.strip().lstrip("=").strip())
-    m = re.match(r"^([A-Za-z_][\w.]*)\s*\(", body)
+    body = text.strip().lstrip("=").strip()
+    m = HEAD.match(body)
     if not m or m.group(1).upper() not in NAMES:
         raise Unsupported("the formula mixes CALIB_* with other functions or operators")
     open_at = m.end() - 1
@@ -166,7 +183,7 @@ def _argument(text: str, sheet: str, names: dict):
         return t[1:-1].replace('""', '"')
     if t.upper() in ("TRUE", "FALSE"):
         return t.upper() == "TRUE"
-    if MENTION.match(_PREFIX.sub("", t)):
+    if HEAD.match(t):
         return parse_call(t, sheet, names)
     area = reference(t, sheet)
     if area is not None:
@@ -199,6 +216,19 @@ def reference(text: str, sheet: str) -> Area | None:
     top, bottom = sorted((top, bottom))
     left, right = sorted((left, right))
     return Area(on, top, left, bottom, right)
+
+
+_PLAIN_SHEET = re.compile(r"[^\W\d][\w.]*")
+_LIKE_A_REFERENCE = re.compile(r"[A-Za-z]{1,3}\d+|(?:R\d*)?(?:C\d*)?|TRUE|FALSE", re.IGNORECASE)
+
+
+def quote_sheet(name: str) -> str:
+    """A sheet name as a formula writes it: plain when it is a plain word (letters, digits, _ and .,
+    not starting with a digit, not read as a cell or R1C1 reference or a logical), otherwise in
+    single quotes with each quote doubled ('Run 2', 'it''s')."""
+    if _PLAIN_SHEET.fullmatch(name) and not _LIKE_A_REFERENCE.fullmatch(name):
+        return name
+    return "'" + name.replace("'", "''") + "'"
 
 
 _SHIFT = re.compile(r"""("(?:[^"]|"")*")|('(?:[^']|'')+'!)|(?<![\w.$])(\$?)([A-Za-z]{1,3})(\$?)(\d{1,7})(?![\w(!])"""

@@ -23,19 +23,30 @@ from defusedxml.common import DefusedXmlException
 from .formula import cell_name, column_letters, column_number, parse_cell
 
 MAIN = "http://schemas.openxmlformats.org/spreadsheetml/2006/main"
+STRICT_MAIN = "http://purl.oclc.org/ooxml/spreadsheetml/main"
 REL = "http://schemas.openxmlformats.org/officeDocument/2006/relationships"
 METADATA_REL = "http://schemas.openxmlformats.org/officeDocument/2006/relationships/sheetMetadata"
 METADATA_TYPE = "application/vnd.openxmlformats-officedocument.spreadsheetml.sheetMetadata+xml"
 DYNAMIC_URI = "{bdbb8cdc-fa1e-496e-a857-3c3f30c029c3}"
-METADATA_XML = (
-    '<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n'
-    f'<metadata xmlns="{MAIN}" xmlns:xda="http://schemas.microsoft.com/office/spreadsheetml/2017/dynamicarray">'
-    '<metadataTypes count="1"><metadataType name="XLDAPR" minSupportedVersion="120000" copy="1" pasteAll="1" '
-    'pasteValues="1" merge="1" splitFirst="1" rowColShift="1" clearFormats="1" clearComments="1" assign="1" '
-    'coerce="1" cellMeta="1"/></metadataTypes><futureMetadata name="XLDAPR" count="1"><bk><extLst>'
-    f'<ext uri="{DYNAMIC_URI}"><xda:dynamicArrayProperties fDynamic="1" fCollapsed="0"/></ext></extLst></bk>'
-    '</futureMetadata><cellMetadata count="1"><bk><rc t="1" v="0"/></bk></cellMetadata></metadata>'
-)
+# the dynamic-array record as the desktop program writes it: a metadata type, its future-metadata block, and
+# the cell-metadata block (the `cm` index of a cell) that points at it
+DYNAMIC_TYPE = ('<metadataType name="XLDAPR" minSupportedVersion="120000" copy="1" pasteAll="1" pasteValues="1" '
+                'merge="1" splitFirst="1" rowColShift="1" clearFormats="1" clearComments="1" assign="1" coerce="1" '
+                'cellMeta="1"/>')
+DYNAMIC_NS = 'xmlns:xda="http://schemas.microsoft.com/office/spreadsheetml/2017/dynamicarray"'
+
+
+def _dynamic_future(p: str = "", declare: str = "") -> str:
+    """The future-metadata block of the dynamic-array record (elements with prefix ``p``)."""
+    return (f'<{p}futureMetadata name="XLDAPR" count="1"><{p}bk><{p}extLst><{p}ext uri="{DYNAMIC_URI}">'
+            f'<xda:dynamicArrayProperties{declare} fDynamic="1" fCollapsed="0"/></{p}ext></{p}extLst></{p}bk>'
+            f'</{p}futureMetadata>')
+
+
+METADATA_XML = ('<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n'
+                f'<metadata xmlns="{MAIN}" {DYNAMIC_NS}><metadataTypes count="1">{DYNAMIC_TYPE}</metadataTypes>'
+                f'{_dynamic_future()}<cellMetadata count="1"><bk><rc t="1" v="0"/></bk></cellMetadata></metadata>')
+MAX_ROW, MAX_COL = 1_048_576, 16_384  # the last row and column of a sheet (XFD)
 
 MAX_ENTRIES = 10_000
 MAX_PART = 256 * 2**20
@@ -71,6 +82,15 @@ def _plain_utf8(data: bytes) -> bool:
     return declared is None or declared.group(1).lower().replace(b"_", b"-") in (b"utf-8", b"utf8")
 
 
+def text_of(name: str, data: bytes) -> str:
+    """A part that the refresh edits as text: UTF-8, as spreadsheet programs write it, or a PackageError."""
+    try:
+        return data.decode("utf-8")
+    except UnicodeDecodeError:
+        raise PackageError(f"part {name} is not UTF-8 text; the refresh edits only UTF-8 parts "
+                           "(save the workbook again in a spreadsheet program)") from None
+
+
 def parse_xml(name: str, data: bytes):
     """The parsed XML part, or a one-line PackageError: a DTD or an entity is refused.
 
@@ -92,6 +112,10 @@ def read_package(path) -> tuple[list[zipfile.ZipInfo], dict[str, bytes]]:
     try:
         with zipfile.ZipFile(path) as z:
             infos = z.infolist()
+            names = [i.filename for i in infos]
+            if len(set(names)) != len(names):
+                twice = next(n for n in names if names.count(n) > 1)
+                raise PackageError(f"the package holds two parts named {twice}; refusing an ambiguous file")
             if len(infos) > MAX_ENTRIES:
                 raise PackageError(f"the package has {len(infos)} parts; refusing more than {MAX_ENTRIES}")
             total = 0
@@ -140,6 +164,9 @@ class Sheet:
     values: dict = field(default_factory=dict)  # (row, col) -> value
     formulas: dict = field(default_factory=dict)  # (row, col) -> (text, attributes of <f>)
     styles: dict = field(default_factory=dict)  # (row, col) -> s attribute
+    dynamic: dict = field(default_factory=dict)  # (row, col) -> cm attribute of a cell stored as a dynamic array
+    merged: list = field(default_factory=list)  # (top, left, bottom, right) of each merged block
+    tables: list = field(default_factory=list)  # (name, (top, left, bottom, right)) of each table
     max_row: int = 0
 
 
@@ -154,6 +181,15 @@ def _rels(parts: dict[str, bytes], part: str) -> dict[str, tuple[str, str]]:
         full = target.lstrip("/") if target.startswith("/") else posixpath.normpath(posixpath.join(folder, target))
         out[rel.get("Id")] = (rel.get("Type", ""), full)
     return out
+
+
+def _box(part: str, ref: str) -> tuple[int, int, int, int]:
+    """(top, left, bottom, right) of a range like B2:D6 stored in ``part``."""
+    try:
+        (top, left), (bottom, right) = (parse_cell(c.replace("$", "")) for c in (ref.split(":") + [ref])[:2])
+    except ValueError:
+        raise PackageError(f"part {part} holds the range {ref!r}, which is not a cell range") from None
+    return min(top, bottom), min(left, right), max(top, bottom), max(left, right)
 
 
 def _text(el) -> str:
@@ -171,41 +207,67 @@ class Workbook:
             raise PackageError("not a spreadsheet workbook: no workbook part")
         self.workbook_part = office[0]
         book = parse_xml(self.workbook_part, parts[self.workbook_part])
+        if book.tag == f"{{{STRICT_MAIN}}}workbook":
+            raise PackageError("the workbook is saved as Strict Open XML, which the refresh does not edit; "
+                               "save it as an ordinary .xlsx (or .xlsm) workbook and try again")
         rels = _rels(parts, self.workbook_part)
         self.workbook_rels = rels
         strings_part = next((t for kind, t in rels.values() if kind.endswith("/sharedStrings")), None)
         self.shared = ([_text(si) for si in parse_xml(strings_part, parts[strings_part]).iter(_q("si"))]
                        if strings_part in parts else [])
         self.sheets: dict[str, Sheet] = {}
-        order = []
+        every = [sh.get("name", "") for sh in book.iter(_q("sheet"))]  # all sheets, chart and dialog sheets too
         for sh in book.iter(_q("sheet")):
             rid = sh.get(f"{{{REL}}}id")
             kind, target = rels.get(rid, ("", ""))
             if kind.endswith("/worksheet") and target in parts:
                 self.sheets[sh.get("name")] = Sheet(sh.get("name"), target)
-                order.append(sh.get("name"))
-        self.sheet_order = order
+        self.sheet_order = list(self.sheets)
         self.names = {}
         for dn in book.iter(_q("definedName")):
-            scope = dn.get("localSheetId")
-            sheet = order[int(scope)] if scope is not None and int(scope) < len(order) else None
+            scope = dn.get("localSheetId")  # ECMA-376 18.2.5: the index of the sheet among all <sheet> elements
+            sheet = None
+            if scope is not None:
+                if not scope.isdigit() or int(scope) >= len(every):
+                    raise PackageError(f"the defined name {dn.get('name')!r} in {self.workbook_part} has the "
+                                       f"sheet scope {scope!r}, which is not a sheet of the workbook")
+                sheet = every[int(scope)]
             self.names[(sheet, dn.get("name", "").upper())] = (dn.text or "").strip()
         for sheet in self.sheets.values():
-            self._read_cells(sheet)
+            self._read_sheet(sheet)
 
-    def _read_cells(self, sheet: Sheet) -> None:
+    def _read_sheet(self, sheet: Sheet) -> None:
         root = parse_xml(sheet.part, self.parts[sheet.part])
+        sheet.merged = [_box(sheet.part, m.get("ref", "")) for m in root.iter(_q("mergeCell"))]
+        tables = root.find(_q("tableParts"))
+        if tables is not None:
+            rels = _rels(self.parts, sheet.part)
+            for tp in tables.iter(_q("tablePart")):
+                target = rels.get(tp.get(f"{{{REL}}}id"), ("", ""))[1]
+                if target in self.parts:
+                    table = parse_xml(target, self.parts[target])
+                    sheet.tables.append((table.get("displayName") or table.get("name") or target,
+                                         _box(target, table.get("ref", ""))))
         data = root.find(_SHEET_DATA)
-        if data is None:
-            return
+        if data is not None:
+            self._read_cells(sheet, data)
+
+    def _read_cells(self, sheet: Sheet, data) -> None:
         styles, formulas, values = sheet.styles, sheet.formulas, sheet.values
         row_no = 0
         for row in data.iter(_ROW):
-            row_no = int(row.get("r", row_no + 1))
+            r_attr = row.get("r")
+            if r_attr is not None and not r_attr.isdigit():
+                raise PackageError(f"part {sheet.part} has a row numbered {r_attr!r}")
+            row_no = int(r_attr) if r_attr is not None else row_no + 1
             col_no = 0
             for c in row.iter(_CELL):
                 ref = c.get("r")
-                r, col = parse_cell(ref) if ref else (row_no, col_no + 1)
+                try:
+                    r, col = parse_cell(ref) if ref else (row_no, col_no + 1)
+                except ValueError:
+                    raise PackageError(f"part {sheet.part} has a cell at {ref!r}, which is not a cell reference") \
+                        from None
                 col_no = col
                 key = (r, col)
                 style = c.get("s")
@@ -214,13 +276,15 @@ class Workbook:
                 f = c.find(_FORMULA)
                 if f is not None:
                     formulas[key] = (f.text or "", dict(f.attrib))
-                value = self._value(c)
+                    if c.get("cm") is not None and f.get("t") == "array":
+                        sheet.dynamic[key] = c.get("cm")
+                value = self._value(c, sheet.part, ref)
                 if value is not None:
                     values[key] = value
                     if r > sheet.max_row:
                         sheet.max_row = r
 
-    def _value(self, c):
+    def _value(self, c, part: str, ref):
         t = c.get("t", "n")
         if t == "inlineStr":
             el = c.find(_INLINE)
@@ -231,6 +295,9 @@ class Workbook:
         text = v.text
         if t != "n":
             if t == "s":
+                if not text.strip().isdigit() or int(text) >= len(self.shared):
+                    raise PackageError(f"part {part} has a cell ({ref}) that refers to shared text {text!r}, "
+                                       f"but the workbook has {len(self.shared)}")
                 return self.shared[int(text)]
             if t == "b":
                 return text.strip() == "1"
@@ -259,13 +326,13 @@ class SheetText:
     well-formed XML); untouched rows are written back verbatim.
     """
 
-    def __init__(self, xml: str):
+    def __init__(self, xml: str, name: str = "the sheet"):
         m = re.search(r"<(\w+:)?worksheet\b", xml)
         self.p = (m.group(1) or "") if m else ""
         p = re.escape(self.p)
         data = re.search(rf"<{p}sheetData\b[^>]*?(?:/>|>(.*?)</{p}sheetData>)", xml, re.S)
         if data is None:
-            raise PackageError("the worksheet has no sheetData element")
+            raise PackageError(f"part {name} has no sheetData element")
         self.head = xml[: data.start()]
         self.tail = xml[data.end():]
         self.open_tag = re.match(rf"<{p}sheetData\b[^>]*?", data.group(0)).group(0).rstrip("/") + ">"
@@ -294,11 +361,13 @@ class SheetText:
             self.order.append(row)
         entry = self.rows[row]
         for col, xml in cells.items():
+            if entry[1].get(col) == xml:  # the cell as it is stored: its row stays verbatim
+                continue
             if xml is None:
-                entry[1].pop(col, None)
+                entry[1].pop(col)
             else:
                 entry[1][col] = xml
-        entry[2] = True
+            entry[2] = True
 
     def _dimension(self, head: str) -> str:
         """head with the <dimension> widened to cover every cell now in the sheet."""
@@ -393,38 +462,22 @@ def set_full_calc_on_load(xml: str) -> str:
     raise PackageError("workbook.xml has no sheets element")
 
 
-def dynamic_array_metadata(parts: dict[str, bytes], workbook_part: str, rels: dict) -> tuple[str | None, list[str]]:
-    """The cm index that marks a dynamic array, adding the metadata part when the workbook has none.
-
-    Returns the index (None when existing metadata has no dynamic-array record) and
-    the names of parts added.
-    """
+def dynamic_array_metadata(parts: dict[str, bytes], workbook_part: str, rels: dict) -> tuple[str, list[str]]:
+    """The cm index that marks a dynamic array, written into ``parts``: the workbook's own record when it
+    has one, else a record merged into its metadata part (every other record kept byte for byte), else a
+    new metadata part. Returns the index and the names of parts added."""
     existing = next((t for kind, t in rels.values() if kind == METADATA_REL), None)
     if existing and existing in parts:
-        root = parse_xml(existing, parts[existing])
-        types = [t.get("name") for t in root.iter(_q("metadataType"))]
-        if "XLDAPR" not in types:
-            return None, []
-        t_index = types.index("XLDAPR") + 1
-        future = next((fm for fm in root.iter(_q("futureMetadata")) if fm.get("name") == "XLDAPR"), None)
-        dynamic = set()
-        if future is not None:
-            for i, bk in enumerate(future.findall(_q("bk"))):
-                for el in bk.iter():
-                    if el.tag.endswith("dynamicArrayProperties") and el.get("fDynamic") == "1" \
-                            and el.get("fCollapsed", "0") == "0":
-                        dynamic.add(i)
-        cell_meta = root.find(_q("cellMetadata"))
-        for i, bk in enumerate(cell_meta.findall(_q("bk")) if cell_meta is not None else []):
-            rc = bk.find(_q("rc"))
-            if rc is not None and int(rc.get("t", 0)) == t_index and int(rc.get("v", -1)) in dynamic:
-                return str(i + 1), []
-        return None, []
+        index = _dynamic_record(existing, parse_xml(existing, parts[existing]))
+        if index is None:
+            xml, index = _merge_dynamic_record(existing, text_of(existing, parts[existing]))
+            parts[existing] = xml.encode("utf-8")
+        return index, []
     folder = posixpath.dirname(workbook_part)
     name = posixpath.join(folder, "metadata.xml")
     parts[name] = METADATA_XML.encode()
     rels_name = posixpath.join(folder, "_rels", posixpath.basename(workbook_part) + ".rels")
-    text = parts[rels_name].decode("utf-8")
+    text = text_of(rels_name, parts[rels_name])
     ids = set(re.findall(r'Id="([^"]+)"', text))
     n = 1
     while f"rId{n}" in ids:
@@ -433,8 +486,84 @@ def dynamic_array_metadata(parts: dict[str, bytes], workbook_part: str, rels: di
                   lambda m: f'<{m.group(1) or ""}Relationship Id="rId{n}" Type="{METADATA_REL}" '
                             f'Target="metadata.xml"/></{m.group(1) or ""}Relationships>', text, count=1)
     parts[rels_name] = text.encode("utf-8")
-    types = parts["[Content_Types].xml"].decode("utf-8")
+    types = text_of("[Content_Types].xml", parts["[Content_Types].xml"])
     types = re.sub(r"</(\w+:)?Types>", lambda m: f'<{m.group(1) or ""}Override PartName="/{name}" '
                    f'ContentType="{METADATA_TYPE}"/></{m.group(1) or ""}Types>', types, count=1)
     parts["[Content_Types].xml"] = types.encode("utf-8")
     return "1", [name]
+
+
+def _dynamic_record(name: str, root) -> str | None:
+    """The cm index (1-based cell-metadata block) whose record says "dynamic array", or None."""
+    types = [t.get("name") for t in root.iter(_q("metadataType"))]
+    if "XLDAPR" not in types:
+        return None
+    t_index = types.index("XLDAPR") + 1
+    future = next((fm for fm in root.iter(_q("futureMetadata")) if fm.get("name") == "XLDAPR"), None)
+    dynamic = set()
+    if future is not None:
+        for i, bk in enumerate(future.findall(_q("bk"))):
+            for el in bk.iter():
+                if el.tag.endswith("dynamicArrayProperties") and el.get("fDynamic") == "1" \
+                        and el.get("fCollapsed", "0") == "0":
+                    dynamic.add(i)
+    cell_meta = root.find(_q("cellMetadata"))
+    for i, bk in enumerate(cell_meta.findall(_q("bk")) if cell_meta is not None else []):
+        rc = bk.find(_q("rc"))
+        if rc is not None and rc.get("t", "").isdigit() and int(rc.get("t")) == t_index \
+                and rc.get("v", "").isdigit() and int(rc.get("v")) in dynamic:
+            return str(i + 1)
+    return None
+
+
+def _merge_dynamic_record(name: str, xml: str) -> tuple[str, str]:
+    """Metadata XML with a dynamic-array record added (type, future block, cell block), and its cm index.
+
+    Inserted as text in the schema's order (metadataTypes, metadataStrings, mdxMetadata, futureMetadata,
+    cellMetadata, valueMetadata, extLst): every byte of the other records stays as it was."""
+    root = re.search(r"<(\w+:)?metadata\b[^>]*>", xml)
+    if root is None or root.group(0).endswith("/>"):
+        raise PackageError(f"part {name} is not a metadata part the refresh can extend")
+    p = root.group(1) or ""
+    ep = re.escape(p)
+    if re.search(rf"<{ep}metadataType\b[^>]*\bname=\"XLDAPR\"", xml):
+        raise PackageError(f"part {name} has a dynamic-array type without a dynamic-array record")
+    own = DYNAMIC_TYPE.replace("<metadataType", f"<{p}metadataType")
+    types = re.search(rf"<{ep}metadataTypes\b([^>]*?)(/?)>", xml)
+    if types is None:
+        xml = xml[: root.end()] + f'<{p}metadataTypes count="1">{own}</{p}metadataTypes>' + xml[root.end():]
+        t_index = 1
+    else:
+        t_index = len(re.findall(rf"<{ep}metadataType\b", xml)) + 1
+        attrs = _set_count(types.group(1), t_index)
+        if types.group(2):  # <metadataTypes count="0"/>
+            xml = xml[: types.start()] + f"<{p}metadataTypes{attrs}>{own}</{p}metadataTypes>" + xml[types.end():]
+        else:
+            end = xml.index(f"</{p}metadataTypes>")
+            xml = xml[: types.start()] + f"<{p}metadataTypes{attrs}>" + xml[types.end(): end] + own + xml[end:]
+    xml = _insert_before(xml, _dynamic_future(p, " " + DYNAMIC_NS), [f"<{p}cellMetadata", f"<{p}valueMetadata", f"<{p}extLst", f"</{p}metadata>"])
+    block = f'<{p}bk><{p}rc t="{t_index}" v="0"/></{p}bk>'
+    cells = re.search(rf"<{ep}cellMetadata\b([^>]*?)(/?)>", xml)
+    if cells is None:
+        xml = _insert_before(xml, f'<{p}cellMetadata count="1">{block}</{p}cellMetadata>',
+                             [f"<{p}valueMetadata", f"<{p}extLst", f"</{p}metadata>"])
+        return xml, "1"
+    end = xml.find(f"</{p}cellMetadata>", cells.end())
+    index = 1 if cells.group(2) else len(re.findall(rf"<{ep}bk\b", xml[cells.end(): end])) + 1
+    attrs = _set_count(cells.group(1), index)
+    if cells.group(2):
+        return xml[: cells.start()] + f"<{p}cellMetadata{attrs}>{block}</{p}cellMetadata>" + xml[cells.end():], "1"
+    return xml[: cells.start()] + f"<{p}cellMetadata{attrs}>" + xml[cells.end(): end] + block + xml[end:], str(index)
+
+
+def _set_count(attrs: str, count: int) -> str:
+    """An element's attribute text with count set."""
+    if re.search(r'\bcount\s*=\s*"[^"]*"', attrs):
+        return re.sub(r'\bcount\s*=\s*"[^"]*"', f'count="{count}"', attrs)
+    return f'{attrs} count="{count}"'
+
+
+def _insert_before(xml: str, text: str, marks: list[str]) -> str:
+    """``text`` inserted before the first of ``marks`` that occurs (the last is always present)."""
+    at = min(i for i in (xml.find(m) for m in marks) if i >= 0)
+    return xml[:at] + text + xml[at:]

@@ -5,61 +5,100 @@ spreadsheet calls, in dependency order. The anchor keeps its formula; a result
 of more than one cell is stored as a dynamic-array formula over the range it
 covers (with the metadata that marks it dynamic); cells the previous result
 covered and the new one does not are cleared; a result that would cover a
-non-empty cell is not written (the anchor shows #SPILL!, as the spreadsheet
-program would). Only the changed cells' XML, the workbook's calculation flag
-(full recalculation on open) and, when needed, the dynamic-array metadata part
-change; every other part stays byte for byte. The file is written to a
-temporary file in the same folder and replaced atomically.
+non-empty cell, a merged block or a table, or reach beyond the sheet's edge, is not
+written (the anchor shows #SPILL!, as the spreadsheet program would); an anchor stored
+as a dynamic array keeps that form. Only the changed cells' XML, the workbook's
+calculation flag (full recalculation on open) and, when needed, the dynamic-array
+metadata change; every other part stays byte for byte. The file is written to a
+temporary file beside it, with its permissions, and replaced atomically; a workbook
+whose bytes would not change is not written at all.
 """
 
 from __future__ import annotations
 
 import os
+import re
 import shutil
+import stat
 import sys
 import tempfile
 import time
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from . import functions
-from .formula import (MENTION, Area, Call, Unsupported, areas_of, cell_name, column_letters, parse_call, reference,
-                      shift_references)
-from .package import (PackageError, SheetText, Workbook, dynamic_array_metadata, read_package,
-                      set_full_calc_on_load, write_package)
+from . import FUNCTIONS, functions
+from .formula import (MENTION, Area, Call, Unsupported, areas_of, cell_name, column_letters, parse_call, quote_sheet,
+                      reference, shift_references)
+from .package import (MAX_COL, MAX_ROW, PackageError, SheetText, Workbook, dynamic_array_metadata, read_package,
+                      set_full_calc_on_load, text_of, write_package)
 
 SUFFIXES = (".xlsx", ".xlsm")
-CALLABLE = {f"CALIB_{n.upper()}": getattr(functions, f"calib_{n}") for n in (
-    "order", "orders", "seqf", "coefs", "stats", "predict", "inverse", "residuals", "checks", "compare", "labels",
-    "version")}
+CALLABLE = {name.upper(): getattr(functions, name) for name in FUNCTIONS}  # every function of the family
+TEXT_RESULTS = {"CALIB_VERSION"}  # functions whose one-cell text result is an answer, not a message
+BACKUP = re.compile(r"\.before-refresh-\d{8}-\d{6}(?:-\d+)?$")  # the stem of a backup kept by --backup
+
+
+def _show(value, digits: int = 6) -> str:
+    """A cell value for the report: numbers to ``digits`` significant digits, texts in quotes."""
+    if value is None:
+        return "empty"
+    if isinstance(value, bool):
+        return "TRUE" if value else "FALSE"
+    if isinstance(value, (int, float)):
+        return f"{value:.{digits}g}"
+    return '"' + str(value).replace('"', '""') + '"'
+
+
+def _change(old, new) -> str:
+    """``old -> new``, to 6 significant digits, or as many more as it takes to tell them apart."""
+    digits = 6
+    while digits < 17 and _show(old, digits) == _show(new, digits):
+        digits += 1
+    return f"{_show(old, digits)} -> {_show(new, digits)}"
 
 
 @dataclass
 class Report:
-    """What a refresh did to one workbook."""
+    """What a refresh did to one workbook: an audit trail of every cell whose value changed."""
 
     path: Path
     refreshed: list[str] = field(default_factory=list)
+    messages: list[tuple[str, str]] = field(default_factory=list)  # refreshed cells whose result is a message
+    changes: list[tuple[str, tuple[int, int], list]] = field(default_factory=list)  # anchor, shape, [(cell, old, new)]
     blocked: list[tuple[str, str]] = field(default_factory=list)
     left_alone: list[tuple[str, str]] = field(default_factory=list)
     failed: list[tuple[str, str]] = field(default_factory=list)
-    changed: bool = False
+    changed: bool = False  # some value or stored formula changes
+    written: bool = False  # the file was rewritten
     error: str | None = None
     backup: Path | None = None
 
     @property
     def ok(self) -> bool:
-        return self.error is None and not (self.blocked or self.left_alone or self.failed)
+        return self.error is None and not (self.blocked or self.left_alone or self.failed or self.messages)
 
     def lines(self, check: bool = False) -> list[str]:
         if self.error:
             return [f"{self.path}: not refreshed: {self.error}"]
-        verb = "would refresh" if check else "refreshed"
-        head = (f"{self.path}: {len(self.refreshed)} cells {verb}, {len(self.blocked)} blocked, "
-                f"{len(self.left_alone)} left alone, {len(self.failed)} failed")
-        if check:
-            head += "; " + ("values would change" if self.changed else "nothing would change")
+        cells = sum(len(c) for _, _, c in self.changes)
+        head = (f"{self.path}: {len(self.refreshed)} CALIB_* cells {'computed' if check else 'refreshed'} "
+                f"({len(self.messages)} with a message), {len(self.blocked)} blocked, {len(self.left_alone)} left "
+                f"alone, {len(self.failed)} failed; ")
+        if not self.changed:
+            head += "nothing would change" if check else "nothing changed, the file was left as it was"
+        elif cells:
+            head += f"{cells} cell values would change" if check else f"{cells} cell values changed"
+        else:
+            head += "only stored formulas would change" if check else "only stored formulas changed"
         out = [head]
+        verb = "would change" if check else "changed"
+        for anchor, (height, width), diffs in self.changes:
+            if height == width == 1 and len(diffs) == 1:
+                out.append(f"  {verb} {anchor}: {_change(*diffs[0][1:])}")
+            else:
+                listed = "; ".join(f"{cell} {_change(old, new)}" for cell, old, new in diffs)
+                out.append(f"  {verb} {anchor} (table {height} x {width}), {len(diffs)} cells: {listed}")
+        out += [f"  message {c}: {text}" for c, text in self.messages]
         out += [f"  blocked {c}: {why}" for c, why in self.blocked]
         out += [f"  left alone {c}: {why}" for c, why in self.left_alone]
         out += [f"  failed {c}: {why}" for c, why in self.failed]
@@ -81,7 +120,7 @@ class Formula:
 
     @property
     def where(self) -> str:
-        return f"{self.sheet}!{cell_name(self.row, self.col)}"
+        return f"{quote_sheet(self.sheet)}!{cell_name(self.row, self.col)}"
 
 
 def lock_file(path: Path) -> Path | None:
@@ -164,7 +203,8 @@ class Refresher:
                 a.contains(g.sheet, g.row, g.col) or (g.previous is not None and a.overlaps(g.previous)))}
         order, dead = self._order(graph, by_cell, report)
         # the cm index a dynamic array will carry, found on a copy; the parts change only if one is written
-        cm = dynamic_array_metadata(dict(self.parts), self.book.workbook_part, self.book.workbook_rels)[0]
+        cm = dynamic_array_metadata(dict(self.parts), self.book.workbook_part, self.book.workbook_rels)[0] \
+            if by_cell else None
         plan = (by_cell, graph, dead, cm)
         shares = _shares(order, by_cell, workers) if workers > 1 and len(order) >= PARALLEL_FROM else [order]
         if len(shares) > 1 and _can_fork():
@@ -180,8 +220,8 @@ class Refresher:
         return changed, added
 
     def _compute(self, keys, plan, report: Report) -> tuple[dict[str, bytes], bool]:
-        """Evaluate and write the formulas ``keys`` in this order: the rendered sheet parts, and
-        whether a dynamic array was written."""
+        """Evaluate and write the formulas ``keys`` in this order: the sheet parts whose bytes change, and
+        whether a cell now refers to the dynamic-array record."""
         by_cell, graph, dead, cm = plan
         edits: dict[str, SheetText] = {}
         arrays = False
@@ -203,14 +243,9 @@ class Refresher:
                                                    "enter it in its cell alone"))
                 dead.add(key)
                 continue
-            if len(rows) > 1 or len(rows[0]) > 1:
-                if cm is None:
-                    report.failed.append((f.where, "the workbook's metadata has no dynamic-array record"))
-                    dead.add(key)
-                    continue
-                arrays = True
-            self._write(f, rows, cm, edits, report)
-        return {part: text.render().encode("utf-8") for part, text in edits.items()}, arrays
+            arrays |= self._write(f, rows, cm, edits, report)
+        rendered = ((part, text.render().encode("utf-8")) for part, text in edits.items())
+        return {part: data for part, data in rendered if data != self.parts[part]}, arrays
 
     def _compute_in_processes(self, shares, plan, report: Report, order):
         """``_compute`` of each share, the first here and each other in a forked process (the shares
@@ -270,40 +305,67 @@ class Refresher:
                     stack.append((dep, iter(sorted(graph[dep], key=lambda k: (sheet_index.get(k[0], 0), k[1], k[2])))))
         return [k for k in order if k not in dead], dead
 
-    def _write(self, f: Formula, rows, cm, edits, report: Report) -> None:
+    def _blocked(self, f: Formula, height: int, width: int, old_cells: set) -> str | None:
+        """Why the program would not let this result spill (its #SPILL! reasons), or None."""
+        size = f"the result ({height} x {width})"
+        bottom, right = f.row + height - 1, f.col + width - 1
+        if bottom > MAX_ROW or right > MAX_COL:
+            edge = f"row {MAX_ROW}" if bottom > MAX_ROW else f"column {column_letters(MAX_COL)}"
+            return f"{size} would reach beyond the sheet's last {edge}; nothing was written"
+        if height == width == 1:
+            return None
+        sheet, anchor = self.book.sheets[f.sheet], (f.row, f.col)
+        values, formulas = sheet.values, sheet.formulas
+        covered = ((f.row + i, f.col + j) for i in range(height) for j in range(width))
+        in_the_way = next((k for k in covered if k != anchor and k not in old_cells
+                           and (k in values or k in formulas)), None)
+        if in_the_way is not None:
+            return f"{size} would cover {cell_name(*in_the_way)}, which is not empty; nothing was overwritten"
+        boxes = [("the merged cells", box) for box in sheet.merged] + [(f"the table {name}", box)
+                                                                      for name, box in sheet.tables]
+        for what, (top, left, low, high) in boxes:
+            if not (bottom < top or low < f.row or right < left or high < f.col):
+                return (f"{size} would spill into {what} {cell_name(top, left)}:{cell_name(low, high)}, "
+                        "where the spreadsheet program does not allow a spilled result; nothing was written")
+        return None
+
+    def _write(self, f: Formula, rows, cm, edits, report: Report) -> bool:
+        """Store one result; True when a cell was given the dynamic-array record ``cm``."""
         sheet = self.book.sheets[f.sheet]
         text = edits.get(sheet.part)
         if text is None:
-            text = edits[sheet.part] = SheetText(self.parts[sheet.part].decode("utf-8"))
+            text = edits[sheet.part] = SheetText(text_of(sheet.part, self.parts[sheet.part]), sheet.part)
         height, width = len(rows), max(len(r) for r in rows)
-        new = Area(f.sheet, f.row, f.col, f.row + height - 1, f.col + width - 1)
         anchor = (f.row, f.col)
         old_cells = set()
         if f.previous is not None and f.previous.top is not None:
             old_cells = {(r, c) for r in range(f.previous.top, f.previous.bottom + 1)
                          for c in range(f.previous.left, f.previous.right + 1)}
-        values, formulas = sheet.values, sheet.formulas
-        covered = ((f.row + i, f.col + j) for i in range(height) for j in range(width))
-        blocked_by = next((k for k in covered if k != anchor and k not in old_cells
-                           and (k in values or k in formulas)), None)
-        if blocked_by is not None:
-            report.blocked.append((f.where, f"the result ({height} x {width}) would cover "
-                                            f"{cell_name(*blocked_by)}, which is not empty; nothing was overwritten"))
-            rows, height, width, keep_array = [["#SPILL!"]], 1, 1, False
+        why = self._blocked(f, height, width, old_cells)
+        if why is not None:
+            report.blocked.append((f.where, why))
+            rows, height, width = [["#SPILL!"]], 1, 1
         else:
-            keep_array = height > 1 or width > 1
             report.refreshed.append(f.where)
-        changed = f.previous != (new if keep_array else None)
-        styles = sheet.styles
+            if height == width == 1 and isinstance(rows[0][0], str) and f.call.name not in TEXT_RESULTS:
+                report.messages.append((f.where, rows[0][0]))
+        # a spill is stored as a dynamic array; an anchor stored as an array keeps that form whatever its result
+        array = height > 1 or width > 1 or f.attrs.get("t") == "array"
+        own_cm = cm if (height > 1 or width > 1) and anchor not in sheet.dynamic else None
+        cell_cm = sheet.dynamic.get(anchor) or own_cm
+        new = Area(f.sheet, f.row, f.col, f.row + height - 1, f.col + width - 1)
+        changed = f.previous != (new if array else None)
+        values, styles, diffs = sheet.values, sheet.styles, []
         bottom, right = f.row + height - 1, f.col + width - 1
         for key in sorted(old_cells):
             if f.row <= key[0] <= bottom and f.col <= key[1] <= right:
                 continue
             style = styles.get(key)
             text.set_cell(*key, text.cell_xml(*key, None, style) if style is not None else None)
-            changed = changed or key in values
-            values.pop(key, None)
-        ref = f"{cell_name(new.top, new.left)}:{cell_name(new.bottom, new.right)}" if keep_array else None
+            if key in values:
+                diffs.append((key, values.pop(key), None))
+        ref = None if not array else (cell_name(f.row, f.col) if height == width == 1 else
+                                      f"{cell_name(f.row, f.col)}:{cell_name(new.bottom, new.right)}")
         p, letters = text.p, [column_letters(f.col + j) for j in range(width)]
         get_style, get_value = styles.get, values.get
         for i, row in enumerate(rows):
@@ -321,20 +383,24 @@ class Refresher:
                     if f.shift is not None:  # a filled formula keeps its stored <f> element as it is
                         cells[c] = text.cell_xml(r, c, value, style, f_xml=text.formula_xml(r, c))
                     else:
-                        cells[c] = text.cell_xml(r, c, value, style, f.text, ref, cm if keep_array else None)
+                        cells[c] = text.cell_xml(r, c, value, style, f.text, ref, cell_cm)
                 elif value is None and style is None:
                     cells[c] = None
                 else:
                     cells[c] = text.cell_xml(r, c, value, style)
-                if value is None:
-                    if key in values:
-                        changed = True
+                old = get_value(key)
+                if old != value or isinstance(old, bool) != isinstance(value, bool):
+                    diffs.append((key, old, value))
+                    if value is None:
                         del values[key]
-                elif get_value(key) != value:
-                    changed = True
-                    values[key] = value
+                    else:
+                        values[key] = value
             text.set_cells(r, cells)
-        report.changed |= changed
+        if diffs:
+            diffs.sort()
+            report.changes.append((f.where, (height, width), [(cell_name(*k), old, new) for k, old, new in diffs]))
+        report.changed |= changed or bool(diffs)
+        return own_cm is not None
 
 
 # a workbook with at least this many CALIB_* formulas is split over processes when workers > 1
@@ -380,49 +446,92 @@ def _compute_share(index: int):
     refresher, plan, shares = _FORKED
     report = Report(Path())
     parts, arrays = refresher._compute(shares[index], plan, report)
-    lists = {name: getattr(report, name) for name in ("refreshed", "blocked", "left_alone", "failed")}
+    lists = {name: getattr(report, name) for name in ("refreshed", "messages", "changes", "blocked", "left_alone",
+                                                      "failed")}
     return parts, arrays, lists, report.changed
 
 
+def _target(path: Path, check: bool) -> Path:
+    """The file a refresh reads and replaces: a symlink's target. Refused with a message: a backup kept by an
+    earlier refresh, an open workbook and, when it would be written, a read-only or hard-linked one."""
+    if BACKUP.search(path.stem):
+        raise PackageError("this is a backup kept by an earlier refresh; backups are never refreshed")
+    real = Path(os.path.realpath(path))
+    info = real.stat()
+    if not stat.S_ISREG(info.st_mode):
+        raise PackageError("not a file")
+    lock = lock_file(real) or lock_file(path)
+    if check:
+        return real
+    if lock is not None:
+        raise PackageError(f"the workbook is open in a spreadsheet program ({lock.name} is present); "
+                           "close it and try again")
+    if not info.st_mode & 0o222 or not os.access(real, os.W_OK):
+        raise PackageError("the workbook is read-only; make it writable to refresh it")
+    if info.st_nlink > 1:
+        raise PackageError(f"the workbook has {info.st_nlink} hard links, which a refresh would separate; "
+                           "refresh a copy, or remove the other links")
+    return real
+
+
+def _replace(real: Path, infos, parts: dict, added: list[str], backup: bool, report: Report) -> None:
+    """Write the package to a temporary file beside ``real`` with its mode (and group, where allowed),
+    keep the original as a backup if asked, and move the new file into place atomically."""
+    info = real.stat()
+    fd, tmp = tempfile.mkstemp(prefix=".~degreewise-", suffix=real.suffix, dir=real.parent)
+    os.close(fd)
+    try:
+        os.chmod(tmp, stat.S_IMODE(info.st_mode))
+        try:
+            os.chown(tmp, -1, info.st_gid)
+        except (OSError, AttributeError):  # not a member of the group, or no chown: the folder's default stays
+            pass
+        write_package(tmp, infos, parts, added)
+        if backup:
+            stamp, n = time.strftime("%Y%m%d-%H%M%S"), 1
+            report.backup = real.with_name(f"{real.stem}.before-refresh-{stamp}{real.suffix}")
+            while report.backup.exists():
+                n += 1
+                report.backup = real.with_name(f"{real.stem}.before-refresh-{stamp}-{n}{real.suffix}")
+            shutil.copy2(real, report.backup)
+        os.replace(tmp, real)
+    finally:
+        if os.path.exists(tmp):
+            os.unlink(tmp)
+
+
 def refresh_file(path: Path, check: bool = False, backup: bool = False, workers: int | None = None) -> Report:
-    """Refresh one workbook in place; ``workers`` processes for a large one (default: one per CPU core)."""
+    """Refresh one workbook in place; ``workers`` processes for a large one (default: one per CPU core).
+
+    Never raises: whatever stops it is the report's one-line error, and the file is left as it was."""
+    path = Path(path)
     report = Report(path)
     try:
-        lock = lock_file(path)
-        if lock is not None and not check:
-            raise PackageError(f"the workbook is open in a spreadsheet program ({lock.name} is present); "
-                               "close it and try again")
-        infos, parts = read_package(path)
+        real = _target(path, check)
+        infos, parts = read_package(real)
         changed, added = Refresher(parts).run(report, (os.cpu_count() or 1) if workers is None else workers)
         if check or not changed:
             return report
         parts.update(changed)
-        fd, tmp = tempfile.mkstemp(prefix=".~degreewise-", suffix=path.suffix, dir=path.parent)
-        os.close(fd)
-        try:
-            write_package(tmp, infos, parts, added)
-            if backup:
-                stamp = time.strftime("%Y%m%d-%H%M%S")
-                report.backup = path.with_name(f"{path.stem}.before-refresh-{stamp}{path.suffix}")
-                shutil.copy2(path, report.backup)
-            os.replace(tmp, path)
-        finally:
-            if os.path.exists(tmp):
-                os.unlink(tmp)
+        _replace(real, infos, parts, added, backup, report)
+        report.written = True
     except PackageError as err:
         report.error = str(err)
     except OSError as err:
         report.error = f"{type(err).__name__}: {err}"
+    except Exception as err:  # a defect of ours: reported on one line, so a folder run goes on  # noqa: BLE001
+        report.error = f"unexpected {type(err).__name__} ({err}); the workbook was left as it was"
     return report
 
 
 def workbooks(paths) -> list[Path]:
-    """The workbooks named: files as given, folders searched recursively (lock and temporary files skipped)."""
+    """The workbooks named: files as given, folders searched recursively (lock and temporary files and
+    backups kept by earlier refreshes skipped)."""
     found = []
     for p in map(Path, paths):
         if p.is_dir():
             found += sorted(q for q in p.rglob("*") if q.suffix.lower() in SUFFIXES and q.is_file()
-                            and not q.name.startswith(("~$", ".~")))
+                            and not q.name.startswith(("~$", ".~")) and not BACKUP.search(q.stem))
         else:
             found.append(p)
     return found
@@ -434,7 +543,7 @@ def _one(args):
 
 
 def run(paths, check: bool = False, backup: bool = False, jobs: int | None = None) -> int:
-    """Refresh every workbook; print one summary per workbook; 0 only when everything succeeded.
+    """Refresh every workbook; print each one's report; 0 only when everything succeeded.
 
     ``jobs`` processes (default: one per CPU core): several workbooks are refreshed
     that many at a time; a single large workbook has its sheets split over them.
@@ -456,10 +565,19 @@ def run(paths, check: bool = False, backup: bool = False, jobs: int | None = Non
     if jobs > 1 and len(tasks) > 1:
         from concurrent.futures import ProcessPoolExecutor
 
+        reports = []
         with ProcessPoolExecutor(max_workers=jobs) as pool:
-            reports = list(progress(pool.map(_one, tasks)))
+            for task, future in progress(list(zip(tasks, [pool.submit(_one, t) for t in tasks]))):
+                try:
+                    reports.append(future.result())
+                except Exception as err:  # a worker that died: the others are still reported  # noqa: BLE001
+                    reports.append(Report(task[0], error=f"the process refreshing it stopped ({err!r})"))
     else:
         reports = [refresh_file(*t, workers=jobs) for t in progress(tasks)]
     for r in reports:
         print("\n".join(r.lines(check)))
+    bad = [r for r in reports if r.error]
+    if len(reports) > 1:
+        print(f"{len(reports)} workbooks: {len(reports) - len(bad)} read and computed, {len(bad)} not refreshed"
+              + (": " + ", ".join(str(r.path) for r in bad) if bad else ""))
     return 0 if all(r.ok for r in reports) else 1
