@@ -541,12 +541,14 @@ def _merge_dynamic_record(name: str, xml: str) -> tuple[str, str]:
         else:
             end = xml.index(f"</{p}metadataTypes>")
             xml = xml[: types.start()] + f"<{p}metadataTypes{attrs}>" + xml[types.end(): end] + own + xml[end:]
-    xml = _insert_before(xml, _dynamic_future(p, " " + DYNAMIC_NS), [f"<{p}cellMetadata", f"<{p}valueMetadata", f"<{p}extLst", f"</{p}metadata>"])
+    xml = _insert_after_last(xml, _dynamic_future(p, " " + DYNAMIC_NS),
+                             [f"</{p}{tag}>" for tag in ("metadataTypes", "metadataStrings", "mdxMetadata",
+                                                         "futureMetadata")])
     block = f'<{p}bk><{p}rc t="{t_index}" v="0"/></{p}bk>'
     cells = re.search(rf"<{ep}cellMetadata\b([^>]*?)(/?)>", xml)
     if cells is None:
-        xml = _insert_before(xml, f'<{p}cellMetadata count="1">{block}</{p}cellMetadata>',
-                             [f"<{p}valueMetadata", f"<{p}extLst", f"</{p}metadata>"])
+        xml = _insert_after_last(xml, f'<{p}cellMetadata count="1">{block}</{p}cellMetadata>',
+                                 [f"</{p}futureMetadata>"])
         return xml, "1"
     end = xml.find(f"</{p}cellMetadata>", cells.end())
     index = 1 if cells.group(2) else len(re.findall(rf"<{ep}bk\b", xml[cells.end(): end])) + 1
@@ -563,7 +565,7 @@ def _set_count(attrs: str, count: int) -> str:
     return f'{attrs} count="{count}"'
 
 
-def _insert_before(xml: str, text: str, marks: list[str]) -> str:
-    """``text`` inserted before the first of ``marks`` that occurs (the last is always present)."""
-    at = min(i for i in (xml.find(m) for m in marks) if i >= 0)
+def _insert_after_last(xml: str, text: str, closers: list[str]) -> str:
+    """``text`` inserted after the last closing tag of ``closers`` (children of the root element)."""
+    at = max(i + len(c) for c, i in ((c, xml.rfind(c)) for c in closers) if i >= 0)
     return xml[:at] + text + xml[at:]
