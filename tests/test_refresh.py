@@ -121,7 +121,7 @@ def test_only_changed_cells_differ_in_the_sheet_xml(tmp_path):
     refresh_file(path)
     after = entries(path)["xl/worksheets/sheet1.xml"].decode()
     head = before[: before.index("<sheetData>")]
-    assert after.startswith(head.replace('<dimension ref="A1:K13"', '<dimension ref="A1:K13"'))
+    assert '<dimension ref="A1:K13"' in head and after.startswith(head)  # the results stay inside A1:K13
     assert after[after.index("</sheetData>"):] == before[before.index("</sheetData>"):]
     for row in ("<row r=\"2\">", "<row r=\"7\">", "<row r=\"13\">"):
         start = before.index(row)
@@ -246,12 +246,15 @@ def test_folders_are_searched_and_exit_code_reflects_success(tmp_path, capsys):
     build(tmp_path / "a" / "one.xlsx")
     book = build(tmp_path / "a" / "b" / "two.xlsx")
     wb = openpyxl.load_workbook(book)
-    del wb["Summary"]["A20"]
+    del wb["Summary"]["A20"]  # the formula left alone
+    del wb["Summary"]["A22"]  # the formula whose result is a message
     wb.save(book)
     code = run([str(tmp_path)], jobs=2)
     out = capsys.readouterr().out
-    assert "two.xlsx: 7 cells refreshed, 0 blocked, 0 left alone, 0 failed" in out
-    assert "one.xlsx: 7 cells refreshed, 0 blocked, 1 left alone, 0 failed" in out
+    assert f"{book}: 6 CALIB_* cells refreshed (0 with a message), 0 blocked, 0 left alone, 0 failed; " in out
+    assert (f"{tmp_path / 'a' / 'one.xlsx'}: 7 CALIB_* cells refreshed (1 with a message), 0 blocked, 1 left alone, "
+            "0 failed; ") in out
+    assert out.endswith("2 workbooks: 2 read and computed, 0 not refreshed\n")
     assert code == 1
     assert run([str(book)]) == 0
 

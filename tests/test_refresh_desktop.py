@@ -443,10 +443,14 @@ def test_unbalanced_sheet_names_are_read(tmp_path, name):
     other = wb.create_sheet("Results")
     other["A1"] = f"=CALIB_ORDER({quoted}!A2:A13,{quoted}!B2:B13)"
     other["A2"] = f'=CALIB_INVERSE({quoted}!A2:A13,{quoted}!B2:B13,"20")'
+    ws["D1"] = f"=CALIB_ORDER({quoted}!A2:A13,B2:B13)"  # the name once: an odd count of its quotes or brackets
     wb.save(path)
     report = refresh_file(path)
-    assert report.refreshed == ["Results!A1", "Results!A2"] and not report.left_alone
-    assert values(path, "Results", "A1", 1, 1) == [[degreewise.calib_order(XS, YS)]]
+    assert sorted(report.refreshed) == sorted([f"{quoted}!D1", "Results!A1", "Results!A2"]), report.lines()
+    assert not report.left_alone
+    rows = values(path, name, "A2", 12, 2)
+    order = degreewise.calib_order([[r[0]] for r in rows], [[r[1]] for r in rows])
+    assert values(path, "Results", "A1", 1, 1) == values(path, name, "D1", 1, 1) == [[order]]
 
 
 # ---------------------------------------------------------------- 10: backups, the audit trail, messages

@@ -167,6 +167,8 @@ def _call_parts(text: str) -> tuple[str, tuple[str, ...]]:
         raise Unsupported("the formula mixes CALIB_* with other functions or operators")
     open_at = m.end() - 1
     close = _closing(body, open_at)
+    if close < 0:
+        raise Unsupported("the formula's quotes or brackets do not balance")
     if close != len(body) - 1:
         raise Unsupported("the formula mixes CALIB_* with other functions or operators")
     inner = body[open_at + 1:close]
