@@ -4,7 +4,7 @@ Each is timed in its own fresh process (imports included), which also reports it
 (max RSS of the process plus its largest worker). The refresh runs as the command `degreewise
 refresh BOOK --jobs N` does (the command line never imports xlwings or pandas); "no-pandas" hides
 pandas, as in an install from the README's first command, and "pandas" leaves it importable.
-Run: python benchmarks/bench_refresh.py
+Run: python benchmarks/bench_refresh.py [SHEETS] [ROUNDS]   (default 200 sheets, 3 rounds)
 """
 
 from __future__ import annotations
@@ -43,11 +43,11 @@ own, children = (resource.getrusage(who).ru_maxrss for who in (resource.RUSAGE_S
 print(seconds, own + children)  # peak of this process plus the largest worker: an upper bound of the peak total
 """
 
-def build(path: Path) -> None:
+def build(path: Path, sheets: int = SHEETS) -> None:
     rng = np.random.default_rng(8)
     wb = openpyxl.Workbook()
     wb.remove(wb.active)
-    for s in range(SHEETS):
+    for s in range(sheets):
         ws = wb.create_sheet(f"Cal {s + 1}")
         x = np.repeat(np.linspace(1, 50, 8), 3)
         y = 3 + (2 + s / 100) * x + 0.01 * x**2 + rng.normal(0, 1, x.size)
@@ -72,14 +72,14 @@ def measure(kind: str, path: Path, pandas: str) -> tuple[float, int]:
     return float(seconds), int(rss)
 
 
-def main(rounds: int = 3):
+def main(rounds: int = 3, sheets: int = SHEETS):
     """Each case ``rounds`` times, the cases interleaved; the median of each is reported."""
     cores = os.cpu_count() or 1
     cases = [(f"refresh{cores}", "no-pandas"), ("refresh1", "no-pandas"), (f"refresh{cores}", "pandas"),
              ("openpyxl", "no-pandas")]
     with tempfile.TemporaryDirectory() as tmp:
         source = Path(tmp) / "book.xlsx"
-        build(source)
+        build(source, sheets)
         results: dict = {case: [] for case in cases}
         for _ in range(rounds):
             for case in cases:
@@ -88,7 +88,7 @@ def main(rounds: int = 3):
                 results[case].append(measure(case[0], copy, case[1]))
         median = {case: (statistics.median(t for t, _ in r), max(m for _, m in r)) for case, r in results.items()}
         ot, om = median[("openpyxl", "no-pandas")]
-        print(f"workbook: {SHEETS} calibration sheets x 6 CALIB_* formulas, {source.stat().st_size // 1024} KiB; "
+        print(f"workbook: {sheets} calibration sheets x 6 CALIB_* formulas, {source.stat().st_size // 1024} KiB; "
               f"each run in a fresh process (imports included), median of {rounds}")
         names = {(f"refresh{cores}", "no-pandas"): f"degreewise refresh, {cores} processes",
                  ("refresh1", "no-pandas"): "degreewise refresh, 1 process",
@@ -101,4 +101,5 @@ def main(rounds: int = 3):
 
 
 if __name__ == "__main__":
-    main()
+    args = [int(a) for a in sys.argv[1:3]]
+    main(sheets=args[0] if args else SHEETS, rounds=args[1] if len(args) > 1 else 3)
