@@ -238,7 +238,9 @@ class Workbook:
 
     def _read_sheet(self, sheet: Sheet) -> None:
         root = parse_xml(sheet.part, self.parts[sheet.part])
-        sheet.merged = [_box(sheet.part, m.get("ref", "")) for m in root.iter(_q("mergeCell"))]
+        merges = root.find(_q("mergeCells"))
+        sheet.merged = [_box(sheet.part, m.get("ref", "")) for m in merges.iter(_q("mergeCell"))] \
+            if merges is not None else []
         tables = root.find(_q("tableParts"))
         if tables is not None:
             rels = _rels(self.parts, sheet.part)

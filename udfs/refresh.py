@@ -40,21 +40,23 @@ BACKUP = re.compile(r"\.before-refresh-\d{8}-\d{6}(?:-\d+)?$")  # the stem of a 
 
 def _show(value, digits: int = 6) -> str:
     """A cell value for the report: numbers to ``digits`` significant digits, texts in quotes."""
+    kind = type(value)
+    if kind is float or kind is int:
+        return format(value, f".{digits}g")
     if value is None:
         return "empty"
-    if isinstance(value, bool):
+    if kind is bool:
         return "TRUE" if value else "FALSE"
-    if isinstance(value, (int, float)):
-        return f"{value:.{digits}g}"
     return '"' + str(value).replace('"', '""') + '"'
 
 
 def _change(old, new) -> str:
     """``old -> new``, to 6 significant digits, or as many more as it takes to tell them apart."""
-    digits = 6
-    while digits < 17 and _show(old, digits) == _show(new, digits):
+    a, b, digits = _show(old), _show(new), 6
+    while a == b and digits < 17:
         digits += 1
-    return f"{_show(old, digits)} -> {_show(new, digits)}"
+        a, b = _show(old, digits), _show(new, digits)
+    return f"{a} -> {b}"
 
 
 @dataclass
