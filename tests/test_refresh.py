@@ -394,7 +394,7 @@ def test_sheets_split_over_processes_give_the_same_file_and_report(tmp_path, mon
     split = refresh_file(three, workers=3)
     assert [c for c, _ in serial.blocked] == ["'Cal 5'!D10"]
     assert [c for c, _ in serial.failed] == ["Check!F1", "Check!F2"]
-    assert {a for a, _, _ in serial.changes} == set(serial.refreshed) | {c for c, _ in serial.blocked}
+    assert {a for a, _, _, _ in serial.changes} == set(serial.refreshed) | {c for c, _ in serial.blocked}
     for name in ("refreshed", "messages", "changes", "blocked", "left_alone", "failed"):
         assert getattr(split, name) == getattr(serial, name)
     assert split.lines()[1:] == serial.lines()[1:]

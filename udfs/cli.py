@@ -104,7 +104,8 @@ def main(argv=None) -> int:
     parser.add_argument("--version", action="version", version=f"degreewise {VERSION}")
     sub = parser.add_subparsers(dest="command", required=True)
     p = sub.add_parser("demo", help="write and refresh the demo workbooks, and print each calibration")
-    p.add_argument("folder", nargs="?", default="degreewise-demo", help="where to write them (default: ./degreewise-demo)")
+    p.add_argument("folder", nargs="?", default="degreewise-demo",
+                   help="where to write them (default: ./degreewise-demo)")
     p.set_defaults(run=_demo)
     p = sub.add_parser("validate", help="accuracy report against the NIST StRD reference datasets")
     p.set_defaults(run=_validate)

@@ -66,7 +66,7 @@ class Report:
     path: Path
     refreshed: list[str] = field(default_factory=list)
     messages: list[tuple[str, str]] = field(default_factory=list)  # refreshed cells whose result is a message
-    changes: list[tuple[str, tuple[int, int], list]] = field(default_factory=list)  # anchor, shape, [(cell, old, new)]
+    changes: list[tuple[str, tuple[int, int], int, str]] = field(default_factory=list)  # anchor, shape, cells, text
     blocked: list[tuple[str, str]] = field(default_factory=list)
     left_alone: list[tuple[str, str]] = field(default_factory=list)
     failed: list[tuple[str, str]] = field(default_factory=list)
@@ -82,7 +82,7 @@ class Report:
     def lines(self, check: bool = False) -> list[str]:
         if self.error:
             return [f"{self.path}: not refreshed: {self.error}"]
-        cells = sum(len(c) for _, _, c in self.changes)
+        cells = sum(n for _, _, n, _ in self.changes)
         head = (f"{self.path}: {len(self.refreshed)} CALIB_* cells {'computed' if check else 'refreshed'} "
                 f"({len(self.messages)} with a message), {len(self.blocked)} blocked, {len(self.left_alone)} left "
                 f"alone, {len(self.failed)} failed; ")
@@ -94,12 +94,9 @@ class Report:
             head += "only stored formulas would change" if check else "only stored formulas changed"
         out = [head]
         verb = "would change" if check else "changed"
-        for anchor, (height, width), diffs in self.changes:
-            if height == width == 1 and len(diffs) == 1:
-                out.append(f"  {verb} {anchor}: {_change(*diffs[0][1:])}")
-            else:
-                listed = "; ".join(f"{cell} {_change(old, new)}" for cell, old, new in diffs)
-                out.append(f"  {verb} {anchor} (table {height} x {width}), {len(diffs)} cells: {listed}")
+        for anchor, (height, width), n, listed in self.changes:
+            shape = "" if height == width == n == 1 else f" (result {height} x {width}), {n} cells"
+            out.append(f"  {verb} {anchor}{shape}: {listed}")
         out += [f"  message {c}: {text}" for c, text in self.messages]
         out += [f"  blocked {c}: {why}" for c, why in self.blocked]
         out += [f"  left alone {c}: {why}" for c, why in self.left_alone]
@@ -398,9 +395,11 @@ class Refresher:
                     else:
                         values[key] = value
             text.set_cells(r, cells)
-        if diffs:
+        if diffs:  # the audit trail, written out now: one line of text per formula, however large its table
             diffs.sort()
-            report.changes.append((f.where, (height, width), [(cell_name(*k), old, new) for k, old, new in diffs]))
+            listed = (_change(*diffs[0][1:]) if height == width == len(diffs) == 1 else
+                      "; ".join(f"{cell_name(*k)} {_change(old, new)}" for k, old, new in diffs))
+            report.changes.append((f.where, (height, width), len(diffs), listed))
         report.changed |= changed or bool(diffs)
         return own_cm is not None
 
