@@ -373,6 +373,10 @@ def _broken(tmp_path, edit):
         'encoding="UTF-8"', 'encoding="UTF-16"').encode("utf-16")},
      "part xl/worksheets/sheet1.xml is not UTF-8 text; the refresh edits only UTF-8 parts (save the workbook "
      "again in a spreadsheet program)"),
+    (lambda p: {"xl/workbook.xml": p["xl/workbook.xml"].decode().replace(
+        'encoding="UTF-8"', 'encoding="UTF-16"').encode("utf-16")},
+     "part xl/workbook.xml is not UTF-8 text; the refresh edits only UTF-8 parts (save the workbook "
+     "again in a spreadsheet program)"),
     (lambda p: {"xl/worksheets/sheet1.xml": p["xl/worksheets/sheet1.xml"].replace(
         b'<c r="A1" t="s"><v>0</v>', b'<c r="A1" t="s"><v>99</v>')},
      "part xl/worksheets/sheet1.xml has a cell (A1) that refers to shared text '99', but the workbook has 14"),

@@ -214,7 +214,7 @@ class Refresher:
         if arrays:
             added = dynamic_array_metadata(self.parts, self.book.workbook_part, self.book.workbook_rels)[1]
         if changed:
-            wb = self.parts[self.book.workbook_part].decode("utf-8")
+            wb = text_of(self.book.workbook_part, self.parts[self.book.workbook_part])
             changed[self.book.workbook_part] = set_full_calc_on_load(wb).encode("utf-8")
         return changed, added
 
