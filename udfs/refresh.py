@@ -42,7 +42,7 @@ def _show(value, digits: int = 6) -> str:
     """A cell value for the report: numbers to ``digits`` significant digits, texts in quotes."""
     kind = type(value)
     if kind is float or kind is int:
-        return format(value, f".{digits}g")
+        return "%.*g" % (digits, value)
     if value is None:
         return "empty"
     if kind is bool:
@@ -354,7 +354,7 @@ class Refresher:
         cell_cm = sheet.dynamic.get(anchor) or own_cm
         new = Area(f.sheet, f.row, f.col, f.row + height - 1, f.col + width - 1)
         changed = f.previous != (new if array else None)
-        values, styles, diffs = sheet.values, sheet.styles, []
+        values, styles, listed, cleared = sheet.values, sheet.styles, [], []  # the audit trail, as text
         bottom, right = f.row + height - 1, f.col + width - 1
         for key in sorted(old_cells):
             if f.row <= key[0] <= bottom and f.col <= key[1] <= right:
@@ -362,7 +362,7 @@ class Refresher:
             style = styles.get(key)
             text.set_cell(*key, text.cell_xml(*key, None, style) if style is not None else None)
             if key in values:
-                diffs.append((key, values.pop(key), None))
+                cleared.append(f"{cell_name(*key)} {_change(values.pop(key), None)}")
         ref = None if not array else (cell_name(f.row, f.col) if height == width == 1 else
                                       f"{cell_name(f.row, f.col)}:{cell_name(new.bottom, new.right)}")
         p, letters = text.p, [column_letters(f.col + j) for j in range(width)]
@@ -389,18 +389,17 @@ class Refresher:
                     cells[c] = text.cell_xml(r, c, value, style)
                 old = get_value(key)
                 if old != value or isinstance(old, bool) != isinstance(value, bool):
-                    diffs.append((key, old, value))
+                    listed.append(f"{letters[j]}{r} {_change(old, value)}")
                     if value is None:
                         del values[key]
                     else:
                         values[key] = value
             text.set_cells(r, cells)
-        if diffs:  # the audit trail, written out now: one line of text per formula, however large its table
-            diffs.sort()
-            listed = (_change(*diffs[0][1:]) if height == width == len(diffs) == 1 else
-                      "; ".join(f"{cell_name(*k)} {_change(old, new)}" for k, old, new in diffs))
-            report.changes.append((f.where, (height, width), len(diffs), listed))
-        report.changed |= changed or bool(diffs)
+        listed += cleared
+        if listed:  # one line of text per formula, however large its table (no object per cell is kept)
+            trail = listed[0].split(" ", 1)[1] if height == width == len(listed) == 1 else "; ".join(listed)
+            report.changes.append((f.where, (height, width), len(listed), trail))
+        report.changed |= changed or bool(listed)
         return own_cm is not None
 
 
