@@ -10,14 +10,16 @@ from .calibration import Calibration, default_max_order
 from .compare import compare
 from .diagnostics import curve_checks, point_diagnostics
 from .errors import CalibrationError, DataError, OptionError, OrderError, WeightError
+from .limits import detection_limits
 from .prediction import inverse, predict
 from .selection import DEFAULT_RULE, RULES, choose_order, forward_steps, lack_of_fit_words, mandel_test
+from .weight_choice import compare_weightings, spread_exponent
 
 __all__ = [
     "Calibration", "CalibrationError", "DataError", "DEFAULT_RULE", "OptionError", "OrderError", "RULES",
-    "WeightError", "choose_order", "compare", "curve_checks", "default_max_order", "fit", "forward_steps",
-    "inverse", "lack_of_fit_words", "mandel_test",
-    "point_diagnostics", "predict",
+    "WeightError", "choose_order", "compare", "compare_weightings", "curve_checks", "default_max_order",
+    "detection_limits", "fit", "forward_steps", "inverse", "lack_of_fit_words", "mandel_test",
+    "point_diagnostics", "predict", "spread_exponent",
 ]
 
 

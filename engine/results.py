@@ -212,3 +212,39 @@ class Comparison(NamedTuple):
     coefficients: tuple[DifferenceRow, ...]
     levels: tuple[DifferenceRow, ...]
     read_back: tuple[float, ...]
+
+
+class Limit(NamedTuple):
+    """Limits of one published method, in the units of y (critical response) and x (the limits); nan
+    where the method defines no such value or where the note says why none exists."""
+
+    method: str
+    critical_response: float
+    decision_limit: float
+    detection_limit: float
+    quantitation_limit: float
+    note: str
+
+
+class SpreadExponent(NamedTuple):
+    """b in SD = c x^b from the replicate SDs (fitted on log scales) and its interval at ``level``."""
+
+    b: float
+    lower: float
+    upper: float
+    level: float
+    levels: int
+
+
+class SchemeResult(NamedTuple):
+    """One weighting scheme fitted to the standards: the order used (None where the scheme does not
+    apply), the summed and largest |back-calculated deviation %|, the p-value of the check for a trend
+    in the spread of the weighted residuals, whether it is the picked scheme, and a note."""
+
+    scheme: str
+    order: int | None
+    sum_abs_deviation: float
+    max_abs_deviation: float
+    spread_p: float
+    picked: bool
+    note: str

@@ -11,8 +11,9 @@ registration metadata (see ``registration``).
 VERSION = "0.1.0"
 
 FUNCTIONS = (
-    "calib_checks", "calib_coefs", "calib_compare", "calib_inverse", "calib_labels", "calib_order", "calib_orders",
-    "calib_predict", "calib_residuals", "calib_seqf", "calib_stats", "calib_version",
+    "calib_checks", "calib_coefs", "calib_compare", "calib_inverse", "calib_labels", "calib_limits", "calib_order",
+    "calib_orders", "calib_predict", "calib_residuals", "calib_seqf", "calib_stats", "calib_version",
+    "calib_weighting",
 )
 __all__ = ["VERSION", *FUNCTIONS]
 

@@ -48,7 +48,9 @@ DOC = {
     "ref_x": "known x of the reference calibration's standards (an earlier run)",
     "ref_y": "responses of the reference calibration's standards, same size as ref_x",
     "at": "x values at which to compare the two curves' responses (optional)",
-    "name": "which table: predict, inverse or residuals (or orders, seqf, coefs, stats, checks)",
+    "blank": "responses of blank samples (x = 0) for the blank method (optional)",
+    "name": "which table: predict, inverse or residuals (or orders, seqf, coefs, stats, checks, compare, limits, "
+            "weighting)",
 }
 
 
@@ -309,12 +311,16 @@ def calib_predict(x, y, new_x, order=None, level=None, weights=None, exclude=Non
     return _cached("predict", prep, (k, lev, values.tobytes(), filled, size, tuple(notes.items())), compute)
 
 
+def _replicates(v):
+    return number_option(v, "replicates", 1, 0.5, 1e9, "a whole number such as 3", whole=True)
+
+
 @worksheet_function
 @_guarded()
 def calib_inverse(x, y, reading, replicates=None, order=None, level=None, weights=None, exclude=None):
     """One row per reading cell (no header): x estimate, lower, upper, note."""
     prep = prepare(x, y, weights, exclude)
-    reps = number_option(replicates, "replicates", 1, 0.5, 1e9, "a whole number such as 3", whole=True)
+    reps = _replicates(replicates)
     k, lev = _order(order), _level(level)
     values, filled, size, notes = _aligned(reading, "reading")
 
@@ -473,6 +479,63 @@ def calib_compare(x, y, ref_x, ref_y, at=None, order=None, level=None, weights=N
         return rows
 
     return _cached("compare", prep, (ref.key, k, lev, values.tobytes()), compute)
+
+
+def _blank_readings(value):
+    """The filled cells of the blank argument as numbers (None when omitted), or the reason in words why they
+    cannot be used: the blank row says it, the other rows are computed."""
+    if value is None or is_omitted(value):
+        return None, ""
+    try:
+        values, empty = numbers_or_blank(flatten(value, "blank"))
+    except CellError as err:
+        return None, str(err)
+    if empty.all():
+        return None, "blank: the range holds no readings; enter at least 2 blank readings or leave the argument empty"
+    return values[~empty], ""
+
+
+@worksheet_function
+@_guarded()
+def calib_limits(x, y, blank=None, replicates=None, order=None, alpha=None, weights=None, exclude=None):
+    """Header, then one row per method (prediction band, ISO 11843-2, ICH residual SD and intercept SE, blank
+    readings): critical response, decision, detection and quantitation limits, note."""
+    prep = prepare(x, y, weights, exclude)
+    reps, k, a = _replicates(replicates), _order(order), _alpha(alpha)
+    readings, problem = _blank_readings(blank)
+
+    def compute():
+        cal, chosen, _ = _fitted(prep, k)
+        rows = [list(HEADERS["limits"])]
+        for r in engine.detection_limits(cal, chosen, readings, reps, a):
+            rows.append([r.method, *_column((r.critical_response, r.decision_limit, r.detection_limit,
+                                             r.quantitation_limit)), r.note or None])
+        if problem:
+            rows.append(["blank readings", None, None, None, None, problem])
+        rows.append(["caution", None, None, None, None, f"{engine.limits.CONFIRM}. {CAUTION}"])
+        return rows
+
+    key = (reps, k, a, None if readings is None else readings.tobytes(), problem)
+    return _cached("limits", prep, key, compute)
+
+
+@worksheet_function
+@_guarded()
+def calib_weighting(x, y, order=None, alpha=None, exclude=None):
+    """Header, then one row per weighting scheme: order, sum and largest |deviation %|, spread p-value, picked,
+    note; with replicates a last row for weights 1/x^2b from the replicate SDs."""
+    prep = prepare(x, y, None, exclude)
+    k, a = _order(order), _alpha(alpha)
+
+    def compute():
+        _fitted(prep, k)  # the standards' own problems, in the family's words
+        rows = [list(HEADERS["weighting"])]
+        for r in engine.compare_weightings(prep.x, prep.y, k, a):
+            rows.append([r.scheme, r.order, *_column((r.sum_abs_deviation, r.max_abs_deviation, r.spread_p)),
+                         "picked" if r.picked else None, r.note or None])
+        return rows
+
+    return _cached("weighting", prep, (k, a), compute)
 
 
 @worksheet_function

@@ -14,6 +14,9 @@ HEADERS = {
                   "back-calculated x", "deviation %", "note"),
     "checks": ("check", "statistic", "p-value", "verdict", "detail"),
     "compare": ("item", "reference", "today", "difference", "lower", "upper", "p-value", "verdict", "detail"),
+    "limits": ("method", "critical response", "decision limit", "detection limit", "quantitation limit", "note"),
+    "weighting": ("scheme", "order", "sum abs deviation %", "largest abs deviation %", "spread p-value", "picked",
+                  "note"),
 }
 
 CAUTION = ("Supports, and does not replace, method validation under your quality system and applicable "

@@ -1,0 +1,265 @@
+"""Detection and quantitation limits of one calibration, by published methods (alpha = beta).
+
+A sample is read as the mean of m readings; nu is the residual df, t1 = t(1 - alpha; nu),
+t2 = t(1 - alpha/2; nu), and s_new(x)^2 = s^2 / (m w0(x)) + Var f(x) the variance of a new mean
+reading about the fitted curve (w0 as in ``prediction``; 1 without weights).
+
+- Prediction band (Hubaux & Vos, Anal. Chem. 42 (1970) 849-855), any order and weighting:
+  critical response yC = f(0) + t1 s_new(0) (the upper one-sided bound at the blank), decision limit
+  xC with f(xC) = yC, detection limit xD with f(xD) - t1 s_new(xD) = yC; quantitation limit in the
+  DIN 32645 form xQ = k t2 s_new(xQ) / |f'(xQ)| with k = 3 (a relative uncertainty of 1/k = 33 %).
+  For a falling curve the signs turn over.
+- ISO 11843-2 (straight line, constant SD): xc = t1 (s/b) sqrt(1/m + 1/n + xbar^2/Qx), critical
+  response a + b xc, minimum detectable value xd = delta (s/b) sqrt(1/m + 1/n + xbar^2/Qx) with delta
+  the non-centrality for which the non-central t with nu df has P(T <= t1) = beta.
+- ICH Q2(R1) sec. 6.3 and 7.3: 3.3 sigma/S and 10 sigma/S, sigma the residual SD (under weights, of
+  a reading at x = 0: s sqrt(1/w0(0))) or the standard error of the intercept, S the slope at x = 0.
+- Blank readings, DIN 32645 blank method (n_b readings, mean yb, SD sb, f = n_b - 1):
+  yC = yb + t(1 - alpha; f) sb sqrt(1/m + 1/n_b), xC = (yC - yb)/|S|, xD = 2 xC,
+  xQ = k t(1 - alpha/2; f) (sb/|S|) sqrt(1/m + 1/n_b).
+
+The DIN 32645, ISO 11843-2 and ICH Q2 formulas are given from memory of the published documents.
+These are estimates from one calibration; the methods require confirming them with samples near
+the limit.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+from scipy import special
+
+from .calibration import Calibration
+from .curve import Curve, curve_of
+from .distributions import t_quantile
+from .prediction import _finite, _replicates
+from .results import Limit
+from .selection import check_alpha
+
+K_QUANTITATION = 3.0  # DIN 32645: 1/k = 33 % relative uncertainty at the quantitation limit
+ICH_DETECTION, ICH_QUANTITATION = 3.3, 10.0
+_NODES = 4001  # grid over [0, twice the highest standard] on which the band's crossings are bracketed
+BAND, ISO, ICH_SD, ICH_SE, BLANK = ("prediction band", "ISO 11843-2", "ICH residual SD", "ICH intercept SE",
+                                    "blank readings")
+CONFIRM = "estimates from one calibration: confirm them with samples near the limit, as the methods require"
+
+
+def iso_delta(df, alpha: float, beta: float) -> float:
+    """ISO 11843-2's delta: the non-centrality of the non-central t with ``df`` degrees of freedom whose
+    cumulative probability at t(1 - alpha; df) is beta (computed, not the approximation 2 t)."""
+    from scipy.optimize import brentq
+
+    t1 = float(t_quantile(1.0 - alpha, df))
+    z = float(special.ndtri(1.0 - beta))
+    # P(T <= t1) falls from 1/2 at delta = t1 towards 0; delta = t1 + z (1 + t1) already passes beta
+    return brentq(lambda d: special.nctdtr(df, d, t1) - beta, t1, t1 + z * (1.0 + t1) + 10.0, xtol=1e-14)
+
+
+def _g(v: float) -> str:
+    return f"{v:.6g}"
+
+
+class _Band:
+    """f, dy/dx and s_new of one curve at raw x, in curve units (y 2^-e)."""
+
+    def __init__(self, cal: Calibration, curve: Curve, m: int):
+        self.cal, self.curve, self.m = cal, curve, m
+
+    def variance_factor(self, x, f) -> np.ndarray:
+        w = self.cal.weighting
+        return np.ones_like(x) if w.values is None else w.variance_factor(x, self.curve.to_y(f))
+
+    def __call__(self, x):
+        x = np.atleast_1d(np.asarray(x, dtype=float))
+        f, dfz, vm, _ = self.curve.local(self.cal.scaled_x(x))
+        with np.errstate(invalid="ignore"):
+            s_new = np.sqrt(self.curve.s**2 * self.variance_factor(x, f) / self.m + vm)
+        return f, dfz / self.cal.dx_dz, s_new
+
+
+def _first_root(func, x_end: float) -> float:
+    """Smallest x in (0, x_end] where func (negative just above 0) reaches zero; nan if it does not."""
+    from scipy.optimize import brentq
+
+    grid = np.linspace(0.0, x_end, _NODES)
+    with np.errstate(invalid="ignore"):
+        up = np.flatnonzero(func(grid) >= 0)
+    if not up.size or up[0] == 0:
+        return math.nan
+    j = int(up[0])
+    return brentq(lambda v: float(func(np.array([v]))[0]), grid[j - 1], grid[j], xtol=1e-15 * x_end)
+
+
+def _turn_words(cal: Calibration, curve: Curve, hi: float) -> str:
+    """Words when the curve turns between x = 0 and x = hi (empty when it does not)."""
+    turns = curve.turning_points(float(cal.scaled_x(0.0)), float(cal.scaled_x(hi)))
+    if not turns.size:
+        return ""
+    xs = ", ".join(_g(v) for v in cal.raw_x(turns))
+    return (f"the curve is not monotonic between x = 0 and x = {_g(hi)} (it turns at x = {xs}): a response near "
+            "the blank maps to more than one x, so no limit is given; check the low standards and the order")
+
+
+def _range_words(named, x_min: float, x_max: float) -> str:
+    out = [name for name, v in named if math.isfinite(v) and not x_min <= v <= x_max]
+    if not out:
+        return ""
+    names = out[0] if len(out) == 1 else ", ".join(out[:-1]) + " and " + out[-1]
+    return (f"{names} limit{'s' if len(out) > 1 else ''} outside the calibrated range [{_g(x_min)}, {_g(x_max)}]: a limit depends on where "
+            "the standards lie (through the xbar^2/Qx term), so confirm it with standards near the limit")
+
+
+def _weight_words(cal: Calibration, band: _Band, t1: float) -> str:
+    """Why the weights leave a new reading at x = 0 without scatter of its own (empty when they do not)."""
+    w = cal.weighting
+    if w.values is None or w.scheme is None:
+        return ""
+    f0, _, _ = band(0.0)
+    vf0 = float(band.variance_factor(np.zeros(1), f0)[0])
+    _, _, vm0, _ = band.curve.local(cal.scaled_x(np.zeros(1)))
+    tail = ("so the prediction band has no reading scatter at the blank and no band-based limit exists; use a "
+            "variance model with a blank term (weights as a range, such as 1/(c + x)^2) or give blank readings")
+    if w.scheme.endswith(("x", "x^2")):
+        return f"weights '{w.scheme}' give a new reading at x = 0 zero variance (1/w0 = 0), {tail}"
+    if not (vf0 > 0 and abs(float(f0[0])) > t1 * math.sqrt(float(vm0[0]))):
+        return (f"weights '{w.scheme}' take a reading's variance from the fitted response, which at x = 0 "
+                f"({_g(float(band.curve.to_y(f0)[0]))}) does not differ significantly from zero, {tail}")
+    return ""
+
+
+def _band_row(cal, curve, band: _Band, t1: float, t2: float, sign: float, degenerate: str) -> Limit:
+    none = (math.nan,) * 4
+    if degenerate:
+        return Limit(BAND, *none, degenerate)
+    x_min, x_max = curve.x_min, curve.x_max
+    x_end = 2.0 * x_max
+    f0, _, s0 = band(0.0)
+    y_c = float(f0[0] + sign * t1 * s0[0])
+
+    def decision(x):
+        return sign * (band(x)[0] - y_c)
+
+    def detection(x):
+        f, _, s = band(x)
+        return sign * (f - y_c) - t1 * s
+
+    def quantitation(x):
+        _, d, s = band(x)
+        return x * sign * d - K_QUANTITATION * t2 * s
+
+    found = [_first_root(g, x_end) for g in (decision, detection, quantitation)]
+    reached = [v for v in found if math.isfinite(v)]
+    turns = _turn_words(cal, curve, max(reached) if len(reached) == 3 else x_end)
+    if turns:
+        return Limit(BAND, *none, turns)
+    notes = [f"Hubaux-Vos; quantitation in the DIN 32645 form, k = {K_QUANTITATION:g}"]
+    if len(reached) < 3:
+        notes.append(f"a limit left empty is not reached within twice the highest standard (x = {_g(x_end)})")
+    if x_min > 0:
+        notes.append("the blank (x = 0) lies below the lowest standard: the band there is extrapolated")
+    notes.append(_range_words(zip(("decision", "detection", "quantitation"), found), x_min, x_max))
+    return Limit(BAND, float(curve.to_y(y_c)), *found, "; ".join(n for n in notes if n))
+
+
+def _iso_row(cal: Calibration, curve: Curve, m: int, alpha: float, t1: float) -> Limit:
+    none, order = (math.nan,) * 4, curve.order
+    if order != 1:
+        return Limit(ISO, *none, f"applies to a straight line with constant SD; this curve is of order {order} "
+                                 "(see the prediction band row)")
+    if cal.weighting.values is not None:
+        return Limit(ISO, *none, f"applies to a straight line with constant SD; this calibration is weighted "
+                                 f"('{cal.weighting.label}') (see the prediction band row)")
+    fit = cal.fit(1)
+    (a, b), s, n, x = fit.coefficients, fit.residual_sd, cal.n_points, cal.x
+    xbar = float(x.mean())
+    root = math.sqrt(1.0 / m + 1.0 / n + xbar**2 / float(((x - xbar) ** 2).sum()))
+    df = fit.stats.df_resid
+    delta = iso_delta(df, alpha, alpha)
+    x_c, x_d = t1 * s / abs(b) * root, delta * s / abs(b) * root
+    note = (f"delta = {delta:.5g} from the non-central t ({df} df; the approximation 2t would give "
+            f"{2 * t1:.5g}); ISO 11843-2 defines no quantitation limit")
+    extra = _range_words((("decision", x_c), ("detection", x_d)), curve.x_min, curve.x_max)
+    return Limit(ISO, a + b * x_c, x_c, x_d, math.nan, "; ".join(n for n in (note, extra) if n))
+
+
+def _ich_rows(cal: Calibration, curve: Curve, band: _Band, degenerate: str, flat: str) -> list[Limit]:
+    order = curve.order
+    fit = cal.fit(order)
+    slope = fit.coefficients[1]
+    where = f"S = {_g(slope)}, the slope at x = 0" + (f" of the order-{order} curve" if order > 1 else "")
+    weighted = cal.weighting.values is not None
+    if weighted:
+        f0 = band(0.0)[0]
+        factor = float(band.variance_factor(np.zeros(1), f0)[0])
+        sd = fit.residual_sd * math.sqrt(factor) if factor > 0 else math.nan
+        sd_words = f"sigma = {_g(sd)}, the SD of a reading at x = 0 under the weights (s sqrt(1/w0))"
+    else:
+        sd = fit.residual_sd
+        sd_words = f"sigma = {_g(sd)}, the residual SD"
+    rows = []
+    for name, sigma, words, bad in ((ICH_SD, sd, sd_words, flat or degenerate),
+                                    (ICH_SE, fit.std_errors[0], f"sigma = {_g(fit.std_errors[0])}, the standard "
+                                                                "error of the intercept", flat)):
+        if bad:
+            rows.append(Limit(name, math.nan, math.nan, math.nan, math.nan, bad))
+            continue
+        lod, loq = ICH_DETECTION * sigma / abs(slope), ICH_QUANTITATION * sigma / abs(slope)
+        notes = [f"{ICH_DETECTION:g} sigma/S and {ICH_QUANTITATION:g} sigma/S; {words}; {where}",
+                 _turn_words(cal, curve, loq),
+                 _range_words((("detection", lod), ("quantitation", loq)), curve.x_min, curve.x_max)]
+        rows.append(Limit(name, math.nan, math.nan, lod, loq, "; ".join(n for n in notes if n)))
+    return rows
+
+
+def _blank_row(cal: Calibration, curve: Curve, readings: np.ndarray, m: int, alpha: float, sign: float,
+               flat: str) -> Limit:
+    none = (math.nan,) * 4
+    n_b = readings.size
+    if flat:
+        return Limit(BLANK, *none, flat)
+    if n_b < 2:
+        return Limit(BLANK, *none, f"blank: {n_b} reading{'s' if n_b != 1 else ''}; the blank method needs at "
+                                   "least 2 readings to estimate their SD")
+    mean, sd = float(readings.mean()), float(readings.std(ddof=1))
+    if not sd > 0:
+        return Limit(BLANK, *none, f"blank: all {n_b} readings are equal ({_g(mean)}), so their SD is 0 and gives "
+                                   "no limit; enter the readings at full resolution")
+    slope = cal.fit(curve.order).coefficients[1]
+    root = math.sqrt(1.0 / m + 1.0 / n_b)
+    t1, t2 = float(t_quantile(1.0 - alpha, n_b - 1)), float(t_quantile(1.0 - alpha / 2, n_b - 1))
+    x_c = t1 * sd / abs(slope) * root
+    x_q = K_QUANTITATION * t2 * sd / abs(slope) * root
+    notes = [f"DIN 32645 blank method; {n_b} readings, mean {_g(mean)}, SD {_g(sd)}; S = {_g(slope)}, the slope at "
+             f"x = 0; ICH with sigma the blank SD: 3.3 sigma/S = {_g(ICH_DETECTION * sd / abs(slope))}, "
+             f"10 sigma/S = {_g(ICH_QUANTITATION * sd / abs(slope))}",
+             _turn_words(cal, curve, x_q),
+             _range_words((("decision", x_c), ("detection", 2 * x_c), ("quantitation", x_q)), curve.x_min,
+                          curve.x_max)]
+    return Limit(BLANK, mean + sign * t1 * sd * root, x_c, 2 * x_c, x_q, "; ".join(n for n in notes if n))
+
+
+def detection_limits(cal: Calibration, order: int, blank=None, replicates=1, alpha: float = 0.05
+                     ) -> tuple[Limit, ...]:
+    """Rows: prediction band, ISO 11843-2, ICH residual SD, ICH intercept SE and, with ``blank``
+    readings, the blank method (formulas in the module docstring)."""
+    alpha = check_alpha(alpha)
+    m = int(_replicates(replicates, 1)[0])
+    readings = None if blank is None else _finite(blank, "blank")
+    curve = curve_of(cal, order)
+    band = _Band(cal, curve, m)
+    t1 = float(t_quantile(1.0 - alpha, curve.df))
+    t2 = float(t_quantile(1.0 - alpha / 2, curve.df))
+    slope0 = float(band(0.0)[1][0])
+    sign = 1.0 if slope0 >= 0 else -1.0
+    flat = ""
+    if curve.x_max <= 0:
+        flat = f"every standard lies at x <= 0 (the highest is {_g(curve.x_max)}): limits above the blank need x > 0"
+    elif slope0 == 0:
+        flat = "the curve is flat at x = 0 (slope 0), so no limit follows from it; check the low standards"
+    degenerate = flat or _weight_words(cal, band, t1)
+    rows = [_band_row(cal, curve, band, t1, t2, sign, degenerate), _iso_row(cal, curve, m, alpha, t1),
+            *_ich_rows(cal, curve, band, degenerate, flat)]
+    if readings is not None:
+        rows.append(_blank_row(cal, curve, readings, m, alpha, sign, flat))
+    return tuple(rows)

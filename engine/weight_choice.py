@@ -1,0 +1,130 @@
+"""Comparing weighting schemes on one set of standards, and the scheme the replicates imply.
+
+Each scheme (none, 1/x, 1/x^2, 1/y, 1/y^2) is fitted at the order the default rule picks under it
+(or at a given order) and judged by the back-calculated deviation % of the standards (sum and
+largest |deviation %|, standards at x = 0 left out) and by the check for a trend in the spread of
+its weighted residuals: Koenker's Breusch-Pagan test (``diagnostics.breusch_pagan``) of the squared
+weighted residuals against log x (against x when some x <= 0), since a spread that follows a power
+of x is linear in log x (the multiplicative model of Harvey, Econometrica 44 (1976) 461-465,
+recalled from memory).
+
+The pick follows Almeida, Castel-Branco & Falcao, J. Chromatogr. B 774 (2002) 215-222 (recalled
+from memory): no weights when the unweighted residuals show no trend in spread; otherwise, among
+the weighted schemes whose residuals show none, the one with the smallest sum of |deviation %|
+(with a note when no scheme removes the trend).
+
+With replicates, the exponent b of SD = c x^b is fitted on log scales to the replicate SDs of the
+levels with x > 0: log s_i - kappa(k_i) = log c + b log x_i by weighted least squares with weights
+1/Var(log s_i), where for k_i = r_i - 1 degrees of freedom and normal readings
+E log(s/sigma) = kappa(k) = (psi(k/2) + ln(2/k))/2 and Var log s = psi'(k/2)/4 (psi the digamma
+function; moments of the log of a chi-square variable). The interval is the t interval with
+L - 2 df for L levels. Its scheme, weights 1/x^(2b), is evaluated like the others.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+from scipy import special
+
+from .calibration import Calibration, _vector
+from .diagnostics import breusch_pagan, point_diagnostics
+from .distributions import t_quantile
+from .errors import WeightError
+from .results import SchemeResult, SpreadExponent
+from .selection import check_alpha, choose_order, fmt_p
+
+SCHEMES = ("none", "1/x", "1/x^2", "1/y", "1/y^2")
+FROM_REPLICATES = "1/x^2b"
+
+
+def spread_exponent(x, y, level: float = 0.95) -> SpreadExponent | str:
+    """b in SD = c x^b from the replicate SDs (module docstring), or the reason in words why not."""
+    x, y = _vector(x, "x"), _vector(y, "y")
+    levels, inverse, counts = np.unique(x, return_inverse=True, return_counts=True)
+    means = np.bincount(inverse, y) / counts
+    ss = np.bincount(inverse, (y - means[inverse]) ** 2)
+    use = (counts >= 2) & (levels > 0) & (ss > 0)
+    if np.count_nonzero(use) < 3:
+        return "needs replicate SDs at 3 or more levels with x > 0"
+    k = counts[use] - 1.0
+    log_s = 0.5 * np.log(ss[use] / k) - 0.5 * (special.digamma(k / 2) + np.log(2.0 / k))
+    w = 4.0 / special.polygamma(1, k / 2)
+    u = np.log(levels[use])
+    ubar = (w * u).sum() / w.sum()
+    quw = (w * (u - ubar) ** 2).sum()
+    b = float((w * (u - ubar) * log_s).sum() / quw)
+    a = (w * log_s).sum() / w.sum() - b * ubar
+    df = u.size - 2
+    if df < 1:
+        return "needs replicate SDs at 3 or more levels with x > 0"
+    scale = (w * (log_s - a - b * u) ** 2).sum() / df
+    half = float(t_quantile(0.5 + level / 2, df)) * math.sqrt(scale / quw)
+    return SpreadExponent(b, b - half, b + half, level, int(u.size))
+
+
+def _judge(x, y, scheme: str, weights, order, note: str = "") -> SchemeResult:
+    """One scheme fitted and judged; a scheme that cannot apply gets the engine's reason in the note (other
+    errors, such as too few points, concern every scheme and are raised)."""
+    if scheme.startswith("1/x") and not (x > 0).all():
+        return _not_applied(scheme, note, f"weights {scheme} need every x > 0, and the lowest is {float(x.min()):g}")
+    try:
+        cal = Calibration(x, y, max_order=order, weights=weights)
+    except WeightError as err:
+        return _not_applied(scheme, note, err.message)
+    k = order if order is not None else choose_order(cal).order
+    dev = np.asarray(point_diagnostics(cal, k).deviation_percent)[cal.x != 0]
+    words = [note]
+    if not np.isfinite(dev).all():
+        words.append(f"{np.count_nonzero(~np.isfinite(dev))} standards cannot be back-calculated, so the "
+                     "deviation sums are left empty")
+        total = largest = math.nan
+    else:
+        total, largest = float(np.abs(dev).sum()), float(np.abs(dev).max(initial=0.0))
+    if (cal.x == 0).any():
+        words.append("deviation % leaves out the standards at x = 0")
+    _, p = breusch_pagan(cal.scaled_residuals(k), np.log(cal.x) if (cal.x > 0).all() else cal.z, 1)
+    return SchemeResult(scheme, k, total, largest, p, False, "; ".join(w for w in words if w))
+
+
+def _not_applied(scheme: str, note: str, why: str) -> SchemeResult:
+    return SchemeResult(scheme, None, math.nan, math.nan, math.nan, False,
+                        "; ".join(n for n in (note, f"does not apply: {why}") if n))
+
+
+def _pick(rows: list[SchemeResult], alpha: float) -> list[SchemeResult]:
+    none = rows[0]
+    if none.spread_p >= alpha:
+        return [none._replace(picked=True, note="; ".join(n for n in (
+            f"picked: the unweighted residuals show no trend in spread (p = {fmt_p(none.spread_p)} >= {alpha:g}), "
+            "so weights are not needed (Almeida et al. 2002)", none.note) if n))] + rows[1:]
+    usable = [i for i, r in enumerate(rows[1:], 1) if r.sum_abs_deviation == r.sum_abs_deviation]
+    steady = [i for i in usable if rows[i].spread_p >= alpha]  # a nan p-value is not steady
+    pool = steady or usable
+    if not pool:
+        return rows
+    best = min(pool, key=lambda i: rows[i].sum_abs_deviation)
+    why = ("picked: the smallest sum of |deviation %| among the schemes whose weighted residuals show no trend "
+           "in spread (Almeida et al. 2002)" if steady else
+           "picked with care: no scheme removes the trend in spread; this one has the smallest sum of "
+           "|deviation %|; consider weights from a variance model fitted to replicates")
+    out = list(rows)
+    out[best] = rows[best]._replace(picked=True, note="; ".join(n for n in (why, rows[best].note) if n))
+    return out
+
+
+def compare_weightings(x, y, order=None, alpha: float = 0.05) -> tuple[SchemeResult, ...]:
+    """One row per scheme (``SCHEMES``, then ``FROM_REPLICATES`` when x repeats), the picked one marked."""
+    alpha = check_alpha(alpha)
+    x, y = _vector(x, "x"), _vector(y, "y")
+    rows = [_judge(x, y, s, None if s == "none" else s, order) for s in SCHEMES]
+    if np.unique(x).size < x.size:
+        fit = spread_exponent(x, y, 1.0 - alpha)
+        if isinstance(fit, str):
+            rows.append(_not_applied(FROM_REPLICATES, "", fit))
+        else:
+            words = (f"b = {fit.b:.3g} ({1 - alpha:.0%} interval {fit.lower:.3g} to {fit.upper:.3g}) from the "
+                     f"replicate SDs at {fit.levels} levels: weights 1/x^{2 * fit.b:.3g}")
+            rows.append(_judge(x, y, FROM_REPLICATES, np.abs(x) ** (-2.0 * fit.b), order, words))
+    return tuple(_pick(rows, alpha))

@@ -1,0 +1,225 @@
+"""Detection and quantitation limits (engine.detection_limits), each against an independent computation.
+
+Sources: closed forms for the straight line written out below from the published formulas
+(Hubaux & Vos, Anal. Chem. 42 (1970) 849-855; DIN 32645; ISO 11843-2; ICH Q2(R1); the standards'
+formulas recalled from memory); statsmodels' fitted-mean variances and a dense grid for the band
+of curved and weighted fits; scipy.stats.nct for ISO 11843-2's delta; and the fluorescence worked
+example of Miller & Miller, Statistics and Chemometrics for Analytical Chemistry (values recalled
+from memory).
+"""
+
+import math
+
+import numpy as np
+import pytest
+import statsmodels.api as sm
+from scipy import optimize, stats
+
+from degreewise import engine
+from degreewise.engine.limits import iso_delta
+
+# Miller & Miller, fluorescence of standards (pg/mL): data and the book's results RECALLED FROM MEMORY
+MILLER_X = np.array([0.0, 2.0, 4.0, 6.0, 8.0, 10.0, 12.0])
+MILLER_Y = np.array([2.1, 5.0, 9.0, 12.6, 17.3, 21.0, 24.7])
+BLANKS = np.array([2.0, 2.3, 1.9, 2.2, 2.1])  # invented blank readings
+
+
+def line(x, y):
+    """Least-squares line by the textbook sums: a, b, s, n, xbar, Sxx."""
+    n, xbar = x.size, x.mean()
+    sxx = float(((x - xbar) ** 2).sum())
+    b = float(((x - xbar) * (y - y.mean())).sum() / sxx)
+    a = float(y.mean() - b * xbar)
+    s = math.sqrt(float(((y - a - b * x) ** 2).sum()) / (n - 2))
+    return a, b, s, n, xbar, sxx
+
+
+def straight_line_limits(x, y, m, alpha):
+    """Hubaux-Vos band limits and DIN 32645 quantitation for a straight line, in closed form.
+
+    With q(x) = 1/m + 1/n + (x - xbar)^2/Sxx and c0 = t1 s sqrt(q(0)):
+    xC = c0 / b; xD solves b x - t1 s sqrt(q(x)) = c0, i.e. (b^2 - g) x^2 - 2 (b c0 - g xbar) x = 0
+    with g = t1^2 s^2 / Sxx (the constant term cancels), so xD = 2 (b c0 - g xbar) / (b^2 - g);
+    xQ solves b x = k t2 s sqrt(q(x)), the positive root of
+    (b^2 - h) x^2 + 2 h xbar x - (k t2 s)^2 (1/m + 1/n) - h xbar^2 = 0 with h = (k t2 s)^2 / Sxx.
+    """
+    a, b, s, n, xbar, sxx = line(x, y)
+    t1, t2 = stats.t.ppf(1 - alpha, n - 2), stats.t.ppf(1 - alpha / 2, n - 2)
+    c0 = t1 * s * math.sqrt(1 / m + 1 / n + xbar**2 / sxx)
+    g = t1**2 * s**2 / sxx
+    x_d = 2 * (b * c0 - g * xbar) / (b**2 - g)
+    ks = 3 * t2 * s
+    h = ks**2 / sxx
+    qa, qb, qc = b**2 - h, 2 * h * xbar, -(ks**2) * (1 / m + 1 / n) - h * xbar**2
+    x_q = (-qb + math.sqrt(qb**2 - 4 * qa * qc)) / (2 * qa)
+    return a + c0, c0 / b, x_d, x_q
+
+
+def rows_by_method(rows):
+    return {r.method: r for r in rows}
+
+
+def test_miller_fluorescence_example():
+    """The book's a = 1.52, b = 1.93, s_y/x = 0.4329 and 3 s/b = 0.67 (recalled from memory)."""
+    fit = engine.fit(MILLER_X, MILLER_Y, 1)
+    assert fit.coefficients == pytest.approx((1.52, 1.93), abs=0.005)
+    assert fit.residual_sd == pytest.approx(0.4329, abs=1e-4)  # 0.43285 here; the book's rounding
+    got = rows_by_method(engine.detection_limits(engine.Calibration(MILLER_X, MILLER_Y), 1, BLANKS))
+    a, b, s, n, xbar, sxx = line(MILLER_X, MILLER_Y)
+    ich = got["ICH residual SD"]
+    assert 3 * s / b == pytest.approx(0.67, abs=0.005)
+    assert (ich.detection_limit, ich.quantitation_limit) == pytest.approx((3.3 * s / b, 10 * s / b), rel=1e-12)
+    assert math.isnan(ich.critical_response) and math.isnan(ich.decision_limit)
+    # ICH with sigma the intercept's standard error: s sqrt(sum x^2 / (n Sxx)) (Draper & Smith sec. 1.4)
+    se_a = s * math.sqrt((MILLER_X**2).sum() / (n * sxx))
+    se = got["ICH intercept SE"]
+    assert (se.detection_limit, se.quantitation_limit) == pytest.approx((3.3 * se_a / b, 10 * se_a / b), rel=1e-12)
+    # band (Hubaux-Vos) and DIN 32645 quantitation, closed forms above
+    y_c, x_c, x_d, x_q = straight_line_limits(MILLER_X, MILLER_Y, 1, 0.05)
+    band = got["prediction band"]
+    assert (band.critical_response, band.decision_limit, band.detection_limit, band.quantitation_limit) == \
+        pytest.approx((y_c, x_c, x_d, x_q), rel=1e-10)
+    assert band.note == "Hubaux-Vos; quantitation in the DIN 32645 form, k = 3"
+    # ISO 11843-2: the same decision limit; xd with delta from scipy's non-central t
+    t1 = stats.t.ppf(0.95, n - 2)
+    delta = optimize.brentq(lambda d: stats.nct.cdf(t1, n - 2, d) - 0.05, t1, 3 * t1 + 5, xtol=1e-13)
+    iso = got["ISO 11843-2"]
+    assert (iso.critical_response, iso.decision_limit) == pytest.approx((y_c, x_c), rel=1e-10)
+    assert iso.detection_limit == pytest.approx(delta / t1 * x_c, rel=1e-9)
+    assert math.isnan(iso.quantitation_limit)
+    # DIN 32645 blank method from the invented blank readings
+    nb, mean, sb = BLANKS.size, BLANKS.mean(), BLANKS.std(ddof=1)
+    tb1, tb2 = stats.t.ppf(0.95, nb - 1), stats.t.ppf(0.975, nb - 1)
+    root = math.sqrt(1 + 1 / nb)
+    blank = got["blank readings"]
+    assert (blank.critical_response, blank.decision_limit, blank.detection_limit, blank.quantitation_limit) == \
+        pytest.approx((mean + tb1 * sb * root, tb1 * sb / b * root, 2 * tb1 * sb / b * root,
+                       3 * tb2 * sb / b * root), rel=1e-10)
+    # the figures the report states (this data): every one computed above
+    assert (x_c, x_d, x_q) == pytest.approx((0.5468, 1.0736, 1.9628), abs=5e-5)
+    assert iso.detection_limit == pytest.approx(1.0501, abs=5e-5)
+    assert (se.detection_limit, ich.detection_limit) == pytest.approx((0.5042, 0.7400), abs=5e-5)
+
+
+@pytest.mark.parametrize("m", [1, 3])
+@pytest.mark.parametrize("slope", [1.7, -1.7])
+def test_straight_line_closed_forms(m, slope):
+    rng = np.random.default_rng(31)
+    x = np.repeat([0.5, 1.0, 2.0, 4.0, 7.0, 10.0], 2)
+    y = 0.3 + slope * x + rng.normal(0, 0.25, x.size)
+    rows = rows_by_method(engine.detection_limits(engine.Calibration(x, y, max_order=1), 1, None, m, 0.01))
+    y_c, x_c, x_d, x_q = straight_line_limits(x, y * np.sign(slope), m, 0.01)
+    band = rows["prediction band"]
+    assert band.critical_response == pytest.approx(np.sign(slope) * y_c, rel=1e-10)
+    assert (band.decision_limit, band.detection_limit, band.quantitation_limit) == pytest.approx((x_c, x_d, x_q),
+                                                                                                 rel=1e-10)
+    assert "blank readings" not in rows
+
+
+@pytest.mark.parametrize("nu", [2, 5, 10, 30])
+def test_iso_delta_is_the_noncentral_t_not_twice_t(nu):
+    """ISO 11843-2 delta(nu; alpha, beta) for alpha = beta = 0.05 against scipy.stats.nct."""
+    t1 = stats.t.ppf(0.95, nu)
+    delta = iso_delta(nu, 0.05, 0.05)
+    assert stats.nct.cdf(t1, nu, delta) == pytest.approx(0.05, abs=1e-12)
+    assert delta == pytest.approx(optimize.brentq(lambda d: stats.nct.cdf(t1, nu, d) - 0.05, t1, 4 * t1 + 5,
+                                                  xtol=1e-13), abs=1e-10)
+    assert 2 * t1 - delta > 0.01  # the approximation 2t overstates delta
+    assert stats.nct.cdf(t1, nu, 2 * t1) < 0.05 - 1e-3
+
+
+def brute_force_band(x, y, order, weights, x0_factor, m, alpha, grid):
+    """Band limits by scanning a dense grid, with the fitted-mean variances from statsmodels (WLS).
+
+    A new mean of m readings at x0 has variance scale * vf(x0) / m + Var(fitted mean); vf is the
+    weighting's 1/w0 (1 without weights)."""
+    design = lambda v: np.vander(v, order + 1, increasing=True)  # noqa: E731
+    res = (sm.WLS(y, design(x), weights=weights) if weights is not None else sm.OLS(y, design(x))).fit()
+    t1, t2 = stats.t.ppf(1 - alpha, res.df_resid), stats.t.ppf(1 - alpha / 2, res.df_resid)
+    d = design(grid)
+    f = d @ res.params
+    slope = np.polynomial.polynomial.polyval(grid, np.polynomial.polynomial.polyder(res.params))
+    s_new = np.sqrt(res.scale * x0_factor(grid) / m + np.einsum("ij,jk,ik->i", d, res.cov_params(), d))
+    y_c = f[0] + t1 * s_new[0]
+
+    def first(v):
+        return grid[np.argmax(v >= 0)]
+
+    return y_c, first(f - y_c), first(f - t1 * s_new - y_c), first(grid * slope - 3 * t2 * s_new)
+
+
+def test_curved_fit_against_a_dense_grid():
+    rng = np.random.default_rng(5)
+    x = np.repeat([0.0, 1.0, 2.5, 5.0, 10.0, 20.0, 30.0], 3)
+    y = 0.8 + 3.0 * x - 0.035 * x**2 + rng.normal(0, 0.6, x.size)
+    grid = np.linspace(0.0, 60.0, 600001)
+    want = brute_force_band(x, y, 2, None, np.ones_like, 2, 0.05, grid)
+    band = engine.detection_limits(engine.Calibration(x, y), 2, None, 2)[0]
+    assert band.critical_response == pytest.approx(want[0], rel=1e-10)
+    np.testing.assert_allclose([band.decision_limit, band.detection_limit, band.quantitation_limit], want[1:],
+                               atol=2e-4)
+
+
+def test_weights_as_a_range_against_a_dense_grid():
+    """Weights 1/(c + x)^2 (a variance model with a blank term); a new reading's 1/w0 interpolated
+    linearly between the levels' mean 1/w, as the project documents for ranges of weights."""
+    rng = np.random.default_rng(8)
+    x = np.repeat([0.0, 1.0, 2.0, 5.0, 10.0, 20.0, 50.0], 3)
+    y = 0.2 + 1.5 * x + rng.normal(0, 1, x.size) * 0.05 * (1.0 + x)
+    w = 1 / (1.0 + x) ** 2
+    grid = np.linspace(0.0, 100.0, 1000001)
+    levels = np.unique(x)
+    want = brute_force_band(x, y, 1, w, lambda v: np.interp(v, levels, (1.0 + levels) ** 2), 1, 0.05, grid)
+    band = engine.detection_limits(engine.Calibration(x, y, max_order=1, weights=w), 1)[0]
+    assert band.critical_response == pytest.approx(want[0], rel=1e-10)
+    np.testing.assert_allclose([band.decision_limit, band.detection_limit, band.quantitation_limit], want[1:],
+                               atol=2e-4)
+
+
+def test_weights_that_vanish_at_zero_are_answered_in_words():
+    x = np.repeat([1.0, 2.0, 5.0, 10.0, 20.0, 50.0], 2)
+    y = 0.01 + 2.0 * x * (1 + np.random.default_rng(3).normal(0, 0.03, x.size))
+    rows = rows_by_method(engine.detection_limits(engine.Calibration(x, y, weights="1/x^2"), 1))
+    words = ("weights '1/x^2' give a new reading at x = 0 zero variance (1/w0 = 0), so the prediction band has no "
+             "reading scatter at the blank and no band-based limit exists; use a variance model with a blank term "
+             "(weights as a range, such as 1/(c + x)^2) or give blank readings")
+    for method in ("prediction band", "ICH residual SD"):
+        assert rows[method].note == words
+        assert all(math.isnan(v) for v in rows[method][1:5])
+    assert rows["ISO 11843-2"].note == ("applies to a straight line with constant SD; this calibration is weighted "
+                                        "('1/x^2') (see the prediction band row)")
+    assert rows["ICH intercept SE"].detection_limit > 0  # the intercept's standard error still exists
+
+
+def test_curve_that_turns_near_zero_is_answered_in_words():
+    x = np.repeat([0.0, 1.0, 2.0, 4.0, 6.0, 8.0, 10.0], 2)
+    # falling at x = 0, minimum near x = 0.31 far above the critical response: no limit on the falling side
+    y = 5.0 - 0.5 * x + 0.8 * x**2 + np.random.default_rng(4).normal(0, 0.3, x.size)
+    band = engine.detection_limits(engine.Calibration(x, y), 2)[0]
+    assert band.note.startswith("the curve is not monotonic between x = 0 and x = ")
+    assert band.note.endswith("a response near the blank maps to more than one x, so no limit is given; check the "
+                              "low standards and the order")
+    assert all(math.isnan(v) for v in band[1:5])
+
+
+def test_limits_beyond_the_calibrated_range_are_flagged():
+    rng = np.random.default_rng(6)
+    x = np.repeat([5.0, 10.0, 20.0, 30.0, 50.0], 2)
+    y = 1.0 + 2.0 * x + rng.normal(0, 1.5, x.size)
+    band = engine.detection_limits(engine.Calibration(x, y, max_order=1), 1)[0]
+    assert band.decision_limit < band.detection_limit < 5.0 < band.quantitation_limit
+    assert band.note == ("Hubaux-Vos; quantitation in the DIN 32645 form, k = 3; the blank (x = 0) lies below the "
+                         "lowest standard: the band there is extrapolated; decision and detection limits"
+                         " outside the calibrated range [5, 50]: a limit depends on where the standards lie "
+                           "(through the xbar^2/Qx term), so confirm it with standards near the limit")
+
+
+def test_blank_readings_in_words():
+    cal = engine.Calibration(MILLER_X, MILLER_Y)
+    one = engine.detection_limits(cal, 1, [2.0])[-1]
+    assert one.note == "blank: 1 reading; the blank method needs at least 2 readings to estimate their SD"
+    same = engine.detection_limits(cal, 1, [2.0, 2.0, 2.0])[-1]
+    assert same.note == ("blank: all 3 readings are equal (2), so their SD is 0 and gives no limit; enter the "
+                         "readings at full resolution")
+    with pytest.raises(engine.DataError, match=r"^blank\[1\] is nan: every value must be a finite number$"):
+        engine.detection_limits(cal, 1, [2.0, math.nan])
