@@ -103,7 +103,9 @@ def _pick(rows: list[SchemeResult], alpha: float) -> list[SchemeResult]:
     steady = [i for i in usable if rows[i].spread_p >= alpha]  # a nan p-value is not steady
     pool = steady or usable
     if not pool:
-        return rows
+        return [none._replace(note="; ".join(n for n in (
+            "no scheme picked: the unweighted residuals show a trend in spread and no weighted scheme "
+            "back-calculates every standard", none.note) if n))] + rows[1:]
     best = min(pool, key=lambda i: rows[i].sum_abs_deviation)
     why = ("picked: the smallest sum of |deviation %| among the schemes whose weighted residuals show no trend "
            "in spread (Almeida et al. 2002)" if steady else

@@ -23,6 +23,7 @@ class Scenario:
     expected_order: int
     story: str
     samples: tuple[float, ...] = ()
+    blanks: tuple[float, ...] = ()  # readings of blank samples, for the blank method of CALIB_LIMITS
 
 
 def _round(values, digits):
@@ -54,6 +55,7 @@ def straight_probe() -> Scenario:
         _round(x, 3), _round(y, 5), None, 1,
         "R-squared creeps up with every added term, but no term beyond x is significant.",
         samples=_round([0.25, 0.9, 1.65], 4),
+        blanks=_round(0.0042 + np.random.default_rng(7352).normal(0.0, 0.0035, 6), 5),
     )
 
 
@@ -69,6 +71,7 @@ def weighted_assay() -> Scenario:
         _round(x, 3), _round(y, 6), "1/x^2", 1,
         "Spread grows with concentration, so standards are weighted 1/x^2; unknowns are read back.",
         samples=_round([0.031, 0.094, 0.41, 1.37, 3.9, 6.2, 8.1], 4),
+        blanks=_round(0.0021 + np.random.default_rng(99018).normal(0.0, 0.0006, 6), 6),
     )
 
 

@@ -1,0 +1,119 @@
+"""CALIB_LIMITS and CALIB_WEIGHTING called as the spreadsheet calls them (nested lists, None, text), and the
+lists that register every worksheet function, tied together.
+
+Values are checked against the engine (whose formulas are checked in test_limits.py and
+test_weighting_choice.py against independent computations).
+"""
+
+import inspect
+import math
+import re
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+import degreewise
+from degreewise import engine, formula, functions, refresh
+from degreewise.labels import HEADERS
+from degreewise.prepared import clear_caches
+
+# Miller & Miller's fluorescence standards (recalled from memory; see test_limits.py)
+X = [[0.0], [2.0], [4.0], [6.0], [8.0], [10.0], [12.0]]
+Y = [[2.1], [5.0], [9.0], [12.6], [17.3], [21.0], [24.7]]
+METHODS = ["prediction band", "ISO 11843-2", "ICH residual SD", "ICH intercept SE"]
+
+
+@pytest.fixture(autouse=True)
+def fresh_caches():
+    clear_caches()
+
+
+def flat(v):
+    return [r[0] for r in v]
+
+
+def test_limits_table_equals_the_engine():
+    rows = degreewise.calib_limits(X, Y, [[2.0], [2.3], [1.9], [2.2], [2.1]], 2)
+    assert rows[0] == list(HEADERS["limits"])
+    assert [r[0] for r in rows[1:]] == [*METHODS, "blank readings", "caution"]
+    assert all(len(r) == 6 for r in rows)
+    want = engine.detection_limits(engine.Calibration(flat(X), flat(Y)), 1, [2.0, 2.3, 1.9, 2.2, 2.1], 2)
+    for got, r in zip(rows[1:], want):
+        assert got[1:5] == [None if math.isnan(v) else v for v in r[1:5]] and got[5] == r.note
+    assert rows[2][4] is None and rows[3][1:3] == [None, None]  # ISO: no quantitation; ICH: no decision limit
+    assert rows[-1][5].startswith("estimates from one calibration: confirm them with samples near the limit")
+
+
+def test_blank_cells_skip_as_everywhere_and_bad_blank_readings_are_answered_in_words():
+    plain = degreewise.calib_limits(X, Y, [[2.0], [2.3], [1.9]])
+    assert degreewise.calib_limits(X + [[None]], Y + [[3.0]], [[2.0], [None], [2.3], [""], [1.9]]) == plain
+    cases = {
+        "text": ([[2.0], ["n.d."], [2.3]],
+                 "blank, row 2 of 3: the text 'n.d.' is not a number; enter a number or clear the cell"),
+        "error": ([[2.0], ["#N/A"]], "blank, row 2 of 2: the cell holds the error #N/A; enter a number or clear "
+                                     "the cell"),
+        "one": ([[2.0], [None]], "blank: 1 reading; the blank method needs at least 2 readings to estimate their SD"),
+        "empty": ([[None], [""]], "blank: the range holds no readings; enter at least 2 blank readings or leave "
+                                  "the argument empty"),
+    }
+    for name, (blank, message) in cases.items():
+        rows = degreewise.calib_limits(X, Y, blank)
+        assert rows[5] == ["blank readings", None, None, None, None, message], name
+        assert rows[1:5] == plain[1:5], name  # the other methods are computed
+    assert degreewise.calib_limits(X, Y, None) == degreewise.calib_limits(X, Y, [[None]])
+    assert [r[0] for r in degreewise.calib_limits(X, Y)[1:]] == [*METHODS, "caution"]
+
+
+def test_limits_options_are_checked_in_words():
+    assert degreewise.calib_limits(X, Y, None, 0) == [["replicates: 0 is out of range; leave it empty or enter a "
+                                                        "whole number such as 3"]]
+    assert degreewise.calib_limits(X, Y, None, None, None, 0.7) == [["alpha: 0.7 is out of range; leave it empty or "
+                                                                      "enter a level such as 0.05"]]
+    assert degreewise.calib_limits([[1.0], ["x"]], [[1.0], [2.0]]) == [[
+        "x, row 2 of 2: the text 'x' is not a number; enter a number or clear the cell"]]
+
+
+def test_weighting_table_equals_the_engine():
+    rng = np.random.default_rng(40)
+    x = np.repeat([1.0, 2.0, 5.0, 10.0, 20.0, 50.0], 3)
+    y = 0.2 + 1.8 * x * (1 + rng.normal(0, 0.05, x.size))
+    rows = degreewise.calib_weighting([[v] for v in x], [[v] for v in y])
+    assert rows[0] == list(HEADERS["weighting"])
+    assert [r[0] for r in rows[1:]] == ["none", "1/x", "1/x^2", "1/y", "1/y^2", "1/x^2b"]
+    assert all(len(r) == 7 for r in rows)
+    assert [r[5] for r in rows[1:]].count("picked") == 1
+    for got, r in zip(rows[1:], engine.compare_weightings(x, y)):
+        assert got == [r.scheme, r.order, r.sum_abs_deviation, r.max_abs_deviation, r.spread_p,
+                       "picked" if r.picked else None, r.note or None]
+
+
+def test_weighting_with_a_blank_standard_says_which_schemes_cannot_apply():
+    rows = degreewise.calib_weighting(X, Y)
+    assert rows[2] == ["1/x", None, None, None, None, None,
+                       "does not apply: weights 1/x need every x > 0, and the lowest is 0"]
+    assert len(rows) == 6  # no replicates: no row from replicate SDs
+    assert degreewise.calib_weighting(X, Y, 9) == [["order 9 needs at least 10 distinct x values and 11 points; "
+                                                   "there are 7 and 7"]]
+
+
+def test_labels_know_every_table():
+    for name in ("limits", "weighting"):
+        assert degreewise.calib_labels(name) == [list(HEADERS[name])]
+
+
+def test_every_list_that_registers_a_function_holds_the_same_functions():
+    """FUNCTIONS (what the spreadsheet lists), the functions module, the refresh's callables, the formula names,
+    the argument docs, the headers and the README's reference table must agree: forgetting one fails here."""
+    short = sorted(n[len("calib_"):] for n in degreewise.FUNCTIONS)
+    defined = sorted(n[len("calib_"):] for n, f in vars(functions).items()
+                     if n.startswith("calib_") and inspect.isfunction(f))
+    assert defined == short
+    assert sorted(n[len("CALIB_"):].lower() for n in formula.NAMES) == short
+    assert sorted(n[len("CALIB_"):].lower() for n in refresh.CALLABLE) == short
+    assert all(refresh.CALLABLE[f"CALIB_{n.upper()}"] is getattr(functions, f"calib_{n}") for n in short)
+    assert set(HEADERS) - {"predict", "inverse", "residuals"} <= set(short)
+    for n in short:
+        assert set(inspect.signature(getattr(functions, f"calib_{n}")).parameters) <= set(functions.DOC), n
+    readme = (Path(__file__).resolve().parent.parent / "README.md").read_text()
+    assert sorted(set(m.lower() for m in re.findall(r"^\| `CALIB_([A-Z]+)\(", readme, re.M))) == short
