@@ -26,6 +26,7 @@ the limit.
 from __future__ import annotations
 
 import math
+from typing import NamedTuple
 
 import numpy as np
 from scipy import special
@@ -42,7 +43,6 @@ ICH_DETECTION, ICH_QUANTITATION = 3.3, 10.0
 _NODES = 4001  # grid over [0, twice the highest standard] on which the band's crossings are bracketed
 BAND, ISO, ICH_SD, ICH_SE, BLANK = ("prediction band", "ISO 11843-2", "ICH residual SD", "ICH intercept SE",
                                     "blank readings")
-CONFIRM = "estimates from one calibration: confirm them with samples near the limit, as the methods require"
 
 
 def iso_delta(df, alpha: float, beta: float) -> float:
@@ -106,8 +106,9 @@ def _range_words(named, x_min: float, x_max: float) -> str:
     if not out:
         return ""
     names = out[0] if len(out) == 1 else ", ".join(out[:-1]) + " and " + out[-1]
-    return (f"{names} limit{'s' if len(out) > 1 else ''} outside the calibrated range [{_g(x_min)}, {_g(x_max)}]: a limit depends on where "
-            "the standards lie (through the xbar^2/Qx term), so confirm it with standards near the limit")
+    return (f"{names} limit{'s' if len(out) > 1 else ''} outside the calibrated range [{_g(x_min)}, {_g(x_max)}]: "
+            "a limit depends on where the standards lie (through the xbar^2/Qx term), so confirm it with standards "
+            "near the limit")
 
 
 def _weight_words(cal: Calibration, band: _Band, t1: float) -> str:
@@ -162,7 +163,28 @@ def _band_row(cal, curve, band: _Band, t1: float, t2: float, sign: float, degene
     return Limit(BAND, float(curve.to_y(y_c)), *found, "; ".join(n for n in notes if n))
 
 
-def _iso_row(cal: Calibration, curve: Curve, m: int, alpha: float, t1: float) -> Limit:
+class _AtZero(NamedTuple):
+    """The curve at x = 0: response f, the sign of its slope, 1/|S| as x per unit of response (curve
+    units, so that it neither over- nor underflows with the raw slope), S in the units of y per x, and
+    the standard error of the fitted response there (curve units)."""
+
+    f: float
+    sign: float
+    x_per_response: float
+    slope: float
+    se_mean: float
+
+
+def _at_zero(cal: Calibration, curve: Curve) -> _AtZero:
+    f, dfz, vm, _ = curve.local(np.array([float(cal.scaled_x(0.0))]))
+    dfz = float(dfz[0])
+    with np.errstate(divide="ignore"):
+        per = cal.dx_dz / abs(dfz) if dfz else math.inf
+    return _AtZero(float(f[0]), 1.0 if dfz >= 0 else -1.0, per, float(curve.to_y(dfz)) / cal.dx_dz,
+                   math.sqrt(float(vm[0])))
+
+
+def _iso_row(cal: Calibration, curve: Curve, zero: _AtZero, m: int, alpha: float, t1: float) -> Limit:
     none, order = (math.nan,) * 4, curve.order
     if order != 1:
         return Limit(ISO, *none, f"applies to a straight line with constant SD; this curve is of order {order} "
@@ -170,41 +192,37 @@ def _iso_row(cal: Calibration, curve: Curve, m: int, alpha: float, t1: float) ->
     if cal.weighting.values is not None:
         return Limit(ISO, *none, f"applies to a straight line with constant SD; this calibration is weighted "
                                  f"('{cal.weighting.label}') (see the prediction band row)")
-    fit = cal.fit(1)
-    (a, b), s, n, x = fit.coefficients, fit.residual_sd, cal.n_points, cal.x
-    xbar = float(x.mean())
-    root = math.sqrt(1.0 / m + 1.0 / n + xbar**2 / float(((x - xbar) ** 2).sum()))
-    df = fit.stats.df_resid
+    z, n, df = cal.z, cal.n_points, curve.df
+    zbar = float(z.mean())  # xbar^2 / Qx in the scaled variable z (x less 0 is z less z(0), times x per z)
+    root = math.sqrt(1.0 / m + 1.0 / n + (zbar - float(cal.scaled_x(0.0))) ** 2 / float(((z - zbar) ** 2).sum()))
     delta = iso_delta(df, alpha, alpha)
-    x_c, x_d = t1 * s / abs(b) * root, delta * s / abs(b) * root
+    x_c, x_d = t1 * curve.s * zero.x_per_response * root, delta * curve.s * zero.x_per_response * root
     note = (f"delta = {delta:.5g} from the non-central t ({df} df; the approximation 2t would give "
             f"{2 * t1:.5g}); ISO 11843-2 defines no quantitation limit")
     extra = _range_words((("decision", x_c), ("detection", x_d)), curve.x_min, curve.x_max)
-    return Limit(ISO, a + b * x_c, x_c, x_d, math.nan, "; ".join(n for n in (note, extra) if n))
+    y_c = float(curve.to_y(zero.f + zero.sign * t1 * curve.s * root))
+    return Limit(ISO, y_c, x_c, x_d, math.nan, "; ".join(n for n in (note, extra) if n))
 
 
-def _ich_rows(cal: Calibration, curve: Curve, band: _Band, degenerate: str, flat: str) -> list[Limit]:
-    order = curve.order
-    fit = cal.fit(order)
-    slope = fit.coefficients[1]
-    where = f"S = {_g(slope)}, the slope at x = 0" + (f" of the order-{order} curve" if order > 1 else "")
-    weighted = cal.weighting.values is not None
-    if weighted:
-        f0 = band(0.0)[0]
-        factor = float(band.variance_factor(np.zeros(1), f0)[0])
-        sd = fit.residual_sd * math.sqrt(factor) if factor > 0 else math.nan
-        sd_words = f"sigma = {_g(sd)}, the SD of a reading at x = 0 under the weights (s sqrt(1/w0))"
+def _ich_rows(cal: Calibration, curve: Curve, zero: _AtZero, band: _Band, degenerate: str, flat: str
+              ) -> list[Limit]:
+    where = f"S = {_g(zero.slope)}, the slope at x = 0" + (f" of the order-{curve.order} curve"
+                                                            if curve.order > 1 else "")
+    if cal.weighting.values is not None:
+        factor = float(band.variance_factor(np.zeros(1), np.array([zero.f]))[0])
+        sd = curve.s * math.sqrt(factor) if factor > 0 else math.nan
+        sd_words = f"sigma = {_g(float(curve.to_y(sd)))}, the SD of a reading at x = 0 under the weights (s sqrt(1/w0))"
     else:
-        sd = fit.residual_sd
-        sd_words = f"sigma = {_g(sd)}, the residual SD"
+        sd = curve.s
+        sd_words = f"sigma = {_g(float(curve.to_y(sd)))}, the residual SD"
+    se_words = f"sigma = {_g(float(curve.to_y(zero.se_mean)))}, the standard error of the intercept"
     rows = []
     for name, sigma, words, bad in ((ICH_SD, sd, sd_words, flat or degenerate),
-                                    (ICH_SE, fit.std_errors[0], f"sigma = {_g(fit.std_errors[0])}, the standard "
-                                                                "error of the intercept", flat)):
+                                    (ICH_SE, zero.se_mean, se_words, flat)):
         if bad:
             rows.append(Limit(name, math.nan, math.nan, math.nan, math.nan, bad))
             continue
-        lod, loq = ICH_DETECTION * sigma / abs(slope), ICH_QUANTITATION * sigma / abs(slope)
+        lod, loq = (k * sigma * zero.x_per_response for k in (ICH_DETECTION, ICH_QUANTITATION))
         notes = [f"{ICH_DETECTION:g} sigma/S and {ICH_QUANTITATION:g} sigma/S; {words}; {where}",
                  _turn_words(cal, curve, loq),
                  _range_words((("detection", lod), ("quantitation", loq)), curve.x_min, curve.x_max)]
@@ -212,7 +230,7 @@ def _ich_rows(cal: Calibration, curve: Curve, band: _Band, degenerate: str, flat
     return rows
 
 
-def _blank_row(cal: Calibration, curve: Curve, readings: np.ndarray, m: int, alpha: float, sign: float,
+def _blank_row(cal: Calibration, curve: Curve, zero: _AtZero, readings: np.ndarray, m: int, alpha: float,
                flat: str) -> Limit:
     none = (math.nan,) * 4
     n_b = readings.size
@@ -221,22 +239,23 @@ def _blank_row(cal: Calibration, curve: Curve, readings: np.ndarray, m: int, alp
     if n_b < 2:
         return Limit(BLANK, *none, f"blank: {n_b} reading{'s' if n_b != 1 else ''}; the blank method needs at "
                                    "least 2 readings to estimate their SD")
-    mean, sd = float(readings.mean()), float(readings.std(ddof=1))
+    scaled = curve.from_y(readings)  # curve units keep the squares in range
+    mean, sd = float(scaled.mean()), float(scaled.std(ddof=1))
     if not sd > 0:
-        return Limit(BLANK, *none, f"blank: all {n_b} readings are equal ({_g(mean)}), so their SD is 0 and gives "
-                                   "no limit; enter the readings at full resolution")
-    slope = cal.fit(curve.order).coefficients[1]
+        return Limit(BLANK, *none, f"blank: all {n_b} readings are equal ({_g(float(curve.to_y(mean)))}), so "
+                                   "their SD is 0 and gives no limit; enter the readings at full resolution")
     root = math.sqrt(1.0 / m + 1.0 / n_b)
     t1, t2 = float(t_quantile(1.0 - alpha, n_b - 1)), float(t_quantile(1.0 - alpha / 2, n_b - 1))
-    x_c = t1 * sd / abs(slope) * root
-    x_q = K_QUANTITATION * t2 * sd / abs(slope) * root
-    notes = [f"DIN 32645 blank method; {n_b} readings, mean {_g(mean)}, SD {_g(sd)}; S = {_g(slope)}, the slope at "
-             f"x = 0; ICH with sigma the blank SD: 3.3 sigma/S = {_g(ICH_DETECTION * sd / abs(slope))}, "
-             f"10 sigma/S = {_g(ICH_QUANTITATION * sd / abs(slope))}",
+    per = sd * zero.x_per_response  # sb / |S|
+    x_c, x_q = t1 * per * root, K_QUANTITATION * t2 * per * root
+    notes = [f"DIN 32645 blank method; {n_b} readings, mean {_g(float(curve.to_y(mean)))}, SD "
+             f"{_g(float(curve.to_y(sd)))}; S = {_g(zero.slope)}, the slope at x = 0; ICH with sigma the blank SD: "
+             f"3.3 sigma/S = {_g(ICH_DETECTION * per)}, 10 sigma/S = {_g(ICH_QUANTITATION * per)}",
              _turn_words(cal, curve, x_q),
              _range_words((("decision", x_c), ("detection", 2 * x_c), ("quantitation", x_q)), curve.x_min,
                           curve.x_max)]
-    return Limit(BLANK, mean + sign * t1 * sd * root, x_c, 2 * x_c, x_q, "; ".join(n for n in notes if n))
+    y_c = float(curve.to_y(mean + zero.sign * t1 * sd * root))
+    return Limit(BLANK, y_c, x_c, 2 * x_c, x_q, "; ".join(n for n in notes if n))
 
 
 def detection_limits(cal: Calibration, order: int, blank=None, replicates=1, alpha: float = 0.05
@@ -250,16 +269,15 @@ def detection_limits(cal: Calibration, order: int, blank=None, replicates=1, alp
     band = _Band(cal, curve, m)
     t1 = float(t_quantile(1.0 - alpha, curve.df))
     t2 = float(t_quantile(1.0 - alpha / 2, curve.df))
-    slope0 = float(band(0.0)[1][0])
-    sign = 1.0 if slope0 >= 0 else -1.0
+    zero = _at_zero(cal, curve)
     flat = ""
     if curve.x_max <= 0:
         flat = f"every standard lies at x <= 0 (the highest is {_g(curve.x_max)}): limits above the blank need x > 0"
-    elif slope0 == 0:
+    elif math.isinf(zero.x_per_response):
         flat = "the curve is flat at x = 0 (slope 0), so no limit follows from it; check the low standards"
     degenerate = flat or _weight_words(cal, band, t1)
-    rows = [_band_row(cal, curve, band, t1, t2, sign, degenerate), _iso_row(cal, curve, m, alpha, t1),
-            *_ich_rows(cal, curve, band, degenerate, flat)]
+    rows = [_band_row(cal, curve, band, t1, t2, zero.sign, degenerate), _iso_row(cal, curve, zero, m, alpha, t1),
+            *_ich_rows(cal, curve, zero, band, degenerate, flat)]
     if readings is not None:
-        rows.append(_blank_row(cal, curve, readings, m, alpha, sign, flat))
+        rows.append(_blank_row(cal, curve, zero, readings, m, alpha, flat))
     return tuple(rows)

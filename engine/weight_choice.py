@@ -42,6 +42,8 @@ FROM_REPLICATES = "1/x^2b"
 def spread_exponent(x, y, level: float = 0.95) -> SpreadExponent | str:
     """b in SD = c x^b from the replicate SDs (module docstring), or the reason in words why not."""
     x, y = _vector(x, "x"), _vector(y, "y")
+    if y.any():  # an exact power-of-two scaling (it moves only log c) keeps squares in range
+        y = np.ldexp(y, -math.frexp(float(np.abs(y).max()))[1])
     levels, inverse, counts = np.unique(x, return_inverse=True, return_counts=True)
     means = np.bincount(inverse, y) / counts
     ss = np.bincount(inverse, (y - means[inverse]) ** 2)
@@ -84,7 +86,10 @@ def _judge(x, y, scheme: str, weights, order, note: str = "") -> SchemeResult:
         total, largest = float(np.abs(dev).sum()), float(np.abs(dev).max(initial=0.0))
     if (cal.x == 0).any():
         words.append("deviation % leaves out the standards at x = 0")
-    _, p = breusch_pagan(cal.scaled_residuals(k), np.log(cal.x) if (cal.x > 0).all() else cal.z, 1)
+    e = cal.scaled_residuals(k)
+    if e.any():  # the test is scale-free: a largest |e| in [0.5, 1) keeps its squares in range
+        e = np.ldexp(e, -math.frexp(float(np.abs(e).max()))[1])
+    _, p = breusch_pagan(e, np.log(cal.x) if (cal.x > 0).all() else cal.z, 1)
     return SchemeResult(scheme, k, total, largest, p, False, "; ".join(w for w in words if w))
 
 

@@ -12,6 +12,8 @@ import math
 
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 import statsmodels.api as sm
 from scipy import optimize, stats
 
@@ -223,3 +225,20 @@ def test_blank_readings_in_words():
                          "readings at full resolution")
     with pytest.raises(engine.DataError, match=r"^blank\[1\] is nan: every value must be a finite number$"):
         engine.detection_limits(cal, 1, [2.0, math.nan])
+
+
+@settings(max_examples=25, deadline=None)
+@given(scale=st.floats(1e-3, 1e3), shift=st.floats(-10.0, 10.0), falling=st.booleans(), m=st.integers(1, 4))
+def test_limits_follow_the_units_of_y(scale, shift, falling, m):
+    """Invariant: a response y' = shift + c y (c of either sign) leaves every x limit as it is and maps the
+    critical response as y does (common practice: a limit in x does not depend on the units of y)."""
+    c = -scale if falling else scale
+    x = np.repeat([0.0, 1.0, 2.0, 5.0, 10.0], 2)
+    y = 0.4 + 1.1 * x + np.random.default_rng(2).normal(0, 0.3, x.size)
+    blank = np.array([0.3, 0.5, 0.45, 0.2])
+    base = engine.detection_limits(engine.Calibration(x, y, max_order=1), 1, blank, m)
+    moved = engine.detection_limits(engine.Calibration(x, shift + c * y, max_order=1), 1, shift + c * blank, m)
+    for r0, r1 in zip(base, moved):
+        np.testing.assert_allclose(r1[2:5], r0[2:5], rtol=1e-9, atol=1e-12)
+        if not math.isnan(r0.critical_response):
+            assert r1.critical_response == pytest.approx(shift + c * r0.critical_response, rel=1e-9, abs=1e-9)

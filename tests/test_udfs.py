@@ -268,7 +268,8 @@ def test_bad_cell_in_a_row_range(data):
     (lambda x, y: degreewise.calib_coefs([[1, 2], [3, 4]], y), "x: the range is 2 rows by 2 columns; give a single row "
                                                          "or column"),
     (lambda x, y: degreewise.calib_labels("chart"), "name: 'chart' is not known; use one of 'orders', 'seqf', 'coefs', "
-                                              "'stats', 'predict', 'inverse', 'residuals', 'checks', 'compare'"),
+                                              "'stats', 'predict', 'inverse', 'residuals', 'checks', 'compare', "
+                                              "'limits', 'weighting'"),
 ])
 def test_bad_arguments(data, call, message):
     x, y = data

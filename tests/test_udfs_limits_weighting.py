@@ -117,3 +117,21 @@ def test_every_list_that_registers_a_function_holds_the_same_functions():
         assert set(inspect.signature(getattr(functions, f"calib_{n}")).parameters) <= set(functions.DOC), n
     readme = (Path(__file__).resolve().parent.parent / "README.md").read_text()
     assert sorted(set(m.lower() for m in re.findall(r"^\| `CALIB_([A-Z]+)\(", readme, re.M))) == short
+
+
+def test_readme_worked_example():
+    """The README's worked example (invented probe data and blank readings) states these figures."""
+    x = [[v] for v in (0.0, 0.0, 10.0, 10.0, 25.0, 25.0, 50.0, 50.0, 75.0, 75.0, 100.0, 100.0)]
+    y = [[v] for v in (0.00638, 0.00299, 0.20592, 0.19535, 0.49588, 0.49997, 0.99361, 0.99608, 1.4958, 1.49393,
+                       1.98768, 1.99095)]
+    blank = [[v] for v in (0.0061, 0.0023, 0.0049, 0.0008, 0.0037, 0.0052)]
+    rows = {r[0]: r[1:5] for r in degreewise.calib_limits(x, y, blank)[1:]}
+    stated = {"prediction band": [0.0091504, 0.32493, 0.64937, 1.1950], "ISO 11843-2": [0.0091504, 0.32493, 0.63518],
+              "ICH residual SD": [0.53846, 1.6317], "ICH intercept SE": [0.24507, 0.74264],
+              "blank readings": [0.0081550, 0.21750, 0.43500, 0.83240]}
+    for method, values in stated.items():
+        assert [v for v in rows[method] if v is not None] == pytest.approx(values, rel=5e-5), method
+    assert "delta = 3.543 from the non-central t (10 df; the approximation 2t would give 3.6249)" in \
+        degreewise.calib_limits(x, y)[2][5]
+    weighting = degreewise.calib_weighting(x, y)
+    assert weighting[1][0] == "none" and weighting[1][5] == "picked" and round(weighting[1][4], 2) == 0.11

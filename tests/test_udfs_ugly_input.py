@@ -49,6 +49,8 @@ def test_every_function_answers_with_cells(data, weights, order):
         degreewise.calib_inverse(xs, ys, [[3.0], [None]], None, order, None, weights),
         degreewise.calib_residuals(xs, ys, order, weights),
         degreewise.calib_checks(xs, ys, order, None, weights),
+        degreewise.calib_limits(xs, ys, [[0.1], ["n.d."]], None, order, None, weights),
+        degreewise.calib_weighting(xs, ys, order),
     ):
         assert _ok(result)
 
@@ -61,7 +63,8 @@ def test_huge_and_tiny_magnitudes(ex, ey, seed):
     y = (1 + 2 * np.linspace(0, 1, 10) + rng.normal(0, 0.01, 10)) * 10.0**ey
     xs, ys = [[float(v)] for v in x], [[float(v)] for v in y]
     for result in (degreewise.calib_coefs(xs, ys), degreewise.calib_orders(xs, ys), degreewise.calib_checks(xs, ys),
-                   degreewise.calib_inverse(xs, ys, [[float(y[3])]])):
+                   degreewise.calib_inverse(xs, ys, [[float(y[3])]]), degreewise.calib_limits(xs, ys),
+                   degreewise.calib_weighting(xs, ys)):
         assert _ok(result)
 
 

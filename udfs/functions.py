@@ -27,7 +27,7 @@ from . import engine
 from . import VERSION
 from .coercion import CellError, cell_numbers, flatten, is_omitted, number_option, numbers_or_blank, text_option
 from .engine.calibration import order_limit
-from .labels import CAUTION, HEADERS, term
+from .labels import CAUTION, HEADERS, LIMITS_CAUTION, term
 from .prepared import RESULTS, SCHEMES, calibration, prepare, prepare_named
 from .registration import declared
 
@@ -512,7 +512,7 @@ def calib_limits(x, y, blank=None, replicates=None, order=None, alpha=None, weig
                                              r.quantitation_limit)), r.note or None])
         if problem:
             rows.append(["blank readings", None, None, None, None, problem])
-        rows.append(["caution", None, None, None, None, f"{engine.limits.CONFIRM}. {CAUTION}"])
+        rows.append(["caution", None, None, None, None, f"{LIMITS_CAUTION}. {CAUTION}"])
         return rows
 
     key = (reps, k, a, None if readings is None else readings.tobytes(), problem)

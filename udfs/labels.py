@@ -19,6 +19,7 @@ HEADERS = {
                   "note"),
 }
 
+LIMITS_CAUTION = "estimates from one calibration: confirm them with samples near the limit, as the methods require"
 CAUTION = ("Supports, and does not replace, method validation under your quality system and applicable "
            "standards; results must be reviewed by qualified staff.")
 
