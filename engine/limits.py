@@ -40,6 +40,7 @@ from .selection import check_alpha
 
 K_QUANTITATION = 3.0  # DIN 32645: 1/k = 33 % relative uncertainty at the quantitation limit
 ICH_DETECTION, ICH_QUANTITATION = 3.3, 10.0
+_EXACT = 2.0**-43  # a residual SD (curve units: the largest |y| is 1/2 to 1) at rounding level: an exact fit
 _NODES = 4001  # grid over [0, twice the highest standard] on which the band's crossings are bracketed
 BAND, ISO, ICH_SD, ICH_SE, BLANK = ("prediction band", "ISO 11843-2", "ICH residual SD", "ICH intercept SE",
                                     "blank readings")
@@ -234,7 +235,7 @@ def _blank_row(cal: Calibration, curve: Curve, zero: _AtZero, readings: np.ndarr
                flat: str) -> Limit:
     none = (math.nan,) * 4
     n_b = readings.size
-    if flat:
+    if flat and curve.s > _EXACT:  # an exact fit still has a slope for the blank readings
         return Limit(BLANK, *none, flat)
     if n_b < 2:
         return Limit(BLANK, *none, f"blank: {n_b} reading{'s' if n_b != 1 else ''}; the blank method needs at "
@@ -275,8 +276,12 @@ def detection_limits(cal: Calibration, order: int, blank=None, replicates=1, alp
         flat = f"every standard lies at x <= 0 (the highest is {_g(curve.x_max)}): limits above the blank need x > 0"
     elif math.isinf(zero.x_per_response):
         flat = "the curve is flat at x = 0 (slope 0), so no limit follows from it; check the low standards"
+    elif curve.s <= _EXACT:
+        flat = ("the curve passes through every standard (residual SD at rounding level), so its scatter gives "
+                "no limit; give blank readings")
     degenerate = flat or _weight_words(cal, band, t1)
-    rows = [_band_row(cal, curve, band, t1, t2, zero.sign, degenerate), _iso_row(cal, curve, zero, m, alpha, t1),
+    iso = Limit(ISO, *(math.nan,) * 4, flat) if flat else _iso_row(cal, curve, zero, m, alpha, t1)
+    rows = [_band_row(cal, curve, band, t1, t2, zero.sign, degenerate), iso,
             *_ich_rows(cal, curve, zero, band, degenerate, flat)]
     if readings is not None:
         rows.append(_blank_row(cal, curve, zero, readings, m, alpha, flat))

@@ -59,8 +59,6 @@ def spread_exponent(x, y, level: float = 0.95) -> SpreadExponent | str:
     b = float((w * (u - ubar) * log_s).sum() / quw)
     a = (w * log_s).sum() / w.sum() - b * ubar
     df = u.size - 2
-    if df < 1:
-        return "needs replicate SDs at 3 or more levels with x > 0"
     scale = (w * (log_s - a - b * u) ** 2).sum() / df
     half = float(t_quantile(0.5 + level / 2, df)) * math.sqrt(scale / quw)
     return SpreadExponent(b, b - half, b + half, level, int(u.size))

@@ -242,3 +242,13 @@ def test_limits_follow_the_units_of_y(scale, shift, falling, m):
         np.testing.assert_allclose(r1[2:5], r0[2:5], rtol=1e-9, atol=1e-12)
         if not math.isnan(r0.critical_response):
             assert r1.critical_response == pytest.approx(shift + c * r0.critical_response, rel=1e-9, abs=1e-9)
+
+
+def test_an_exact_fit_gives_limits_only_from_blank_readings():
+    x = np.array([0.0, 1.0, 2.0, 3.0, 4.0])
+    rows = engine.detection_limits(engine.Calibration(x, 1 + 2 * x, max_order=1), 1, [1.0, 1.1, 0.9])
+    words = ("the curve passes through every standard (residual SD at rounding level), so its scatter gives no "
+             "limit; give blank readings")
+    assert [r.note for r in rows[:4]] == [words] * 4
+    t = stats.t.ppf(0.95, 2)
+    assert rows[4].decision_limit == pytest.approx(t * 0.1 / 2 * math.sqrt(1 + 1 / 3), rel=1e-12)
