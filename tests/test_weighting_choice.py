@@ -53,7 +53,8 @@ def test_exponent_is_weighted_least_squares_on_log_scales():
 
 
 def test_exponent_interval_covers_the_truth_at_its_nominal_rate():
-    """95 % intervals of b: coverage within 93.5 % to 96.5 % of 1000 calibrations per structure (seeded)."""
+    """95 % intervals of b: coverage within 93.5 % to 96.5 % of 1000 calibrations per structure (seeded; measured
+    here: 96.4 % for b = 0, 94.4 % for b = 0.5, 95.4 % for b = 1)."""
     rates = {}
     for b in (0.0, 0.5, 1.0):
         rng = np.random.default_rng(2026 + int(10 * b))
@@ -65,8 +66,7 @@ def test_exponent_interval_covers_the_truth_at_its_nominal_rate():
 def test_picked_scheme_matches_the_variance_structure_in_most_calibrations():
     """A pick matches when its variance power (0 none; 1 for 1/x, 1/y; 2 for 1/x^2, 1/y^2; 2b for 1/x^2b) is
     within 0.5 of the truth; no pick is a miss. 100 seeded calibrations per structure; measured here:
-    constant SD 98 %, SD proportional to sqrt(x) 71 %, constant CV 86 % (with 150 per structure: 97 %,
-    65 %, 83 %)."""
+    constant SD 96 %, SD proportional to sqrt(x) 70 %, constant CV 85 %."""
     rates, counts = {}, {}
     for b in (0.0, 0.5, 1.0):
         rng = np.random.default_rng(314 + int(10 * b))
