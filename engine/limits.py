@@ -112,21 +112,19 @@ def _range_words(named, x_min: float, x_max: float) -> str:
             "near the limit")
 
 
-def _weight_words(cal: Calibration, band: _Band, t1: float) -> str:
+def _weight_words(cal: Calibration, band: _Band, zero: _AtZero, t1: float) -> str:
     """Why the weights leave a new reading at x = 0 without scatter of its own (empty when they do not)."""
     w = cal.weighting
     if w.values is None or w.scheme is None:
         return ""
-    f0, _, _ = band(0.0)
-    vf0 = float(band.variance_factor(np.zeros(1), f0)[0])
-    _, _, vm0, _ = band.curve.local(cal.scaled_x(np.zeros(1)))
+    vf0 = float(band.variance_factor(np.zeros(1), np.array([zero.f]))[0])
     tail = ("so the prediction band has no reading scatter at the blank and no band-based limit exists; use a "
             "variance model with a blank term (weights as a range, such as 1/(c + x)^2) or give blank readings")
     if w.scheme.endswith(("x", "x^2")):
         return f"weights '{w.scheme}' give a new reading at x = 0 zero variance (1/w0 = 0), {tail}"
-    if not (vf0 > 0 and abs(float(f0[0])) > t1 * math.sqrt(float(vm0[0]))):
+    if not (vf0 > 0 and abs(zero.f) > t1 * zero.se_mean):
         return (f"weights '{w.scheme}' take a reading's variance from the fitted response, which at x = 0 "
-                f"({_g(float(band.curve.to_y(f0)[0]))}) does not differ significantly from zero, {tail}")
+                f"({_g(float(band.curve.to_y(zero.f)))}) does not differ significantly from zero, {tail}")
     return ""
 
 
@@ -279,7 +277,7 @@ def detection_limits(cal: Calibration, order: int, blank=None, replicates=1, alp
     elif curve.s <= _EXACT:
         flat = ("the curve passes through every standard (residual SD at rounding level), so its scatter gives "
                 "no limit; give blank readings")
-    degenerate = flat or _weight_words(cal, band, t1)
+    degenerate = flat or _weight_words(cal, band, zero, t1)
     iso = Limit(ISO, *(math.nan,) * 4, flat) if flat else _iso_row(cal, curve, zero, m, alpha, t1)
     rows = [_band_row(cal, curve, band, t1, t2, zero.sign, degenerate), iso,
             *_ich_rows(cal, curve, zero, band, degenerate, flat)]

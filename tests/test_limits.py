@@ -252,3 +252,14 @@ def test_an_exact_fit_gives_limits_only_from_blank_readings():
     assert [r.note for r in rows[:4]] == [words] * 4
     t = stats.t.ppf(0.95, 2)
     assert rows[4].decision_limit == pytest.approx(t * 0.1 / 2 * math.sqrt(1 + 1 / 3), rel=1e-12)
+
+
+def test_response_weights_near_a_zero_response_at_the_blank_are_answered_in_words():
+    x = np.repeat([1.0, 2.0, 5.0, 10.0, 20.0], 2)
+    y = 2.0 * x * (1 + np.random.default_rng(13).normal(0, 0.05, x.size))  # through the origin
+    band = engine.detection_limits(engine.Calibration(x, y, weights="1/y^2"), 1)[0]
+    assert band.note.startswith("weights '1/y^2' take a reading's variance from the fitted response, which at "
+                                "x = 0 (")
+    assert band.note.endswith(") does not differ significantly from zero, so the prediction band has no reading "
+                              "scatter at the blank and no band-based limit exists; use a variance model with a "
+                              "blank term (weights as a range, such as 1/(c + x)^2) or give blank readings")
