@@ -10,7 +10,7 @@ import pytest
 
 import degreewise
 from degreewise.cli import main
-from degreewise.demo import GRID, LAYOUT, samples_anchor
+from degreewise.demo import GRID, LAYOUT, limits_anchors, samples_anchor
 from degreewise.refresh import refresh_file
 from degreewise.scenarios import all_scenarios
 
@@ -62,6 +62,14 @@ def test_cached_values_equal_a_fresh_computation(name):
         assert [r[0] for r in readings] == list(sc.samples)
         expected["inverse"] = degreewise.calib_inverse(xs, ys, readings, None, order, None, w)
         anchors["inverse"] = ws[samples_anchor(n)].offset(0, 1).coordinate
+    blank_at, anchors["limits"], anchors["weighting"] = limits_anchors(sc)
+    blanks = block(ws, blank_at, len(sc.blanks), 1) or None
+    assert [r[0] for r in blanks or []] == list(sc.blanks)
+    expected["limits"] = degreewise.calib_limits(xs, ys, blanks, None, order, None, w)
+    if sc.weights:
+        expected["weighting"] = degreewise.calib_weighting(xs, ys)
+    else:
+        assert ws[anchors["weighting"]].value is None
     for key, table in expected.items():
         width = max(len(r) for r in table)
         got = block(ws, anchors[key], len(table), width)
@@ -131,7 +139,9 @@ def test_calibration_sheets_print_on_a_few_pages():
         assert ws.page_setup.fitToHeight == 0 and ws.sheet_properties.pageSetUpPr.fitToPage
         assert ws.print_title_rows == "$1:$1"
         assert ws.print_area.startswith("'%s'!$A$1:$O$" % name.capitalize())
-        assert [b.id for b in ws.row_breaks.brk] == [ws[LAYOUT["checks"]].row - 1, ws[LAYOUT["residuals"]].row - 2]
+        limits = ws[limits_anchors(SCENARIOS[name])[1]].row
+        assert [b.id for b in ws.row_breaks.brk] == [ws[LAYOUT["checks"]].row - 1, ws[LAYOUT["residuals"]].row - 2,
+                                                     limits - 2]
 
 
 def cached_values(path):
@@ -166,6 +176,13 @@ def test_demo_command_writes_refreshed_workbooks(tmp_path, capsys):
         assert f"  report: {report}" in out and report.read_bytes().startswith(b"%PDF-")
     p_values = re.findall(r"lack-of-fit p (\S+)", out)
     assert len(p_values) == 3 and all(re.fullmatch(r"0\.\d{3}", p) for p in p_values)
+    # limits on every sheet, blank readings where the scenario has them, the weighting picked on the weighted one
+    assert out.count("  limits in x (estimates from one calibration, to be confirmed with samples near the "
+                     "limit):") == 3
+    assert len(re.findall(r"^    prediction band   decision \S+, detection \S+, quantitation \S+$", out, re.M)) == 2
+    assert len(re.findall(r"^    blank readings    decision \S+, detection \S+, quantitation \S+$", out, re.M)) == 2
+    assert "    prediction band   none: weights '1/x^2' give a new reading at x = 0 zero variance" in out
+    assert len(re.findall(r"^  weighting \S+ picked \(at order 1\): ", out, re.M)) == 1
 
 
 def test_validate_command(capsys):

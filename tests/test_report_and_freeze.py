@@ -90,7 +90,9 @@ def test_report_shows_what_the_functions_return(reports, name, paper):
 def test_report_pages_render_none_blank_nothing_beyond_the_margins(reports, name, paper, tmp_path):
     pdf = reports[name, paper]
     pages = page_count(pdf)
-    assert pages == 3  # front matter and charts, tables, back-calculated standards and samples
+    # front matter and charts, tables, back-calculated standards and samples; the limits and (weighted) the
+    # weighting schemes push the tables onto a fourth page on some papers
+    assert pages == {("curved", "a4"): 3, ("straight", "a4"): 3}.get((name, paper), 4)
     subprocess.run(["pdftoppm", "-r", "30", "-png", str(pdf), str(tmp_path / "p")], check=True)
     assert len(list(tmp_path.glob("p-*.png"))) == pages
     for page in range(1, pages + 1):
@@ -154,7 +156,8 @@ def test_freeze_keeps_values_and_every_other_part(name, tmp_path):
     formula_parts = sheet_parts_with_calib(book)
     out = tmp_path / "frozen.xlsx"
     report = freeze(book, out)
-    assert report.error is None and len(report.refreshed) == 12
+    # the tables, labels, limits and, on the weighted sheet, the weighting comparison
+    assert report.error is None and len(report.refreshed) == (14 if SCENARIOS[name].weights else 13)
     with zipfile.ZipFile(book) as a, zipfile.ZipFile(out) as b:
         assert a.namelist() == b.namelist()
         for n in a.namelist():

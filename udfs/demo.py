@@ -9,7 +9,10 @@ residuals against x, or the deviation % of the back-calculated x for a
 weighted fit), so they follow a refresh. Header cells are styled before the
 refresh fills them, texts wrap, and each sheet prints as its calibration on a
 few landscape pages. The weighted scenario adds unknown samples read back with
-CALIB_INVERSE. A first sheet states the scenario and the cautions.
+CALIB_INVERSE. Below them, on a page of its own, every sheet states its
+detection and quantitation limits (CALIB_LIMITS, with blank readings where the
+scenario has them), and the weighted one compares weighting schemes
+(CALIB_WEIGHTING). A first sheet states the scenario and the cautions.
 """
 
 from __future__ import annotations
@@ -94,6 +97,16 @@ def samples_anchor(n: int) -> str:
     return _cell(LAYOUT["residuals"], n + 2)
 
 
+def limits_anchors(sc: Scenario) -> tuple[str, str, str]:
+    """The first blank reading (column A, its header beside the limits' header), the CALIB_LIMITS anchor and the
+    CALIB_WEIGHTING anchor: three rows below the last block above them, each table ending in the wide column O
+    with its notes."""
+    n = len(sc.x)
+    last = _cell(samples_anchor(n), len(sc.samples) - 1) if sc.samples else _cell(LAYOUT["residuals"], n - 1)
+    row = range_boundaries(last)[1] + 4
+    return f"A{row + 1}", f"J{row}", f"I{row + 8}"
+
+
 def calibration_sheet(wb: Workbook, sc: Scenario):
     ws = wb.create_sheet(sc.name.capitalize())
     n = len(sc.x)
@@ -139,6 +152,23 @@ def calibration_sheet(wb: Workbook, sc: Scenario):
         ws[inverse] = _formula("CALIB_INVERSE", x, y, readings, "", order, "", w)
         headers.append(_span(_cell(at, -1), 1, 5))
         last = _cell(inverse, len(sc.samples) - 1, 3)
+    blank_at, limits_at, weighting_at = limits_anchors(sc)
+    blank = ""
+    if sc.blanks:
+        ws[_cell(blank_at, -1)] = "blank reading"
+        for i, v in enumerate(sc.blanks):
+            ws[_cell(blank_at, i)] = v
+        blank = f"$A${ws[blank_at].row}:$A${ws[blank_at].row + len(sc.blanks) - 1}"
+        headers.append(_span(_cell(blank_at, -1), 1, 1))
+    ws[limits_at] = _formula("CALIB_LIMITS", x, y, blank, "", order, "", w)
+    headers.append(_span(limits_at, 1, 6))
+    _wrap(ws, _span(_cell(limits_at, 1), 6, 6))
+    last = _cell(limits_at, 6, 5)
+    if sc.weights:
+        ws[weighting_at] = _formula("CALIB_WEIGHTING", x, y)
+        headers.append(_span(weighting_at, 1, 7))
+        _wrap(ws, _span(_cell(weighting_at, 1), 6, 7))
+        last = _cell(weighting_at, 6, 6)
     for h in headers:
         _header(ws, h)
     _wrap(ws, _span(_cell(LAYOUT["orders"], 1, 11), 4, 1))   # picked by
@@ -150,7 +180,8 @@ def calibration_sheet(wb: Workbook, sc: Scenario):
     for col in range(first.column, first.column + 7):
         ws.column_dimensions[get_column_letter(col)].width = NUMBER_WIDTH
     _row_heights(ws, sc)
-    _page_setup(ws, f"A1:O{ws[last].row}", (ws[LAYOUT["checks"]].row - 1, ws[residuals].row - 2))
+    _page_setup(ws, f"A1:O{ws[last].row}",
+                (ws[LAYOUT["checks"]].row - 1, ws[residuals].row - 2, ws[limits_at].row - 2))
     _charts(ws, sc, n)
     return ws
 
@@ -173,6 +204,11 @@ def _row_heights(ws, sc: Scenario) -> None:
               (_cell(LAYOUT["residuals"], -1), [HEADERS["residuals"]]), ("A1", [(sc.x_label, sc.y_label)])]
     if sc.samples:
         blocks.append((_cell(samples_anchor(len(sc.x)), -1), [("sample reading",) + HEADERS["inverse"]]))
+    _, limits_at, weighting_at = limits_anchors(sc)
+    blanks = [[v] for v in sc.blanks] or None
+    blocks.append((limits_at, functions.calib_limits(x, y, blanks, None, order, None, sc.weights)))
+    if sc.weights:
+        blocks.append((weighting_at, functions.calib_weighting(x, y)))
     need: dict[int, int] = {}
     for anchor, rows in blocks:
         col0, row0, _, _ = range_boundaries(anchor)

@@ -238,6 +238,8 @@ def _tables(s: Section, st: _Styles, width: float) -> list:
     add("Checks of the curve", checks, wrap=(4,))
     if "limits" in t:
         add("Detection and quantitation limits", t["limits"], wrap=(5,))
+    if "weighting" in t:
+        add("Weighting schemes compared", t["weighting"], wrap=(6,))
     res = t["residuals"]
     if _message(res):
         add("Back-calculated standards", res)

@@ -73,6 +73,8 @@ class Section:
     tables: dict = field(default_factory=dict)
     log_x: bool = False  # the standards span more than two decades, or the fit is weighted: log x axes
     readbacks: list = field(default_factory=list)  # (reading range, readings, rows of CALIB_INVERSE)
+    limits_args: dict = field(default_factory=dict)  # blank and replicates of the workbook's CALIB_LIMITS
+    weighting: bool = False  # the workbook compares weighting schemes for these standards (CALIB_WEIGHTING)
 
     @property
     def order(self):
@@ -146,11 +148,15 @@ class Book:
 
     def sections(self) -> list[Section]:
         found: dict[tuple, Section] = {}
+        compared = set()  # (x, y) of CALIB_WEIGHTING formulas: they belong to the calibrations of those standards
         for f in self.refresher.formulas:
             if f.call is None or f.call.name not in CALLABLE:
                 continue
             args = dict(zip(_parameters(f.call.name), f.call.args))
             if not isinstance(args.get("x"), Area) or not isinstance(args.get("y"), Area):
+                continue
+            if f.call.name == "CALIB_WEIGHTING":
+                compared.add((args["x"], args["y"]))
                 continue
             key = tuple(args.get(name) for name in STANDARDS)
             s = found.get(key)
@@ -163,8 +169,11 @@ class Book:
                     s.settings.setdefault(name, args[name])
             if f.call.name == "CALIB_INVERSE" and isinstance(args.get("reading"), Area):
                 s.readbacks.append((args["reading"], f))
+            if f.call.name == "CALIB_LIMITS":
+                s.limits_args = {n: args[n] for n in ("blank", "replicates") if args.get(n) is not None}
         out = list(found.values())
         for s in out:
+            s.weighting = (s.args["x"], s.args["y"]) in compared
             self._compute(s)
         return out
 
@@ -182,7 +191,10 @@ class Book:
         t["checks"] = self.call("checks", s.sheet, alpha=st.get("alpha"), **one)
         t["residuals"] = self.call("residuals", s.sheet, **one)
         if hasattr(functions, "calib_limits"):
-            t["limits"] = self.call("limits", s.sheet, alpha=st.get("alpha"), **one)
+            t["limits"] = self.call("limits", s.sheet, alpha=st.get("alpha"), **s.limits_args, **one)
+        if s.weighting:
+            t["weighting"] = self.call("weighting", s.sheet, x=std["x"], y=std["y"], order=st.get("order"),
+                                       alpha=st.get("alpha"))
         xs = [v for v in s.x if isinstance(v, (int, float)) and not isinstance(v, bool)]
         if xs:
             lo, hi = min(xs), max(xs)
@@ -218,5 +230,19 @@ def summary(s: Section) -> list[str]:
     lof = s.stat("lack-of-fit p")
     lines.append(f"  residual SD {number(s.stat('residual SD'))}, R² {number(s.stat('R²'), 8)}, "
                  f"lack-of-fit p {p_text(lof) if lof is not None else 'n/a (no replicates)'}")
+    limits = s.tables.get("limits")
+    if isinstance(limits, list) and len(limits) > 1:
+        lines.append("  limits in x (estimates from one calibration, to be confirmed with samples near the limit):")
+        for method, _, *values, note in limits[1:]:
+            if method == "caution":
+                continue
+            given = [f"{name} {number(v, 4)}" for name, v in zip(("decision", "detection", "quantitation"), values)
+                     if v is not None]
+            lines.append(f"    {method:<17} " + (", ".join(given) if given else f"none: {note}"))
+    weighting = s.tables.get("weighting")
+    if isinstance(weighting, list):
+        for scheme, order, *_, picked, note in weighting[1:]:
+            if picked:
+                lines.append(f"  weighting {scheme} picked (at order {order}): {note.removeprefix('picked: ')}")
     return lines
 
