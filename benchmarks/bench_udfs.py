@@ -1,6 +1,7 @@
 """Worksheet functions with ranges shaped as the runtimes deliver them: a cache-hit call, one calibration's
 whole family cold (against a statsmodels pipeline doing the same work), at 24 and 1000 rows; and one call on
-whole-column references (1,048,576 rows, nearly all blank).
+whole-column references (1,048,576 rows, nearly all blank). CALIB_LIMITS and CALIB_WEIGHTING cold (24 rows,
+desktop shape) as ratios to that family: no outside library does their work.
 
 Shapes: "flat" is what xlwings hands over for an n x 1 range when the argument declares no ``ndim`` (a list
 of values); "desktop 2-D" is what it hands over for ``ndim=2`` (a list of one-cell rows of floats);
@@ -138,6 +139,11 @@ def main():
                                             (x, y, new_x, readings), rounds=30 if rows == 24 else 8)
             print(f"{rows:>5} {shape:<12} {hit * 1e6:>15.1f} {ours * 1e3:>17.3f} {ref * 1e3:>17.3f}  "
                   f"{ratio_words(ratio)}")
+            if rows == 24 and shape == "desktop 2-D":  # no outside library does their work: ratios to the family
+                for name, f in (("CALIB_LIMITS", degreewise.calib_limits),
+                                ("CALIB_WEIGHTING", degreewise.calib_weighting)):
+                    mine = median_time(lambda: (clear_caches(), f(cells[0], cells[1])), repeat=100)
+                    print(f"      {name} cold {mine * 1e3:.3f} ms (median; {mine / ours:.2f} x the family cold)")
 
     x, y, _, _ = workloads.typical()
     xs, ys = whole_column(x), whole_column(y)
