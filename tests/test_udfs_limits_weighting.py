@@ -135,3 +135,18 @@ def test_readme_worked_example():
         degreewise.calib_limits(x, y)[2][5]
     weighting = degreewise.calib_weighting(x, y)
     assert weighting[1][0] == "none" and weighting[1][5] == "picked" and round(weighting[1][4], 2) == 0.11
+
+
+def test_an_excluded_standard_takes_no_part_in_limits_or_weighting():
+    rng = np.random.default_rng(41)
+    x = np.repeat([1.0, 2.0, 5.0, 10.0, 20.0, 50.0], 3)
+    y = 0.2 + 1.8 * x * (1 + rng.normal(0, 0.05, x.size))
+    y[4] *= 1.5  # a spoiled injection
+    exclude = [[None]] * x.size
+    exclude[4] = ["air bubble"]
+    kept = np.delete(np.arange(x.size), 4)
+    col = lambda v: [[float(u)] for u in v]  # noqa: E731
+    limits = degreewise.calib_limits(col(x), col(y), None, None, None, None, "1/x", exclude)
+    assert limits == degreewise.calib_limits(col(x[kept]), col(y[kept]), None, None, None, None, "1/x")
+    weighting = degreewise.calib_weighting(col(x), col(y), None, None, exclude)
+    assert weighting == degreewise.calib_weighting(col(x[kept]), col(y[kept]))
