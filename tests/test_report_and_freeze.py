@@ -227,26 +227,12 @@ def test_libreoffice_shows_the_frozen_numbers(tmp_path):
 
 
 @needs_poppler
-def test_limits_appear_when_the_functions_provide_them(tmp_path, monkeypatch):
-    """The report shows the limits table only when the add-in has CALIB_LIMITS (a stand-in here, with the
-    columns the design fixes), evaluated with the calibration's order, alpha and weights."""
-    from degreewise import functions, refresh
-
-    seen = []
-
-    def calib_limits(x, y, blank=None, replicates=None, order=None, alpha=None, weights=None, exclude=None):
-        seen.append((order, alpha, weights))
-        return [["method", "critical response", "decision limit", "detection limit", "quantitation limit", "note"],
-                ["stand-in method", 0.125, 0.25, 0.5, 1.5, "a row of the stand-in"]]
-
+def test_limits_and_weighting_appear_with_the_workbooks_blank_readings(tmp_path):
+    """The report shows CALIB_LIMITS evaluated with the blank readings the workbook's formula gives, and the
+    weighting comparison where the workbook has CALIB_WEIGHTING (the weighted demo)."""
     book = FOLDER / "degreewise-demo-weighted.xlsx"
-    before = words(pdf_text(write_report(book, tmp_path / "before.pdf")[0]))
-    assert not hasattr(functions, "calib_limits") or "CALIB_LIMITS" in refresh.CALLABLE
-    if "Detection and quantitation limits" in before:  # the real function is there: nothing to stand in for
-        return
-    monkeypatch.setattr(functions, "calib_limits", calib_limits, raising=False)
-    monkeypatch.setitem(refresh.CALLABLE, "CALIB_LIMITS", calib_limits)
-    text = words(pdf_text(write_report(book, tmp_path / "after.pdf")[0]))
-    assert "Detection and quantitation limits" in text
-    assert "stand-in method 0.125 0.25 0.5 1.5 a row of the stand-in" in text
-    assert seen == [(1.0, None, "1/x^2")]  # the order from the sheet's CALIB_ORDER cell, default alpha
+    text = words(pdf_text(write_report(book, tmp_path / "report.pdf")[0]))
+    assert "Detection and quantitation limits" in text and "Weighting schemes compared" in text
+    assert "DIN 32645 blank method; 6 readings" in text
+    straight = words(pdf_text(write_report(FOLDER / "degreewise-demo-straight.xlsx", tmp_path / "s.pdf")[0]))
+    assert "Detection and quantitation limits" in straight and "Weighting schemes compared" not in straight

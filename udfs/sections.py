@@ -16,7 +16,7 @@ import inspect
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from . import engine, functions
+from . import engine
 from .formula import Area, Call, column_letters
 from .package import read_package
 from .refresh import CALLABLE, Refresher, Report
@@ -148,15 +148,15 @@ class Book:
 
     def sections(self) -> list[Section]:
         found: dict[tuple, Section] = {}
-        compared = set()  # (x, y) of CALIB_WEIGHTING formulas: they belong to the calibrations of those standards
+        compared = set()  # x, y, exclude of CALIB_WEIGHTING formulas: they join the calibrations of those standards
         for f in self.refresher.formulas:
             if f.call is None or f.call.name not in CALLABLE:
                 continue
             args = dict(zip(_parameters(f.call.name), f.call.args))
             if not isinstance(args.get("x"), Area) or not isinstance(args.get("y"), Area):
                 continue
-            if f.call.name == "CALIB_WEIGHTING":
-                compared.add((args["x"], args["y"]))
+            if f.call.name == "CALIB_WEIGHTING":  # it takes no weights: it compares them
+                compared.add((args["x"], args["y"], args.get("exclude")))
                 continue
             key = tuple(args.get(name) for name in STANDARDS)
             s = found.get(key)
@@ -173,7 +173,7 @@ class Book:
                 s.limits_args = {n: args[n] for n in ("blank", "replicates") if args.get(n) is not None}
         out = list(found.values())
         for s in out:
-            s.weighting = (s.args["x"], s.args["y"]) in compared
+            s.weighting = (s.args["x"], s.args["y"], s.args.get("exclude")) in compared
             self._compute(s)
         return out
 
@@ -190,11 +190,10 @@ class Book:
         t["stats"] = self.call("stats", s.sheet, **one)
         t["checks"] = self.call("checks", s.sheet, alpha=st.get("alpha"), **one)
         t["residuals"] = self.call("residuals", s.sheet, **one)
-        if hasattr(functions, "calib_limits"):
-            t["limits"] = self.call("limits", s.sheet, alpha=st.get("alpha"), **s.limits_args, **one)
+        t["limits"] = self.call("limits", s.sheet, alpha=st.get("alpha"), **s.limits_args, **one)
         if s.weighting:
             t["weighting"] = self.call("weighting", s.sheet, x=std["x"], y=std["y"], order=st.get("order"),
-                                       alpha=st.get("alpha"))
+                                       alpha=st.get("alpha"), exclude=std.get("exclude"))
         xs = [v for v in s.x if isinstance(v, (int, float)) and not isinstance(v, bool)]
         if xs:
             lo, hi = min(xs), max(xs)
