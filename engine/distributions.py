@@ -39,3 +39,8 @@ def beta_cdf(x, a, b):
 def log_binomial(n, k):
     """ln C(n, k) (0 <= k <= n), through the log-gamma function."""
     return special.gammaln(n + 1.0) - special.gammaln(k + 1.0) - special.gammaln(n - k + 1.0)
+
+
+def chi2_sf(x, df):
+    """P(X > x) for the chi-square distribution with df degrees of freedom."""
+    return special.chdtrc(df, x)

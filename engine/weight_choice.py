@@ -3,10 +3,13 @@
 Each scheme (none, 1/x, 1/x^2, 1/y, 1/y^2) is fitted at the order the default rule picks under it
 (or at a given order) and judged by the back-calculated deviation % of the standards (sum and
 largest |deviation %|, standards at x = 0 left out) and by the check for a trend in the spread of
-its weighted residuals: Koenker's Breusch-Pagan test (``diagnostics.breusch_pagan``) of the squared
-weighted residuals against log x (against x when some x <= 0), since a spread that follows a power
-of x is linear in log x (the multiplicative model of Harvey, Econometrica 44 (1976) 461-465,
-recalled from memory).
+its weighted residuals e: Harvey's test of multiplicative heteroscedasticity (Harvey, Econometrica 44
+(1976) 461-465; recalled from memory): regress log e_i^2 on 1 and log x (x itself when some x <= 0);
+under a constant spread with normal errors log e_i^2 = log sigma^2 + log chi2_1, whose variance is
+pi^2 / 2, so the explained sum of squares over pi^2 / 2 is chi-square with 1 df. A spread that
+follows a power of x (SD = c x^b) is linear in log x here, which is what weighting schemes assume;
+the test has far more power against it than Breusch-Pagan's test of e^2, whose heavy tails hide a
+spread growing over decades of x. Residuals that are exactly zero carry no spread and are left out.
 
 The pick follows Almeida, Castel-Branco & Falcao, J. Chromatogr. B 774 (2002) 215-222 (recalled
 from memory): no weights when the unweighted residuals show no trend in spread; otherwise, among
@@ -29,8 +32,8 @@ import numpy as np
 from scipy import special
 
 from .calibration import Calibration, _vector
-from .diagnostics import breusch_pagan, point_diagnostics
-from .distributions import t_quantile
+from .diagnostics import point_diagnostics
+from .distributions import chi2_sf, t_quantile
 from .errors import WeightError
 from .results import SchemeResult, SpreadExponent
 from .selection import check_alpha, choose_order, fmt_p
@@ -84,11 +87,19 @@ def _judge(x, y, scheme: str, weights, order, note: str = "") -> SchemeResult:
         total, largest = float(np.abs(dev).sum()), float(np.abs(dev).max(initial=0.0))
     if (cal.x == 0).any():
         words.append("deviation % leaves out the standards at x = 0")
-    e = cal.scaled_residuals(k)
-    if e.any():  # the test is scale-free: a largest |e| in [0.5, 1) keeps its squares in range
-        e = np.ldexp(e, -math.frexp(float(np.abs(e).max()))[1])
-    _, p = breusch_pagan(e, np.log(cal.x) if (cal.x > 0).all() else cal.z, 1)
+    p = harvey_p(cal.scaled_residuals(k), np.log(cal.x) if (cal.x > 0).all() else cal.z)
     return SchemeResult(scheme, k, total, largest, p, False, "; ".join(w for w in words if w))
+
+
+def harvey_p(e: np.ndarray, u: np.ndarray) -> float:
+    """p-value of Harvey's test (module docstring): ESS of log e^2 on [1, u], over pi^2 / 2, against chi2(1)."""
+    keep = e != 0
+    if np.unique(u[keep]).size < 2:
+        return math.nan
+    log_e2 = 2.0 * np.log(np.abs(e[keep]))  # scale-free: a common factor of e only shifts the intercept
+    uc = u[keep] - u[keep].mean()
+    ess = float((uc @ (log_e2 - log_e2.mean())) ** 2 / (uc @ uc))
+    return float(chi2_sf(ess / (math.pi**2 / 2), 1))
 
 
 def _not_applied(scheme: str, note: str, why: str) -> SchemeResult:

@@ -134,7 +134,7 @@ def test_readme_worked_example():
     assert "delta = 3.543 from the non-central t (10 df; the approximation 2t would give 3.6249)" in \
         degreewise.calib_limits(x, y)[2][5]
     weighting = degreewise.calib_weighting(x, y)
-    assert weighting[1][0] == "none" and weighting[1][5] == "picked" and round(weighting[1][4], 2) == 0.11
+    assert weighting[1][0] == "none" and weighting[1][5] == "picked" and round(weighting[1][4], 2) == 0.73
 
 
 def test_an_excluded_standard_takes_no_part_in_limits_or_weighting():

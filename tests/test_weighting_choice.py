@@ -12,7 +12,6 @@ import numpy as np
 import pytest
 import statsmodels.api as sm
 from scipy import special, stats
-from statsmodels.stats.diagnostic import het_breuschpagan
 
 from degreewise import engine
 from degreewise.engine.weight_choice import FROM_REPLICATES, SCHEMES
@@ -66,7 +65,7 @@ def test_exponent_interval_covers_the_truth_at_its_nominal_rate():
 def test_picked_scheme_matches_the_variance_structure_in_most_calibrations():
     """A pick matches when its variance power (0 none; 1 for 1/x, 1/y; 2 for 1/x^2, 1/y^2; 2b for 1/x^2b) is
     within 0.5 of the truth; no pick is a miss. 100 seeded calibrations per structure; measured here:
-    constant SD 96 %, SD proportional to sqrt(x) 70 %, constant CV 85 %."""
+    constant SD 97 %, SD proportional to sqrt(x) 62 %, constant CV 92 %."""
     rates, counts = {}, {}
     for b in (0.0, 0.5, 1.0):
         rng = np.random.default_rng(314 + int(10 * b))
@@ -101,8 +100,10 @@ def test_rows_against_statsmodels():
         assert row.order == 1
         assert row.sum_abs_deviation == pytest.approx(np.abs(dev).sum(), rel=1e-9)
         assert row.max_abs_deviation == pytest.approx(np.abs(dev).max(), rel=1e-9)
-        lm, p, _, _ = het_breuschpagan(np.sqrt(w) * fit.resid, exog, robust=True)
-        assert row.spread_p == pytest.approx(p, rel=1e-8)
+        # Harvey (Econometrica 1976, from memory): ESS of log e^2 on [1, log x] over pi^2/2, against chi2(1)
+        aux = sm.OLS(np.log((np.sqrt(w) * fit.resid) ** 2), exog).fit()
+        p = stats.chi2.sf(aux.ess / (np.pi**2 / 2), 1)
+        assert row.spread_p == pytest.approx(p, rel=1e-7)
 
 
 def test_schemes_that_cannot_apply_say_why():
