@@ -45,29 +45,31 @@ def test_cached_values_equal_a_fresh_computation(name):
     xs = [[ws.cell(r, 1).value] for r in range(2, n + 2)]
     ys = [[ws.cell(r, 2).value] for r in range(2, n + 2)]
     w = sc.weights
-    order = degreewise.calib_order(xs, ys, None, None, None, w)
+    e = [[ws.cell(r, 3).value] for r in range(2, n + 2)] if sc.excluded else None
+    assert [(i, r[0]) for i, r in enumerate(e or []) if r[0]] == list(sc.excluded)
+    order = degreewise.calib_order(xs, ys, None, None, None, w, e)
     assert ws[LAYOUT["order"]].value == order == sc.expected_order
     expected = {
-        "orders": degreewise.calib_orders(xs, ys, None, None, w),
-        "seqf": degreewise.calib_seqf(xs, ys, None, w),
-        "coefs": degreewise.calib_coefs(xs, ys, order, None, w),
-        "stats": degreewise.calib_stats(xs, ys, order, w),
-        "checks": degreewise.calib_checks(xs, ys, order, None, w),
-        "residuals": degreewise.calib_residuals(xs, ys, order, w),
-        "predict": degreewise.calib_predict(xs, ys, block(ws, LAYOUT["grid"], GRID, 1), order, None, w),
+        "orders": degreewise.calib_orders(xs, ys, None, None, w, e),
+        "seqf": degreewise.calib_seqf(xs, ys, None, w, e),
+        "coefs": degreewise.calib_coefs(xs, ys, order, None, w, e),
+        "stats": degreewise.calib_stats(xs, ys, order, w, e),
+        "checks": degreewise.calib_checks(xs, ys, order, None, w, e),
+        "residuals": degreewise.calib_residuals(xs, ys, order, w, e),
+        "predict": degreewise.calib_predict(xs, ys, block(ws, LAYOUT["grid"], GRID, 1), order, None, w, e),
     }
     anchors = dict(LAYOUT)
     if sc.samples:
         readings = block(ws, samples_anchor(n), len(sc.samples), 1)
         assert [r[0] for r in readings] == list(sc.samples)
-        expected["inverse"] = degreewise.calib_inverse(xs, ys, readings, None, order, None, w)
+        expected["inverse"] = degreewise.calib_inverse(xs, ys, readings, None, order, None, w, e)
         anchors["inverse"] = ws[samples_anchor(n)].offset(0, 1).coordinate
     blank_at, anchors["limits"], anchors["weighting"] = limits_anchors(sc)
     blanks = block(ws, blank_at, len(sc.blanks), 1) or None
     assert [r[0] for r in blanks or []] == list(sc.blanks)
-    expected["limits"] = degreewise.calib_limits(xs, ys, blanks, None, order, None, w)
+    expected["limits"] = degreewise.calib_limits(xs, ys, blanks, None, order, None, w, e)
     if sc.weights:
-        expected["weighting"] = degreewise.calib_weighting(xs, ys)
+        expected["weighting"] = degreewise.calib_weighting(xs, ys, None, None, e)
     else:
         assert ws[anchors["weighting"]].value is None
     for key, table in expected.items():
@@ -191,3 +193,18 @@ def test_validate_command(capsys):
     assert "PASS: every quantity reaches LRE 12" in out
     for name in ("norris", "pontius", "filip", "wampler1", "wampler2", "wampler3"):
         assert re.search(rf"^{name}\s+minimum LRE (1[2-5]\.\d)$", out, re.M)
+
+
+def test_the_compare_sheet_holds_last_months_standards_and_their_comparison():
+    sc = SCENARIOS["straight"]
+    wb = openpyxl.load_workbook(book("straight"), data_only=True)
+    today, ws = wb.worksheets[1], wb["Compare"]
+    n = len(sc.x)
+    xs = [[today.cell(r, 1).value] for r in range(2, n + 2)]
+    ys = [[today.cell(r, 2).value] for r in range(2, n + 2)]
+    e = [[today.cell(r, 3).value] for r in range(2, n + 2)]
+    ref = [[ws.cell(r, c).value] for r in range(2, len(sc.reference_y) + 2) for c in (1, 2)]
+    at = block(ws, "D2", len(sc.check_levels), 1)
+    want = degreewise.calib_compare(xs, ys, ref[0::2], ref[1::2], at, None, None, None, e)
+    assert [r[0] for r in want[1:4]] == ["same curve", "same shape", "same residual SD"]
+    assert same_numbers(block(ws, "F1", len(want), 9), want)

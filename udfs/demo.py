@@ -37,7 +37,7 @@ GRID = 41  # points of the fine x grid for the fitted curve
 # and the checks; the back-calculated standards and the samples below); the chart data (x grid and
 # prediction spill) sit to the right of the print area.
 LAYOUT = {
-    "order": "E1", "orders": "D3", "seqf": "D9", "coefs": "D19", "stats": "N26", "checks": "K47",
+    "order": "E1", "orders": "D3", "seqf": "D9", "coefs": "D19", "stats": "N26", "checks": "K49",
     "curve_chart": "D26", "residual_chart": "D48", "residuals": "D66", "grid": "Z2", "predict": "AA2",
 }
 WIDTHS = {"A": 17, "B": 17, "C": 2, "D": 22, "K": 16, "N": 14, "O": 50}  # the others: NUMBER_WIDTH
@@ -51,10 +51,11 @@ MARKER = "1F4E79"
 ABOUT_WIDTH = 68  # the About sheet's one column: fits a portrait A4 or Letter page at full size
 
 
-def _args(sc: Scenario, n: int) -> tuple[str, str, str]:
+def _args(sc: Scenario, n: int) -> tuple[str, str, str, str]:
     x, y = f"$A$2:$A${n + 1}", f"$B$2:$B${n + 1}"
     w = f'"{sc.weights}"' if sc.weights else ""
-    return x, y, w
+    e = f"$C$2:$C${n + 1}" if sc.excluded else ""
+    return x, y, w, e
 
 
 def _formula(name: str, *args: str) -> str:
@@ -114,19 +115,23 @@ def calibration_sheet(wb: Workbook, sc: Scenario):
     for i, (a, b) in enumerate(zip(sc.x, sc.y), start=2):
         ws.cell(i, 1, a)
         ws.cell(i, 2, b)
-    x, y, w = _args(sc, n)
+    if sc.excluded:
+        ws["C1"] = "exclude"
+        for i, reason in sc.excluded:
+            ws.cell(i + 2, 3, reason).alignment = WRAP
+    x, y, w, e = _args(sc, n)
     order = "$E$1"
     ws["D1"] = "chosen order"
-    ws[LAYOUT["order"]] = _formula("CALIB_ORDER", x, y, "", "", "", w)
+    ws[LAYOUT["order"]] = _formula("CALIB_ORDER", x, y, "", "", "", w, e)
     ws[LAYOUT["order"]].font = Font(name=FONT, bold=True, size=13)
-    ws[LAYOUT["orders"]] = _formula("CALIB_ORDERS", x, y, "", "", w)
-    ws[LAYOUT["seqf"]] = _formula("CALIB_SEQF", x, y, "", w)
-    ws[LAYOUT["coefs"]] = _formula("CALIB_COEFS", x, y, order, "", w)
-    ws[LAYOUT["stats"]] = _formula("CALIB_STATS", x, y, order, w)
-    ws[LAYOUT["checks"]] = _formula("CALIB_CHECKS", x, y, order, "", w)
+    ws[LAYOUT["orders"]] = _formula("CALIB_ORDERS", x, y, "", "", w, e)
+    ws[LAYOUT["seqf"]] = _formula("CALIB_SEQF", x, y, "", w, e)
+    ws[LAYOUT["coefs"]] = _formula("CALIB_COEFS", x, y, order, "", w, e)
+    ws[LAYOUT["stats"]] = _formula("CALIB_STATS", x, y, order, w, e)
+    ws[LAYOUT["checks"]] = _formula("CALIB_CHECKS", x, y, order, "", w, e)
     residuals = LAYOUT["residuals"]
     ws[_cell(residuals, -1)] = '=CALIB_LABELS("residuals")'
-    ws[residuals] = _formula("CALIB_RESIDUALS", x, y, order, w)
+    ws[residuals] = _formula("CALIB_RESIDUALS", x, y, order, w, e)
     grid_at, predict = LAYOUT["grid"], LAYOUT["predict"]
     ws[_cell(grid_at, -1)] = "x grid"
     lo, hi = min(sc.x), max(sc.x)
@@ -136,9 +141,9 @@ def calibration_sheet(wb: Workbook, sc: Scenario):
         ws.cell(first.row + i, first.column, float(v))
     grid_range = f"${first.column_letter}${first.row}:${first.column_letter}${first.row + GRID - 1}"
     ws[_cell(predict, -1)] = '=CALIB_LABELS("predict")'
-    ws[predict] = _formula("CALIB_PREDICT", x, y, grid_range, order, "", w)
+    ws[predict] = _formula("CALIB_PREDICT", x, y, grid_range, order, "", w, e)
     last = _cell(residuals, n - 1)
-    headers = [_span("A1", 1, 2), _span("D1", 1, 1), _span(LAYOUT["orders"], 1, 12), _span(LAYOUT["seqf"], 1, 6),
+    headers = [_span("A1", 1, 3 if sc.excluded else 2), _span("D1", 1, 1), _span(LAYOUT["orders"], 1, 12), _span(LAYOUT["seqf"], 1, 6),
                _span(LAYOUT["coefs"], 1, 7), _span(LAYOUT["stats"], 1, 2), _span(LAYOUT["checks"], 1, 5),
                _span(_cell(residuals, -1), 1, 8), _span(_cell(grid_at, -1), 1, 1), _span(_cell(predict, -1), 1, 6)]
     if sc.samples:
@@ -149,7 +154,7 @@ def calibration_sheet(wb: Workbook, sc: Scenario):
         inverse = _cell(at, 0, 1)
         ws[_cell(inverse, -1)] = '=CALIB_LABELS("inverse")'
         readings = f"${at[0]}${ws[at].row}:${at[0]}${ws[at].row + len(sc.samples) - 1}"
-        ws[inverse] = _formula("CALIB_INVERSE", x, y, readings, "", order, "", w)
+        ws[inverse] = _formula("CALIB_INVERSE", x, y, readings, "", order, "", w, e)
         headers.append(_span(_cell(at, -1), 1, 5))
         last = _cell(inverse, len(sc.samples) - 1, 3)
     blank_at, limits_at, weighting_at = limits_anchors(sc)
@@ -160,12 +165,12 @@ def calibration_sheet(wb: Workbook, sc: Scenario):
             ws[_cell(blank_at, i)] = v
         blank = f"$A${ws[blank_at].row}:$A${ws[blank_at].row + len(sc.blanks) - 1}"
         headers.append(_span(_cell(blank_at, -1), 1, 1))
-    ws[limits_at] = _formula("CALIB_LIMITS", x, y, blank, "", order, "", w)
+    ws[limits_at] = _formula("CALIB_LIMITS", x, y, blank, "", order, "", w, e)
     headers.append(_span(limits_at, 1, 6))
     _wrap(ws, _span(_cell(limits_at, 1), 6, 6))
     last = _cell(limits_at, 6, 5)
     if sc.weights:
-        ws[weighting_at] = _formula("CALIB_WEIGHTING", x, y)
+        ws[weighting_at] = _formula("CALIB_WEIGHTING", x, y, "", "", e)
         headers.append(_span(weighting_at, 1, 7))
         _wrap(ws, _span(_cell(weighting_at, 1), 6, 7))
         last = _cell(weighting_at, 6, 6)
@@ -177,6 +182,8 @@ def calibration_sheet(wb: Workbook, sc: Scenario):
     for col in range(1, 16):
         letter = get_column_letter(col)
         ws.column_dimensions[letter].width = WIDTHS.get(letter, NUMBER_WIDTH)
+    if sc.excluded:
+        ws.column_dimensions["C"].width = 16
     for col in range(first.column, first.column + 7):
         ws.column_dimensions[get_column_letter(col)].width = NUMBER_WIDTH
     _row_heights(ws, sc)
@@ -197,18 +204,21 @@ def _row_heights(ws, sc: Scenario) -> None:
     from . import functions
 
     x, y = [[v] for v in sc.x], [[v] for v in sc.y]
-    order = functions.calib_order(x, y, None, None, None, sc.weights)
-    blocks = [(LAYOUT["stats"], functions.calib_stats(x, y, order, sc.weights)),
-              (LAYOUT["checks"], functions.calib_checks(x, y, order, None, sc.weights)),
-              (LAYOUT["orders"], functions.calib_orders(x, y, None, None, sc.weights)),
+    e = _exclude_cells(sc)
+    order = functions.calib_order(x, y, None, None, None, sc.weights, e)
+    blocks = [(LAYOUT["stats"], functions.calib_stats(x, y, order, sc.weights, e)),
+              (LAYOUT["checks"], functions.calib_checks(x, y, order, None, sc.weights, e)),
+              (LAYOUT["orders"], functions.calib_orders(x, y, None, None, sc.weights, e)),
               (_cell(LAYOUT["residuals"], -1), [HEADERS["residuals"]]), ("A1", [(sc.x_label, sc.y_label)])]
     if sc.samples:
         blocks.append((_cell(samples_anchor(len(sc.x)), -1), [("sample reading",) + HEADERS["inverse"]]))
     _, limits_at, weighting_at = limits_anchors(sc)
     blanks = [[v] for v in sc.blanks] or None
-    blocks.append((limits_at, functions.calib_limits(x, y, blanks, None, order, None, sc.weights)))
+    blocks.append((limits_at, functions.calib_limits(x, y, blanks, None, order, None, sc.weights, e)))
     if sc.weights:
-        blocks.append((weighting_at, functions.calib_weighting(x, y)))
+        blocks.append((weighting_at, functions.calib_weighting(x, y, None, None, e)))
+    if sc.excluded:
+        blocks.append(("C2", e))
     need: dict[int, int] = {}
     for anchor, rows in blocks:
         col0, row0, _, _ = range_boundaries(anchor)
@@ -220,6 +230,43 @@ def _row_heights(ws, sc: Scenario) -> None:
     for r, lines in need.items():
         if lines > 1:
             ws.row_dimensions[r].height = LINE * lines
+
+
+def _exclude_cells(sc: Scenario):
+    """The exclude column as the functions receive it (None when the scenario excludes nothing)."""
+    if not sc.excluded:
+        return None
+    reasons = dict(sc.excluded)
+    return [[reasons.get(i)] for i in range(len(sc.x))]
+
+
+def compare_sheet(wb: Workbook, sc: Scenario) -> None:
+    """Last month's standards beside today's sheet, and CALIB_COMPARE of today's curve against them."""
+    ws = wb.create_sheet("Compare")
+    today = wb[sc.name.capitalize()]
+    n = len(sc.x)
+    ws["A1"], ws["B1"] = sc.x_label, f"{sc.y_label}, last month"
+    for i, (a, b) in enumerate(zip(sc.x, sc.reference_y), start=2):
+        ws.cell(i, 1, a)
+        ws.cell(i, 2, b)
+    ws["D1"] = "check level"
+    for i, v in enumerate(sc.check_levels, start=2):
+        ws.cell(i, 4, v)
+    x, y, _, e = (f"'{today.title}'!{a}" if a else "" for a in _args(sc, n))
+    ref_x, ref_y = f"$A$2:$A${len(sc.reference_y) + 1}", f"$B$2:$B${len(sc.reference_y) + 1}"
+    at = f"$D$2:$D${len(sc.check_levels) + 1}"
+    ws["F1"] = _formula("CALIB_COMPARE", x, y, ref_x, ref_y, at, "", "", "", e)
+    rows = 5 + 2 + len(sc.check_levels)
+    for h in (_span("A1", 1, 2), _span("D1", 1, 1), _span("F1", 1, 9)):
+        _header(ws, h)
+    _wrap(ws, _span("F2", rows, 9))
+    for letter, width in {"A": 14, "B": 17, "C": 2, "D": 11, "E": 2, "F": 16, "N": 60}.items():
+        ws.column_dimensions[letter].width = width
+    for col in range(7, 14):
+        ws.column_dimensions[get_column_letter(col)].width = NUMBER_WIDTH
+    for r in range(2, rows + 2):
+        ws.row_dimensions[r].height = LINE * 3
+    _page_setup(ws, f"A1:N{rows + 1}", ())
 
 
 def _page_setup(ws, area: str, breaks: tuple[int, ...]) -> None:
@@ -330,6 +377,8 @@ def build(sc: Scenario, path: Path) -> Path:
     wb = Workbook()
     about_sheet(wb, sc)
     calibration_sheet(wb, sc)
+    if sc.reference_y:
+        compare_sheet(wb, sc)
     wb.save(path)
     return path
 

@@ -24,6 +24,9 @@ class Scenario:
     story: str
     samples: tuple[float, ...] = ()
     blanks: tuple[float, ...] = ()  # readings of blank samples, for the blank method of CALIB_LIMITS
+    excluded: tuple[tuple[int, str], ...] = ()  # (position in x, reason): standards kept on the record only
+    reference_y: tuple[float, ...] = ()  # the same standards' responses in an earlier calibration
+    check_levels: tuple[float, ...] = ()  # x where today's curve is compared with the earlier one
 
 
 def _round(values, digits):
@@ -45,17 +48,23 @@ def curved_detector() -> Scenario:
 
 
 def straight_probe() -> Scenario:
-    """A nearly linear probe: 6 levels x 2 replicates; higher terms are not justified."""
+    """A nearly linear probe: 6 levels x 2 replicates; higher terms are not justified. A third injection at
+    25 mg/L had an air bubble: it stays on the sheet, excluded with its reason. Last month's calibration of
+    the same probe, at the same levels, is the reference for today's."""
     rng = np.random.default_rng(7351)
     levels = np.array([0.0, 10.0, 25.0, 50.0, 75.0, 100.0])
     x = np.repeat(levels, 2)
     y = 0.0042 + 0.019830 * x + rng.normal(0.0, 0.0035, x.size)
+    earlier = 0.0051 + 0.019720 * x + np.random.default_rng(7353).normal(0.0, 0.0035, x.size)
     return Scenario(
         "straight", "Probe reading against ion standard M", "ion M (mg/L)", "probe signal (V)",
-        _round(x, 3), _round(y, 5), None, 1,
-        "R-squared creeps up with every added term, but no term beyond x is significant.",
+        _round(x, 3) + (25.0,), _round(y, 5) + (0.40210,), None, 1,
+        "R-squared creeps up with every added term, but no term beyond x is significant. One injection is "
+        "excluded with its reason, and today's curve is compared with last month's.",
         samples=_round([0.25, 0.9, 1.65], 4),
         blanks=_round(0.0042 + np.random.default_rng(7352).normal(0.0, 0.0035, 6), 5),
+        excluded=((12, "air bubble, inj. 3"),),
+        reference_y=_round(earlier, 5), check_levels=(10.0, 50.0, 90.0),
     )
 
 

@@ -75,6 +75,7 @@ class Section:
     readbacks: list = field(default_factory=list)  # (reading range, readings, rows of CALIB_INVERSE)
     limits_args: dict = field(default_factory=dict)  # blank and replicates of the workbook's CALIB_LIMITS
     weighting: bool = False  # the workbook compares weighting schemes for these standards (CALIB_WEIGHTING)
+    comparisons: list = field(default_factory=list)  # (where, rows of CALIB_COMPARE) against earlier calibrations
 
     @property
     def order(self):
@@ -169,6 +170,8 @@ class Book:
                     s.settings.setdefault(name, args[name])
             if f.call.name == "CALIB_INVERSE" and isinstance(args.get("reading"), Area):
                 s.readbacks.append((args["reading"], f))
+            if f.call.name == "CALIB_COMPARE":
+                s.comparisons.append(f)
             if f.call.name == "CALIB_LIMITS":
                 s.limits_args = {n: args[n] for n in ("blank", "replicates") if args.get(n) is not None}
         out = list(found.values())
@@ -205,6 +208,7 @@ class Book:
             t["grid"] = grid
             t["predict"] = self.call("predict", s.sheet, new_x=[[g] for g in grid], level=st.get("level"), **one)
         s.readbacks = [(area, self.cells(area), self.refresher._evaluate(f.call, f.sheet)) for area, f in s.readbacks]
+        s.comparisons = [(f.where, self.refresher._evaluate(f.call, f.sheet)) for f in s.comparisons]
 
 
 def sections(path: Path) -> tuple[list[Section], Report]:
@@ -222,6 +226,10 @@ def summary(s: Section) -> list[str]:
                      f"from {number(min(xs))} to {number(max(xs))}; y: {s.y_label or 'y'}")
     lines.append("  settings: " + "; ".join(f"{k} {v}" for k, v in s.setting_rows()))
     lines.append(f"  chosen order {number(s.order)}: {s.stat('why this order')}")
+    stats = s.tables["stats"]
+    for label, value in stats[1:] if isinstance(stats, list) else ():
+        if label == "excluded standard":
+            lines.append(f"  excluded: {value}")
     coefs = s.tables["coefs"]
     if isinstance(coefs, list) and len(coefs) > 1:
         for term, b, se, *_ in coefs[1:]:
@@ -238,6 +246,11 @@ def summary(s: Section) -> list[str]:
             given = [f"{name} {number(v, 4)}" for name, v in zip(("decision", "detection", "quantitation"), values)
                      if v is not None]
             lines.append(f"    {method:<17} " + (", ".join(given) if given else f"none: {note}"))
+    for where, rows in s.comparisons:
+        if isinstance(rows, list) and len(rows) > 3:
+            lines.append(f"  compared with an earlier calibration ({where}):")
+            for item, *_, p, verdict, detail in rows[1:4]:
+                lines.append(f"    {item:<17} {verdict} (p {p_text(p)}): {detail.split('; ')[0]}")
     weighting = s.tables.get("weighting")
     if isinstance(weighting, list):
         for scheme, order, *_, picked, note in weighting[1:]:
