@@ -240,3 +240,12 @@ def test_limits_and_weighting_appear_with_the_workbooks_blank_readings(tmp_path)
     assert "DIN 32645 blank method; 6 readings" in text
     straight = words(pdf_text(write_report(FOLDER / "degreewise-demo-straight.xlsx", tmp_path / "s.pdf")[0]))
     assert "Detection and quantitation limits" in straight and "Weighting schemes compared" not in straight
+
+
+@needs_poppler
+def test_report_shows_the_comparison_with_an_earlier_calibration(reports):
+    text = words(pdf_text(reports["straight", "a4"]))
+    wb = openpyxl.load_workbook(FOLDER / "degreewise-demo-straight.xlsx", data_only=True)
+    same_curve = [c.value for c in wb["Compare"][2]][5:13]  # F2:M2, as the refresh stored them
+    assert "Compared with an earlier calibration (Compare!F1)" in text
+    assert f"same curve {number(same_curve[6])} {same_curve[7]} F = " in text

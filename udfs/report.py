@@ -240,6 +240,10 @@ def _tables(s: Section, st: _Styles, width: float) -> list:
         add("Detection and quantitation limits", t["limits"], wrap=(5,))
     if "weighting" in t:
         add("Weighting schemes compared", t["weighting"], wrap=(6,))
+    for where_, rows in s.comparisons:
+        if not _message(rows):
+            rows = [r for r in rows if r[0] != "caution"]
+        add(f"Compared with an earlier calibration ({where_})", rows, wrap=(8,))
     res = t["residuals"]
     if _message(res):
         add("Back-calculated standards", res)
