@@ -17,6 +17,7 @@ from __future__ import annotations
 import functools
 import math
 import operator
+from functools import cached_property
 
 import numpy as np
 
@@ -26,7 +27,7 @@ from .errors import DataError, OrderError
 from .lazy import lazy
 from .polynomials import power_rows
 from .refine import conversion_matrix, refine
-from .results import FTest, LackOfFit, OrderFit, OrderStats, SequentialRow, SequentialTable
+from .results import FTest, Influence, LackOfFit, OrderChoice, OrderFit, OrderStats, SequentialRow, SequentialTable
 from .weighting import Weighting, weight_order
 
 DEFAULT_MAX_ORDER = 4
@@ -68,6 +69,14 @@ def _whole(value, name: str) -> int:
         else:
             raise OrderError(f"{name} must be a whole number, not {value!r}", argument=name) from None
     return k
+
+
+def _ldexp(value: float, e: int) -> float:
+    """value * 2**e; inf (with the sign of value) where that is beyond the double range."""
+    try:
+        return math.ldexp(value, e)
+    except OverflowError:
+        return math.copysign(math.inf, value)
 
 
 def householder_qr(a: np.ndarray):
@@ -223,7 +232,8 @@ class Calibration:
         self._t = conversion_matrix(self.centre, self.half_width, k)
         self._stats: dict[int, OrderStats] = {}
         self._cov: dict[int, np.ndarray] = {}
-        self._fits: dict[int, OrderFit] = {}
+        self._orders: dict[int, OrderResults] = {}
+        self._choices: dict[tuple[str, float], OrderChoice] = {}
 
     def _fitted_under(self, basis: np.ndarray, w: np.ndarray) -> np.ndarray:
         """Fitted y of the standards on ``basis`` under weights w (one QR; for ``Weighting.settle``)."""
@@ -256,6 +266,23 @@ class Calibration:
             )
         return k
 
+    def order(self, order) -> OrderResults:
+        """The results of ``order`` (0 .. max_order), made once: see ``OrderResults``."""
+        k = self.resolve_order(order)
+        if k not in self._orders:
+            self._orders[k] = OrderResults(self, k)
+        return self._orders[k]
+
+    def choice(self, rule: str, alpha: float) -> OrderChoice:
+        """The order ``rule`` picks at ``alpha``, with the reason in words (``selection``), made once per
+        rule and alpha."""
+        from . import selection  # the rules read this calibration's statistics
+
+        key = selection.check_rule(rule), selection.check_alpha(alpha)
+        if key not in self._choices:
+            self._choices[key] = selection.choose(self, *key)
+        return self._choices[key]
+
     # -- scaled-basis pieces used by the other modules --------------------------------------
 
     def scaled_x(self, x) -> np.ndarray:
@@ -265,6 +292,11 @@ class Calibration:
     def raw_x(self, z) -> np.ndarray:
         """raw x for z."""
         return np.ldexp(np.asarray(z, dtype=float) * self.half_width + self.centre, self._ex)
+
+    @property
+    def x_exponent(self) -> int:
+        """e such that the basis works with x 2^-e (an exact scaling: |x 2^-e| < 1)."""
+        return self._ex
 
     @property
     def y_exponent(self) -> int:
@@ -309,7 +341,7 @@ class Calibration:
             return hi, lo
         return dd.mul_double(hi, lo, self.sqrt_w[:, None])
 
-    def _refined(self, order: int):
+    def refined(self, order: int):
         """Raw coefficients (scaled units), diagonal of (V'WV)^-1, and the weighted residual of ``order``."""
         coef, diag = self._refined_all[0][order]
         if diag is None:
@@ -365,10 +397,10 @@ class Calibration:
         if "lack of fit" not in tests:
             return [None] * (self.max_order + 1)
         ey2 = 2 * self._ey
-        pure, df_pe = self._ldexp(self._ss_pure, ey2), self.n_points - self.n_distinct
+        pure, df_pe = _ldexp(self._ss_pure, ey2), self.n_points - self.n_distinct
         exact = self.exact_order
         identical = "not testable: replicates are identical" if self._ss_pure <= self._ss_rounding else ""
-        return [LackOfFit(self._ldexp(ss, ey2), test.df_num, pure, df_pe, test,
+        return [LackOfFit(_ldexp(ss, ey2), test.df_num, pure, df_pe, test,
                           f"the data fit exactly at order {exact}" if exact is not None and k >= exact else identical)
                 if test.df_num >= 1 else None
                 for k, (ss, test) in enumerate(zip(self._ss_lack_of_fit.tolist(), tests["lack of fit"]))]
@@ -466,46 +498,19 @@ class Calibration:
             aicc = -2 * llf + 2 * npar + (2 * npar * (npar + 1) / (n - npar - 1) if n - npar - 1 > 0 else math.nan)
             r2 = 1.0 - r / self._tss
             made[k] = OrderStats(
-                order=k, n_points=n, df_resid=d, rss=self._ldexp(r, ey2),
+                order=k, n_points=n, df_resid=d, rss=_ldexp(r, ey2),
                 residual_sd=math.ldexp(math.sqrt(r / d), self._ey),
                 r_squared=r2, adj_r_squared=1.0 - (1.0 - r2) * (n - 1) / d,
-                press=self._ldexp(pr, ey2), predicted_r_squared=1.0 - pr / self._tss,
+                press=_ldexp(pr, ey2), predicted_r_squared=1.0 - pr / self._tss,
                 aicc=aicc, bic=-2 * llf + npar * math.log(n),
                 overall=overall if k >= 1 else None,
                 lack_of_fit=lack[k],
             )
         self._stats = made
 
-    @staticmethod
-    def _ldexp(value: float, e: int) -> float:
-        """value * 2**e; inf (with the sign of value) where that is beyond the double range."""
-        try:
-            return math.ldexp(value, e)
-        except OverflowError:
-            return math.copysign(math.inf, value)
-
     def fit(self, order) -> OrderFit:
         """Coefficients of ``order`` in raw powers of x, with standard errors, t and p."""
-        k = self.resolve_order(order)
-        if k in self._fits:
-            return self._fits[k]
-        stats = self.stats(k)
-        coef, diag, _ = self._refined(k)
-        sd = math.sqrt(self._rss(k) / stats.df_resid)
-        coefs, ses, ts = [], [], []
-        exact = self.exact_order is not None and k >= self.exact_order  # no t test on rounding error
-        for j, (b, d) in enumerate(zip(coef.tolist(), diag.tolist())):
-            se = sd * math.sqrt(d)
-            ts.append(math.nan if exact else
-                      b / se if se > 0 else (math.nan if b == 0 else math.copysign(math.inf, b)))
-            # back to the units of x and y; t (a ratio) is taken before, so it survives over- or underflow
-            e = self._ey - self._ex * j
-            coefs.append(self._ldexp(b, e))
-            ses.append(self._ldexp(se, e))
-        p_values = t_two_sided(np.array(ts), stats.df_resid).tolist()
-        fit = OrderFit(k, tuple(coefs), tuple(ses), tuple(ts), tuple(p_values), stats)
-        self._fits[k] = fit
-        return fit
+        return self.order(order).fit
 
     def sequential_table(self) -> SequentialTable:
         """Type I ANOVA of the max-order model: each term against the max-order residual."""
@@ -516,9 +521,9 @@ class Calibration:
         k = self.max_order
         st = self.stats(k)
         ey2 = 2 * self._ey
-        rows = tuple(SequentialRow(j, self._ldexp(ss, ey2), test)
+        rows = tuple(SequentialRow(j, _ldexp(ss, ey2), test)
                      for j, (ss, test) in enumerate(zip((self._qty[1:] ** 2).tolist(), self._f_tests["sequential"]), 1))
-        return SequentialTable(k, rows, st.rss, st.df_resid, st.lack_of_fit, self._ldexp(self._tss, ey2),
+        return SequentialTable(k, rows, st.rss, st.df_resid, st.lack_of_fit, _ldexp(self._tss, ey2),
                                self.n_points - 1)
 
     def step_test(self, order: int) -> FTest:
@@ -531,3 +536,63 @@ class Calibration:
     def step_tests(self) -> tuple[FTest, ...]:
         """``step_test`` of every order 1 .. max_order."""
         return self._f_tests["step"]
+
+
+class OrderResults:
+    """One order of a calibration; every figure is computed from the calibration's one factorisation on
+    first use and then kept (as statsmodels' regression results compute derived statistics).
+
+    ``stats`` (goodness of fit), ``fit`` (raw power coefficients with standard errors, t and p),
+    ``curve`` (values, band and roots in the scaled variable: ``curve.Curve``) and ``influence``
+    (leverages, studentized residuals, Cook's distances and the outliers' Bonferroni p-values).
+    """
+
+    def __init__(self, cal: Calibration, order: int):
+        self.cal, self.order = cal, order
+
+    @property
+    def stats(self) -> OrderStats:
+        return self.cal.stats(self.order)
+
+    @cached_property
+    def fit(self) -> OrderFit:
+        cal, k = self.cal, self.order
+        stats = self.stats
+        coef, diag, _ = cal.refined(k)
+        sd = cal.scaled_residual_sd(k)
+        coefs, ses, ts = [], [], []
+        exact = cal.exact_order is not None and k >= cal.exact_order  # no t test on rounding error
+        for j, (b, d) in enumerate(zip(coef.tolist(), diag.tolist())):
+            se = sd * math.sqrt(d)
+            ts.append(math.nan if exact else
+                      b / se if se > 0 else (math.nan if b == 0 else math.copysign(math.inf, b)))
+            # back to the units of x and y; t (a ratio) is taken before, so it survives over- or underflow
+            e = cal.y_exponent - cal.x_exponent * j
+            coefs.append(_ldexp(b, e))
+            ses.append(_ldexp(se, e))
+        p_values = t_two_sided(np.array(ts), stats.df_resid).tolist()
+        return OrderFit(k, tuple(coefs), tuple(ses), tuple(ts), tuple(p_values), stats)
+
+    @cached_property
+    def curve(self):
+        from .curve import Curve  # the curve builds on the calibration
+
+        return Curve(self.cal, self.order)
+
+    @cached_property
+    def influence(self) -> Influence:
+        """Weighted residuals e_i, leverages h_i, p = order + 1, df = n - p: r_i = e_i / (s sqrt(1 - h_i)),
+        t_i = r_i sqrt((df - 1) / (df - r_i^2)), D_i = r_i^2 h_i / (p (1 - h_i)) (Cook & Weisberg, Residuals
+        and Influence in Regression, Chapman & Hall 1982, ch. 2 and 3), and n P(|T_(df-1)| > |t_i|) capped at 1."""
+        cal, k = self.cal, self.order
+        e = cal.scaled_residuals(k)  # in curve units, as s
+        h = cal.leverage(k)
+        df, n = cal.n_points - k - 1, cal.n_points
+        with np.errstate(divide="ignore", invalid="ignore"):
+            one_minus_h = 1.0 - h
+            r = e / (cal.scaled_residual_sd(k) * np.sqrt(one_minus_h))
+            r2 = r * r
+            t = r * np.sqrt((df - 1) / (df - r2)) if df > 1 else np.full_like(r, np.nan)
+            cook = r2 * h / ((k + 1) * one_minus_h)
+        bonferroni = np.minimum(1.0, n * t_two_sided(t, df - 1)) if df >= 2 else np.full(t.shape, np.nan)
+        return Influence(h, r, t, cook, bonferroni)

@@ -20,7 +20,7 @@ from __future__ import annotations
 import numpy as np
 
 from .calibration import Calibration, order_limit
-from .curve import check_level, curve_of
+from .curve import check_level
 from .distributions import f_sf, t_quantile, t_two_sided
 from .errors import OrderError
 from .polynomials import power_rows
@@ -99,7 +99,7 @@ def compare(today: Calibration, reference: Calibration, order: int, level: float
     if at.size:
         fitted, unscaled = [], []
         for cal in (today, reference):
-            curve = curve_of(cal, k)
+            curve = cal.order(k).curve
             zz = cal.scaled_x(at)
             fitted.append(curve.to_y(curve.value(zz)))
             unscaled.append(curve.mean_variance(zz) / curve.s**2)  # Var(fitted mean) / sigma^2

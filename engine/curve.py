@@ -10,6 +10,7 @@ that variances and squared gaps neither overflow nor underflow.
 from __future__ import annotations
 
 import functools
+from functools import cached_property
 
 import numpy as np
 
@@ -17,6 +18,7 @@ from .calibration import Calibration
 from .distributions import t_quantile
 from .errors import OptionError
 from .polynomials import horner, power_rows
+from .weighting import weight_order
 
 # grid over z for locating roots and band edges: 400 cells across the calibrated
 # range [-1, 1] (its ends are nodes), and the curve is used up to EXTEND (in units
@@ -45,22 +47,13 @@ def check_level(level) -> float:
     return v
 
 
-def curve_of(cal: Calibration, order) -> "Curve":
-    """The curve of ``order``, made once per calibration and order."""
-    k = cal.resolve_order(order)
-    cache = cal.__dict__.setdefault("_curves", {})
-    if k not in cache:
-        cache[k] = Curve(cal, k)
-    return cache[k]
-
-
 class Curve:
     """Order ``order`` of ``cal``: f(z) = sum_j a_j z^j and Var(mean f(z)) = s^2 |z' R^-1|^2, in curve
-    units (y = 2^e f with e = ``cal.y_exponent``)."""
+    units (y = 2^e f with e = ``cal.y_exponent``). Made once per order: ``cal.order(k).curve``."""
 
     def __init__(self, cal: Calibration, order: int):
         self.cal = cal
-        self.order = cal.resolve_order(order)
+        self.order = order
         self.e = cal.y_exponent
         self.a = cal.scaled_coefficients(self.order)
         r_inv = cal.r_factor_inverse(self.order)
@@ -75,15 +68,14 @@ class Curve:
         self.local_polynomials = np.zeros((width, 4))
         for column, c in enumerate((self.a, self._da, self._var_poly, self._dvar)):
             self.local_polynomials[: c.size, column] = c
-        self._turns = None
         self._turns_in: dict[tuple[float, float], np.ndarray] = {}
         self.stats = cal.stats(self.order)
         self.s = cal.scaled_residual_sd(self.order)  # in curve units
         self.df = self.stats.df_resid
         self.x_min = float(cal.x[cal.by_x[0]])
         self.x_max = float(cal.x[cal.by_x[-1]])
-        self._grid = None
         self._t: dict[float, float] = {}
+        self._bands: dict[tuple[float, float], tuple | None] = {}
 
     def to_y(self, values) -> np.ndarray:
         """Curve units to the units of y."""
@@ -120,34 +112,71 @@ class Curve:
         """z in (lo, hi) where dy/dz changes sign, sorted (read-only; kept per interval)."""
         key = (lo, hi)
         if key not in self._turns_in:
-            every = self._all_turns()
+            every = self._all_turns
             turns = every[(every > lo) & (every < hi)]
             turns.flags.writeable = False
             self._turns_in[key] = turns
         return self._turns_in[key]
 
+    @cached_property
     def _all_turns(self) -> np.ndarray:
-        if self._turns is None:
-            nonzero = np.flatnonzero(self._da)
-            d = self._da[: nonzero[-1] + 1] if nonzero.size else self._da[:0]
-            turns = np.empty(0)
-            if d.size == 2:  # a straight slope: one root
-                turns = np.array([-d[0] / d[1]])
-            elif d.size > 2:
-                roots = np.roots(d[::-1])
-                real = np.sort(roots[np.abs(roots.imag) <= 1e-9 * (1 + np.abs(roots.real))].real)
-                # a double root is not a turn: keep those where the slope changes sign
-                turns = real[np.sign(self.slope(real - 1e-7)) != np.sign(self.slope(real + 1e-7))]
-            self._turns = turns
-        return self._turns
+        nonzero = np.flatnonzero(self._da)
+        d = self._da[: nonzero[-1] + 1] if nonzero.size else self._da[:0]
+        if d.size == 2:  # a straight slope: one root
+            return np.array([-d[0] / d[1]])
+        if d.size < 2:
+            return np.empty(0)
+        roots = np.roots(d[::-1])
+        real = np.sort(roots[np.abs(roots.imag) <= 1e-9 * (1 + np.abs(roots.real))].real)
+        # a double root is not a turn: keep those where the slope changes sign
+        return real[np.sign(self.slope(real - 1e-7)) != np.sign(self.slope(real + 1e-7))]
 
-    @property
+    @cached_property
     def grid(self):
         """z nodes over the extended range, with the curve and mean variance there (curve units)."""
-        if self._grid is None:
-            self._grid = GRID_Z, self.value(GRID_Z), self.mean_variance(GRID_Z)
-        return self._grid
+        return GRID_Z, self.value(GRID_Z), self.mean_variance(GRID_Z)
 
+    @property
+    def weight_curve(self) -> "Curve":
+        """The curve whose fitted values give 1/y weights (``weighting.weight_order``): this one unless the
+        weights follow the fitted response."""
+        cal = self.cal
+        return cal.order(weight_order(cal.max_order)).curve if cal.weighting.iterative else self
+
+    @cached_property
+    def grid_variance_factor(self) -> np.ndarray:
+        """1/w0 of a new reading at every grid node (one 1 when unweighted)."""
+        weighting = self.cal.weighting
+        if weighting.values is None:
+            return np.ones(1)
+        z, f, _ = self.weight_curve.grid
+        return weighting.variance_factor(self.cal.raw_x(z), self.to_y(f))
+
+
+    def monotonic_band(self, t2: float, m: np.ndarray):
+        """For readings that all average the same number m of replicates: the sign of the curve's slope,
+        the rows (curve, upper edge, lower edge) of the band f +- t sqrt(s^2 / (m w0) + Var f) on the grid,
+        times that sign, and the local polynomials with that sign and t^2 s^2 folded in, when both edges
+        rise strictly over the whole grid; else None. Made once per t^2 and m."""
+        if m.size > 1 and not (m == m[0]).all():
+            return None
+        key = (t2, float(m[0]))
+        if key not in self._bands:
+            t2s2 = t2 * self.s**2
+            z, f, vm = self.grid
+            sign = 1.0 if f[-1] >= f[0] else -1.0
+            table = np.empty((3, f.size))
+            curve_row, upper, lower = table
+            np.multiply(f, sign, out=curve_row)
+            with np.errstate(invalid="ignore"):
+                half = np.sqrt(t2s2 * self.grid_variance_factor / m[0] + t2 * vm)
+            np.add(curve_row, half, out=upper)
+            np.subtract(curve_row, half, out=lower)
+            rising = bool((upper[1:] > upper[:-1]).all() and (lower[1:] > lower[:-1]).all())
+            # sign f, sign f', t^2 Var(mean f) and its slope, as polynomials in z (columns)
+            local = self.local_polynomials * np.array([sign, sign, t2s2, t2s2])
+            self._bands[key] = (sign, table, local) if rising else None
+        return self._bands[key]
 
 @functools.lru_cache(maxsize=32)
 def _power_sums(p: int) -> np.ndarray:

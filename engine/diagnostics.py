@@ -34,7 +34,7 @@ import numpy as np
 from scipy import special
 
 from .calibration import Calibration, householder_qr
-from .curve import ENDS, Curve, curve_of
+from .curve import ENDS, Curve
 from .distributions import beta_cdf, log_binomial, normal_two_sided, t_two_sided
 from .polynomials import power_rows
 from .prediction import roots_of
@@ -51,30 +51,6 @@ _LEVERAGE_ONE = 1 - 1e-10
 def check_level(alpha: float) -> float:
     """The level at which each test of the checks table but lack of fit (and each standard's note) warns."""
     return check_alpha(alpha) / FAMILY
-
-
-def _studentized(cal: Calibration, curve: Curve):
-    """Leverages, studentized residuals (internally and externally), Cook's D and the Bonferroni
-    p-values of the externally studentized residuals of a curve (computed once)."""
-    cached = curve.__dict__.get("_studentized")
-    if cached is not None:
-        return cached
-    e = cal.scaled_residuals(curve.order)  # in curve units, as s
-    h = cal.leverage(curve.order)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        one_minus_h = 1.0 - h
-        r = e / (curve.s * np.sqrt(one_minus_h))
-        r2, df = r * r, curve.df
-        t = r * np.sqrt((df - 1) / (df - r2)) if df > 1 else np.full_like(r, np.nan)
-        cook = r2 * h / ((curve.order + 1) * one_minus_h)
-    curve._studentized = h, r, t, cook, _bonferroni(t, curve.df, cal.n_points)
-    return curve._studentized
-
-
-def _bonferroni(t: np.ndarray, df: int, n: int) -> np.ndarray:
-    if df < 2:
-        return np.full(t.shape, np.nan)
-    return np.minimum(1.0, n * t_two_sided(t, df - 1))
 
 
 def cook_tail(d: float, h: np.ndarray, p: int, df: int) -> np.ndarray:
@@ -139,8 +115,9 @@ def point_diagnostics(cal: Calibration, order: int, alpha: float = 0.05) -> Poin
     """Fitted, residual, studentized residuals, leverage, Cook's D, back-calculated x per standard;
     notes flag outliers and influential points at ``check_level(alpha)``, as the checks table does."""
     level = check_level(alpha)
-    curve = curve_of(cal, order)
-    h, r, t, cook, bonf = _studentized(cal, curve)
+    results = cal.order(order)
+    curve = results.curve
+    h, r, t, cook, bonf = results.influence
     exact = _fits_exactly(cal, curve)  # then the residuals are rounding, and no standard stands out
     influential = set() if exact else set(_influence(cook, h, t, curve.order + 1, curve.df, level)[1])
     if exact:
@@ -315,9 +292,10 @@ def curve_checks(cal: Calibration, order: int, alpha: float = 0.05, point_labels
     """
     alpha = check_alpha(alpha)
     level = check_level(alpha)
-    curve = curve_of(cal, order)
+    results = cal.order(order)
+    curve = results.curve
     k, big_k = curve.order, cal.max_order
-    h, _, t, cook, bonf = _studentized(cal, curve)
+    h, _, t, cook, bonf = results.influence
     n, p = cal.n_points, k + 1
     position = point_labels or (lambda i: f"standard {i + 1} of {n}")
     at = f"warning below p = {level:.3g}"

@@ -32,7 +32,7 @@ import numpy as np
 from scipy import special
 
 from .calibration import Calibration
-from .curve import Curve, curve_of
+from .curve import Curve
 from .distributions import t_quantile
 from .prediction import _finite, _replicates
 from .results import Limit
@@ -264,7 +264,7 @@ def detection_limits(cal: Calibration, order: int, blank=None, replicates=1, alp
     alpha = check_alpha(alpha)
     m = int(_replicates(replicates, 1)[0])
     readings = None if blank is None else _finite(blank, "blank")
-    curve = curve_of(cal, order)
+    curve = cal.order(order).curve
     band = _Band(cal, curve, m)
     t1 = float(t_quantile(1.0 - alpha, curve.df))
     t2 = float(t_quantile(1.0 - alpha / 2, curve.df))

@@ -22,11 +22,10 @@ import math
 import numpy as np
 
 from .calibration import Calibration
-from .curve import ENDS, EXTEND, GRID_Z, RANGE_NODES, Curve, check_level, curve_of, newton_in_cells, sign_changes
+from .curve import ENDS, EXTEND, GRID_Z, RANGE_NODES, Curve, check_level, newton_in_cells, sign_changes
 from .errors import DataError, OptionError
 from .polynomials import power_rows
 from .results import InverseEstimate, Prediction
-from .weighting import weight_order
 
 
 def _finite(values, name: str) -> np.ndarray:
@@ -54,7 +53,7 @@ def predict(cal: Calibration, new_x, order: int, level: float = 0.95) -> tuple[P
     """Fitted value, mean interval and prediction interval at each new x."""
     level = check_level(level)
     x0 = _finite(new_x, "new_x")
-    curve = curve_of(cal, order)
+    curve = cal.order(order).curve
     t = curve.t_value(level)
     weighted = cal.weighting.values is not None
     # an x far beyond the calibration's scale overflows to inf and its cells come out empty, without warnings
@@ -136,14 +135,9 @@ def _monotonic_roots(curve: Curve, readings: np.ndarray, z_lo: float, z_hi: floa
     return rows, zs
 
 
-def _weight_curve(curve: Curve) -> Curve:
-    """The curve whose fitted values give 1/y weights (``weighting.weight_order``)."""
-    return curve_of(curve.cal, weight_order(curve.cal.max_order)) if curve.cal.weighting.iterative else curve
-
-
 def _weight_response(curve: Curve, zz: np.ndarray, fz: np.ndarray) -> np.ndarray:
     """The response at z that a 1/y scheme weights by, in units of y (fz: ``curve`` at zz, curve units)."""
-    base = _weight_curve(curve)
+    base = curve.weight_curve
     return curve.to_y(fz if base is curve else base.value(zz))
 
 
@@ -154,48 +148,12 @@ def _variance_factor_and_slope(curve: Curve, zz: np.ndarray, fz: np.ndarray, dfz
     weighting = cal.weighting
     if weighting.values is None:
         return 1.0, 0.0
-    base = _weight_curve(curve)
+    base = curve.weight_curve
     if base is not curve:
         fz, dfz = base.value(zz), base.slope(zz)
     x, y = cal.raw_x(zz), curve.to_y(fz)
     return (weighting.variance_factor(x, y),
             weighting.variance_factor_slope(x, y, curve.to_y(dfz) / cal.dx_dz) * cal.dx_dz)
-
-
-def _grid_variance_factor(curve: Curve, cal: Calibration) -> np.ndarray:
-    """1/w0 of a new reading at every grid node (one 1 when unweighted), made once per curve."""
-    if "_grid_vf" not in curve.__dict__:
-        weighting = cal.weighting
-        z, f, _ = _weight_curve(curve).grid
-        curve._grid_vf = (np.ones(1) if weighting.values is None
-                          else weighting.variance_factor(cal.raw_x(z), curve.to_y(f)))
-    return curve._grid_vf
-
-
-def _monotonic_band(curve: Curve, vf: np.ndarray, m: np.ndarray, t2: float, t2s2: float):
-    """For readings that all average the same number of replicates: the sign of the curve's slope,
-    the rows (curve, upper edge, lower edge) on the grid, times that sign, and the local polynomials
-    with that sign and t^2 s^2 folded in, when both edges rise strictly over the whole grid; else None.
-    Made once per curve, level and replicates."""
-    if m.size > 1 and not (m == m[0]).all():
-        return None
-    cache = curve.__dict__.setdefault("_bands", {})
-    key = (t2, float(m[0]))
-    if key not in cache:
-        z, f, vm = curve.grid
-        sign = 1.0 if f[-1] >= f[0] else -1.0
-        table = np.empty((3, f.size))
-        curve_row, upper, lower = table
-        np.multiply(f, sign, out=curve_row)
-        with np.errstate(invalid="ignore"):
-            half = np.sqrt(t2s2 * vf / m[0] + t2 * vm)
-        np.add(curve_row, half, out=upper)
-        np.subtract(curve_row, half, out=lower)
-        rising = bool((upper[1:] > upper[:-1]).all() and (lower[1:] > lower[:-1]).all())
-        # sign f, sign f', t^2 Var(mean f) and its slope, as polynomials in z (columns)
-        local = curve.local_polynomials * np.array([sign, sign, t2s2, t2s2])
-        cache[key] = (sign, table, local) if rising else None
-    return cache[key]
 
 
 def _solve_on_monotonic_band(curve: Curve, cal: Calibration, y0: np.ndarray, m: np.ndarray, t: float):
@@ -210,8 +168,7 @@ def _solve_on_monotonic_band(curve: Curve, cal: Calibration, y0: np.ndarray, m: 
     reading within the grid leaves that end open (nan).
     """
     t2, t2s2 = t**2, t**2 * curve.s**2
-    vf = _grid_variance_factor(curve, cal)
-    band = _monotonic_band(curve, vf, m, t2, t2s2)
+    band = curve.monotonic_band(t2, m)
     if band is None:
         return None
     sign, table, local = band  # kind 0: the curve, 1: its upper edge, 2: its lower edge
@@ -294,7 +251,7 @@ def _band_edges(curve: Curve, cal: Calibration, y0: np.ndarray, m: np.ndarray, z
         vf, dvf = _variance_factor_and_slope(curve, zz, fz, dfz)
         return d * d - t2s2 * vf / mm - t2 * vz, 2 * d * dfz - t2s2 * dvf / mm - t2 * dvz
 
-    vf = _grid_variance_factor(curve, cal)
+    vf = curve.grid_variance_factor
     with np.errstate(invalid="ignore"):
         g = (f[None, :] - y0[:, None]) ** 2 - t2s2 * vf[None, :] / m[:, None] - t2 * vm[None, :]
     undefined = ~np.isfinite(g)
@@ -336,7 +293,7 @@ def inverse(cal: Calibration, readings, order: int, replicates=1, level: float =
     level = check_level(level)
     y0 = _finite(readings, "reading")
     m = _replicates(replicates, y0.size)
-    curve = curve_of(cal, order)
+    curve = cal.order(order).curve
     t = curve.t_value(level)
     with np.errstate(over="ignore"):  # a reading far beyond the responses' scale is inf: outside the range
         y0_curve = curve.from_y(y0)

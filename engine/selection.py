@@ -171,15 +171,10 @@ def _criterion(cal: Calibration, rule: str):
 
 def choose_order(cal: Calibration, rule: str = DEFAULT_RULE, alpha: float = 0.05) -> OrderChoice:
     """The order ``rule`` picks for ``cal``, with the reason in words."""
-    rule = check_rule(rule)
-    alpha = check_alpha(alpha)
-    made = cal.__dict__.setdefault("_choices", {})
-    if (rule, alpha) not in made:
-        made[(rule, alpha)] = _choose(cal, rule, alpha)
-    return made[(rule, alpha)]
+    return cal.choice(rule, alpha)
 
 
-def _choose(cal: Calibration, rule: str, alpha: float) -> OrderChoice:
+def choose(cal: Calibration, rule: str, alpha: float) -> OrderChoice:
     exact = cal.exact_order
     if exact is not None:
         order = max(exact, 1)
