@@ -20,12 +20,11 @@ import operator
 from functools import cached_property
 
 import numpy as np
+from numpy.polynomial import polynomial as P
 
 from . import doubledouble as dd
 from .distributions import f_sf, t_two_sided
 from .errors import DataError, OrderError
-from .lazy import lazy
-from .polynomials import power_rows
 from .refine import conversion_matrix, refine
 from .results import FTest, Influence, LackOfFit, OrderChoice, OrderFit, OrderStats, SequentialRow, SequentialTable
 from .weighting import Weighting, weight_order
@@ -107,7 +106,6 @@ def default_max_order(n_points: int, n_distinct: int) -> int:
     return max(min(DEFAULT_MAX_ORDER, n_distinct - 2, n_points - 5), min(2, n_distinct - 2, n_points - 3))
 
 
-@functools.lru_cache(maxsize=64)
 def _rhs_layout(big_p: int, with_cov: bool):
     """Rows of the stacked right-hand sides of ``Calibration._refined_all``, per order k = 0..big_p - 1:
     the first row of each order (its y), the c block (-I for its covariance) and the mask of its powers;
@@ -122,8 +120,6 @@ def _rhs_layout(big_p: int, with_cov: bool):
         mask[j: j + sizes[k], : k + 1] = 1.0
     cols = np.concatenate([np.arange(k + 1) for k in range(big_p)])
     rows = np.repeat(first + 1, np.arange(1, big_p + 1)) + cols
-    for a in (first, c, mask, rows, cols):
-        a.flags.writeable = False
     return first, c, mask, (rows, cols)
 
 
@@ -197,7 +193,7 @@ class Calibration:
         self.dx_dz = math.ldexp(self.half_width, self._ex)  # x per unit of z
         self._u = u
         self.z = z = (u - self.centre) / self.half_width  # the standards' x in the scaled variable
-        basis = power_rows(z, k + 1).T
+        basis = P.polyvander(z, k)
         if self.weighting.iterative:
             self.weighting.settle(x, y, functools.partial(self._fitted_under, basis[:, : weight_order(k) + 1]))
             w = self.weighting.values
@@ -334,7 +330,7 @@ class Calibration:
 
     # -- refined solution ---------------------------------------------------------------------
 
-    @lazy
+    @cached_property
     def _powers(self):
         hi, lo = dd.powers(self._u, self.max_order)
         if self.weighting.values is None:
@@ -348,7 +344,7 @@ class Calibration:
             diag = self._covariance_diagonal(order)
         return coef, diag, self._residual_rows[order]
 
-    @lazy
+    @cached_property
     def _refined_all(self) -> tuple[dict, np.ndarray]:
         """Every order 0..K refined in one call: {order: (raw coefficients, covariance diagonal or None)}
         and the scaled weighted residuals of order k in row k.
@@ -375,7 +371,7 @@ class Calibration:
         return ({k: (b[j, : k + 1], diag[k * (k + 1) // 2: (k + 1) * (k + 2) // 2] if with_cov else None)
                  for k, j in enumerate(first.tolist())}, e_hi[first] + e_lo[first])
 
-    @lazy
+    @cached_property
     def _residual_rows(self) -> np.ndarray:
         return self._refined_all[1]
 
@@ -405,7 +401,7 @@ class Calibration:
                 if test.df_num >= 1 else None
                 for k, (ss, test) in enumerate(zip(self._ss_lack_of_fit.tolist(), tests["lack of fit"]))]
 
-    @lazy
+    @cached_property
     def exact_order(self) -> int | None:
         """The lowest order whose residual sum of squares is rounding error of the responses (at most
         n (2^-42 max |sqrt(w) y|)^2), or None: at and above it the data fit exactly, and no F test with
@@ -413,11 +409,11 @@ class Calibration:
         exact = (self._all_rss <= self._ss_rounding).nonzero()[0]
         return int(exact[0]) if exact.size else None
 
-    @lazy
+    @cached_property
     def _ss_lack_of_fit(self) -> np.ndarray:
         return np.maximum(self._all_rss - self._ss_pure, 0.0)
 
-    @lazy
+    @cached_property
     def _f_tests(self) -> dict[str, tuple[FTest, ...]]:
         """Every F test of every order, from one vectorised pass: "overall" (orders 0..K: the regression
         against the mean; order 0 has none), "lack of fit" (orders 0..K; only with replicates), "step"
@@ -456,7 +452,7 @@ class Calibration:
     def _rss(self, order: int) -> float:
         return float(self._all_rss[order])
 
-    @lazy
+    @cached_property
     def _all_rss(self) -> np.ndarray:
         e = self._residual_rows
         return np.einsum("ij,ij->i", e, e)
@@ -516,7 +512,7 @@ class Calibration:
         """Type I ANOVA of the max-order model: each term against the max-order residual."""
         return self._sequential
 
-    @lazy
+    @cached_property
     def _sequential(self) -> SequentialTable:
         k = self.max_order
         st = self.stats(k)

@@ -9,15 +9,14 @@ that variances and squared gaps neither overflow nor underflow.
 
 from __future__ import annotations
 
-import functools
 from functools import cached_property
 
 import numpy as np
+from numpy.polynomial import polynomial as P
 
 from .calibration import Calibration
 from .distributions import t_quantile
 from .errors import OptionError
-from .polynomials import horner, power_rows
 from .weighting import weight_order
 
 # grid over z for locating roots and band edges: 400 cells across the calibrated
@@ -60,7 +59,8 @@ class Curve:
         self.r_inv = r_inv
         # Var(mean f(z)) / s^2 = b(z)' C b(z) with C = R^-1 R^-T: a polynomial in z of degree 2k
         c = r_inv @ r_inv.T
-        self._var_poly = np.bincount(_power_sums(self.order + 1), c.ravel())
+        p = np.arange(self.order + 1)
+        self._var_poly = np.bincount(np.add.outer(p, p).ravel(), c.ravel())  # z^i z^j = z^(i+j)
         self._dvar = _derivative(self._var_poly)
         self._da = _derivative(self.a)
         # f, f', Var(mean f)/s^2 and its slope as the columns of one matrix over z^0 .. z^2k
@@ -87,19 +87,19 @@ class Curve:
 
     def value(self, z) -> np.ndarray:
         """f(z) in curve units."""
-        return horner(self.a, z)
+        return P.polyval(z, self.a)
 
     def slope(self, z) -> np.ndarray:
         """dy/dz."""
-        return horner(self._da, z)
+        return P.polyval(z, self._da)
 
     def mean_variance(self, z) -> np.ndarray:
         """Var of the fitted mean at z, in curve units squared."""
-        return self.s**2 * np.maximum(horner(self._var_poly, z), 0.0)
+        return self.s**2 * np.maximum(P.polyval(z, self._var_poly), 0.0)
 
     def local(self, z: np.ndarray):
         """f(z), f'(z), the variance of the fitted mean and its slope, at the points z (1-D), in curve units."""
-        v = power_rows(z, self.local_polynomials.shape[0]).T @ self.local_polynomials
+        v = P.polyvander(z, self.local_polynomials.shape[0] - 1) @ self.local_polynomials
         s2 = self.s**2
         return v[:, 0], v[:, 1], s2 * np.maximum(v[:, 2], 0.0), s2 * v[:, 3]
 
@@ -152,7 +152,6 @@ class Curve:
         z, f, _ = self.weight_curve.grid
         return weighting.variance_factor(self.cal.raw_x(z), self.to_y(f))
 
-
     def monotonic_band(self, t2: float, m: np.ndarray):
         """For readings that all average the same number m of replicates: the sign of the curve's slope,
         the rows (curve, upper edge, lower edge) of the band f +- t sqrt(s^2 / (m w0) + Var f) on the grid,
@@ -178,24 +177,11 @@ class Curve:
             self._bands[key] = (sign, table, local) if rising else None
         return self._bands[key]
 
-@functools.lru_cache(maxsize=32)
-def _power_sums(p: int) -> np.ndarray:
-    """i + j over the entries (i, j) of a p x p matrix, row by row: z^i z^j = z^(i+j)."""
-    out = np.add.outer(np.arange(p), np.arange(p)).ravel()
-    out.flags.writeable = False
-    return out
-
 
 def _derivative(c: np.ndarray) -> np.ndarray:
-    return c[1:] * _powers_below(c.size) if c.size > 1 else np.zeros(1)
-
-
-@functools.lru_cache(maxsize=32)
-def _powers_below(size: int) -> np.ndarray:
-    """1, 2, ..., size - 1: the factors of the derivative of a polynomial of ``size`` coefficients."""
-    out = np.arange(1.0, size)
-    out.flags.writeable = False
-    return out
+    """Coefficients of the derivative of sum_j c_j z^j (as numpy.polynomial.polynomial.polyder, without its
+    argument handling)."""
+    return c[1:] * np.arange(1.0, c.size) if c.size > 1 else np.zeros(1)
 
 
 def sign_changes(values: np.ndarray, z: np.ndarray, lo: float, hi: float):

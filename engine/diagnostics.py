@@ -27,16 +27,15 @@ at most 2 alpha. The standards' notes flag outliers and influential points at al
 
 from __future__ import annotations
 
-import functools
 import math
 
 import numpy as np
+from numpy.polynomial import polynomial as P
 from scipy import special
 
 from .calibration import Calibration, householder_qr
 from .curve import ENDS, Curve
 from .distributions import beta_cdf, log_binomial, normal_two_sided, t_two_sided
-from .polynomials import power_rows
 from .prediction import roots_of
 from .results import Check, PointDiagnostics
 from .selection import check_alpha, fmt_p, mandel_test
@@ -159,7 +158,7 @@ def level_residuals(cal: Calibration, order: int):
     sw = cal.sqrt_w[by_x]
     u = np.add.reduceat(sw * cal.scaled_residuals(order)[by_x], starts)
     root_w = np.sqrt(np.add.reduceat(sw * sw, starts))
-    q, _ = householder_qr(power_rows(cal.z[by_x][starts], order + 1).T * root_w[:, None])
+    q, _ = householder_qr(P.polyvander(cal.z[by_x][starts], order) * root_w[:, None])
     return u / root_w, q
 
 
@@ -253,7 +252,7 @@ def breusch_pagan(residuals: np.ndarray, z: np.ndarray, order: int, q=None) -> t
     """
     e2 = residuals**2
     if q is None:  # an orthonormal basis of 1, z, ..., z^order
-        q, _ = householder_qr(power_rows(z, order + 1).T)
+        q, _ = householder_qr(P.polyvander(z, order))
     d = e2 - e2.sum() / e2.size
     tss = float(d @ d)
     if tss == 0:
@@ -263,16 +262,6 @@ def breusch_pagan(residuals: np.ndarray, z: np.ndarray, order: int, q=None) -> t
     c = q.T @ d
     lm = e2.size * float(c @ c) / tss
     return lm, float(special.chdtrc(order, lm))
-
-
-@functools.cache
-def _shapiro():
-    """scipy.stats.shapiro, imported on first use (scipy.stats takes half a second to import), undecorated:
-    the same computation without the axis/NaN-policy wrapper, which costs ten times the test itself
-    (tests compare against scipy.stats.shapiro)."""
-    from scipy.stats import shapiro
-
-    return getattr(shapiro, "__wrapped__", shapiro)
 
 
 def _verdict(p: float, level: float) -> str:
@@ -380,7 +369,9 @@ def curve_checks(cal: Calibration, order: int, alpha: float = 0.05, point_labels
     if n >= 3 and e.max() > e.min():
         # scaled by a power of two to a largest |e| in [0.5, 1): the statistic is scale-free, and the
         # algorithm takes a range below 1e-19 as zero
-        w_stat, w_p = _shapiro()(np.ldexp(e, -math.frexp(float(np.abs(e).max()))[1]))
+        from scipy.stats import shapiro  # imported on first use: scipy.stats takes half a second to import
+
+        w_stat, w_p = shapiro(np.ldexp(e, -math.frexp(float(np.abs(e).max()))[1]))
         v = _verdict(float(w_p), level)
         words = ("residuals depart from a normal distribution" if v == "warning"
                  else "no evidence against normal residuals")

@@ -16,15 +16,14 @@ end; a band that does not close there leaves that bound open.
 
 from __future__ import annotations
 
-import functools
 import math
 
 import numpy as np
+from numpy.polynomial import polynomial as P
 
 from .calibration import Calibration
-from .curve import ENDS, EXTEND, GRID_Z, RANGE_NODES, Curve, check_level, newton_in_cells, sign_changes
+from .curve import ENDS, EXTEND, RANGE_NODES, Curve, check_level, newton_in_cells, sign_changes
 from .errors import DataError, OptionError
-from .polynomials import power_rows
 from .results import InverseEstimate, Prediction
 
 
@@ -114,17 +113,11 @@ def roots_of(curve: Curve, readings: np.ndarray, z_lo: float, z_hi: float):
     return rows[order], zs[order]
 
 
-@functools.lru_cache(maxsize=16)
-def _grid_slice(z_lo: float, z_hi: float) -> slice:
-    """The grid nodes in [z_lo, z_hi]."""
-    return slice(int(np.searchsorted(GRID_Z, z_lo, "left")), int(np.searchsorted(GRID_Z, z_hi, "right")))
-
-
 def _monotonic_roots(curve: Curve, readings: np.ndarray, z_lo: float, z_hi: float):
     """roots_of for a curve without turning points in [z_lo, z_hi]: at most one root per reading,
     bracketed by a binary search of the grid values."""
     z, f, _ = curve.grid
-    inside = _grid_slice(z_lo, z_hi)
+    inside = slice(int(np.searchsorted(z, z_lo, "left")), int(np.searchsorted(z, z_hi, "right")))  # nodes in [z_lo, z_hi]
     zg, fg = z[inside], f[inside]
     fs, ys = (fg, readings) if fg[-1] >= fg[0] else (-fg, -readings)
     rows = ((ys >= fs[0]) & (ys <= fs[-1])).nonzero()[0]
@@ -198,7 +191,7 @@ def _solve_on_monotonic_band(curve: Curve, cal: Calibration, y0: np.ndarray, m: 
     open_edges = weighted or t2s2 == 0  # where the band's half-width can be zero, or undefined
 
     def value_and_slope(zz):  # called inside newton_in_cells, which ignores division warnings
-        f, df, var, dvar = local_rows @ power_rows(zz, local_rows.shape[1])
+        f, df, var, dvar = local_rows @ P.polyvander(zz, local_rows.shape[1] - 1).T
         var = np.maximum(var, 0.0)
         if weighted:
             vfz, dvf = _variance_factor_and_slope(curve, zz, sign * f, sign * df)
@@ -219,16 +212,12 @@ def _solve_on_monotonic_band(curve: Curve, cal: Calibration, y0: np.ndarray, m: 
     return out
 
 
-@functools.lru_cache(maxsize=32)
 def _every_root(count: int):
     """For ``count`` readings that all have an estimate and both bounds: the reading, kind and band edge
     of each root (estimates, then lower ends, then upper ends), and which of them lie on a moving edge."""
     which, kind = np.tile(np.arange(count), 3), np.repeat(_KINDS, count)
     edge = _EDGES[kind]
-    out = which, kind, edge, edge != 0
-    for a in out:
-        a.flags.writeable = False
-    return out
+    return which, kind, edge, edge != 0
 
 
 def _band_edges(curve: Curve, cal: Calibration, y0: np.ndarray, m: np.ndarray, z_hat: np.ndarray, t: float):

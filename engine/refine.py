@@ -19,7 +19,6 @@ conditioned z basis. With c = -I and y = 0 the same iteration gives
 
 from __future__ import annotations
 
-import functools
 from math import comb
 
 import numpy as np
@@ -38,26 +37,9 @@ def conversion_matrix(centre: float, half_width: float, order: int) -> np.ndarra
 
     T_kj = C(j, k) (-centre)^(j-k) / half_width^j for k <= j (binomial expansion).
     """
-    binomials, powers, j = _expansion(order)
-    return binomials * float(-centre) ** powers / half_width**j
-
-
-@functools.lru_cache(maxsize=32)
-def _expansion(order: int):
-    """C(j, k) at [k, j] (0 for k > j), the power j - k (0 for k > j) and j, for ``conversion_matrix``."""
     j = np.arange(order + 1)
-    out = _binomials(order), np.maximum(j[None, :] - j[:, None], 0), j
-    for a in out:
-        a.flags.writeable = False
-    return out
-
-
-@functools.lru_cache(maxsize=32)
-def _binomials(order: int) -> np.ndarray:
-    """C(j, k) at [k, j] for 0 <= k, j <= order (0 for k > j)."""
-    b = np.array([[comb(j, k) for j in range(order + 1)] for k in range(order + 1)], dtype=float)
-    b.flags.writeable = False
-    return b
+    binomials = np.array([[comb(jj, k) for jj in j.tolist()] for k in j.tolist()], dtype=float)  # 0 for k > j
+    return binomials * float(-centre) ** np.maximum(j[None, :] - j[:, None], 0) / half_width**j
 
 
 def _pieces(hi: np.ndarray, lo, shape, full: bool):
