@@ -16,7 +16,6 @@ from __future__ import annotations
 
 import functools
 import math
-import operator
 from functools import cached_property
 
 import numpy as np
@@ -27,6 +26,7 @@ from .distributions import f_sf, t_two_sided
 from .errors import DataError, OrderError
 from .refine import conversion_matrix, refine
 from .results import FTest, Influence, LackOfFit, OrderChoice, OrderFit, OrderStats, SequentialRow, SequentialTable
+from .validation import check_alpha, check_order, check_rule, check_vector, check_whole
 from .weighting import Weighting, weight_order
 
 DEFAULT_MAX_ORDER = 4
@@ -39,35 +39,6 @@ _ONE_CALL_LIMIT = 4096
 # smallest |R_jj| / max |R_jj| of the scaled basis accepted as full rank (far below any real calibration)
 _RANK_TOLERANCE = 1e-12
 _LN2, _LN_2PI = math.log(2.0), math.log(2.0 * math.pi)
-
-
-def _vector(values, name: str) -> np.ndarray:
-    try:
-        a = np.asarray(values, dtype=float)
-    except (TypeError, ValueError):
-        raise DataError(f"{name} must hold numbers only", argument=name) from None
-    if a.ndim != 1:
-        raise DataError(f"{name} must be one-dimensional, not of shape {a.shape}", argument=name)
-    if np.isfinite(a).all():
-        return a
-    bad = np.flatnonzero(~np.isfinite(a))
-    if bad.size:
-        i = int(bad[0])
-        raise DataError(
-            f"{name}[{i}] is {float(a[i])!r}: every value must be a finite number", argument=name, index=i
-        )
-    return a
-
-
-def _whole(value, name: str) -> int:
-    try:
-        k = operator.index(value)
-    except TypeError:
-        if isinstance(value, float) and value.is_integer():
-            k = int(value)
-        else:
-            raise OrderError(f"{name} must be a whole number, not {value!r}", argument=name) from None
-    return k
 
 
 def _ldexp(value: float, e: int) -> float:
@@ -88,11 +59,6 @@ def _triangular_inverse(r: np.ndarray) -> np.ndarray:
     upper triangular: below the diagonal R holds zeros only, so partial pivoting swaps no rows, L = I,
     and back substitution leaves those zeros as they are."""
     return np.linalg.inv(r)
-
-
-def order_limit(n_points: int, n_distinct: int) -> int:
-    """Highest order the data can fit with one residual degree of freedom."""
-    return min(n_distinct - 1, n_points - 2)
 
 
 def default_max_order(n_points: int, n_distinct: int) -> int:
@@ -132,8 +98,8 @@ class Calibration:
     """
 
     def __init__(self, x, y, max_order=None, weights=None):
-        x = _vector(x, "x")
-        y = _vector(y, "y")
+        x = check_vector(x, "x")
+        y = check_vector(y, "y")
         if x.size != y.size:
             raise DataError(
                 f"x has {x.size} values and y has {y.size}: give one y for every x", argument="y"
@@ -174,8 +140,8 @@ class Calibration:
                     argument="max_order",
                 )
         else:
-            k = _whole(max_order, "max_order")
-            self.check_order(k, "max_order", n, m)
+            k = check_whole(max_order, "max_order")
+            check_order(k, "max_order", n, m)
         self.x, self.y = x, y
         self.by_x = by_x  # a stable sort of the points by x
         self.n_points, self.n_distinct, self.max_order = n, m, k
@@ -239,22 +205,11 @@ class Calibration:
 
     # -- orders ---------------------------------------------------------------------------
 
-    @staticmethod
-    def check_order(order: int, name: str, n: int, m: int) -> None:
-        if order < 1:
-            raise OrderError(f"{name} must be at least 1, not {order}", argument=name)
-        if order > order_limit(n, m):
-            raise OrderError(
-                f"{name} {order} needs at least {order + 1} distinct x values and {order + 2} points; "
-                f"there are {m} and {n}",
-                argument=name,
-            )
-
     def resolve_order(self, order, name: str = "order") -> int:
         """Validate an order against this calibration's max order."""
         if type(order) is int and 0 <= order <= self.max_order:  # the usual case
             return order
-        k = _whole(order, name)
+        k = check_whole(order, name)
         if k < 0 or k > self.max_order:
             raise OrderError(
                 f"{name} {k} is outside 0..{self.max_order}, the orders this calibration was fitted to",
@@ -274,7 +229,7 @@ class Calibration:
         rule and alpha."""
         from . import selection  # the rules read this calibration's statistics
 
-        key = selection.check_rule(rule), selection.check_alpha(alpha)
+        key = check_rule(rule), check_alpha(alpha)
         if key not in self._choices:
             self._choices[key] = selection.choose(self, *key)
         return self._choices[key]

@@ -20,12 +20,12 @@ from __future__ import annotations
 import numpy as np
 from numpy.polynomial import polynomial as P
 
-from .calibration import Calibration, order_limit
-from .curve import check_level
+from .calibration import Calibration
 from .distributions import f_sf, t_quantile, t_two_sided
 from .errors import OrderError
 from .prediction import inverse
 from .results import Comparison, DifferenceRow, FTest
+from .validation import check_level, order_limit
 
 
 def _rss(columns: np.ndarray, yw: np.ndarray) -> float:

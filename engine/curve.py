@@ -16,7 +16,6 @@ from numpy.polynomial import polynomial as P
 
 from .calibration import Calibration
 from .distributions import t_quantile
-from .errors import OptionError
 from .weighting import weight_order
 
 # grid over z for locating roots and band edges: 400 cells across the calibrated
@@ -34,16 +33,6 @@ ENDS = np.array([-1.0, 1.0])  # z at the ends of the calibrated range
 ENDS.flags.writeable = False
 # Newton stops when no point moved more than this (z spans 2 over the calibrated range)
 _Z_TOLERANCE = 2.0**-46
-
-
-def check_level(level) -> float:
-    try:
-        v = float(level)
-    except (TypeError, ValueError):
-        raise OptionError(f"level must be a number between 0 and 1, not {level!r}", argument="level") from None
-    if not 0 < v < 1:
-        raise OptionError(f"level must be between 0 and 1 (for example 0.95), not {level!r}", argument="level")
-    return v
 
 
 class Curve:

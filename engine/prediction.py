@@ -22,20 +22,9 @@ import numpy as np
 from numpy.polynomial import polynomial as P
 
 from .calibration import Calibration
-from .curve import ENDS, EXTEND, RANGE_NODES, Curve, check_level, newton_in_cells, sign_changes
-from .errors import DataError, OptionError
+from .curve import ENDS, EXTEND, RANGE_NODES, Curve, newton_in_cells, sign_changes
 from .results import InverseEstimate, Prediction
-
-
-def _finite(values, name: str) -> np.ndarray:
-    a = np.atleast_1d(np.asarray(values, dtype=float)).ravel()
-    if np.isfinite(a).all():
-        return a
-    bad = np.flatnonzero(~np.isfinite(a))
-    if bad.size:
-        i = int(bad[0])
-        raise DataError(f"{name}[{i}] is {float(a[i])!r}: every value must be a finite number", argument=name, index=i)
-    return a
+from .validation import check_level, check_replicates, check_vector
 
 
 _KINDS = np.array([0, 1, 2])  # inverse prediction's roots: the estimate, the lower end, the upper end
@@ -51,7 +40,7 @@ def _range_words(curve: Curve) -> str:
 def predict(cal: Calibration, new_x, order: int, level: float = 0.95) -> tuple[Prediction, ...]:
     """Fitted value, mean interval and prediction interval at each new x."""
     level = check_level(level)
-    x0 = _finite(new_x, "new_x")
+    x0 = check_vector(new_x, "new_x", flat=True)
     curve = cal.order(order).curve
     t = curve.t_value(level)
     weighted = cal.weighting.values is not None
@@ -76,23 +65,6 @@ def predict(cal: Calibration, new_x, order: int, level: float = 0.95) -> tuple[P
         for i in (~np.isfinite(half_pred)).nonzero()[0].tolist():
             notes[i] = f"{notes[i]}; {no_weight}" if notes[i] else no_weight
     return tuple(map(Prediction._make, zip(x0.tolist(), *columns, notes)))
-
-
-def _replicates(replicates, count: int) -> np.ndarray:
-    if type(replicates) in (int, float) and math.isfinite(replicates) and replicates >= 1 \
-            and replicates == int(replicates):
-        return np.full(count, float(replicates))
-    m = np.atleast_1d(np.asarray(replicates, dtype=float)).ravel()
-    if m.size == 1:
-        m = np.full(count, m[0])
-    if m.size != count:
-        raise OptionError(f"replicates has {m.size} values for {count} readings; give one number or one per reading",
-                          argument="replicates")
-    bad = np.flatnonzero(~(np.isfinite(m) & (m >= 1) & (m == np.round(m))))
-    if bad.size:
-        raise OptionError(f"replicates must be a whole number of at least 1, not {float(m[bad[0]])!r}",
-                          argument="replicates", index=int(bad[0]))
-    return m
 
 
 def roots_of(curve: Curve, readings: np.ndarray, z_lo: float, z_hi: float):
@@ -280,8 +252,8 @@ def _domain_edge(cal: Calibration) -> str:
 def inverse(cal: Calibration, readings, order: int, replicates=1, level: float = 0.95) -> tuple[InverseEstimate, ...]:
     """x estimate and interval for each reading (the mean of ``replicates`` readings)."""
     level = check_level(level)
-    y0 = _finite(readings, "reading")
-    m = _replicates(replicates, y0.size)
+    y0 = check_vector(readings, "reading", flat=True)
+    m = check_replicates(replicates, y0.size)
     curve = cal.order(order).curve
     t = curve.t_value(level)
     with np.errstate(over="ignore"):  # a reading far beyond the responses' scale is inf: outside the range
