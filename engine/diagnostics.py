@@ -372,7 +372,9 @@ def curve_checks(cal: Calibration, order: int, alpha: float = 0.05, point_labels
         # algorithm takes a range below 1e-19 as zero
         from scipy.stats import shapiro  # imported on first use: scipy.stats takes half a second to import
 
-        w_stat, w_p = shapiro(np.ldexp(e, -math.frexp(float(np.abs(e).max()))[1]))
+        # undecorated: scipy's axis/NaN-policy wrapper adds 11 % to a sheet's eight functions after an edit
+        # (benchmarks, alternating rounds); tests compare against the public scipy.stats.shapiro
+        w_stat, w_p = getattr(shapiro, "__wrapped__", shapiro)(np.ldexp(e, -math.frexp(float(np.abs(e).max()))[1]))
         v = _verdict(float(w_p), level)
         words = ("residuals depart from a normal distribution" if v == "warning"
                  else "no evidence against normal residuals")
