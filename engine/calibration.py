@@ -34,8 +34,6 @@ DEFAULT_MAX_ORDER = 4
 # error: about a thousand units in the last place of the largest response per point, far below the noise
 # of any instrument
 ROUNDING = 2.0**-42
-# points x right-hand sides up to which every order's covariance is refined in the same call
-_ONE_CALL_LIMIT = 4096
 # smallest |R_jj| / max |R_jj| of the scaled basis accepted as full rank (far below any real calibration)
 _RANK_TOLERANCE = 1e-12
 _LN2, _LN_2PI = math.log(2.0), math.log(2.0 * math.pi)
@@ -70,23 +68,6 @@ def default_max_order(n_points: int, n_distinct: int) -> int:
     few to choose an order.
     """
     return max(min(DEFAULT_MAX_ORDER, n_distinct - 2, n_points - 5), min(2, n_distinct - 2, n_points - 3))
-
-
-def _rhs_layout(big_p: int, with_cov: bool):
-    """Rows of the stacked right-hand sides of ``Calibration._refined_all``, per order k = 0..big_p - 1:
-    the first row of each order (its y), the c block (-I for its covariance) and the mask of its powers;
-    and where the solution holds the diagonal of each order's covariance (row and column indices, all
-    orders in turn, each order's k + 1 entries)."""
-    sizes = [k + 2 if with_cov else 1 for k in range(big_p)]
-    first = np.cumsum([0] + sizes[:-1])
-    c, mask = np.zeros((sum(sizes), big_p)), np.zeros((sum(sizes), big_p))
-    for k, j in enumerate(first):
-        if with_cov:
-            c[j + 1 + np.arange(k + 1), np.arange(k + 1)] = -1.0
-        mask[j: j + sizes[k], : k + 1] = 1.0
-    cols = np.concatenate([np.arange(k + 1) for k in range(big_p)])
-    rows = np.repeat(first + 1, np.arange(1, big_p + 1)) + cols
-    return first, c, mask, (rows, cols)
 
 
 class Calibration:
@@ -193,7 +174,6 @@ class Calibration:
         self._ss_rounding = n * (ROUNDING * float(np.abs(self._yw).max())) ** 2
         self._t = conversion_matrix(self.centre, self.half_width, k)
         self._stats: dict[int, OrderStats] = {}
-        self._cov: dict[int, np.ndarray] = {}
         self._orders: dict[int, OrderResults] = {}
         self._choices: dict[tuple[str, float], OrderChoice] = {}
 
@@ -292,54 +272,42 @@ class Calibration:
             return hi, lo
         return dd.mul_double(hi, lo, self.sqrt_w[:, None])
 
-    def refined(self, order: int):
-        """Raw coefficients (scaled units), diagonal of (V'WV)^-1, and the weighted residual of ``order``."""
-        coef, diag = self._refined_all[0][order]
-        if diag is None:
-            diag = self._covariance_diagonal(order)
-        return coef, diag, self._residual_rows[order]
-
     @cached_property
-    def _refined_all(self) -> tuple[dict, np.ndarray]:
-        """Every order 0..K refined in one call: {order: (raw coefficients, covariance diagonal or None)}
-        and the scaled weighted residuals of order k in row k.
+    def _refined_all(self) -> tuple[np.ndarray, np.ndarray]:
+        """Every order 0..K refined in one call: row k holds the raw coefficients of order k (scaled units,
+        zeros beyond its k + 1 powers) and, in the second array, its scaled weighted residuals.
 
-        Each order k contributes the right-hand side [y | 0] (and, for a small
-        problem, [0 | -I_(k+1)] for its (V'WV)^-1) with a mask that keeps its
-        solution to the first k+1 raw powers; the leading blocks of Q, R^-1 and T
-        are order k's own (all three are triangular or nested), so one iteration
-        serves every order.
+        Each order k contributes the right-hand side y with a mask that keeps its solution to the first
+        k + 1 raw powers; the leading blocks of Q, R^-1 and T are order k's own (all three are triangular
+        or nested), so one iteration serves every order.
         """
-        n, big_p = self.n_points, self.max_order + 1
-        with_cov = n * (big_p * (big_p + 3) // 2) <= _ONE_CALL_LIMIT
-        first, c, mask, diagonal = _rhs_layout(big_p, with_cov)
-        rhs_hi, rhs_lo = np.zeros((c.shape[0], n)), None
+        big_p = self.max_order + 1
         if self.weighting.values is None:
-            rhs_hi[first] = self._ys
+            rhs_hi, rhs_lo = np.tile(self._ys, (big_p, 1)), None
         else:
-            rhs_lo = np.zeros((c.shape[0], n))
-            rhs_hi[first], rhs_lo[first] = dd.two_prod(self._ys, self.sqrt_w)
+            rhs_hi, rhs_lo = (np.tile(a, (big_p, 1)) for a in dd.two_prod(self._ys, self.sqrt_w))
         v_hi, v_lo = self._powers
-        (b_hi, b_lo), (e_hi, e_lo) = refine(v_hi, v_lo, self._q, self._r_inv, self._t, rhs_hi, rhs_lo, c, mask)
-        b = b_hi + b_lo
-        diag = np.maximum(b[diagonal], 0.0) if with_cov else None
-        return ({k: (b[j, : k + 1], diag[k * (k + 1) // 2: (k + 1) * (k + 2) // 2] if with_cov else None)
-                 for k, j in enumerate(first.tolist())}, e_hi[first] + e_lo[first])
+        (b_hi, b_lo), (e_hi, e_lo) = refine(v_hi, v_lo, self._q, self._r_inv, self._t, rhs_hi, rhs_lo,
+                                            np.zeros((big_p, big_p)), np.tri(big_p))
+        return b_hi + b_lo, e_hi + e_lo
 
     @cached_property
     def _residual_rows(self) -> np.ndarray:
         return self._refined_all[1]
 
-    def _covariance_diagonal(self, order: int) -> np.ndarray:
-        """Diagonal of (V'WV)^-1 of one order, refined on its own (large problems)."""
-        if order not in self._cov:
-            p, n = order + 1, self.n_points
-            v_hi, v_lo = self._powers
-            zeros = np.zeros((p, n))
-            (b_hi, b_lo), _ = refine(v_hi[:, :p], v_lo[:, :p], self._q[:, :p], self._r_inv[:p, :p],
-                                     self._t[:p, :p], zeros, None, -np.eye(p))
-            self._cov[order] = np.maximum(np.diag(b_hi) + np.diag(b_lo), 0.0)
-        return self._cov[order]
+    def raw_coefficients(self, order: int) -> np.ndarray:
+        """Refined coefficients of ``order`` in raw powers of x, times 2^(j e_x - e_y) for the power j
+        (``x_exponent``, ``y_exponent``)."""
+        return self._refined_all[0][order, : order + 1]
+
+    def covariance_diagonal(self, order: int) -> np.ndarray:
+        """Diagonal of (V'WV)^-1 of ``order`` in the scaled raw powers (u = x 2^-e_x), refined: the
+        augmented system with y = 0 and c = -I (``refine``)."""
+        p, n = order + 1, self.n_points
+        v_hi, v_lo = self._powers
+        (b_hi, b_lo), _ = refine(v_hi[:, :p], v_lo[:, :p], self._q[:, :p], self._r_inv[:p, :p],
+                                 self._t[:p, :p], np.zeros((p, n)), None, -np.eye(p))
+        return np.maximum(np.diag(b_hi) + np.diag(b_lo), 0.0)
 
     # -- statistics ---------------------------------------------------------------------------
 
@@ -509,7 +477,7 @@ class OrderResults:
     def fit(self) -> OrderFit:
         cal, k = self.cal, self.order
         stats = self.stats
-        coef, diag, _ = cal.refined(k)
+        coef, diag = cal.raw_coefficients(k), cal.covariance_diagonal(k)
         sd = cal.scaled_residual_sd(k)
         coefs, ses, ts = [], [], []
         exact = cal.exact_order is not None and k >= cal.exact_order  # no t test on rounding error

@@ -29,7 +29,6 @@ _MAX_STEPS = 10
 _TOLERANCE = 2.0**-100
 _ENOUGH = 2.0**-64
 _BLOCK = 2**18  # elements per temporary array (m, p, rows) in the residual computation
-_FULL = 2**14  # up to this many elements the pieces are laid out in full rather than broadcast
 
 
 def conversion_matrix(centre: float, half_width: float, order: int) -> np.ndarray:
@@ -42,19 +41,10 @@ def conversion_matrix(centre: float, half_width: float, order: int) -> np.ndarra
     return binomials * float(-centre) ** np.maximum(j[None, :] - j[:, None], 0) / half_width**j
 
 
-def _pieces(hi: np.ndarray, lo, shape, full: bool):
+def _pieces(hi: np.ndarray, lo):
     """A double-double array (hi, lo) and the Dekker split of hi, for ``_products``; lo None stands for
-    zeros. With ``full`` each is laid out in full as ``shape`` (on small arrays elementwise operations
-    are several times faster without broadcasting); otherwise they stay as given and broadcast."""
-    if not full:
-        return (hi, lo, *dd.split(hi))
-    out = np.empty((3 if lo is None else 4,) + shape)
-    out[0] = hi
-    out[-2], out[-1] = dd.split(hi)
-    if lo is None:
-        return out[0], None, out[1], out[2]
-    out[1] = lo
-    return tuple(out)
+    zeros."""
+    return (hi, lo, *dd.split(hi))
 
 
 def _products(a, b):
@@ -128,10 +118,8 @@ def refine(v_hi, v_lo, q, r_inv, t, y_hi, y_lo, c, mask=None):
     for i in range(0, n, rows):
         j = min(i + rows, n)
         v_max = np.abs(v_hi[i:j]).max(axis=0)
-        shape, full = (m, p, j - i), m * p * (j - i) <= _FULL
         vt_hi, vt_lo = np.ascontiguousarray(v_hi[i:j].T), np.ascontiguousarray(v_lo[i:j].T)
-        blocks.append((slice(i, j), shape, full, _pieces(vt_hi, vt_lo, shape, full), v_max, float(v_max.max()),
-                       np.ones(j - i)))
+        blocks.append((slice(i, j), _pieces(vt_hi, vt_lo), v_max, float(v_max.max()), np.ones(j - i)))
     ones_p = np.ones(p)
     y_top = np.abs(y_hi).max(axis=1)
     previous = 1.0
@@ -141,9 +129,9 @@ def refine(v_hi, v_lo, q, r_inv, t, y_hi, y_lo, c, mask=None):
         e_top = np.abs(e_hi).max(axis=1)
         nb_hi, nb_lo = -b_hi[:, :, None], None if first else -b_lo[:, :, None]
         g_sum = None  # -V'e, summed over the blocks
-        for s, shape, full, v, v_max, v_top, ones_n in blocks:
+        for s, v, v_max, v_top, ones_n in blocks:
             # f = y - e - V b: the p terms of each row plus y and -e; sigma bounds every term
-            big, small = _products(v, _pieces(nb_hi, nb_lo, shape, full))
+            big, small = _products(v, _pieces(nb_hi, nb_lo))
             sigma = _sigma(np.maximum(np.maximum(y_top, e_top), np.abs(b_hi) @ v_max), p + 2)[:, None]
             high = _high_parts(big, sigma[:, :, None])
             big += small
@@ -159,8 +147,8 @@ def refine(v_hi, v_lo, q, r_inv, t, y_hi, y_lo, c, mask=None):
             f[:, s] = (ones_p @ high + q_y + q_e) + rest
             # -V'e over the rows of the block
             ne_lo = None if first else -e_lo[:, None, s]
-            big, small = _products(v, _pieces(-e_hi[:, None, s], ne_lo, shape, full))
-            high = _high_parts(big, _sigma(e_top * v_top, shape[2])[:, None, None])
+            big, small = _products(v, _pieces(-e_hi[:, None, s], ne_lo))
+            high = _high_parts(big, _sigma(e_top * v_top, s.stop - s.start)[:, None, None])
             big += small
             part = (high @ ones_n, big @ ones_n)  # the exact sum of the high parts, the rest
             g_sum = part if g_sum is None else dd.add(*dd.two_sum(*g_sum), *dd.two_sum(*part))
