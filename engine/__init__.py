@@ -12,7 +12,8 @@ from .diagnostics import curve_checks, point_diagnostics
 from .errors import CalibrationError, DataError, OptionError, OrderError, WeightError
 from .limits import detection_limits
 from .prediction import inverse, predict
-from .selection import DEFAULT_RULE, RULES, choose_order, forward_steps, lack_of_fit_words, mandel_test
+from .selection import choose_order, forward_steps, lack_of_fit_words, mandel_test
+from .validation import DEFAULT_RULE, RULES
 from .weight_choice import compare_weightings, spread_exponent
 
 __all__ = [

@@ -16,17 +16,17 @@ from __future__ import annotations
 
 import functools
 import math
-import operator
+from functools import cached_property
 
 import numpy as np
+from numpy.polynomial import polynomial as P
 
 from . import doubledouble as dd
 from .distributions import f_sf, t_two_sided
 from .errors import DataError, OrderError
-from .lazy import lazy
-from .polynomials import power_rows
 from .refine import conversion_matrix, refine
-from .results import FTest, LackOfFit, OrderFit, OrderStats, SequentialRow, SequentialTable
+from .results import FTest, Influence, LackOfFit, OrderChoice, OrderFit, OrderStats, SequentialRow, SequentialTable
+from .validation import check_alpha, check_order, check_rule, check_vector, check_whole
 from .weighting import Weighting, weight_order
 
 DEFAULT_MAX_ORDER = 4
@@ -34,40 +34,17 @@ DEFAULT_MAX_ORDER = 4
 # error: about a thousand units in the last place of the largest response per point, far below the noise
 # of any instrument
 ROUNDING = 2.0**-42
-# points x right-hand sides up to which every order's covariance is refined in the same call
-_ONE_CALL_LIMIT = 4096
 # smallest |R_jj| / max |R_jj| of the scaled basis accepted as full rank (far below any real calibration)
 _RANK_TOLERANCE = 1e-12
 _LN2, _LN_2PI = math.log(2.0), math.log(2.0 * math.pi)
 
 
-def _vector(values, name: str) -> np.ndarray:
+def _ldexp(value: float, e: int) -> float:
+    """value * 2**e; inf (with the sign of value) where that is beyond the double range."""
     try:
-        a = np.asarray(values, dtype=float)
-    except (TypeError, ValueError):
-        raise DataError(f"{name} must hold numbers only", argument=name) from None
-    if a.ndim != 1:
-        raise DataError(f"{name} must be one-dimensional, not of shape {a.shape}", argument=name)
-    if np.isfinite(a).all():
-        return a
-    bad = np.flatnonzero(~np.isfinite(a))
-    if bad.size:
-        i = int(bad[0])
-        raise DataError(
-            f"{name}[{i}] is {float(a[i])!r}: every value must be a finite number", argument=name, index=i
-        )
-    return a
-
-
-def _whole(value, name: str) -> int:
-    try:
-        k = operator.index(value)
-    except TypeError:
-        if isinstance(value, float) and value.is_integer():
-            k = int(value)
-        else:
-            raise OrderError(f"{name} must be a whole number, not {value!r}", argument=name) from None
-    return k
+        return math.ldexp(value, e)
+    except OverflowError:
+        return math.copysign(math.inf, value)
 
 
 def householder_qr(a: np.ndarray):
@@ -82,11 +59,6 @@ def _triangular_inverse(r: np.ndarray) -> np.ndarray:
     return np.linalg.inv(r)
 
 
-def order_limit(n_points: int, n_distinct: int) -> int:
-    """Highest order the data can fit with one residual degree of freedom."""
-    return min(n_distinct - 1, n_points - 2)
-
-
 def default_max_order(n_points: int, n_distinct: int) -> int:
     """max(min(4, m - 2, n - 5), min(2, m - 2, n - 3)) for n points at m distinct x.
 
@@ -98,26 +70,6 @@ def default_max_order(n_points: int, n_distinct: int) -> int:
     return max(min(DEFAULT_MAX_ORDER, n_distinct - 2, n_points - 5), min(2, n_distinct - 2, n_points - 3))
 
 
-@functools.lru_cache(maxsize=64)
-def _rhs_layout(big_p: int, with_cov: bool):
-    """Rows of the stacked right-hand sides of ``Calibration._refined_all``, per order k = 0..big_p - 1:
-    the first row of each order (its y), the c block (-I for its covariance) and the mask of its powers;
-    and where the solution holds the diagonal of each order's covariance (row and column indices, all
-    orders in turn, each order's k + 1 entries)."""
-    sizes = [k + 2 if with_cov else 1 for k in range(big_p)]
-    first = np.cumsum([0] + sizes[:-1])
-    c, mask = np.zeros((sum(sizes), big_p)), np.zeros((sum(sizes), big_p))
-    for k, j in enumerate(first):
-        if with_cov:
-            c[j + 1 + np.arange(k + 1), np.arange(k + 1)] = -1.0
-        mask[j: j + sizes[k], : k + 1] = 1.0
-    cols = np.concatenate([np.arange(k + 1) for k in range(big_p)])
-    rows = np.repeat(first + 1, np.arange(1, big_p + 1)) + cols
-    for a in (first, c, mask, rows, cols):
-        a.flags.writeable = False
-    return first, c, mask, (rows, cols)
-
-
 class Calibration:
     """Points (x, y), optional weights, factorised once up to ``max_order``.
 
@@ -127,8 +79,8 @@ class Calibration:
     """
 
     def __init__(self, x, y, max_order=None, weights=None):
-        x = _vector(x, "x")
-        y = _vector(y, "y")
+        x = check_vector(x, "x")
+        y = check_vector(y, "y")
         if x.size != y.size:
             raise DataError(
                 f"x has {x.size} values and y has {y.size}: give one y for every x", argument="y"
@@ -169,8 +121,8 @@ class Calibration:
                     argument="max_order",
                 )
         else:
-            k = _whole(max_order, "max_order")
-            self.check_order(k, "max_order", n, m)
+            k = check_whole(max_order, "max_order")
+            check_order(k, "max_order", n, m)
         self.x, self.y = x, y
         self.by_x = by_x  # a stable sort of the points by x
         self.n_points, self.n_distinct, self.max_order = n, m, k
@@ -188,7 +140,7 @@ class Calibration:
         self.dx_dz = math.ldexp(self.half_width, self._ex)  # x per unit of z
         self._u = u
         self.z = z = (u - self.centre) / self.half_width  # the standards' x in the scaled variable
-        basis = power_rows(z, k + 1).T
+        basis = P.polyvander(z, k)
         if self.weighting.iterative:
             self.weighting.settle(x, y, functools.partial(self._fitted_under, basis[:, : weight_order(k) + 1]))
             w = self.weighting.values
@@ -222,8 +174,8 @@ class Calibration:
         self._ss_rounding = n * (ROUNDING * float(np.abs(self._yw).max())) ** 2
         self._t = conversion_matrix(self.centre, self.half_width, k)
         self._stats: dict[int, OrderStats] = {}
-        self._cov: dict[int, np.ndarray] = {}
-        self._fits: dict[int, OrderFit] = {}
+        self._orders: dict[int, OrderResults] = {}
+        self._choices: dict[tuple[str, float], OrderChoice] = {}
 
     def _fitted_under(self, basis: np.ndarray, w: np.ndarray) -> np.ndarray:
         """Fitted y of the standards on ``basis`` under weights w (one QR; for ``Weighting.settle``)."""
@@ -233,28 +185,34 @@ class Calibration:
 
     # -- orders ---------------------------------------------------------------------------
 
-    @staticmethod
-    def check_order(order: int, name: str, n: int, m: int) -> None:
-        if order < 1:
-            raise OrderError(f"{name} must be at least 1, not {order}", argument=name)
-        if order > order_limit(n, m):
-            raise OrderError(
-                f"{name} {order} needs at least {order + 1} distinct x values and {order + 2} points; "
-                f"there are {m} and {n}",
-                argument=name,
-            )
-
     def resolve_order(self, order, name: str = "order") -> int:
         """Validate an order against this calibration's max order."""
         if type(order) is int and 0 <= order <= self.max_order:  # the usual case
             return order
-        k = _whole(order, name)
+        k = check_whole(order, name)
         if k < 0 or k > self.max_order:
             raise OrderError(
                 f"{name} {k} is outside 0..{self.max_order}, the orders this calibration was fitted to",
                 argument=name,
             )
         return k
+
+    def order(self, order) -> OrderResults:
+        """The results of ``order`` (0 .. max_order), made once: see ``OrderResults``."""
+        k = self.resolve_order(order)
+        if k not in self._orders:
+            self._orders[k] = OrderResults(self, k)
+        return self._orders[k]
+
+    def choice(self, rule: str, alpha: float) -> OrderChoice:
+        """The order ``rule`` picks at ``alpha``, with the reason in words (``selection``), made once per
+        rule and alpha."""
+        from . import selection  # the rules read this calibration's statistics
+
+        key = check_rule(rule), check_alpha(alpha)
+        if key not in self._choices:
+            self._choices[key] = selection.choose(self, *key)
+        return self._choices[key]
 
     # -- scaled-basis pieces used by the other modules --------------------------------------
 
@@ -265,6 +223,11 @@ class Calibration:
     def raw_x(self, z) -> np.ndarray:
         """raw x for z."""
         return np.ldexp(np.asarray(z, dtype=float) * self.half_width + self.centre, self._ex)
+
+    @property
+    def x_exponent(self) -> int:
+        """e such that the basis works with x 2^-e (an exact scaling: |x 2^-e| < 1)."""
+        return self._ex
 
     @property
     def y_exponent(self) -> int:
@@ -302,61 +265,49 @@ class Calibration:
 
     # -- refined solution ---------------------------------------------------------------------
 
-    @lazy
+    @cached_property
     def _powers(self):
         hi, lo = dd.powers(self._u, self.max_order)
         if self.weighting.values is None:
             return hi, lo
         return dd.mul_double(hi, lo, self.sqrt_w[:, None])
 
-    def _refined(self, order: int):
-        """Raw coefficients (scaled units), diagonal of (V'WV)^-1, and the weighted residual of ``order``."""
-        coef, diag = self._refined_all[0][order]
-        if diag is None:
-            diag = self._covariance_diagonal(order)
-        return coef, diag, self._residual_rows[order]
+    @cached_property
+    def _refined_all(self) -> tuple[np.ndarray, np.ndarray]:
+        """Every order 0..K refined in one call: row k holds the raw coefficients of order k (scaled units,
+        zeros beyond its k + 1 powers) and, in the second array, its scaled weighted residuals.
 
-    @lazy
-    def _refined_all(self) -> tuple[dict, np.ndarray]:
-        """Every order 0..K refined in one call: {order: (raw coefficients, covariance diagonal or None)}
-        and the scaled weighted residuals of order k in row k.
-
-        Each order k contributes the right-hand side [y | 0] (and, for a small
-        problem, [0 | -I_(k+1)] for its (V'WV)^-1) with a mask that keeps its
-        solution to the first k+1 raw powers; the leading blocks of Q, R^-1 and T
-        are order k's own (all three are triangular or nested), so one iteration
-        serves every order.
+        Each order k contributes the right-hand side y with a mask that keeps its solution to the first
+        k + 1 raw powers; the leading blocks of Q, R^-1 and T are order k's own (all three are triangular
+        or nested), so one iteration serves every order.
         """
-        n, big_p = self.n_points, self.max_order + 1
-        with_cov = n * (big_p * (big_p + 3) // 2) <= _ONE_CALL_LIMIT
-        first, c, mask, diagonal = _rhs_layout(big_p, with_cov)
-        rhs_hi, rhs_lo = np.zeros((c.shape[0], n)), None
+        big_p = self.max_order + 1
         if self.weighting.values is None:
-            rhs_hi[first] = self._ys
+            rhs_hi, rhs_lo = np.tile(self._ys, (big_p, 1)), None
         else:
-            rhs_lo = np.zeros((c.shape[0], n))
-            rhs_hi[first], rhs_lo[first] = dd.two_prod(self._ys, self.sqrt_w)
+            rhs_hi, rhs_lo = (np.tile(a, (big_p, 1)) for a in dd.two_prod(self._ys, self.sqrt_w))
         v_hi, v_lo = self._powers
-        (b_hi, b_lo), (e_hi, e_lo) = refine(v_hi, v_lo, self._q, self._r_inv, self._t, rhs_hi, rhs_lo, c, mask)
-        b = b_hi + b_lo
-        diag = np.maximum(b[diagonal], 0.0) if with_cov else None
-        return ({k: (b[j, : k + 1], diag[k * (k + 1) // 2: (k + 1) * (k + 2) // 2] if with_cov else None)
-                 for k, j in enumerate(first.tolist())}, e_hi[first] + e_lo[first])
+        (b_hi, b_lo), (e_hi, e_lo) = refine(v_hi, v_lo, self._q, self._r_inv, self._t, rhs_hi, rhs_lo,
+                                            np.zeros((big_p, big_p)), np.tri(big_p))
+        return b_hi + b_lo, e_hi + e_lo
 
-    @lazy
+    @cached_property
     def _residual_rows(self) -> np.ndarray:
         return self._refined_all[1]
 
-    def _covariance_diagonal(self, order: int) -> np.ndarray:
-        """Diagonal of (V'WV)^-1 of one order, refined on its own (large problems)."""
-        if order not in self._cov:
-            p, n = order + 1, self.n_points
-            v_hi, v_lo = self._powers
-            zeros = np.zeros((p, n))
-            (b_hi, b_lo), _ = refine(v_hi[:, :p], v_lo[:, :p], self._q[:, :p], self._r_inv[:p, :p],
-                                     self._t[:p, :p], zeros, None, -np.eye(p))
-            self._cov[order] = np.maximum(np.diag(b_hi) + np.diag(b_lo), 0.0)
-        return self._cov[order]
+    def raw_coefficients(self, order: int) -> np.ndarray:
+        """Refined coefficients of ``order`` in raw powers of x, times 2^(j e_x - e_y) for the power j
+        (``x_exponent``, ``y_exponent``)."""
+        return self._refined_all[0][order, : order + 1]
+
+    def covariance_diagonal(self, order: int) -> np.ndarray:
+        """Diagonal of (V'WV)^-1 of ``order`` in the scaled raw powers (u = x 2^-e_x), refined: the
+        augmented system with y = 0 and c = -I (``refine``)."""
+        p, n = order + 1, self.n_points
+        v_hi, v_lo = self._powers
+        (b_hi, b_lo), _ = refine(v_hi[:, :p], v_lo[:, :p], self._q[:, :p], self._r_inv[:p, :p],
+                                 self._t[:p, :p], np.zeros((p, n)), None, -np.eye(p))
+        return np.maximum(np.diag(b_hi) + np.diag(b_lo), 0.0)
 
     # -- statistics ---------------------------------------------------------------------------
 
@@ -365,15 +316,15 @@ class Calibration:
         if "lack of fit" not in tests:
             return [None] * (self.max_order + 1)
         ey2 = 2 * self._ey
-        pure, df_pe = self._ldexp(self._ss_pure, ey2), self.n_points - self.n_distinct
+        pure, df_pe = _ldexp(self._ss_pure, ey2), self.n_points - self.n_distinct
         exact = self.exact_order
         identical = "not testable: replicates are identical" if self._ss_pure <= self._ss_rounding else ""
-        return [LackOfFit(self._ldexp(ss, ey2), test.df_num, pure, df_pe, test,
+        return [LackOfFit(_ldexp(ss, ey2), test.df_num, pure, df_pe, test,
                           f"the data fit exactly at order {exact}" if exact is not None and k >= exact else identical)
                 if test.df_num >= 1 else None
                 for k, (ss, test) in enumerate(zip(self._ss_lack_of_fit.tolist(), tests["lack of fit"]))]
 
-    @lazy
+    @cached_property
     def exact_order(self) -> int | None:
         """The lowest order whose residual sum of squares is rounding error of the responses (at most
         n (2^-42 max |sqrt(w) y|)^2), or None: at and above it the data fit exactly, and no F test with
@@ -381,11 +332,11 @@ class Calibration:
         exact = (self._all_rss <= self._ss_rounding).nonzero()[0]
         return int(exact[0]) if exact.size else None
 
-    @lazy
+    @cached_property
     def _ss_lack_of_fit(self) -> np.ndarray:
         return np.maximum(self._all_rss - self._ss_pure, 0.0)
 
-    @lazy
+    @cached_property
     def _f_tests(self) -> dict[str, tuple[FTest, ...]]:
         """Every F test of every order, from one vectorised pass: "overall" (orders 0..K: the regression
         against the mean; order 0 has none), "lack of fit" (orders 0..K; only with replicates), "step"
@@ -424,7 +375,7 @@ class Calibration:
     def _rss(self, order: int) -> float:
         return float(self._all_rss[order])
 
-    @lazy
+    @cached_property
     def _all_rss(self) -> np.ndarray:
         e = self._residual_rows
         return np.einsum("ij,ij->i", e, e)
@@ -466,59 +417,32 @@ class Calibration:
             aicc = -2 * llf + 2 * npar + (2 * npar * (npar + 1) / (n - npar - 1) if n - npar - 1 > 0 else math.nan)
             r2 = 1.0 - r / self._tss
             made[k] = OrderStats(
-                order=k, n_points=n, df_resid=d, rss=self._ldexp(r, ey2),
+                order=k, n_points=n, df_resid=d, rss=_ldexp(r, ey2),
                 residual_sd=math.ldexp(math.sqrt(r / d), self._ey),
                 r_squared=r2, adj_r_squared=1.0 - (1.0 - r2) * (n - 1) / d,
-                press=self._ldexp(pr, ey2), predicted_r_squared=1.0 - pr / self._tss,
+                press=_ldexp(pr, ey2), predicted_r_squared=1.0 - pr / self._tss,
                 aicc=aicc, bic=-2 * llf + npar * math.log(n),
                 overall=overall if k >= 1 else None,
                 lack_of_fit=lack[k],
             )
         self._stats = made
 
-    @staticmethod
-    def _ldexp(value: float, e: int) -> float:
-        """value * 2**e; inf (with the sign of value) where that is beyond the double range."""
-        try:
-            return math.ldexp(value, e)
-        except OverflowError:
-            return math.copysign(math.inf, value)
-
     def fit(self, order) -> OrderFit:
         """Coefficients of ``order`` in raw powers of x, with standard errors, t and p."""
-        k = self.resolve_order(order)
-        if k in self._fits:
-            return self._fits[k]
-        stats = self.stats(k)
-        coef, diag, _ = self._refined(k)
-        sd = math.sqrt(self._rss(k) / stats.df_resid)
-        coefs, ses, ts = [], [], []
-        exact = self.exact_order is not None and k >= self.exact_order  # no t test on rounding error
-        for j, (b, d) in enumerate(zip(coef.tolist(), diag.tolist())):
-            se = sd * math.sqrt(d)
-            ts.append(math.nan if exact else
-                      b / se if se > 0 else (math.nan if b == 0 else math.copysign(math.inf, b)))
-            # back to the units of x and y; t (a ratio) is taken before, so it survives over- or underflow
-            e = self._ey - self._ex * j
-            coefs.append(self._ldexp(b, e))
-            ses.append(self._ldexp(se, e))
-        p_values = t_two_sided(np.array(ts), stats.df_resid).tolist()
-        fit = OrderFit(k, tuple(coefs), tuple(ses), tuple(ts), tuple(p_values), stats)
-        self._fits[k] = fit
-        return fit
+        return self.order(order).fit
 
     def sequential_table(self) -> SequentialTable:
         """Type I ANOVA of the max-order model: each term against the max-order residual."""
         return self._sequential
 
-    @lazy
+    @cached_property
     def _sequential(self) -> SequentialTable:
         k = self.max_order
         st = self.stats(k)
         ey2 = 2 * self._ey
-        rows = tuple(SequentialRow(j, self._ldexp(ss, ey2), test)
+        rows = tuple(SequentialRow(j, _ldexp(ss, ey2), test)
                      for j, (ss, test) in enumerate(zip((self._qty[1:] ** 2).tolist(), self._f_tests["sequential"]), 1))
-        return SequentialTable(k, rows, st.rss, st.df_resid, st.lack_of_fit, self._ldexp(self._tss, ey2),
+        return SequentialTable(k, rows, st.rss, st.df_resid, st.lack_of_fit, _ldexp(self._tss, ey2),
                                self.n_points - 1)
 
     def step_test(self, order: int) -> FTest:
@@ -531,3 +455,63 @@ class Calibration:
     def step_tests(self) -> tuple[FTest, ...]:
         """``step_test`` of every order 1 .. max_order."""
         return self._f_tests["step"]
+
+
+class OrderResults:
+    """One order of a calibration; every figure is computed from the calibration's one factorisation on
+    first use and then kept (as statsmodels' regression results compute derived statistics).
+
+    ``stats`` (goodness of fit), ``fit`` (raw power coefficients with standard errors, t and p),
+    ``curve`` (values, band and roots in the scaled variable: ``curve.Curve``) and ``influence``
+    (leverages, studentized residuals, Cook's distances and the outliers' Bonferroni p-values).
+    """
+
+    def __init__(self, cal: Calibration, order: int):
+        self.cal, self.order = cal, order
+
+    @property
+    def stats(self) -> OrderStats:
+        return self.cal.stats(self.order)
+
+    @cached_property
+    def fit(self) -> OrderFit:
+        cal, k = self.cal, self.order
+        stats = self.stats
+        coef, diag = cal.raw_coefficients(k), cal.covariance_diagonal(k)
+        sd = cal.scaled_residual_sd(k)
+        coefs, ses, ts = [], [], []
+        exact = cal.exact_order is not None and k >= cal.exact_order  # no t test on rounding error
+        for j, (b, d) in enumerate(zip(coef.tolist(), diag.tolist())):
+            se = sd * math.sqrt(d)
+            ts.append(math.nan if exact else
+                      b / se if se > 0 else (math.nan if b == 0 else math.copysign(math.inf, b)))
+            # back to the units of x and y; t (a ratio) is taken before, so it survives over- or underflow
+            e = cal.y_exponent - cal.x_exponent * j
+            coefs.append(_ldexp(b, e))
+            ses.append(_ldexp(se, e))
+        p_values = t_two_sided(np.array(ts), stats.df_resid).tolist()
+        return OrderFit(k, tuple(coefs), tuple(ses), tuple(ts), tuple(p_values), stats)
+
+    @cached_property
+    def curve(self):
+        from .curve import Curve  # the curve builds on the calibration
+
+        return Curve(self.cal, self.order)
+
+    @cached_property
+    def influence(self) -> Influence:
+        """Weighted residuals e_i, leverages h_i, p = order + 1, df = n - p: r_i = e_i / (s sqrt(1 - h_i)),
+        t_i = r_i sqrt((df - 1) / (df - r_i^2)), D_i = r_i^2 h_i / (p (1 - h_i)) (Cook & Weisberg, Residuals
+        and Influence in Regression, Chapman & Hall 1982, ch. 2 and 3), and n P(|T_(df-1)| > |t_i|) capped at 1."""
+        cal, k = self.cal, self.order
+        e = cal.scaled_residuals(k)  # in curve units, as s
+        h = cal.leverage(k)
+        df, n = cal.n_points - k - 1, cal.n_points
+        with np.errstate(divide="ignore", invalid="ignore"):
+            one_minus_h = 1.0 - h
+            r = e / (cal.scaled_residual_sd(k) * np.sqrt(one_minus_h))
+            r2 = r * r
+            t = r * np.sqrt((df - 1) / (df - r2)) if df > 1 else np.full_like(r, np.nan)
+            cook = r2 * h / ((k + 1) * one_minus_h)
+        bonferroni = np.minimum(1.0, n * t_two_sided(t, df - 1)) if df >= 2 else np.full(t.shape, np.nan)
+        return Influence(h, r, t, cook, bonferroni)

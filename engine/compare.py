@@ -18,14 +18,14 @@ with t on df_s, which is what the separate-curves model with set indicators give
 from __future__ import annotations
 
 import numpy as np
+from numpy.polynomial import polynomial as P
 
-from .calibration import Calibration, order_limit
-from .curve import check_level, curve_of
+from .calibration import Calibration
 from .distributions import f_sf, t_quantile, t_two_sided
 from .errors import OrderError
-from .polynomials import power_rows
 from .prediction import inverse
 from .results import Comparison, DifferenceRow, FTest
+from .validation import check_level, order_limit
 
 
 def _rss(columns: np.ndarray, yw: np.ndarray) -> float:
@@ -65,7 +65,7 @@ def compare(today: Calibration, reference: Calibration, order: int, level: float
     z = (x - (lo + hi) / 2) / ((hi - lo) / 2)
     scale = float(np.abs(y).max())
     yw = sw * y / scale
-    common = power_rows(z, k + 1).T * sw[:, None]
+    common = P.polyvander(z, k) * sw[:, None]
     rss_c = _rss(common, yw)
     rss_p = _rss(np.column_stack([common, d * sw]), yw)
     rss_s = _rss(np.column_stack([common, common * d[:, None]]), yw)
@@ -99,7 +99,7 @@ def compare(today: Calibration, reference: Calibration, order: int, level: float
     if at.size:
         fitted, unscaled = [], []
         for cal in (today, reference):
-            curve = curve_of(cal, k)
+            curve = cal.order(k).curve
             zz = cal.scaled_x(at)
             fitted.append(curve.to_y(curve.value(zz)))
             unscaled.append(curve.mean_variance(zz) / curve.s**2)  # Var(fitted mean) / sigma^2

@@ -9,14 +9,14 @@ that variances and squared gaps neither overflow nor underflow.
 
 from __future__ import annotations
 
-import functools
+from functools import cached_property
 
 import numpy as np
+from numpy.polynomial import polynomial as P
 
 from .calibration import Calibration
 from .distributions import t_quantile
-from .errors import OptionError
-from .polynomials import horner, power_rows
+from .weighting import weight_order
 
 # grid over z for locating roots and band edges: 400 cells across the calibrated
 # range [-1, 1] (its ends are nodes), and the curve is used up to EXTEND (in units
@@ -35,39 +35,21 @@ ENDS.flags.writeable = False
 _Z_TOLERANCE = 2.0**-46
 
 
-def check_level(level) -> float:
-    try:
-        v = float(level)
-    except (TypeError, ValueError):
-        raise OptionError(f"level must be a number between 0 and 1, not {level!r}", argument="level") from None
-    if not 0 < v < 1:
-        raise OptionError(f"level must be between 0 and 1 (for example 0.95), not {level!r}", argument="level")
-    return v
-
-
-def curve_of(cal: Calibration, order) -> "Curve":
-    """The curve of ``order``, made once per calibration and order."""
-    k = cal.resolve_order(order)
-    cache = cal.__dict__.setdefault("_curves", {})
-    if k not in cache:
-        cache[k] = Curve(cal, k)
-    return cache[k]
-
-
 class Curve:
     """Order ``order`` of ``cal``: f(z) = sum_j a_j z^j and Var(mean f(z)) = s^2 |z' R^-1|^2, in curve
-    units (y = 2^e f with e = ``cal.y_exponent``)."""
+    units (y = 2^e f with e = ``cal.y_exponent``). Made once per order: ``cal.order(k).curve``."""
 
     def __init__(self, cal: Calibration, order: int):
         self.cal = cal
-        self.order = cal.resolve_order(order)
+        self.order = order
         self.e = cal.y_exponent
         self.a = cal.scaled_coefficients(self.order)
         r_inv = cal.r_factor_inverse(self.order)
         self.r_inv = r_inv
         # Var(mean f(z)) / s^2 = b(z)' C b(z) with C = R^-1 R^-T: a polynomial in z of degree 2k
         c = r_inv @ r_inv.T
-        self._var_poly = np.bincount(_power_sums(self.order + 1), c.ravel())
+        p = np.arange(self.order + 1)
+        self._var_poly = np.bincount(np.add.outer(p, p).ravel(), c.ravel())  # z^i z^j = z^(i+j)
         self._dvar = _derivative(self._var_poly)
         self._da = _derivative(self.a)
         # f, f', Var(mean f)/s^2 and its slope as the columns of one matrix over z^0 .. z^2k
@@ -75,15 +57,14 @@ class Curve:
         self.local_polynomials = np.zeros((width, 4))
         for column, c in enumerate((self.a, self._da, self._var_poly, self._dvar)):
             self.local_polynomials[: c.size, column] = c
-        self._turns = None
         self._turns_in: dict[tuple[float, float], np.ndarray] = {}
         self.stats = cal.stats(self.order)
         self.s = cal.scaled_residual_sd(self.order)  # in curve units
         self.df = self.stats.df_resid
         self.x_min = float(cal.x[cal.by_x[0]])
         self.x_max = float(cal.x[cal.by_x[-1]])
-        self._grid = None
         self._t: dict[float, float] = {}
+        self._bands: dict[tuple[float, float], tuple | None] = {}
 
     def to_y(self, values) -> np.ndarray:
         """Curve units to the units of y."""
@@ -95,19 +76,19 @@ class Curve:
 
     def value(self, z) -> np.ndarray:
         """f(z) in curve units."""
-        return horner(self.a, z)
+        return P.polyval(z, self.a)
 
     def slope(self, z) -> np.ndarray:
         """dy/dz."""
-        return horner(self._da, z)
+        return P.polyval(z, self._da)
 
     def mean_variance(self, z) -> np.ndarray:
         """Var of the fitted mean at z, in curve units squared."""
-        return self.s**2 * np.maximum(horner(self._var_poly, z), 0.0)
+        return self.s**2 * np.maximum(P.polyval(z, self._var_poly), 0.0)
 
     def local(self, z: np.ndarray):
         """f(z), f'(z), the variance of the fitted mean and its slope, at the points z (1-D), in curve units."""
-        v = power_rows(z, self.local_polynomials.shape[0]).T @ self.local_polynomials
+        v = P.polyvander(z, self.local_polynomials.shape[0] - 1) @ self.local_polynomials
         s2 = self.s**2
         return v[:, 0], v[:, 1], s2 * np.maximum(v[:, 2], 0.0), s2 * v[:, 3]
 
@@ -120,53 +101,76 @@ class Curve:
         """z in (lo, hi) where dy/dz changes sign, sorted (read-only; kept per interval)."""
         key = (lo, hi)
         if key not in self._turns_in:
-            every = self._all_turns()
+            every = self._all_turns
             turns = every[(every > lo) & (every < hi)]
             turns.flags.writeable = False
             self._turns_in[key] = turns
         return self._turns_in[key]
 
+    @cached_property
     def _all_turns(self) -> np.ndarray:
-        if self._turns is None:
-            nonzero = np.flatnonzero(self._da)
-            d = self._da[: nonzero[-1] + 1] if nonzero.size else self._da[:0]
-            turns = np.empty(0)
-            if d.size == 2:  # a straight slope: one root
-                turns = np.array([-d[0] / d[1]])
-            elif d.size > 2:
-                roots = np.roots(d[::-1])
-                real = np.sort(roots[np.abs(roots.imag) <= 1e-9 * (1 + np.abs(roots.real))].real)
-                # a double root is not a turn: keep those where the slope changes sign
-                turns = real[np.sign(self.slope(real - 1e-7)) != np.sign(self.slope(real + 1e-7))]
-            self._turns = turns
-        return self._turns
+        nonzero = np.flatnonzero(self._da)
+        d = self._da[: nonzero[-1] + 1] if nonzero.size else self._da[:0]
+        if d.size == 2:  # a straight slope: one root
+            return np.array([-d[0] / d[1]])
+        if d.size < 2:
+            return np.empty(0)
+        roots = np.roots(d[::-1])
+        real = np.sort(roots[np.abs(roots.imag) <= 1e-9 * (1 + np.abs(roots.real))].real)
+        # a double root is not a turn: keep those where the slope changes sign
+        return real[np.sign(self.slope(real - 1e-7)) != np.sign(self.slope(real + 1e-7))]
 
-    @property
+    @cached_property
     def grid(self):
         """z nodes over the extended range, with the curve and mean variance there (curve units)."""
-        if self._grid is None:
-            self._grid = GRID_Z, self.value(GRID_Z), self.mean_variance(GRID_Z)
-        return self._grid
+        return GRID_Z, self.value(GRID_Z), self.mean_variance(GRID_Z)
 
+    @property
+    def weight_curve(self) -> "Curve":
+        """The curve whose fitted values give 1/y weights (``weighting.weight_order``): this one unless the
+        weights follow the fitted response."""
+        cal = self.cal
+        return cal.order(weight_order(cal.max_order)).curve if cal.weighting.iterative else self
 
-@functools.lru_cache(maxsize=32)
-def _power_sums(p: int) -> np.ndarray:
-    """i + j over the entries (i, j) of a p x p matrix, row by row: z^i z^j = z^(i+j)."""
-    out = np.add.outer(np.arange(p), np.arange(p)).ravel()
-    out.flags.writeable = False
-    return out
+    @cached_property
+    def grid_variance_factor(self) -> np.ndarray:
+        """1/w0 of a new reading at every grid node (one 1 when unweighted)."""
+        weighting = self.cal.weighting
+        if weighting.values is None:
+            return np.ones(1)
+        z, f, _ = self.weight_curve.grid
+        return weighting.variance_factor(self.cal.raw_x(z), self.to_y(f))
+
+    def monotonic_band(self, t2: float, m: np.ndarray):
+        """For readings that all average the same number m of replicates: the sign of the curve's slope,
+        the rows (curve, upper edge, lower edge) of the band f +- t sqrt(s^2 / (m w0) + Var f) on the grid,
+        times that sign, and the local polynomials with that sign and t^2 s^2 folded in, when both edges
+        rise strictly over the whole grid; else None. Made once per t^2 and m."""
+        if m.size > 1 and not (m == m[0]).all():
+            return None
+        key = (t2, float(m[0]))
+        if key not in self._bands:
+            t2s2 = t2 * self.s**2
+            z, f, vm = self.grid
+            sign = 1.0 if f[-1] >= f[0] else -1.0
+            table = np.empty((3, f.size))
+            curve_row, upper, lower = table
+            np.multiply(f, sign, out=curve_row)
+            with np.errstate(invalid="ignore"):
+                half = np.sqrt(t2s2 * self.grid_variance_factor / m[0] + t2 * vm)
+            np.add(curve_row, half, out=upper)
+            np.subtract(curve_row, half, out=lower)
+            rising = bool((upper[1:] > upper[:-1]).all() and (lower[1:] > lower[:-1]).all())
+            # sign f, sign f', t^2 Var(mean f) and its slope, as polynomials in z (columns)
+            local = self.local_polynomials * np.array([sign, sign, t2s2, t2s2])
+            self._bands[key] = (sign, table, local) if rising else None
+        return self._bands[key]
 
 
 def _derivative(c: np.ndarray) -> np.ndarray:
-    return c[1:] * _powers_below(c.size) if c.size > 1 else np.zeros(1)
-
-
-@functools.lru_cache(maxsize=32)
-def _powers_below(size: int) -> np.ndarray:
-    """1, 2, ..., size - 1: the factors of the derivative of a polynomial of ``size`` coefficients."""
-    out = np.arange(1.0, size)
-    out.flags.writeable = False
-    return out
+    """Coefficients of the derivative of sum_j c_j z^j (as numpy.polynomial.polynomial.polyder, without its
+    argument handling)."""
+    return c[1:] * np.arange(1.0, c.size) if c.size > 1 else np.zeros(1)
 
 
 def sign_changes(values: np.ndarray, z: np.ndarray, lo: float, hi: float):

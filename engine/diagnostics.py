@@ -27,19 +27,19 @@ at most 2 alpha. The standards' notes flag outliers and influential points at al
 
 from __future__ import annotations
 
-import functools
 import math
 
 import numpy as np
+from numpy.polynomial import polynomial as P
 from scipy import special
 
 from .calibration import Calibration, householder_qr
-from .curve import ENDS, Curve, curve_of
+from .curve import ENDS, Curve
 from .distributions import beta_cdf, log_binomial, normal_two_sided, t_two_sided
-from .polynomials import power_rows
 from .prediction import roots_of
 from .results import Check, PointDiagnostics
-from .selection import check_alpha, fmt_p, mandel_test
+from .selection import fmt_p, mandel_test
+from .validation import check_alpha
 
 BACK_CALC_EXTEND = 0.25
 # tests in the checks table besides lack of fit (Mandel, runs, Durbin-Watson, Shapiro-Wilk,
@@ -51,30 +51,6 @@ _LEVERAGE_ONE = 1 - 1e-10
 def check_level(alpha: float) -> float:
     """The level at which each test of the checks table but lack of fit (and each standard's note) warns."""
     return check_alpha(alpha) / FAMILY
-
-
-def _studentized(cal: Calibration, curve: Curve):
-    """Leverages, studentized residuals (internally and externally), Cook's D and the Bonferroni
-    p-values of the externally studentized residuals of a curve (computed once)."""
-    cached = curve.__dict__.get("_studentized")
-    if cached is not None:
-        return cached
-    e = cal.scaled_residuals(curve.order)  # in curve units, as s
-    h = cal.leverage(curve.order)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        one_minus_h = 1.0 - h
-        r = e / (curve.s * np.sqrt(one_minus_h))
-        r2, df = r * r, curve.df
-        t = r * np.sqrt((df - 1) / (df - r2)) if df > 1 else np.full_like(r, np.nan)
-        cook = r2 * h / ((curve.order + 1) * one_minus_h)
-    curve._studentized = h, r, t, cook, _bonferroni(t, curve.df, cal.n_points)
-    return curve._studentized
-
-
-def _bonferroni(t: np.ndarray, df: int, n: int) -> np.ndarray:
-    if df < 2:
-        return np.full(t.shape, np.nan)
-    return np.minimum(1.0, n * t_two_sided(t, df - 1))
 
 
 def cook_tail(d: float, h: np.ndarray, p: int, df: int) -> np.ndarray:
@@ -139,8 +115,9 @@ def point_diagnostics(cal: Calibration, order: int, alpha: float = 0.05) -> Poin
     """Fitted, residual, studentized residuals, leverage, Cook's D, back-calculated x per standard;
     notes flag outliers and influential points at ``check_level(alpha)``, as the checks table does."""
     level = check_level(alpha)
-    curve = curve_of(cal, order)
-    h, r, t, cook, bonf = _studentized(cal, curve)
+    results = cal.order(order)
+    curve = results.curve
+    h, r, t, cook, bonf = results.influence
     exact = _fits_exactly(cal, curve)  # then the residuals are rounding, and no standard stands out
     influential = set() if exact else set(_influence(cook, h, t, curve.order + 1, curve.df, level)[1])
     if exact:
@@ -182,7 +159,7 @@ def level_residuals(cal: Calibration, order: int):
     sw = cal.sqrt_w[by_x]
     u = np.add.reduceat(sw * cal.scaled_residuals(order)[by_x], starts)
     root_w = np.sqrt(np.add.reduceat(sw * sw, starts))
-    q, _ = householder_qr(power_rows(cal.z[by_x][starts], order + 1).T * root_w[:, None])
+    q, _ = householder_qr(P.polyvander(cal.z[by_x][starts], order) * root_w[:, None])
     return u / root_w, q
 
 
@@ -276,7 +253,7 @@ def breusch_pagan(residuals: np.ndarray, z: np.ndarray, order: int, q=None) -> t
     """
     e2 = residuals**2
     if q is None:  # an orthonormal basis of 1, z, ..., z^order
-        q, _ = householder_qr(power_rows(z, order + 1).T)
+        q, _ = householder_qr(P.polyvander(z, order))
     d = e2 - e2.sum() / e2.size
     tss = float(d @ d)
     if tss == 0:
@@ -286,16 +263,6 @@ def breusch_pagan(residuals: np.ndarray, z: np.ndarray, order: int, q=None) -> t
     c = q.T @ d
     lm = e2.size * float(c @ c) / tss
     return lm, float(special.chdtrc(order, lm))
-
-
-@functools.cache
-def _shapiro():
-    """scipy.stats.shapiro, imported on first use (scipy.stats takes half a second to import), undecorated:
-    the same computation without the axis/NaN-policy wrapper, which costs ten times the test itself
-    (tests compare against scipy.stats.shapiro)."""
-    from scipy.stats import shapiro
-
-    return getattr(shapiro, "__wrapped__", shapiro)
 
 
 def _verdict(p: float, level: float) -> str:
@@ -315,9 +282,10 @@ def curve_checks(cal: Calibration, order: int, alpha: float = 0.05, point_labels
     """
     alpha = check_alpha(alpha)
     level = check_level(alpha)
-    curve = curve_of(cal, order)
+    results = cal.order(order)
+    curve = results.curve
     k, big_k = curve.order, cal.max_order
-    h, _, t, cook, bonf = _studentized(cal, curve)
+    h, _, t, cook, bonf = results.influence
     n, p = cal.n_points, k + 1
     position = point_labels or (lambda i: f"standard {i + 1} of {n}")
     at = f"warning below p = {level:.3g}"
@@ -402,7 +370,11 @@ def curve_checks(cal: Calibration, order: int, alpha: float = 0.05, point_labels
     if n >= 3 and e.max() > e.min():
         # scaled by a power of two to a largest |e| in [0.5, 1): the statistic is scale-free, and the
         # algorithm takes a range below 1e-19 as zero
-        w_stat, w_p = _shapiro()(np.ldexp(e, -math.frexp(float(np.abs(e).max()))[1]))
+        from scipy.stats import shapiro  # imported on first use: scipy.stats takes half a second to import
+
+        # undecorated: scipy's axis/NaN-policy wrapper adds 11 % to a sheet's eight functions after an edit
+        # (benchmarks, alternating rounds); tests compare against the public scipy.stats.shapiro
+        w_stat, w_p = getattr(shapiro, "__wrapped__", shapiro)(np.ldexp(e, -math.frexp(float(np.abs(e).max()))[1]))
         v = _verdict(float(w_p), level)
         words = ("residuals depart from a normal distribution" if v == "warning"
                  else "no evidence against normal residuals")

@@ -32,11 +32,10 @@ import numpy as np
 from scipy import special
 
 from .calibration import Calibration
-from .curve import Curve, curve_of
+from .curve import Curve
 from .distributions import t_quantile
-from .prediction import _finite, _replicates
 from .results import Limit
-from .selection import check_alpha
+from .validation import check_alpha, check_replicates, check_vector
 
 K_QUANTITATION = 3.0  # DIN 32645: 1/k = 33 % relative uncertainty at the quantitation limit
 ICH_DETECTION, ICH_QUANTITATION = 3.3, 10.0
@@ -262,9 +261,9 @@ def detection_limits(cal: Calibration, order: int, blank=None, replicates=1, alp
     """Rows: prediction band, ISO 11843-2, ICH residual SD, ICH intercept SE and, with ``blank``
     readings, the blank method (formulas in the module docstring)."""
     alpha = check_alpha(alpha)
-    m = int(_replicates(replicates, 1)[0])
-    readings = None if blank is None else _finite(blank, "blank")
-    curve = curve_of(cal, order)
+    m = int(check_replicates(replicates, 1)[0])
+    readings = None if blank is None else check_vector(blank, "blank", flat=True)
+    curve = cal.order(order).curve
     band = _Band(cal, curve, m)
     t1 = float(t_quantile(1.0 - alpha, curve.df))
     t2 = float(t_quantile(1.0 - alpha / 2, curve.df))

@@ -16,28 +16,15 @@ end; a band that does not close there leaves that bound open.
 
 from __future__ import annotations
 
-import functools
 import math
 
 import numpy as np
+from numpy.polynomial import polynomial as P
 
 from .calibration import Calibration
-from .curve import ENDS, EXTEND, GRID_Z, RANGE_NODES, Curve, check_level, curve_of, newton_in_cells, sign_changes
-from .errors import DataError, OptionError
-from .polynomials import power_rows
+from .curve import ENDS, EXTEND, RANGE_NODES, Curve, newton_in_cells, sign_changes
 from .results import InverseEstimate, Prediction
-from .weighting import weight_order
-
-
-def _finite(values, name: str) -> np.ndarray:
-    a = np.atleast_1d(np.asarray(values, dtype=float)).ravel()
-    if np.isfinite(a).all():
-        return a
-    bad = np.flatnonzero(~np.isfinite(a))
-    if bad.size:
-        i = int(bad[0])
-        raise DataError(f"{name}[{i}] is {float(a[i])!r}: every value must be a finite number", argument=name, index=i)
-    return a
+from .validation import check_level, check_replicates, check_vector
 
 
 _KINDS = np.array([0, 1, 2])  # inverse prediction's roots: the estimate, the lower end, the upper end
@@ -53,8 +40,8 @@ def _range_words(curve: Curve) -> str:
 def predict(cal: Calibration, new_x, order: int, level: float = 0.95) -> tuple[Prediction, ...]:
     """Fitted value, mean interval and prediction interval at each new x."""
     level = check_level(level)
-    x0 = _finite(new_x, "new_x")
-    curve = curve_of(cal, order)
+    x0 = check_vector(new_x, "new_x", flat=True)
+    curve = cal.order(order).curve
     t = curve.t_value(level)
     weighted = cal.weighting.values is not None
     # an x far beyond the calibration's scale overflows to inf and its cells come out empty, without warnings
@@ -80,23 +67,6 @@ def predict(cal: Calibration, new_x, order: int, level: float = 0.95) -> tuple[P
     return tuple(map(Prediction._make, zip(x0.tolist(), *columns, notes)))
 
 
-def _replicates(replicates, count: int) -> np.ndarray:
-    if type(replicates) in (int, float) and math.isfinite(replicates) and replicates >= 1 \
-            and replicates == int(replicates):
-        return np.full(count, float(replicates))
-    m = np.atleast_1d(np.asarray(replicates, dtype=float)).ravel()
-    if m.size == 1:
-        m = np.full(count, m[0])
-    if m.size != count:
-        raise OptionError(f"replicates has {m.size} values for {count} readings; give one number or one per reading",
-                          argument="replicates")
-    bad = np.flatnonzero(~(np.isfinite(m) & (m >= 1) & (m == np.round(m))))
-    if bad.size:
-        raise OptionError(f"replicates must be a whole number of at least 1, not {float(m[bad[0]])!r}",
-                          argument="replicates", index=int(bad[0]))
-    return m
-
-
 def roots_of(curve: Curve, readings: np.ndarray, z_lo: float, z_hi: float):
     """Every z in [z_lo, z_hi] (grid nodes) with f(z) = reading (in curve units): (reading index, z), sorted."""
     z, f, _ = curve.grid
@@ -115,17 +85,11 @@ def roots_of(curve: Curve, readings: np.ndarray, z_lo: float, z_hi: float):
     return rows[order], zs[order]
 
 
-@functools.lru_cache(maxsize=16)
-def _grid_slice(z_lo: float, z_hi: float) -> slice:
-    """The grid nodes in [z_lo, z_hi]."""
-    return slice(int(np.searchsorted(GRID_Z, z_lo, "left")), int(np.searchsorted(GRID_Z, z_hi, "right")))
-
-
 def _monotonic_roots(curve: Curve, readings: np.ndarray, z_lo: float, z_hi: float):
     """roots_of for a curve without turning points in [z_lo, z_hi]: at most one root per reading,
     bracketed by a binary search of the grid values."""
     z, f, _ = curve.grid
-    inside = _grid_slice(z_lo, z_hi)
+    inside = slice(int(np.searchsorted(z, z_lo, "left")), int(np.searchsorted(z, z_hi, "right")))  # nodes in [z_lo, z_hi]
     zg, fg = z[inside], f[inside]
     fs, ys = (fg, readings) if fg[-1] >= fg[0] else (-fg, -readings)
     rows = ((ys >= fs[0]) & (ys <= fs[-1])).nonzero()[0]
@@ -136,14 +100,9 @@ def _monotonic_roots(curve: Curve, readings: np.ndarray, z_lo: float, z_hi: floa
     return rows, zs
 
 
-def _weight_curve(curve: Curve) -> Curve:
-    """The curve whose fitted values give 1/y weights (``weighting.weight_order``)."""
-    return curve_of(curve.cal, weight_order(curve.cal.max_order)) if curve.cal.weighting.iterative else curve
-
-
 def _weight_response(curve: Curve, zz: np.ndarray, fz: np.ndarray) -> np.ndarray:
     """The response at z that a 1/y scheme weights by, in units of y (fz: ``curve`` at zz, curve units)."""
-    base = _weight_curve(curve)
+    base = curve.weight_curve
     return curve.to_y(fz if base is curve else base.value(zz))
 
 
@@ -154,48 +113,12 @@ def _variance_factor_and_slope(curve: Curve, zz: np.ndarray, fz: np.ndarray, dfz
     weighting = cal.weighting
     if weighting.values is None:
         return 1.0, 0.0
-    base = _weight_curve(curve)
+    base = curve.weight_curve
     if base is not curve:
         fz, dfz = base.value(zz), base.slope(zz)
     x, y = cal.raw_x(zz), curve.to_y(fz)
     return (weighting.variance_factor(x, y),
             weighting.variance_factor_slope(x, y, curve.to_y(dfz) / cal.dx_dz) * cal.dx_dz)
-
-
-def _grid_variance_factor(curve: Curve, cal: Calibration) -> np.ndarray:
-    """1/w0 of a new reading at every grid node (one 1 when unweighted), made once per curve."""
-    if "_grid_vf" not in curve.__dict__:
-        weighting = cal.weighting
-        z, f, _ = _weight_curve(curve).grid
-        curve._grid_vf = (np.ones(1) if weighting.values is None
-                          else weighting.variance_factor(cal.raw_x(z), curve.to_y(f)))
-    return curve._grid_vf
-
-
-def _monotonic_band(curve: Curve, vf: np.ndarray, m: np.ndarray, t2: float, t2s2: float):
-    """For readings that all average the same number of replicates: the sign of the curve's slope,
-    the rows (curve, upper edge, lower edge) on the grid, times that sign, and the local polynomials
-    with that sign and t^2 s^2 folded in, when both edges rise strictly over the whole grid; else None.
-    Made once per curve, level and replicates."""
-    if m.size > 1 and not (m == m[0]).all():
-        return None
-    cache = curve.__dict__.setdefault("_bands", {})
-    key = (t2, float(m[0]))
-    if key not in cache:
-        z, f, vm = curve.grid
-        sign = 1.0 if f[-1] >= f[0] else -1.0
-        table = np.empty((3, f.size))
-        curve_row, upper, lower = table
-        np.multiply(f, sign, out=curve_row)
-        with np.errstate(invalid="ignore"):
-            half = np.sqrt(t2s2 * vf / m[0] + t2 * vm)
-        np.add(curve_row, half, out=upper)
-        np.subtract(curve_row, half, out=lower)
-        rising = bool((upper[1:] > upper[:-1]).all() and (lower[1:] > lower[:-1]).all())
-        # sign f, sign f', t^2 Var(mean f) and its slope, as polynomials in z (columns)
-        local = curve.local_polynomials * np.array([sign, sign, t2s2, t2s2])
-        cache[key] = (sign, table, local) if rising else None
-    return cache[key]
 
 
 def _solve_on_monotonic_band(curve: Curve, cal: Calibration, y0: np.ndarray, m: np.ndarray, t: float):
@@ -210,8 +133,7 @@ def _solve_on_monotonic_band(curve: Curve, cal: Calibration, y0: np.ndarray, m: 
     reading within the grid leaves that end open (nan).
     """
     t2, t2s2 = t**2, t**2 * curve.s**2
-    vf = _grid_variance_factor(curve, cal)
-    band = _monotonic_band(curve, vf, m, t2, t2s2)
+    band = curve.monotonic_band(t2, m)
     if band is None:
         return None
     sign, table, local = band  # kind 0: the curve, 1: its upper edge, 2: its lower edge
@@ -241,7 +163,7 @@ def _solve_on_monotonic_band(curve: Curve, cal: Calibration, y0: np.ndarray, m: 
     open_edges = weighted or t2s2 == 0  # where the band's half-width can be zero, or undefined
 
     def value_and_slope(zz):  # called inside newton_in_cells, which ignores division warnings
-        f, df, var, dvar = local_rows @ power_rows(zz, local_rows.shape[1])
+        f, df, var, dvar = local_rows @ P.polyvander(zz, local_rows.shape[1] - 1).T
         var = np.maximum(var, 0.0)
         if weighted:
             vfz, dvf = _variance_factor_and_slope(curve, zz, sign * f, sign * df)
@@ -262,16 +184,12 @@ def _solve_on_monotonic_band(curve: Curve, cal: Calibration, y0: np.ndarray, m: 
     return out
 
 
-@functools.lru_cache(maxsize=32)
 def _every_root(count: int):
     """For ``count`` readings that all have an estimate and both bounds: the reading, kind and band edge
     of each root (estimates, then lower ends, then upper ends), and which of them lie on a moving edge."""
     which, kind = np.tile(np.arange(count), 3), np.repeat(_KINDS, count)
     edge = _EDGES[kind]
-    out = which, kind, edge, edge != 0
-    for a in out:
-        a.flags.writeable = False
-    return out
+    return which, kind, edge, edge != 0
 
 
 def _band_edges(curve: Curve, cal: Calibration, y0: np.ndarray, m: np.ndarray, z_hat: np.ndarray, t: float):
@@ -294,7 +212,7 @@ def _band_edges(curve: Curve, cal: Calibration, y0: np.ndarray, m: np.ndarray, z
         vf, dvf = _variance_factor_and_slope(curve, zz, fz, dfz)
         return d * d - t2s2 * vf / mm - t2 * vz, 2 * d * dfz - t2s2 * dvf / mm - t2 * dvz
 
-    vf = _grid_variance_factor(curve, cal)
+    vf = curve.grid_variance_factor
     with np.errstate(invalid="ignore"):
         g = (f[None, :] - y0[:, None]) ** 2 - t2s2 * vf[None, :] / m[:, None] - t2 * vm[None, :]
     undefined = ~np.isfinite(g)
@@ -334,9 +252,9 @@ def _domain_edge(cal: Calibration) -> str:
 def inverse(cal: Calibration, readings, order: int, replicates=1, level: float = 0.95) -> tuple[InverseEstimate, ...]:
     """x estimate and interval for each reading (the mean of ``replicates`` readings)."""
     level = check_level(level)
-    y0 = _finite(readings, "reading")
-    m = _replicates(replicates, y0.size)
-    curve = curve_of(cal, order)
+    y0 = check_vector(readings, "reading", flat=True)
+    m = check_replicates(replicates, y0.size)
+    curve = cal.order(order).curve
     t = curve.t_value(level)
     with np.errstate(over="ignore"):  # a reading far beyond the responses' scale is inf: outside the range
         y0_curve = curve.from_y(y0)

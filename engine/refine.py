@@ -19,7 +19,6 @@ conditioned z basis. With c = -I and y = 0 the same iteration gives
 
 from __future__ import annotations
 
-import functools
 from math import comb
 
 import numpy as np
@@ -30,7 +29,6 @@ _MAX_STEPS = 10
 _TOLERANCE = 2.0**-100
 _ENOUGH = 2.0**-64
 _BLOCK = 2**18  # elements per temporary array (m, p, rows) in the residual computation
-_FULL = 2**14  # up to this many elements the pieces are laid out in full rather than broadcast
 
 
 def conversion_matrix(centre: float, half_width: float, order: int) -> np.ndarray:
@@ -38,41 +36,15 @@ def conversion_matrix(centre: float, half_width: float, order: int) -> np.ndarra
 
     T_kj = C(j, k) (-centre)^(j-k) / half_width^j for k <= j (binomial expansion).
     """
-    binomials, powers, j = _expansion(order)
-    return binomials * float(-centre) ** powers / half_width**j
-
-
-@functools.lru_cache(maxsize=32)
-def _expansion(order: int):
-    """C(j, k) at [k, j] (0 for k > j), the power j - k (0 for k > j) and j, for ``conversion_matrix``."""
     j = np.arange(order + 1)
-    out = _binomials(order), np.maximum(j[None, :] - j[:, None], 0), j
-    for a in out:
-        a.flags.writeable = False
-    return out
+    binomials = np.array([[comb(jj, k) for jj in j.tolist()] for k in j.tolist()], dtype=float)  # 0 for k > j
+    return binomials * float(-centre) ** np.maximum(j[None, :] - j[:, None], 0) / half_width**j
 
 
-@functools.lru_cache(maxsize=32)
-def _binomials(order: int) -> np.ndarray:
-    """C(j, k) at [k, j] for 0 <= k, j <= order (0 for k > j)."""
-    b = np.array([[comb(j, k) for j in range(order + 1)] for k in range(order + 1)], dtype=float)
-    b.flags.writeable = False
-    return b
-
-
-def _pieces(hi: np.ndarray, lo, shape, full: bool):
+def _pieces(hi: np.ndarray, lo):
     """A double-double array (hi, lo) and the Dekker split of hi, for ``_products``; lo None stands for
-    zeros. With ``full`` each is laid out in full as ``shape`` (on small arrays elementwise operations
-    are several times faster without broadcasting); otherwise they stay as given and broadcast."""
-    if not full:
-        return (hi, lo, *dd.split(hi))
-    out = np.empty((3 if lo is None else 4,) + shape)
-    out[0] = hi
-    out[-2], out[-1] = dd.split(hi)
-    if lo is None:
-        return out[0], None, out[1], out[2]
-    out[1] = lo
-    return tuple(out)
+    zeros."""
+    return (hi, lo, *dd.split(hi))
 
 
 def _products(a, b):
@@ -146,10 +118,8 @@ def refine(v_hi, v_lo, q, r_inv, t, y_hi, y_lo, c, mask=None):
     for i in range(0, n, rows):
         j = min(i + rows, n)
         v_max = np.abs(v_hi[i:j]).max(axis=0)
-        shape, full = (m, p, j - i), m * p * (j - i) <= _FULL
         vt_hi, vt_lo = np.ascontiguousarray(v_hi[i:j].T), np.ascontiguousarray(v_lo[i:j].T)
-        blocks.append((slice(i, j), shape, full, _pieces(vt_hi, vt_lo, shape, full), v_max, float(v_max.max()),
-                       np.ones(j - i)))
+        blocks.append((slice(i, j), _pieces(vt_hi, vt_lo), v_max, float(v_max.max()), np.ones(j - i)))
     ones_p = np.ones(p)
     y_top = np.abs(y_hi).max(axis=1)
     previous = 1.0
@@ -159,9 +129,9 @@ def refine(v_hi, v_lo, q, r_inv, t, y_hi, y_lo, c, mask=None):
         e_top = np.abs(e_hi).max(axis=1)
         nb_hi, nb_lo = -b_hi[:, :, None], None if first else -b_lo[:, :, None]
         g_sum = None  # -V'e, summed over the blocks
-        for s, shape, full, v, v_max, v_top, ones_n in blocks:
+        for s, v, v_max, v_top, ones_n in blocks:
             # f = y - e - V b: the p terms of each row plus y and -e; sigma bounds every term
-            big, small = _products(v, _pieces(nb_hi, nb_lo, shape, full))
+            big, small = _products(v, _pieces(nb_hi, nb_lo))
             sigma = _sigma(np.maximum(np.maximum(y_top, e_top), np.abs(b_hi) @ v_max), p + 2)[:, None]
             high = _high_parts(big, sigma[:, :, None])
             big += small
@@ -177,8 +147,8 @@ def refine(v_hi, v_lo, q, r_inv, t, y_hi, y_lo, c, mask=None):
             f[:, s] = (ones_p @ high + q_y + q_e) + rest
             # -V'e over the rows of the block
             ne_lo = None if first else -e_lo[:, None, s]
-            big, small = _products(v, _pieces(-e_hi[:, None, s], ne_lo, shape, full))
-            high = _high_parts(big, _sigma(e_top * v_top, shape[2])[:, None, None])
+            big, small = _products(v, _pieces(-e_hi[:, None, s], ne_lo))
+            high = _high_parts(big, _sigma(e_top * v_top, s.stop - s.start)[:, None, None])
             big += small
             part = (high @ ones_n, big @ ones_n)  # the exact sum of the high parts, the rest
             g_sum = part if g_sum is None else dd.add(*dd.two_sum(*g_sum), *dd.two_sum(*part))

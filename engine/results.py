@@ -9,6 +9,8 @@ from __future__ import annotations
 
 from typing import NamedTuple
 
+import numpy as np
+
 from .distributions import t_quantile
 
 
@@ -135,6 +137,16 @@ class OrderChoice:
     def __repr__(self) -> str:
         return (f"OrderChoice(order={self.order}, rule={self.rule!r}, alpha={self.alpha!r}, "
                 f"max_order={self.max_order!r}, reason={self.reason!r})")
+
+
+class Influence(NamedTuple):
+    """Per standard of one order, in the order given (``calibration.OrderResults.influence``)."""
+
+    leverage: np.ndarray
+    studentized: np.ndarray
+    externally_studentized: np.ndarray
+    cook: np.ndarray
+    bonferroni_p: np.ndarray
 
 
 class Prediction(NamedTuple):

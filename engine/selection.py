@@ -25,35 +25,9 @@ from __future__ import annotations
 import math
 
 from .calibration import Calibration
-from .errors import OptionError, OrderError
+from .errors import OrderError
 from .results import FTest, OrderChoice
-
-RULES = ("stepdown", "forward", "aicc", "bic", "press")
-DEFAULT_RULE = RULES[0]
-
-
-def check_alpha(alpha, name: str = "alpha") -> float:
-    """alpha must lie strictly between 0 and 0.5."""
-    try:
-        a = float(alpha)
-    except (TypeError, ValueError):
-        raise OptionError(f"{name} must be a number between 0 and 0.5, not {alpha!r}", argument=name) from None
-    if not 0 < a < 0.5:
-        raise OptionError(
-            f"{name} must be between 0 and 0.5 (for example 0.05), not {alpha!r}", argument=name
-        )
-    return a
-
-
-def check_rule(rule) -> str:
-    key = str(rule).strip().lower()
-    if key not in RULES:
-        raise OptionError(
-            f"rule '{rule}' is not known; use one of " + ", ".join(f"'{r}'" for r in RULES),
-            argument="rule",
-        )
-    return key
-
+from .validation import DEFAULT_RULE
 
 def term_name(j: int) -> str:
     return "x" if j == 1 else f"x^{j}"
@@ -171,15 +145,10 @@ def _criterion(cal: Calibration, rule: str):
 
 def choose_order(cal: Calibration, rule: str = DEFAULT_RULE, alpha: float = 0.05) -> OrderChoice:
     """The order ``rule`` picks for ``cal``, with the reason in words."""
-    rule = check_rule(rule)
-    alpha = check_alpha(alpha)
-    made = cal.__dict__.setdefault("_choices", {})
-    if (rule, alpha) not in made:
-        made[(rule, alpha)] = _choose(cal, rule, alpha)
-    return made[(rule, alpha)]
+    return cal.choice(rule, alpha)
 
 
-def _choose(cal: Calibration, rule: str, alpha: float) -> OrderChoice:
+def choose(cal: Calibration, rule: str, alpha: float) -> OrderChoice:
     exact = cal.exact_order
     if exact is not None:
         order = max(exact, 1)

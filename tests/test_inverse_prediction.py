@@ -112,8 +112,7 @@ def test_interval_bounds_lie_on_the_prediction_band(weights):
 def test_binary_search_of_a_monotonic_band_matches_the_grid_scan(weights, monkeypatch):
     # invented calibrations; the binary search over a rising band must give what the general grid scan gives
     # (x from about 35 to 70, so that x stays positive, and the weights defined, half the range beyond)
-    import degreewise.engine.prediction as prediction
-    from degreewise.engine.curve import curve_of
+    from degreewise.engine.curve import Curve
 
     rng = np.random.default_rng(23)
     searched = 0
@@ -124,9 +123,8 @@ def test_binary_search_of_a_monotonic_band_matches_the_grid_scan(weights, monkey
         order = engine.choose_order(cal).order
         readings = np.linspace(y.min() - 3, y.max() + 3, 9)
         fast = engine.inverse(cal, readings, order, 2)
-        bands = curve_of(cal, order).__dict__.pop("_bands")
-        searched += any(b is not None for b in bands.values())
-        monkeypatch.setattr(prediction, "_monotonic_band", lambda *args: None)
+        searched += any(b is not None for b in cal.order(order).curve._bands.values())
+        monkeypatch.setattr(Curve, "monotonic_band", lambda *args: None)
         general = engine.inverse(cal, readings, order, 2)
         monkeypatch.undo()
         assert [e.note for e in fast] == [e.note for e in general]

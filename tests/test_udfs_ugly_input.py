@@ -58,14 +58,35 @@ def test_every_function_answers_with_cells(data, weights, order):
 @settings(max_examples=60, deadline=None)
 @given(st.floats(-300, 300), st.floats(-300, 300), st.integers(0, 2**31 - 1))
 def test_huge_and_tiny_magnitudes(ex, ey, seed):
-    rng = np.random.default_rng(seed)
-    x = np.repeat(np.linspace(1, 9, 5), 2) * 10.0**ex
-    y = (1 + 2 * np.linspace(0, 1, 10) + rng.normal(0, 0.01, 10)) * 10.0**ey
-    xs, ys = [[float(v)] for v in x], [[float(v)] for v in y]
-    for result in (degreewise.calib_coefs(xs, ys), degreewise.calib_orders(xs, ys), degreewise.calib_checks(xs, ys),
+    # the same invented calibration at 10^ex in x and 10^ey in y gives the unscaled one's figures, scaled:
+    # coefficient j by 10^(ey - j ex) (compared as logarithms, so that the scale factor never overflows),
+    # t and p unchanged, the inverse estimate by 10^ex, every order's table row and every check the same
+    def calls(ex, ey):
+        rng = np.random.default_rng(seed)
+        x = np.repeat(np.linspace(1, 9, 5), 2) * 10.0**ex
+        y = (1 + 2 * np.linspace(0, 1, 10) + rng.normal(0, 0.01, 10)) * 10.0**ey
+        xs, ys = [[float(v)] for v in x], [[float(v)] for v in y]
+        results = (degreewise.calib_coefs(xs, ys), degreewise.calib_orders(xs, ys), degreewise.calib_checks(xs, ys),
                    degreewise.calib_inverse(xs, ys, [[float(y[3])]]), degreewise.calib_limits(xs, ys),
-                   degreewise.calib_weighting(xs, ys)):
-        assert _ok(result)
+                   degreewise.calib_weighting(xs, ys))
+        for result in results:
+            assert _ok(result)
+        return results
+
+    (coefs, orders, checks, inverse, _, _), base = calls(ex, ey), calls(0.0, 0.0)
+    assert len(coefs) == len(base[0]) >= 3
+    for j, (row, ref) in enumerate(zip(coefs[1:], base[0][1:])):
+        expected = math.log10(abs(ref[1])) + ey - j * ex
+        if expected > 308.3:  # beyond the double range: an empty cell
+            assert row[1] is None
+        elif expected < -323.4:  # below the smallest subnormal
+            assert row[1] == 0.0
+        else:  # subnormals keep fewer digits: 2^-1074 of absolute error
+            assert math.log10(abs(row[1])) == pytest.approx(expected, abs=1e-9 + 10 ** (-323 - expected))
+        assert row[3:5] == pytest.approx(ref[3:5], rel=1e-6, abs=1e-12)
+    assert [r[0] for r in orders] == [r[0] for r in base[1]] and [r[-1] for r in orders] == [r[-1] for r in base[1]]
+    assert [(r[0], r[3]) for r in checks] == [(r[0], r[3]) for r in base[2]]
+    assert inverse[0][0] / 10.0**ex == pytest.approx(base[3][0][0], rel=1e-9)
 
 
 def test_values_far_beyond_the_calibration_scale_give_empty_cells_quietly():

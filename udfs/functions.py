@@ -26,7 +26,7 @@ from . import engine
 
 from . import VERSION
 from .coercion import CellError, cell_numbers, flatten, is_omitted, number_option, numbers_or_blank, text_option
-from .engine.calibration import order_limit
+from .engine.validation import check_order, order_limit
 from .labels import CAUTION, HEADERS, LIMITS_CAUTION, term
 from .prepared import RESULTS, SCHEMES, calibration, prepare, prepare_named
 from .registration import declared
@@ -139,7 +139,7 @@ def _fitted(prep, order):
         cal = default
     else:
         n, m = prep.x.size, np.unique(prep.x).size
-        engine.Calibration.check_order(order, "order", n, m)
+        check_order(order, "order", n, m)
         cal = calibration(prep, max_order=order)
 
     def why() -> tuple[str, str]:

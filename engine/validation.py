@@ -1,0 +1,108 @@
+"""Checks of the engine's inputs, one function per kind: each returns the value in the form the engine
+uses, or raises a typed error whose message names the argument, the position and the problem."""
+
+from __future__ import annotations
+
+import math
+import operator
+
+import numpy as np
+
+from .errors import DataError, OptionError, OrderError
+
+RULES = ("stepdown", "forward", "aicc", "bic", "press")
+DEFAULT_RULE = RULES[0]
+
+
+def check_vector(values, name: str, *, flat: bool = False) -> np.ndarray:
+    """A float array of finite numbers: one-dimensional as given, or (``flat``) any shape flattened."""
+    try:
+        a = np.asarray(values, dtype=float)
+    except (TypeError, ValueError):
+        raise DataError(f"{name} must hold numbers only", argument=name) from None
+    if flat:
+        a = a.ravel()
+    elif a.ndim != 1:
+        raise DataError(f"{name} must be one-dimensional, not of shape {a.shape}", argument=name)
+    bad = np.flatnonzero(~np.isfinite(a))
+    if bad.size:
+        i = int(bad[0])
+        raise DataError(f"{name}[{i}] is {float(a[i])!r}: every value must be a finite number", argument=name,
+                        index=i)
+    return a
+
+
+def check_whole(value, name: str) -> int:
+    """An int, or a float with a whole value."""
+    try:
+        return operator.index(value)
+    except TypeError:
+        if isinstance(value, float) and value.is_integer():
+            return int(value)
+        raise OrderError(f"{name} must be a whole number, not {value!r}", argument=name) from None
+
+
+def order_limit(n_points: int, n_distinct: int) -> int:
+    """Highest order the data can fit with one residual degree of freedom."""
+    return min(n_distinct - 1, n_points - 2)
+
+
+def check_order(order: int, name: str, n: int, m: int) -> None:
+    """An order of at least 1 that n points at m distinct x can fit (``order_limit``)."""
+    if order < 1:
+        raise OrderError(f"{name} must be at least 1, not {order}", argument=name)
+    if order > order_limit(n, m):
+        raise OrderError(
+            f"{name} {order} needs at least {order + 1} distinct x values and {order + 2} points; "
+            f"there are {m} and {n}",
+            argument=name,
+        )
+
+
+def check_alpha(alpha, name: str = "alpha") -> float:
+    """alpha must lie strictly between 0 and 0.5."""
+    try:
+        a = float(alpha)
+    except (TypeError, ValueError):
+        raise OptionError(f"{name} must be a number between 0 and 0.5, not {alpha!r}", argument=name) from None
+    if not 0 < a < 0.5:
+        raise OptionError(f"{name} must be between 0 and 0.5 (for example 0.05), not {alpha!r}", argument=name)
+    return a
+
+
+def check_level(level) -> float:
+    """A confidence level strictly between 0 and 1."""
+    try:
+        v = float(level)
+    except (TypeError, ValueError):
+        raise OptionError(f"level must be a number between 0 and 1, not {level!r}", argument="level") from None
+    if not 0 < v < 1:
+        raise OptionError(f"level must be between 0 and 1 (for example 0.95), not {level!r}", argument="level")
+    return v
+
+
+def check_rule(rule) -> str:
+    """One of ``RULES``, in any case and with surrounding spaces."""
+    key = str(rule).strip().lower()
+    if key not in RULES:
+        raise OptionError(f"rule '{rule}' is not known; use one of " + ", ".join(f"'{r}'" for r in RULES),
+                          argument="rule")
+    return key
+
+
+def check_replicates(replicates, count: int) -> np.ndarray:
+    """One whole number of at least 1, or one per reading, as floats (``count`` of them)."""
+    if type(replicates) in (int, float) and math.isfinite(replicates) and replicates >= 1 \
+            and replicates == int(replicates):
+        return np.full(count, float(replicates))
+    m = np.atleast_1d(np.asarray(replicates, dtype=float)).ravel()
+    if m.size == 1:
+        m = np.full(count, m[0])
+    if m.size != count:
+        raise OptionError(f"replicates has {m.size} values for {count} readings; give one number or one per reading",
+                          argument="replicates")
+    bad = np.flatnonzero(~(np.isfinite(m) & (m >= 1) & (m == np.round(m))))
+    if bad.size:
+        raise OptionError(f"replicates must be a whole number of at least 1, not {float(m[bad[0]])!r}",
+                          argument="replicates", index=int(bad[0]))
+    return m
