@@ -243,7 +243,8 @@ def _tables(s: Section, st: _Styles, width: float) -> list:
     for where_, rows in s.comparisons:
         if not _message(rows):
             rows = [r for r in rows if r[0] != "caution"]
-        add(f"Compared with an earlier calibration ({where_})", rows, wrap=(8,))
+        add(f"Compared with an earlier calibration ({where_})", rows, wrap=(8,),
+            digits={1: 5, 2: 5, 3: 4, 4: 4, 5: 4, 6: 3})  # narrower numbers leave the detail room to read
     res = t["residuals"]
     if _message(res):
         add("Back-calculated standards", res)
