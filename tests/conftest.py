@@ -1,8 +1,10 @@
-"""Shared test helpers: the NIST StRD reference data copied into tests/data/strd."""
+"""Shared test helpers: the NIST StRD reference data copied into tests/data/strd, and LibreOffice's view of
+a workbook."""
 
 from __future__ import annotations
 
 import json
+import subprocess
 from pathlib import Path
 
 import numpy as np
@@ -24,3 +26,22 @@ def replicated():
     x = np.repeat(np.linspace(1.0, 50.0, 8), 3)
     y = 2.0 + 3.0 * x + 0.01 * x**2 + rng.normal(0.0, 1.0, x.size)
     return x, y
+
+
+NEVER_RECALCULATE = """<?xml version="1.0" encoding="UTF-8"?>
+<oor:items xmlns:oor="http://openoffice.org/2001/registry" xmlns:xs="http://www.w3.org/2001/XMLSchema">
+<item oor:path="/org.openoffice.Office.Calc/Formula/Load"><prop oor:name="OOXMLRecalcMode" oor:op="fuse">
+<value>1</value></prop></item></oor:items>
+"""
+
+
+def libreoffice_rows(path: Path, work: Path) -> list[list[str]]:
+    """The first sheet of the workbook at ``path`` as LibreOffice shows it when told not to recalculate on
+    load (its CSV export, in a fresh profile under ``work``), one list of cell texts per row."""
+    profile = work / "profile"
+    (profile / "user").mkdir(parents=True)
+    (profile / "user" / "registrymodifications.xcu").write_text(NEVER_RECALCULATE)
+    out = work / "csv"
+    subprocess.run(["soffice", f"-env:UserInstallation={profile.as_uri()}", "--headless", "--convert-to", "csv",
+                    "--outdir", str(out), str(path)], check=True, capture_output=True, timeout=300)
+    return [line.split(",") for line in (out / f"{path.stem}.csv").read_text().splitlines()]

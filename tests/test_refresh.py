@@ -2,7 +2,6 @@
 
 import io
 import shutil
-import subprocess
 import sys
 import zipfile
 from pathlib import Path
@@ -16,6 +15,7 @@ from openpyxl.workbook.defined_name import DefinedName
 import degreewise
 from degreewise.package import MAX_PART
 from degreewise.refresh import lock_file, refresh_file, run
+from conftest import libreoffice_rows
 
 RNG = np.random.default_rng(31)
 X = np.repeat([1.0, 2.0, 5.0, 10.0, 20.0, 40.0], 2)
@@ -259,11 +259,6 @@ def test_folders_are_searched_and_exit_code_reflects_success(tmp_path, capsys):
     assert run([str(book)]) == 0
 
 
-NEVER_RECALCULATE = """<?xml version="1.0" encoding="UTF-8"?>
-<oor:items xmlns:oor="http://openoffice.org/2001/registry" xmlns:xs="http://www.w3.org/2001/XMLSchema">
-<item oor:path="/org.openoffice.Office.Calc/Formula/Load"><prop oor:name="OOXMLRecalcMode" oor:op="fuse">
-<value>1</value></prop></item></oor:items>
-"""
 
 
 @pytest.mark.skipif(shutil.which("soffice") is None, reason="LibreOffice (soffice) is not installed")
@@ -275,13 +270,7 @@ def test_a_spreadsheet_program_reads_the_cached_numbers(tmp_path):
     """
     path = build(tmp_path / "book.xlsx")
     refresh_file(path)
-    profile = tmp_path / "profile"
-    (profile / "user").mkdir(parents=True)
-    (profile / "user" / "registrymodifications.xcu").write_text(NEVER_RECALCULATE)
-    out = tmp_path / "csv"
-    subprocess.run(["soffice", f"-env:UserInstallation={profile.as_uri()}", "--headless", "--convert-to", "csv",
-                    "--outdir", str(out), str(path)], check=True, capture_output=True, timeout=300)
-    rows = [line.split(",") for line in (out / "book.csv").read_text().splitlines()]
+    rows = libreoffice_rows(path, tmp_path)
     xs, ys = standards(path)
     assert rows[0][3] == str(degreewise.calib_order(xs, ys)) == "2"
     assert rows[0][10] == degreewise.calib_version()

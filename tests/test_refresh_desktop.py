@@ -10,7 +10,6 @@ openpyxl and then edited the same way.
 import os
 import re
 import shutil
-import subprocess
 import zipfile
 from pathlib import Path
 from xml.etree import ElementTree
@@ -23,6 +22,7 @@ from openpyxl.workbook.defined_name import DefinedName
 
 import degreewise
 from degreewise.refresh import refresh_file, run
+from conftest import libreoffice_rows
 
 DESKTOP = Path(__file__).parent / "data" / "desktop-saved"
 BOOKS = sorted(p.name for p in DESKTOP.glob("*.xls[xm]"))
@@ -541,11 +541,6 @@ def test_cells_the_program_saved_stay_as_they_were(tmp_path):
 
 # ---------------------------------------------------------------- LibreOffice opens the result
 
-NEVER_RECALCULATE = """<?xml version="1.0" encoding="UTF-8"?>
-<oor:items xmlns:oor="http://openoffice.org/2001/registry" xmlns:xs="http://www.w3.org/2001/XMLSchema">
-<item oor:path="/org.openoffice.Office.Calc/Formula/Load"><prop oor:name="OOXMLRecalcMode" oor:op="fuse">
-<value>1</value></prop></item></oor:items>
-"""
 
 
 @pytest.mark.skipif(shutil.which("soffice") is None, reason="LibreOffice (soffice) is not installed")
@@ -562,13 +557,7 @@ def test_libreoffice_opens_a_refreshed_workbook_with_merged_cells_and_a_table(tm
     rewrite(path, {"xl/worksheets/sheet1.xml": sheet.encode()})
     report = refresh_file(path)
     assert [c for c, _ in report.blocked] == ["Sheet1!A5"] and sorted(report.refreshed) == ["Sheet1!L1", "Sheet1!L3"]
-    profile = tmp_path / "profile"
-    (profile / "user").mkdir(parents=True)
-    (profile / "user" / "registrymodifications.xcu").write_text(NEVER_RECALCULATE)
-    out = tmp_path / "csv"
-    subprocess.run(["soffice", f"-env:UserInstallation={profile.as_uri()}", "--headless", "--convert-to", "csv",
-                    "--outdir", str(out), str(path)], check=True, capture_output=True, timeout=300)
-    rows = [line.split(",") for line in (out / "table02.csv").read_text().splitlines()]
+    rows = libreoffice_rows(path, tmp_path)
     order = degreewise.calib_order(XS, YS)
     assert rows[0][11] == str(order) and rows[0][20] == "merged note"
     assert float(rows[1][26]) == X[0] and float(rows[1][27]) == pytest.approx(Y[0], rel=1e-14)
