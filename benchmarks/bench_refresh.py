@@ -30,7 +30,7 @@ if sys.argv[3] == "no-pandas":  # as installed by the README's first command: pa
 t0 = time.perf_counter()
 if kind.startswith("refresh"):
     import contextlib, io
-    from degreewise.cli import main
+    from degreewise.commands import main
     with contextlib.redirect_stdout(io.StringIO()) as out:  # the one-line summary
         code = main(["refresh", path, "--jobs", kind[len("refresh"):]])
     assert code == 0, out.getvalue()

@@ -3,8 +3,8 @@
 import subprocess
 import sys
 
-from degreewise.addin import write_settings
-from degreewise.cli import main
+from degreewise.commands.addin import write_settings
+from degreewise.commands import main
 
 
 def test_settings_file_is_written_and_other_keys_kept(tmp_path):
@@ -36,7 +36,7 @@ def test_conda_settings_and_an_existing_interpreter_are_kept(tmp_path):
 def test_addin_command_prints_the_numbered_steps_that_the_readme_gives(tmp_path, capsys):
     from pathlib import Path
 
-    from degreewise.addin import STEPS
+    from degreewise.commands.addin import STEPS
 
     conf = tmp_path / "xlwings.conf"
     assert main(["addin", "--config", str(conf)]) == 0
@@ -49,15 +49,19 @@ def test_addin_command_prints_the_numbered_steps_that_the_readme_gives(tmp_path,
     assert STEPS in readme  # the README's desktop set-up is exactly what the command prints
 
 
-def test_import_udfs_needs_no_file_system_modules_of_ours():
-    code = ("import sys, degreewise; degreewise.calib_order; mods = set(sys.modules);"
-            "print(sorted(m for m in mods if m.startswith('degreewise') or m in ('openpyxl', 'tqdm', 'subprocess',"
-            " 'multiprocessing', 'defusedxml')))")
-    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout
-    loaded = eval(out)
-    assert "degreewise.cli" not in loaded and "degreewise.validation" not in loaded and "degreewise.addin" not in loaded
-    assert "openpyxl" not in loaded and "tqdm" not in loaded and "multiprocessing" not in loaded
-    assert "degreewise.functions" in loaded and "degreewise.coercion" in loaded
+def test_the_worksheet_functions_load_neither_the_file_format_nor_the_command_line():
+    """What in-workbook Python runs: the functions room only (no files, no subprocesses), through a first
+    CALIB_ORDER and a first CALIB_CHECKS."""
+    code = ("import sys; from degreewise.registration import headless; headless(); import degreewise;"
+            "x = [[float(v)] for v in (1, 1, 2, 2, 3, 3, 4, 4, 5, 5)]; y = [[2 * r[0] + (-1) ** i / 10] for i, r in"
+            " enumerate(x)]; assert degreewise.calib_order(x, y) == 1; degreewise.calib_checks(x, y);"
+            "print(sorted(sys.modules))")
+    loaded = set(eval(subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
+                                     check=True).stdout))
+    ours = sorted(m for m in loaded if m.startswith("degreewise") and not m.startswith("degreewise.engine"))
+    assert ours == ["degreewise", "degreewise.catalogue", "degreewise.coercion", "degreewise.functions",
+                    "degreewise.prepared", "degreewise.registration"]
+    assert not loaded & {"openpyxl", "defusedxml", "tqdm", "multiprocessing", "reportlab", "matplotlib"}
 
 
 REGISTRATION_PROBE = """
@@ -99,7 +103,7 @@ def test_the_refresh_command_imports_neither_xlwings_nor_pandas(tmp_path):
         ws.cell(i, 2, float(b))
     ws["D1"] = "=CALIB_ORDER(A1:A6,B1:B6)"
     wb.save(tmp_path / "book.xlsx")
-    code = ("import sys; from degreewise.cli import main; code = main(['refresh', sys.argv[1]]);"
+    code = ("import sys; from degreewise.commands import main; code = main(['refresh', sys.argv[1]]);"
             "print(code, 'xlwings' in sys.modules, 'pandas' in sys.modules, 'numpy.f2py.crackfortran' in sys.modules,"
             " 'numpy.testing._private.utils' in sys.modules)")
     out = subprocess.run([sys.executable, "-c", code, str(tmp_path / "book.xlsx")], capture_output=True, text=True,
@@ -109,7 +113,7 @@ def test_the_refresh_command_imports_neither_xlwings_nor_pandas(tmp_path):
 
 
 def test_numpy_modules_deferred_by_the_command_line_still_work():
-    code = ("import sys; from degreewise.cli import _defer_unused_numpy_modules as defer; defer(); import numpy as np;"
+    code = ("import sys; from degreewise.commands import _defer_unused_numpy_modules as defer; defer(); import numpy as np;"
             "np.testing.assert_allclose(np.ma.masked_invalid([1.0, float('nan')]).sum(), 1.0);"
             "print(np.random.default_rng(7).integers(0, 10**6), 'numpy.f2py.crackfortran' in sys.modules)")
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout.split()

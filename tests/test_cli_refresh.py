@@ -3,7 +3,7 @@
 import pytest
 
 from degreewise import VERSION
-from degreewise.cli import main
+from degreewise.commands import main
 
 
 def exit_code(argv):

@@ -9,10 +9,10 @@ import openpyxl
 import pytest
 
 import degreewise
-from degreewise.cli import main
-from degreewise.demo import GRID, LAYOUT, limits_anchors, samples_anchor
-from degreewise.refresh import refresh_file
-from degreewise.scenarios import all_scenarios
+from degreewise.commands import main
+from degreewise.commands.demo import GRID, LAYOUT, limits_anchors, samples_anchor
+from degreewise.commands.refresh import refresh_file
+from degreewise.commands.scenarios import all_scenarios
 
 FOLDER = Path(__file__).resolve().parent.parent / "workbooks"
 SCENARIOS = {sc.name: sc for sc in all_scenarios()}

@@ -12,7 +12,7 @@ import pytest
 import degreewise
 from degreewise import engine
 from degreewise.prepared import clear_caches
-from degreewise.refresh import refresh_file
+from degreewise.commands.refresh import refresh_file
 
 # invented: a probe calibrated at six levels in duplicate; row 6 (x = 25) had an air bubble
 X = [0.0, 0.0, 10.0, 10.0, 25.0, 25.0, 50.0, 50.0, 75.0, 75.0, 100.0, 100.0]

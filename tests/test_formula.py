@@ -11,8 +11,8 @@ from hypothesis import given
 from hypothesis import strategies as st
 
 import degreewise
-from degreewise.formula import Area, Unsupported, parse_call, quote_sheet, shift_references
-from degreewise.refresh import refresh_file
+from degreewise.commands.formula import Area, Unsupported, parse_call, quote_sheet, shift_references
+from degreewise.commands.refresh import refresh_file
 
 RNG = np.random.default_rng(1311)
 X = np.repeat([1.0, 3.0, 6.0, 12.0, 25.0, 50.0], 2)  # invented standards

@@ -59,7 +59,7 @@ def test_engine_does_not_use_extended_precision():
 
 
 def test_validate_report_passes():
-    from degreewise.validation import report
+    from degreewise.commands.validate import report
 
     text, ok = report()
     assert ok

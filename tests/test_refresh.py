@@ -13,8 +13,8 @@ from openpyxl.chart import Reference, ScatterChart, Series
 from openpyxl.workbook.defined_name import DefinedName
 
 import degreewise
-from degreewise.package import MAX_PART
-from degreewise.refresh import lock_file, refresh_file, run
+from degreewise.xlsx.package import MAX_PART
+from degreewise.commands.refresh import lock_file, refresh_file, run
 from conftest import libreoffice_rows
 
 RNG = np.random.default_rng(31)
@@ -288,7 +288,7 @@ def test_a_spreadsheet_program_reads_the_cached_numbers(tmp_path):
     ('<x:workbook xmlns:x="m"><x:sheets/></x:workbook>', '<x:workbook xmlns:x="m"><x:sheets/><x:calcPr fullCalcOnLoad="1"/></x:workbook>'),
 ])
 def test_full_recalculation_flag_is_set_in_place(before, after):
-    from degreewise.package import set_full_calc_on_load
+    from degreewise.xlsx.package import set_full_calc_on_load
 
     assert set_full_calc_on_load(before) == after
     assert set_full_calc_on_load(after) == after
@@ -374,7 +374,7 @@ def _many_sheets(path: Path) -> Path:
 
 
 def test_sheets_split_over_processes_give_the_same_file_and_report(tmp_path, monkeypatch):
-    import degreewise.refresh as refresh
+    import degreewise.commands.refresh as refresh
 
     monkeypatch.setattr(refresh, "PARALLEL_FROM", 1)
     one = _many_sheets(tmp_path / "one.xlsx")
@@ -392,7 +392,7 @@ def test_sheets_split_over_processes_give_the_same_file_and_report(tmp_path, mon
 
 
 def test_sheets_that_refer_to_each_other_share_a_process(tmp_path):
-    import degreewise.refresh as refresh
+    import degreewise.commands.refresh as refresh
 
     book = refresh.Refresher(refresh.read_package(_many_sheets(tmp_path / "book.xlsx"))[1])
     by_cell = {}
@@ -416,7 +416,7 @@ _BOMB_BODY = _bomb_xml().replace(b'<?xml version="1.0"?>', b"").decode("ascii")
     (b'<?xml version="1.0" encoding="cp037"?>' + _BOMB_BODY.encode("cp037"), "broken"),  # EBCDIC: not parsed
 ])
 def test_entity_declarations_are_refused_in_any_encoding(xml, message):
-    from degreewise.package import PackageError, parse_xml
+    from degreewise.xlsx.package import PackageError, parse_xml
 
     with pytest.raises(PackageError, match=rf"^{message} XML in part\.xml: "):
         parse_xml("part.xml", xml)
@@ -425,7 +425,7 @@ def test_entity_declarations_are_refused_in_any_encoding(xml, message):
 def test_plain_parts_parse_alike_on_both_paths():
     from defusedxml import ElementTree as SafeET
 
-    from degreewise.package import parse_xml
+    from degreewise.xlsx.package import parse_xml
 
     xml = ('<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n<worksheet xmlns="urn:x"><c r="A1" t="str">'
            '<v>a &amp; b &lt; c &#233;</v></c></worksheet>').encode()

@@ -21,7 +21,7 @@ from openpyxl.chart import Reference, ScatterChart, Series
 from openpyxl.workbook.defined_name import DefinedName
 
 import degreewise
-from degreewise.refresh import refresh_file, run
+from degreewise.commands.refresh import refresh_file, run
 from conftest import libreoffice_rows
 
 DESKTOP = Path(__file__).parent / "data" / "desktop-saved"

@@ -18,12 +18,12 @@ import openpyxl
 import pytest
 
 import degreewise
-from degreewise.cli import main
-from degreewise.freeze import freeze
-from degreewise.refresh import refresh_file
-from degreewise.report import write_report
-from degreewise.scenarios import all_scenarios
-from degreewise.sections import number
+from degreewise.commands import main
+from degreewise.commands.freeze import freeze
+from degreewise.commands.refresh import refresh_file
+from degreewise.commands.report import write_report
+from degreewise.commands.scenarios import all_scenarios
+from degreewise.commands.sections import number
 
 FOLDER = Path(__file__).resolve().parent.parent / "workbooks"
 SCENARIOS = {sc.name: sc for sc in all_scenarios()}

@@ -14,8 +14,8 @@ import xlwings_runtimes as rt
 from xlwings_runtimes import MISSING, ComRange, JsError
 
 import degreewise
-from degreewise.functions import DOC
-from degreewise.refresh import refresh_file
+from degreewise.catalogue import ARGUMENTS
+from degreewise.commands.refresh import refresh_file
 
 # an invented calibration: six levels in duplicate, slightly curved; the last standard reads high (an outlier)
 X = [0.5, 0.5, 1.0, 1.0, 2.0, 2.0, 4.0, 4.0, 6.0, 6.0, 8.0, 8.0]
@@ -141,7 +141,7 @@ def test_import_functions_writes_one_wrapper_per_function_with_optional_argument
                 "function", "get", "if", "in", "is", "let", "like", "me", "mod", "new", "next", "not", "nothing",
                 "on", "or", "option", "optional", "print", "property", "resume", "select", "set", "step", "stop",
                 "string", "sub", "then", "to", "type", "until", "while", "with", "xor"}
-    assert not keywords & set(DOC)
+    assert not keywords & set(ARGUMENTS)
 
 
 def test_import_functions_describes_every_function_and_argument_in_the_degreewise_category(desktop):
@@ -152,7 +152,7 @@ def test_import_functions_describes_every_function_and_argument_in_the_degreewis
         assert kw["Category"] == "Degreewise"
         assert kw["Description"] == " ".join(getattr(degreewise, name).__doc__.split()) and "\n" not in kw[
             "Description"] and len(kw["Description"]) <= 255
-        expected = [DOC[p.name] for p in signature(name)] or None
+        expected = [ARGUMENTS[p.name] for p in signature(name)] or None
         assert kw["ArgumentDescriptions"] == expected
 
 
@@ -163,7 +163,7 @@ def test_custom_function_metadata_lists_every_function_with_optional_flags_and_d
         f = meta[name.upper()]
         assert f["name"] == name.upper() and "\n" not in f["description"] and "  " not in f["description"]
         assert [(p["name"], p["description"], p.get("optional", False)) for p in f["parameters"]] == [
-            (p.name, DOC[p.name], p.default is not p.empty) for p in signature(name)]
+            (p.name, ARGUMENTS[p.name], p.default is not p.empty) for p in signature(name)]
     assert browser["meta"]["allowErrorForDataTypeAny"] is True  # error cells reach the function as objects
 
 

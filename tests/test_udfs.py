@@ -15,7 +15,7 @@ from statsmodels.stats.anova import anova_lm
 
 from degreewise import engine
 import degreewise
-from degreewise.labels import HEADERS
+from degreewise.catalogue import HEADERS
 from degreewise.prepared import clear_caches
 
 
@@ -328,7 +328,7 @@ def test_one_factorisation_per_calibration(data, monkeypatch):
 def test_every_argument_is_documented_for_the_function_wizard():
     import inspect
 
-    from degreewise.functions import DOC
+    from degreewise.catalogue import ARGUMENTS
 
     for name in degreewise.__all__:
         if name.startswith("calib_"):
@@ -337,7 +337,7 @@ def test_every_argument_is_documented_for_the_function_wizard():
             for param in inspect.signature(f).parameters.values():
                 # xlwings registers positional-or-keyword arguments only
                 assert param.kind is inspect.Parameter.POSITIONAL_OR_KEYWORD, (name, param)
-                assert param.name in DOC, (name, param.name)
+                assert param.name in ARGUMENTS, (name, param.name)
 
 
 @pytest.mark.parametrize("exponent", [520, -660])  # responses near 1e156 and 1e-199

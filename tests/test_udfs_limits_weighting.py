@@ -14,8 +14,9 @@ import numpy as np
 import pytest
 
 import degreewise
-from degreewise import engine, formula, functions, refresh
-from degreewise.labels import HEADERS
+from degreewise import catalogue, engine, functions
+from degreewise.catalogue import HEADERS
+from degreewise.commands import refresh
 from degreewise.prepared import clear_caches
 
 # Miller & Miller's fluorescence standards (recalled from memory; see test_limits.py)
@@ -102,21 +103,17 @@ def test_labels_know_every_table():
         assert degreewise.calib_labels(name) == [list(HEADERS[name])]
 
 
-def test_every_list_that_registers_a_function_holds_the_same_functions():
-    """FUNCTIONS (what the spreadsheet lists), the functions module, the refresh's callables, the formula names,
-    the argument docs, the headers and the README's reference table must agree: forgetting one fails here."""
-    short = sorted(n[len("calib_"):] for n in degreewise.FUNCTIONS)
-    defined = sorted(n[len("calib_"):] for n, f in vars(functions).items()
-                     if n.startswith("calib_") and inspect.isfunction(f))
-    assert defined == short
-    assert sorted(n[len("CALIB_"):].lower() for n in formula.NAMES) == short
-    assert sorted(n[len("CALIB_"):].lower() for n in refresh.CALLABLE) == short
-    assert all(refresh.CALLABLE[f"CALIB_{n.upper()}"] is getattr(functions, f"calib_{n}") for n in short)
-    assert set(HEADERS) - {"predict", "inverse", "residuals"} <= set(short)
-    for n in short:
-        assert set(inspect.signature(getattr(functions, f"calib_{n}")).parameters) <= set(functions.DOC), n
+def test_the_catalogue_is_the_one_list_of_the_family():
+    """The catalogue lists each function once; the functions module defines exactly those, every argument has its
+    description there, the refresh computes exactly those, and the README's reference table lists exactly those."""
+    names = list(catalogue.FUNCTIONS)
+    defined = [n for n, f in vars(functions).items() if n.startswith("calib_") and inspect.isfunction(f)]
+    assert sorted(defined) == sorted(names) and degreewise.FUNCTIONS is catalogue.FUNCTIONS
+    assert {n: f.__name__ for n, f in refresh.CALLABLE.items()} == {n.upper(): n for n in names}
+    for n in names:
+        assert set(inspect.signature(getattr(functions, n)).parameters) <= set(catalogue.ARGUMENTS), n
     readme = (Path(__file__).resolve().parent.parent / "README.md").read_text()
-    assert sorted(set(m.lower() for m in re.findall(r"^\| `CALIB_([A-Z]+)\(", readme, re.M))) == short
+    assert sorted(set(f"calib_{m.lower()}" for m in re.findall(r"^\| `CALIB_([A-Z]+)\(", readme, re.M))) == sorted(names)
 
 
 def test_readme_worked_example():

@@ -1,20 +1,16 @@
 """Degreewise worksheet functions: the CALIB_* family (xlwings user-defined functions).
 
 Importing this package needs no file system, subprocess or compiled code of
-its own, so it also serves in-workbook Python; the workbook refresh and the
-command line live in their own modules. The functions load on first use of any
+its own, so it also serves in-workbook Python; the xlsx file format (``xlsx``)
+and the command line (``commands``) are subpackages it never loads. The functions load on first use of any
 of them (``degreewise.calib_order``, ``from degreewise import *``, or the spreadsheet
 listing the package's names), so that the command line can load them without
 registration metadata (see ``registration``).
 """
 
-VERSION = "0.1.0"
+from .catalogue import FUNCTIONS
 
-FUNCTIONS = (
-    "calib_checks", "calib_coefs", "calib_compare", "calib_inverse", "calib_labels", "calib_limits", "calib_order",
-    "calib_orders", "calib_predict", "calib_residuals", "calib_seqf", "calib_stats", "calib_version",
-    "calib_weighting",
-)
+VERSION = "0.1.0"
 __all__ = ["VERSION", *FUNCTIONS]
 
 

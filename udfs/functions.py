@@ -22,39 +22,14 @@ import platform
 import numpy as np
 import scipy
 
-from . import engine
-
-from . import VERSION
+from . import VERSION, engine
+from .catalogue import ARGUMENTS, CAUTION, HEADERS, LIMITS_CAUTION, term
 from .coercion import CellError, cell_numbers, flatten, is_omitted, number_option, numbers_or_blank, text_option
 from .engine.validation import check_order, order_limit
-from .labels import CAUTION, HEADERS, LIMITS_CAUTION, term
 from .prepared import RESULTS, SCHEMES, calibration, prepare, prepare_named
 from .registration import declared
 
-DOC = {
-    "x": "known x of the standards (concentrations): a row or column; blank rows are skipped",
-    "y": "responses of the standards, same size as x",
-    "max_order": "highest order considered (default: up to 4, keeping 4 residual df; see the README)",
-    "alpha": "significance level of the tests (default 0.05)",
-    "rule": "how to choose the order: stepdown (default), forward, aicc, bic or press",
-    "weights": "weights, one per row, or one of 1/x, 1/x^2, 1/y, 1/y^2 (default none)",
-    "order": "order of the curve (default: the order the stepdown rule picks)",
-    "level": "confidence level of intervals (default 0.95)",
-    "new_x": "x values to predict responses at",
-    "reading": "sample readings to turn into x (each the mean of `replicates` readings)",
-    "replicates": "how many readings each reading averages (default 1)",
-    "exclude": "TRUE or a reason in a standard's row takes it out of the fit and keeps it on the record "
-               "(default: none excluded)",
-    "ref_x": "known x of the reference calibration's standards (an earlier run)",
-    "ref_y": "responses of the reference calibration's standards, same size as ref_x",
-    "at": "x values at which to compare the two curves' responses (optional)",
-    "blank": "responses of blank samples (x = 0) for the blank method (optional)",
-    "name": "which table: predict, inverse or residuals (or orders, seqf, coefs, stats, checks, compare, limits, "
-            "weighting)",
-}
-
-
-worksheet_function = declared(DOC)  # each argument described by DOC[its name]
+worksheet_function = declared(ARGUMENTS)  # each argument described by ARGUMENTS[its name]
 
 
 # checks that name single standards: their rows also name the excluded ones, apart from the flagged

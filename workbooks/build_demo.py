@@ -5,7 +5,7 @@ Run from the repository root: python workbooks/build_demo.py
 
 from pathlib import Path
 
-from degreewise.demo import write_demo
+from degreewise.commands.demo import write_demo
 
 if __name__ == "__main__":
     for path in write_demo(Path(__file__).resolve().parent):

@@ -18,8 +18,8 @@ import tempfile
 import time
 from pathlib import Path
 
-from . import VERSION
-from .package import PackageError, SheetText, escape, read_package, write_package
+from .. import VERSION
+from ..xlsx.package import PackageError, SheetText, escape, read_package, write_package
 from .refresh import Refresher, Report
 
 CORE = "docProps/core.xml"

@@ -30,9 +30,9 @@ from reportlab.pdfbase.ttfonts import TTFont
 from reportlab.pdfgen.canvas import Canvas
 from reportlab.platypus import Image, KeepTogether, PageBreak, Paragraph, SimpleDocTemplate, Spacer, Table, TableStyle
 
-from . import VERSION, functions
-from .labels import CAUTION
-from .package import PackageError
+from .. import VERSION, functions
+from ..catalogue import CAUTION
+from ..xlsx.package import PackageError
 from .refresh import workbooks
 from .sections import Section, number, sections, where
 

@@ -19,7 +19,7 @@ from importlib import resources
 import numpy as np
 import scipy
 
-from . import engine
+from .. import engine
 
 DATASETS = ("norris", "pontius", "filip", "wampler1", "wampler2", "wampler3")
 REQUIRED_LRE = 12.0
@@ -73,7 +73,7 @@ def scores() -> list[Score]:
 
 def report() -> tuple[str, bool]:
     """The printable report and whether every quantity reached LRE 12."""
-    from . import VERSION
+    from .. import VERSION
 
     all_scores = scores()
     lines = [
@@ -97,3 +97,10 @@ def report() -> tuple[str, bool]:
               f"{'PASS' if ok else 'FAIL'}: every quantity {'reaches' if ok else 'must reach'} LRE {REQUIRED_LRE:g}",
               "This report supports, and does not replace, software validation under your quality system."]
     return "\n".join(lines), ok
+
+
+def run() -> int:
+    """degreewise validate: print the report; exit 1 unless every quantity reached the required LRE."""
+    text, ok = report()
+    print(text)
+    return 0 if ok else 1

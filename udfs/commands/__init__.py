@@ -1,12 +1,10 @@
-"""The ``degreewise`` command: demo, validate, refresh, report, freeze, addin."""
+"""The ``degreewise`` command: its arguments, and one module per command (demo, validate, refresh, report,
+freeze, addin), each loaded only when it runs."""
 
 from __future__ import annotations
 
 import argparse
 import sys
-
-CAUTION = ("Degreewise supports, and does not replace, method validation under your laboratory's quality "
-           "system and applicable standards; results must be reviewed by qualified staff.")
 
 
 class _Parser(argparse.ArgumentParser):
@@ -27,46 +25,15 @@ def _jobs(text: str) -> int:
 
 
 def _demo(args) -> int:
-    from pathlib import Path
+    from .demo import run
 
-    from .demo import write_demo
-    from .scenarios import all_scenarios
-    from .sections import sections, summary
-
-    folder = Path(args.folder)
-    if folder.exists() and not folder.is_dir():
-        print(f"degreewise demo: {folder} is a file; give a folder to write the demo workbooks into", file=sys.stderr)
-        return 2
-    try:
-        paths = write_demo(folder)
-    except OSError as err:
-        print(f"degreewise demo: cannot write the demo workbooks into {folder}: {err.strerror or err}",
-              file=sys.stderr)
-        return 1
-    try:
-        from .report import report_path, write_report
-    except ImportError as err:  # the report extra is not installed
-        write_report, missing = None, err.name
-    for sc, path in zip(all_scenarios(), paths):
-        found, _ = sections(path)
-        print(f"{sc.title}  [{path}]")
-        for s in found:
-            print("\n".join(summary(s)))
-        if write_report:
-            print(f"  report: {write_report(path, report_path(path, None))[0]}")
-        else:
-            print(f"  no report: {missing} is not installed (pip install \"degreewise[report]\")")
-        print()
-    print(CAUTION)
-    return 0
+    return run(args.folder)
 
 
 def _validate(args) -> int:
-    from .validation import report
+    from .validate import run
 
-    text, ok = report()
-    print(text)
-    return 0 if ok else 1
+    return run()
 
 
 def _refresh(args) -> int:
@@ -97,7 +64,7 @@ def _addin(args) -> int:
 
 
 def main(argv=None) -> int:
-    from . import VERSION
+    from .. import VERSION
 
     parser = _Parser(prog="degreewise", description="Polynomial calibration curves: order, coefficients, "
                      "intervals, checks.")
@@ -131,7 +98,7 @@ def main(argv=None) -> int:
     p.set_defaults(run=_addin)
     args = parser.parse_args(argv)
     if args.command != "addin":  # the commands that load the worksheet functions
-        from .registration import headless
+        from ..registration import headless
 
         headless()  # no spreadsheet to register with: the functions load without xlwings (and pandas)
         _defer_unused_numpy_modules()

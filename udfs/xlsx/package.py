@@ -20,7 +20,7 @@ from xml.etree import ElementTree
 from defusedxml import ElementTree as SafeET
 from defusedxml.common import DefusedXmlException
 
-from .formula import cell_name, column_letters, column_number, parse_cell
+from .cells import cell_name, column_letters, column_number, parse_cell
 
 MAIN = "http://schemas.openxmlformats.org/spreadsheetml/2006/main"
 STRICT_MAIN = "http://purl.oclc.org/ooxml/spreadsheetml/main"

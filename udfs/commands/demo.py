@@ -18,6 +18,7 @@ scenario has them), and the weighted one compares weighting schemes
 from __future__ import annotations
 
 import math
+import sys
 from pathlib import Path
 
 import numpy as np
@@ -27,8 +28,11 @@ from openpyxl.styles import Alignment, Font, PatternFill
 from openpyxl.utils import get_column_letter, range_boundaries
 from openpyxl.worksheet.pagebreak import Break
 
-from .labels import CAUTION, HEADERS
+from ..catalogue import CAUTION, HEADERS
 from .scenarios import Scenario, all_scenarios
+
+CAUTION_LINE = ("Degreewise supports, and does not replace, method validation under your laboratory's quality "
+                "system and applicable standards; results must be reviewed by qualified staff.")
 
 GRID = 41  # points of the fine x grid for the fitted curve
 
@@ -201,7 +205,7 @@ def _lines(text, width: float) -> int:
 def _row_heights(ws, sc: Scenario) -> None:
     """Heights for rows whose wrapped texts need more than one line (spreadsheet programs do not fit rows
     on opening a file); the texts are those the functions return for this calibration."""
-    from . import functions
+    from .. import functions
 
     x, y = [[v] for v in sc.x], [[v] for v in sc.y]
     e = _exclude_cells(sc)
@@ -396,3 +400,36 @@ def write_demo(folder: Path) -> list[Path]:
             raise RuntimeError("\n".join(report.lines()))
         paths.append(path)
     return paths
+
+
+def run(folder) -> int:
+    """degreewise demo: write and refresh the demo workbooks, and print each calibration (and its report
+    when the report extra is installed)."""
+    from .sections import sections, summary
+
+    folder = Path(folder)
+    if folder.exists() and not folder.is_dir():
+        print(f"degreewise demo: {folder} is a file; give a folder to write the demo workbooks into", file=sys.stderr)
+        return 2
+    try:
+        paths = write_demo(folder)
+    except OSError as err:
+        print(f"degreewise demo: cannot write the demo workbooks into {folder}: {err.strerror or err}",
+              file=sys.stderr)
+        return 1
+    try:
+        from .report import report_path, write_report
+    except ImportError as err:  # the report extra is not installed
+        write_report, missing = None, err.name
+    for sc, path in zip(all_scenarios(), paths):
+        found, _ = sections(path)
+        print(f"{sc.title}  [{path}]")
+        for s in found:
+            print("\n".join(summary(s)))
+        if write_report:
+            print(f"  report: {write_report(path, report_path(path, None))[0]}")
+        else:
+            print(f"  no report: {missing} is not installed (pip install \"degreewise[report]\")")
+        print()
+    print(CAUTION_LINE)
+    return 0

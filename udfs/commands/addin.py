@@ -13,7 +13,7 @@ import os
 import sys
 from pathlib import Path
 
-from . import VERSION
+from .. import VERSION
 
 UDF_MODULE = "degreewise"
 MODULES, INTERPRETER, CONDA = "UDF MODULES", "INTERPRETER_WIN", ("CONDA PATH", "CONDA ENV")

@@ -13,7 +13,8 @@ import functools
 import re
 from dataclasses import dataclass
 
-from . import FUNCTIONS
+from ..catalogue import FUNCTIONS
+from ..xlsx.cells import CELL, column_letters, column_number
 
 NAMES = frozenset(name.upper() for name in FUNCTIONS)  # the family, as the spreadsheet shows it
 MENTION = re.compile(r"CALIB_[A-Z]+\s*\(", re.IGNORECASE)
@@ -28,44 +29,14 @@ MENTION = re.compile(r"CALIB_[A-Z]+\s*\(", re.IGNORECASE)
 HEAD = re.compile(r"(?:\[\d+\]!)?(?:_xludf\.|_xll\.|_xldudf_(?:[A-Za-z0-9]+_)*?)?(?:[A-Za-z][A-Za-z0-9]*\.)*"
                   r"(CALIB_[A-Za-z]+)\s*\(", re.IGNORECASE)
 _NUMBER = re.compile(r"^[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?$")
-_CELL = r"\$?([A-Za-z]{1,3})\$?(\d{1,7})"
 _COL = r"\$?([A-Za-z]{1,3})"
 _SHEET = r"(?:'((?:[^']|'')+)'|([A-Za-z_][\w.]*))!"
-_REF = re.compile(rf"^(?:{_SHEET})?(?:{_CELL}(?::{_CELL})?|{_COL}:{_COL})$")
+_REF = re.compile(rf"^(?:{_SHEET})?(?:{CELL}(?::{CELL})?|{_COL}:{_COL})$")
 _NAME = re.compile(r"^[A-Za-z_\\][\w.]*$")
 
 
 class Unsupported(Exception):
     """The formula is not one the refresh can compute with certainty; the message says why."""
-
-
-@functools.lru_cache(maxsize=4096)
-def column_number(letters: str) -> int:
-    n = 0
-    for ch in letters.upper():
-        n = n * 26 + ord(ch) - 64
-    return n
-
-
-@functools.lru_cache(maxsize=4096)
-def column_letters(n: int) -> str:
-    out = ""
-    while n:
-        n, rem = divmod(n - 1, 26)
-        out = chr(65 + rem) + out
-    return out
-
-
-def cell_name(row: int, col: int) -> str:
-    return column_letters(col) + str(row)
-
-
-@functools.lru_cache(maxsize=2**16)
-def parse_cell(ref: str) -> tuple[int, int]:
-    m = re.fullmatch(_CELL, ref)
-    if not m:
-        raise ValueError(f"not a cell reference: {ref}")
-    return int(m.group(2)), column_number(m.group(1))
 
 
 @dataclass(frozen=True)

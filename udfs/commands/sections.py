@@ -16,9 +16,10 @@ import inspect
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from . import engine
-from .formula import Area, Call, column_letters
-from .package import read_package
+from .. import engine
+from ..xlsx.cells import column_letters
+from ..xlsx.package import read_package
+from .formula import Area, Call
 from .refresh import CALLABLE, Refresher, Report
 
 STANDARDS = ("x", "y", "weights", "exclude")

@@ -26,11 +26,11 @@ import time
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from . import FUNCTIONS, functions
-from .formula import (MENTION, Area, Call, Unsupported, areas_of, cell_name, column_letters, parse_call, quote_sheet,
-                      reference, shift_references)
-from .package import (MAX_COL, MAX_ROW, PackageError, SheetText, Workbook, dynamic_array_metadata, read_package,
-                      set_full_calc_on_load, text_of, write_package)
+from .. import FUNCTIONS, functions
+from ..xlsx.cells import cell_name, column_letters
+from ..xlsx.package import (MAX_COL, MAX_ROW, PackageError, SheetText, Workbook, dynamic_array_metadata, read_package,
+                            set_full_calc_on_load, text_of, write_package)
+from .formula import MENTION, Area, Call, Unsupported, areas_of, parse_call, quote_sheet, reference, shift_references
 
 SUFFIXES = (".xlsx", ".xlsm")
 CALLABLE = {name.upper(): getattr(functions, name) for name in FUNCTIONS}  # every function of the family

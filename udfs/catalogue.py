@@ -1,0 +1,63 @@
+"""The CALIB_* family in one place: each worksheet function once with its table's header, the description of
+each argument, and the words the tables share (term names, cautions).
+
+Registration (argument descriptions), ``import degreewise`` (the names), the refresh (which formulas it
+computes), CALIB_LABELS and the README's reference table all read this catalogue: a new worksheet function
+is one row of ``FUNCTIONS`` plus its code in ``functions``. This module imports nothing.
+"""
+
+# name -> the header row of its table (None: a single cell)
+FUNCTIONS = {
+    "calib_order": None,
+    "calib_orders": ("order", "residual df", "residual SD", "R²", "adjusted R²", "predicted R²", "AICc", "BIC",
+                     "term p", "step p", "lack-of-fit p", "picked by"),
+    "calib_seqf": ("source", "df", "SS", "MS", "F", "p-value"),
+    "calib_coefs": ("term", "coefficient", "std error", "t", "p-value", "lower", "upper"),
+    "calib_stats": ("statistic", "value"),
+    "calib_predict": ("predicted y", "mean lower", "mean upper", "prediction lower", "prediction upper", "note"),
+    "calib_inverse": ("x estimate", "lower", "upper", "note"),
+    "calib_residuals": ("fitted", "residual", "studentized residual", "leverage", "Cook's distance",
+                        "back-calculated x", "deviation %", "note"),
+    "calib_checks": ("check", "statistic", "p-value", "verdict", "detail"),
+    "calib_compare": ("item", "reference", "today", "difference", "lower", "upper", "p-value", "verdict", "detail"),
+    "calib_limits": ("method", "critical response", "decision limit", "detection limit", "quantitation limit",
+                     "note"),
+    "calib_weighting": ("scheme", "order", "sum abs deviation %", "largest abs deviation %", "spread p-value",
+                        "picked", "note"),
+    "calib_labels": None,
+    "calib_version": None,
+}
+
+# a table's header by the table's name (CALIB_LABELS, the demo layout)
+HEADERS = {name[len("calib_"):]: header for name, header in FUNCTIONS.items() if header}
+
+# argument name -> its description, shown by the spreadsheet's function wizard
+ARGUMENTS = {
+    "x": "known x of the standards (concentrations): a row or column; blank rows are skipped",
+    "y": "responses of the standards, same size as x",
+    "max_order": "highest order considered (default: up to 4, keeping 4 residual df; see the README)",
+    "alpha": "significance level of the tests (default 0.05)",
+    "rule": "how to choose the order: stepdown (default), forward, aicc, bic or press",
+    "weights": "weights, one per row, or one of 1/x, 1/x^2, 1/y, 1/y^2 (default none)",
+    "order": "order of the curve (default: the order the stepdown rule picks)",
+    "level": "confidence level of intervals (default 0.95)",
+    "new_x": "x values to predict responses at",
+    "reading": "sample readings to turn into x (each the mean of `replicates` readings)",
+    "replicates": "how many readings each reading averages (default 1)",
+    "exclude": "TRUE or a reason in a standard's row takes it out of the fit and keeps it on the record "
+               "(default: none excluded)",
+    "ref_x": "known x of the reference calibration's standards (an earlier run)",
+    "ref_y": "responses of the reference calibration's standards, same size as ref_x",
+    "at": "x values at which to compare the two curves' responses (optional)",
+    "blank": "responses of blank samples (x = 0) for the blank method (optional)",
+    "name": "which table: predict, inverse or residuals (or orders, seqf, coefs, stats, checks, compare, limits, "
+            "weighting)",
+}
+
+LIMITS_CAUTION = "estimates from one calibration: confirm them with samples near the limit, as the methods require"
+CAUTION = ("Supports, and does not replace, method validation under your quality system and applicable "
+           "standards; results must be reviewed by qualified staff.")
+
+
+def term(k: int) -> str:
+    return "intercept" if k == 0 else ("x" if k == 1 else f"x^{k}")

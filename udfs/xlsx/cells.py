@@ -1,0 +1,37 @@
+"""Cell addresses: column letters and numbers, A1 names, and (row, column) from an A1 name."""
+
+from __future__ import annotations
+
+import functools
+import re
+
+CELL = r"\$?([A-Za-z]{1,3})\$?(\d{1,7})"  # an A1 address, each part optionally absolute: column, row
+
+
+@functools.lru_cache(maxsize=4096)
+def column_number(letters: str) -> int:
+    n = 0
+    for ch in letters.upper():
+        n = n * 26 + ord(ch) - 64
+    return n
+
+
+@functools.lru_cache(maxsize=4096)
+def column_letters(n: int) -> str:
+    out = ""
+    while n:
+        n, rem = divmod(n - 1, 26)
+        out = chr(65 + rem) + out
+    return out
+
+
+def cell_name(row: int, col: int) -> str:
+    return column_letters(col) + str(row)
+
+
+@functools.lru_cache(maxsize=2**16)
+def parse_cell(ref: str) -> tuple[int, int]:
+    m = re.fullmatch(CELL, ref)
+    if not m:
+        raise ValueError(f"not a cell reference: {ref}")
+    return int(m.group(2)), column_number(m.group(1))
