@@ -280,10 +280,10 @@ class Calibration:
             return hi, lo
         return dd.mul_double(hi, lo, self.sqrt_w[:, None])
 
-    def _refine_fits(self, orders: list[int]) -> tuple[np.ndarray, np.ndarray]:
-        """Refined raw coefficients (one row per order, zeros beyond its powers) and scaled weighted
-        residuals of ``orders``, in one call: each order is the right-hand side y with a mask that keeps its
-        solution to its own powers; the leading blocks of Q, R^-1 and T are those of the lower order."""
+    def _refine_fits(self, orders: list[int]) -> np.ndarray:
+        """The refined scaled weighted residuals of ``orders`` (one row each); their refined raw coefficients
+        are kept for ``raw_coefficients``. One call: each order is the right-hand side y with a mask that keeps
+        its solution to its own powers; the leading blocks of Q, R^-1 and T are those of the lower order."""
         p, m = max(orders) + 1, len(orders)
         if self.weighting.values is None:
             rhs_hi, rhs_lo = np.tile(self._ys, (m, 1)), None

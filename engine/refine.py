@@ -76,9 +76,10 @@ def plain_bounds(r: np.ndarray, r_inv: np.ndarray, t: np.ndarray, a: np.ndarray,
       and |d(MM')_jj| <= 2 (|M| |dM|')_jj.
 
     Higham's constants, gamma_cmn for n rows, are replaced by sqrt(n) (Wilkinson's rule of thumb that
-    rounding errors add up like the square root of their worst case; recalled from memory, Higham sec.
-    1.18): measured errors stay below these estimates by one to three orders of magnitude. A zero
-    coefficient or residual gives an infinite (or nan) estimate, so that the refinement runs.
+    rounding errors add up like the square root of their worst case, Higham sec. 2.8); section and theorem
+    numbers are recalled from memory. Against exact or refined solutions (tests/test_refine_bound.py, the
+    NIST StRD data, a million points) the errors stayed below these estimates by factors of 7 to over 1000.
+    A zero coefficient gives an infinite or nan estimate, so that the refinement runs.
     """
     p = a.size
     eps = _UNIT * sqrt(n)
