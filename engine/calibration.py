@@ -6,8 +6,9 @@ z runs over [-1, 1]. Rows are scaled by sqrt(w) for weighted least squares.
 One Householder QR, Z = QR, gives every order k <= K: the leading k+1 columns of
 Q and block of R are the factorisation of order k, and the sequential (Type I)
 sum of squares of term j is (Q'y)_j^2 (e.g. Seber & Lee, Linear Regression
-Analysis, 2nd ed., Wiley 2003, sec. 4.2 and 11.1). Raw power coefficients and
-their standard errors are refined as described in ``refine``. y is scaled by an
+Analysis, 2nd ed., Wiley 2003, sec. 4.2 and 11.1). Raw power coefficients b = T R^-1 Q'y, the
+covariance diagonal of T R^-1 and the residuals y - QQ'y are refined as described in ``refine`` where
+its error estimates miss the accuracy target. y is scaled by an
 exact power of two as well, so that huge and tiny magnitudes neither overflow
 nor underflow in sums of squares.
 """
@@ -24,7 +25,7 @@ from numpy.polynomial import polynomial as P
 from . import doubledouble as dd
 from .distributions import f_sf, t_two_sided
 from .errors import DataError, OrderError
-from .refine import conversion_matrix, refine
+from .refine import TARGET, PlainBounds, conversion_matrix, plain_bounds, refine, rss_bounds
 from .results import FTest, Influence, LackOfFit, OrderChoice, OrderFit, OrderStats, SequentialRow, SequentialTable
 from .validation import check_alpha, check_order, check_rule, check_vector, check_whole
 from .weighting import Weighting, weight_order
@@ -57,6 +58,12 @@ def _triangular_inverse(r: np.ndarray) -> np.ndarray:
     upper triangular: below the diagonal R holds zeros only, so partial pivoting swaps no rows, L = I,
     and back substitution leaves those zeros as they are."""
     return np.linalg.inv(r)
+
+
+def _frozen(a: np.ndarray) -> np.ndarray:
+    """``a``, made read-only: the figures a calibration hands out stay as computed."""
+    a.flags.writeable = False
+    return a
 
 
 def default_max_order(n_points: int, n_distinct: int) -> int:
@@ -176,6 +183,7 @@ class Calibration:
         self._stats: dict[int, OrderStats] = {}
         self._orders: dict[int, OrderResults] = {}
         self._choices: dict[tuple[str, float], OrderChoice] = {}
+        self._refined_coefficients: dict[int, np.ndarray] = {}
 
     def _fitted_under(self, basis: np.ndarray, w: np.ndarray) -> np.ndarray:
         """Fitted y of the standards on ``basis`` under weights w (one QR; for ``Weighting.settle``)."""
@@ -260,54 +268,83 @@ class Calibration:
         return self._residuals_scaled(order)
 
     def weighted_residuals(self, order: int) -> np.ndarray:
-        """sqrt(w) (y - fitted) in the units of y, from the order's refined solution."""
+        """sqrt(w) (y - fitted) in the units of y."""
         return np.ldexp(self._residuals_scaled(order), self._ey)
 
-    # -- refined solution ---------------------------------------------------------------------
+    # -- raw power solution: plain, refined where the plain one may miss the target ----------
 
-    @cached_property
-    def _powers(self):
-        hi, lo = dd.powers(self._u, self.max_order)
+    def _powers(self, order: int):
+        """Weighted raw powers u^0 .. u^order in double-double (n, order + 1)."""
+        hi, lo = dd.powers(self._u, order)
         if self.weighting.values is None:
             return hi, lo
         return dd.mul_double(hi, lo, self.sqrt_w[:, None])
 
-    @cached_property
-    def _refined_all(self) -> tuple[np.ndarray, np.ndarray]:
-        """Every order 0..K refined in one call: row k holds the raw coefficients of order k (scaled units,
-        zeros beyond its k + 1 powers) and, in the second array, its scaled weighted residuals.
-
-        Each order k contributes the right-hand side y with a mask that keeps its solution to the first
-        k + 1 raw powers; the leading blocks of Q, R^-1 and T are order k's own (all three are triangular
-        or nested), so one iteration serves every order.
-        """
-        big_p = self.max_order + 1
+    def _refine_fits(self, orders: list[int]) -> np.ndarray:
+        """The refined scaled weighted residuals of ``orders`` (one row each); their refined raw coefficients
+        are kept for ``raw_coefficients``. One call: each order is the right-hand side y with a mask that keeps
+        its solution to its own powers; the leading blocks of Q, R^-1 and T are those of the lower order."""
+        p, m = max(orders) + 1, len(orders)
         if self.weighting.values is None:
-            rhs_hi, rhs_lo = np.tile(self._ys, (big_p, 1)), None
+            rhs_hi, rhs_lo = np.tile(self._ys, (m, 1)), None
         else:
-            rhs_hi, rhs_lo = (np.tile(a, (big_p, 1)) for a in dd.two_prod(self._ys, self.sqrt_w))
-        v_hi, v_lo = self._powers
-        (b_hi, b_lo), (e_hi, e_lo) = refine(v_hi, v_lo, self._q, self._r_inv, self._t, rhs_hi, rhs_lo,
-                                            np.zeros((big_p, big_p)), np.tri(big_p))
-        return b_hi + b_lo, e_hi + e_lo
+            rhs_hi, rhs_lo = (np.tile(a, (m, 1)) for a in dd.two_prod(self._ys, self.sqrt_w))
+        v_hi, v_lo = self._powers(p - 1)
+        (b_hi, b_lo), (e_hi, e_lo) = refine(v_hi, v_lo, self._q[:, :p], self._r_inv[:p, :p], self._t[:p, :p],
+                                            rhs_hi, rhs_lo, np.zeros((m, p)), np.tri(p)[orders])
+        for k, b in zip(orders, b_hi + b_lo):
+            self._refined_coefficients[k] = _frozen(b[: k + 1])
+        return e_hi + e_lo
 
     @cached_property
+    def _residuals_and_bounds(self) -> tuple[np.ndarray, np.ndarray]:
+        """Row k: the scaled weighted residuals of order k, y - Q_k Q_k'y, refined for the orders whose
+        residual sum of squares may miss the target; and the error estimates of the plain sums of squares
+        (``refine.rss_bounds``)."""
+        rows = np.empty((self.max_order + 1, self.n_points))
+        e = self._yw
+        for k in range(self.max_order + 1):
+            rows[k] = e = e - self._q[:, k] * self._qty[k]
+        bounds = rss_bounds(np.einsum("ij,ij->i", rows, rows), float(np.linalg.norm(self._yw)))
+        worse = (~(bounds <= TARGET)).nonzero()[0].tolist()
+        if worse:
+            rows[worse] = self._refine_fits(worse)
+        return _frozen(rows), bounds
+
+    @property
     def _residual_rows(self) -> np.ndarray:
-        return self._refined_all[1]
+        return self._residuals_and_bounds[0]
+
+    def plain_bounds(self, order: int) -> PlainBounds:
+        """Error estimates of ``order``'s plain solution (``refine.plain_bounds``, ``refine.rss_bounds``):
+        the figures whose estimate is above ``refine.TARGET`` are refined."""
+        p = order + 1
+        return PlainBounds(*plain_bounds(self._r[:p, :p], self._r_inv[:p, :p], self._t[:p, :p],
+                                         self.scaled_coefficients(order), self._rss(order), self.n_points),
+                           float(self._residuals_and_bounds[1][order]))
 
     def raw_coefficients(self, order: int) -> np.ndarray:
-        """Refined coefficients of ``order`` in raw powers of x, times 2^(j e_x - e_y) for the power j
-        (``x_exponent``, ``y_exponent``)."""
-        return self._refined_all[0][order, : order + 1]
+        """Coefficients of ``order`` in raw powers of x, times 2^(j e_x - e_y) for the power j (``x_exponent``,
+        ``y_exponent``): T a, or refined where ``plain_bounds`` is above the target."""
+        if order not in self._refined_coefficients:
+            if self.plain_bounds(order).coefficients <= TARGET:
+                p = order + 1
+                return _frozen(self._t[:p, :p] @ self.scaled_coefficients(order))
+            self._refine_fits([order])
+        return self._refined_coefficients[order]
 
     def covariance_diagonal(self, order: int) -> np.ndarray:
-        """Diagonal of (V'WV)^-1 of ``order`` in the scaled raw powers (u = x 2^-e_x), refined: the
-        augmented system with y = 0 and c = -I (``refine``)."""
+        """Diagonal of (V'WV)^-1 of ``order`` in the scaled raw powers (u = x 2^-e_x): the row sums of squares
+        of T R^-1, or refined where ``plain_bounds`` is above the target (the augmented system with y = 0 and
+        c = -I, ``refine``)."""
         p, n = order + 1, self.n_points
-        v_hi, v_lo = self._powers
-        (b_hi, b_lo), _ = refine(v_hi[:, :p], v_lo[:, :p], self._q[:, :p], self._r_inv[:p, :p],
+        if self.plain_bounds(order).variances <= TARGET:
+            m = self._t[:p, :p] @ self._r_inv[:p, :p]
+            return _frozen(np.einsum("ij,ij->i", m, m))
+        v_hi, v_lo = self._powers(order)
+        (b_hi, b_lo), _ = refine(v_hi, v_lo, self._q[:, :p], self._r_inv[:p, :p],
                                  self._t[:p, :p], np.zeros((p, n)), None, -np.eye(p))
-        return np.maximum(np.diag(b_hi) + np.diag(b_lo), 0.0)
+        return _frozen(np.maximum(np.diag(b_hi) + np.diag(b_lo), 0.0))
 
     # -- statistics ---------------------------------------------------------------------------
 
