@@ -6,7 +6,8 @@ hands them over (lists of one-cell rows of floats; the typical calibration of ``
 replicates, 10 new x, 10 readings). ``plain_family.family`` computes the same numbers plainly, without
 refinement (its docstring says what else it leaves out). First the two are compared number by number (to
 1e-6 relative); then timed in alternating rounds (reference then ours, ours then reference, ...), each
-round the median of a few calls of each, and the ratio (ours / reference) taken per round.
+round the median of a few calls of each, and the ratio (ours / reference) taken per round. Times are CPU
+time of this process (``time.process_time``): on a shared machine, wall time mostly measures the others.
 
 Run: python benchmarks/bench_family.py [ROUNDS]
 """
@@ -76,9 +77,9 @@ def compare(cells) -> int:
 def _median_of(func, args, calls: int) -> float:
     times = []
     for _ in range(calls):
-        t0 = time.perf_counter()
+        t0 = time.process_time()
         func(*args)
-        times.append(time.perf_counter() - t0)
+        times.append(time.process_time() - t0)
     return statistics.median(times)
 
 

@@ -33,15 +33,16 @@ def _cells(values) -> np.ndarray:
     return np.array(values, dtype=float).ravel()
 
 
-def _real_roots(coefs: np.ndarray) -> list[np.ndarray]:
-    """Real roots of each row's polynomial sum_j c_j x^j (rows of one degree, leading coefficient non-zero)."""
+def _real_roots(coefs: np.ndarray, lo: float, hi: float) -> np.ndarray:
+    """The real roots in [lo, hi] of each row's polynomial sum_j c_j x^j (rows of one degree, leading
+    coefficient non-zero), nan in place of the other roots: the eigenvalues of companion matrices."""
     count, d = coefs.shape[0], coefs.shape[1] - 1
     companion = np.zeros((count, d, d))
     companion[:, np.arange(1, d), np.arange(d - 1)] = 1.0
     companion[:, :, -1] = -coefs[:, :-1] / coefs[:, -1:]
     roots = np.linalg.eigvals(companion)
-    real = np.abs(roots.imag) <= 1e-9 * (1 + np.abs(roots.real))
-    return [np.sort(r.real[k]) for r, k in zip(roots, real)]
+    keep = (np.abs(roots.imag) <= 1e-9 * (1 + np.abs(roots.real))) & (roots.real >= lo) & (roots.real <= hi)
+    return np.where(keep, roots.real, np.nan)
 
 
 def _fits(x, y, big_k):
@@ -137,17 +138,18 @@ def family(xs, ys, new_x, readings):
     span = hi - lo
     shifted = np.tile(b, (y0.size, 1))
     shifted[:, 0] -= y0
-    estimate = np.array([r[(r >= lo) & (r <= hi)][0] if ((r >= lo) & (r <= hi)).sum() == 1 else np.nan
-                         for r in _real_roots(shifted)])
+    roots = _real_roots(shifted, lo, hi)
+    found = ~np.isnan(roots)
+    estimate = np.where(found.sum(axis=1) == 1, np.max(roots, axis=1, where=found, initial=-np.inf), np.nan)
     # (f - y0)^2 - t^2 s^2 (1 + x' C x): a polynomial of degree 2k per reading
     gap = np.tile(np.convolve(b, b) - t_q**2 * s**2 * (np.eye(1, 2 * k + 1)[0] + var_poly), (y0.size, 1))
     gap[:, : k + 1] -= 2 * y0[:, None] * b
     gap[:, 0] += y0**2
-    inverse_rows = []
-    for est, roots in zip(estimate.tolist(), _real_roots(gap)):
-        roots = roots[(roots >= lo - span / 2) & (roots <= hi + span / 2)]
-        below, above = roots[roots < est], roots[roots > est]
-        inverse_rows.append([est, below[-1] if below.size else np.nan, above[0] if above.size else np.nan])
+    roots = _real_roots(gap, lo - span / 2, hi + span / 2)
+    lower = np.max(roots, axis=1, where=roots < estimate[:, None], initial=-np.inf)
+    upper = np.min(roots, axis=1, where=roots > estimate[:, None], initial=np.inf)
+    inverse_rows = np.column_stack([estimate, np.where(np.isinf(lower), np.nan, lower),
+                                    np.where(np.isinf(upper), np.nan, upper)]).tolist()
 
     # residuals: fitted, residual, studentized, leverage, Cook's D, back-calculated x, deviation %
     r_int = e / (s * np.sqrt(1 - h))
@@ -155,11 +157,9 @@ def family(xs, ys, new_x, readings):
     cook = r_int**2 * h / ((k + 1) * (1 - h))
     shifted = np.tile(b, (n, 1))
     shifted[:, 0] -= y
-    back = []
-    for xi, roots in zip(x.tolist(), _real_roots(shifted)):
-        roots = roots[(roots >= lo - span / 4) & (roots <= hi + span / 4)]
-        back.append(roots[np.argmin(np.abs(roots - xi))] if roots.size else np.nan)
-    back = np.array(back)
+    roots = _real_roots(shifted, lo - span / 4, hi + span / 4)
+    nearest = np.argmin(np.where(np.isnan(roots), np.inf, np.abs(roots - x[:, None])), axis=1)
+    back = np.take_along_axis(roots, nearest[:, None], axis=1)[:, 0]  # nan when there is no root
     residuals = np.column_stack([y - e, e, r_int, h, cook, back, 100 * (back - x) / np.abs(x)]).tolist()
 
     # checks
@@ -192,7 +192,7 @@ def family(xs, ys, new_x, readings):
     qb, _ = np.linalg.qr(np.vander(x, k + 1, increasing=True))
     d2 = e2 - e2.mean()
     lm = n * float(((qb.T @ d2) ** 2).sum()) / float(d2 @ d2)
-    turns = [t for t in _real_roots(np.polynomial.polynomial.polyder(b)[None, :])[0] if lo < t < hi] if k > 1 else []
+    turns = np.count_nonzero(~np.isnan(_real_roots(np.polynomial.polynomial.polyder(b)[None, :], lo, hi))) if k > 1 else 0
     bonf = np.minimum(1.0, n * 2 * special.stdtr(dfk - 1, -np.abs(t_ext)))
     # S(d) = sum_j P(D_j >= d) for d = each standard's own Cook's distance (rows)
     q_mat = cook[:, None] * (k + 1) * (1 - h[None, :]) / h[None, :]
@@ -200,7 +200,7 @@ def family(xs, ys, new_x, readings):
     t2 = np.where(inside, q_mat * (dfk - 1) / np.where(inside, dfk - q_mat, 1.0), 0.0)
     tail = np.where(inside, 2 * special.stdtr(dfk - 1, -np.sqrt(t2)), 0.0).sum(axis=1)
     checks = [[lof_f[k], lof_p[k]], [step_f[1], step_p[1]], [z_runs, p_runs], [dw, p_dw],
-              [sw.statistic, sw.pvalue], [lm, special.chdtrc(k, lm)], [float(len(turns)), None],
+              [sw.statistic, sw.pvalue], [lm, special.chdtrc(k, lm)], [float(turns), None],
               [float((bonf < check_at).sum()), bonf.min()],
               [float((tail < check_at).sum()), min(1.0, tail[np.argmax(cook)])]]
     return k, order_rows, seqf, coefs, stats_rows, predict, inverse_rows, residuals, checks
