@@ -17,7 +17,7 @@ scaled basis (it works in raw powers of x, fine for this workload's conditioning
 double-double refinement of coefficients, residuals and standard errors; weights and excluded standards;
 the input validation with positioned messages (it converts the cells with numpy and trusts them); every
 text: the order rules' reasons, notes, verdicts and details, headers and term names; the exact-fit and
-rank checks; the caches. Its numbers agree with the worksheet's to about 1e-9 relative on this workload
+rank checks; the caches. Its numbers agree with the worksheet's to 1e-11 relative on this workload
 (``bench_family.py`` compares them before it times anything).
 """
 
