@@ -1,24 +1,24 @@
 """A plain numpy reference for one sheet's CALIB_* family: the numbers of the same nine outputs (CALIB_ORDER,
 CALIB_ORDERS, CALIB_SEQF, CALIB_COEFS, CALIB_STATS, CALIB_PREDICT, CALIB_INVERSE, CALIB_RESIDUALS,
-CALIB_CHECKS), from the same inputs as the desktop runtime hands them over (lists of one-cell rows of
-floats), written the direct way and without refinement, for ``bench_family.py`` to time side by side.
+CALIB_CHECKS), from the same inputs as the desktop runtime hands them over (lists of one-cell rows of floats),
+written the direct way and without refinement, for ``bench_family.py`` to time side by side.
 
-How: one QR of the raw Vandermonde design per order 0..K (numpy.linalg.qr), coefficients by solving
-R b = Q'y, (X'X)^-1 = R^-1 R^-T; the F tests, t intervals, prediction band, AICc, BIC and PRESS from their
-textbook formulas; roots (inverse readings, interval ends on the band, back-calculated x, turning points)
-as the real eigenvalues of companion matrices, one batched ``numpy.linalg.eigvals`` per job; the checks'
-statistics (runs of the level means' signs with the exact distribution, Durbin-Watson with the beta
-approximation built from explicit matrices, Shapiro-Wilk through the public scipy.stats.shapiro, Koenker's Breusch-Pagan,
-Bonferroni outliers, Cook's distances against their distribution); distributions through scipy.special.
-The fits are shared by the nine outputs, as the worksheet layer's caches share one calibration.
+How: one QR of the raw Vandermonde design per order 0..K (numpy.linalg.qr), coefficients by solving R b = Q'y,
+(X'X)^-1 = R^-1 R^-T; the F tests, t intervals, prediction band, AICc, BIC and PRESS from their textbook
+formulas; roots (inverse readings, interval ends on the band, back-calculated x, turning points) as the real
+eigenvalues of companion matrices, one batched ``numpy.linalg.eigvals`` per job; the checks' statistics (runs
+of the level means' signs with the exact distribution, Durbin-Watson with the beta approximation built from
+explicit matrices, Shapiro-Wilk through the public scipy.stats.shapiro, Koenker's Breusch-Pagan, Bonferroni
+outliers, Cook's distances against their distribution); distributions through scipy.special. The fits are
+shared by the nine outputs, as the worksheet layer's caches share one calibration.
 
 What it omits, against the worksheet functions: the exact power-of-two scaling of x and y and the centred,
 scaled basis (it works in raw powers of x, fine for this workload's conditioning, not for Filip's); the
-double-double refinement of coefficients, residuals and standard errors; weights and excluded standards;
-the input validation with positioned messages (it converts the cells with numpy and trusts them); every
-text: the order rules' reasons, notes, verdicts and details, headers and term names; the exact-fit and
-rank checks; the test that a turning point is not a double root; the caches. Its numbers agree with the worksheet's to 1e-11 relative on this workload
-(``bench_family.py`` compares them before it times anything).
+double-double refinement of coefficients, residuals and standard errors; weights and excluded standards; the
+input validation with positioned messages (it converts the cells with numpy and trusts them); every text: the
+order rules' reasons, notes, verdicts and details, headers and term names; the exact-fit and rank checks; the
+test that a turning point is not a double root; the caches. Its numbers agree with the worksheet's to 1e-11
+relative on this workload (``bench_family.py`` compares them before it times anything).
 """
 
 from __future__ import annotations
