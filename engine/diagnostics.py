@@ -375,9 +375,8 @@ def curve_checks(cal: Calibration, order: int, alpha: float = 0.05, point_labels
         # algorithm takes a range below 1e-19 as zero
         from scipy.stats import shapiro  # imported on first use: scipy.stats takes half a second to import
 
-        # undecorated: scipy's axis/NaN-policy wrapper adds 15 % to a sheet's family after an edit when the
-        # refinement does not run, 8 % when it does (bench_family.py's workload, alternating rounds); tests
-        # compare against the public scipy.stats.shapiro
+        # undecorated: scipy's axis/NaN-policy wrapper adds 11 % to a sheet's family after an edit
+        # (benchmarks/bench_family.py); tests compare against the public scipy.stats.shapiro
         w_stat, w_p = getattr(shapiro, "__wrapped__", shapiro)(np.ldexp(e, -math.frexp(float(np.abs(e).max()))[1]))
         v = _verdict(float(w_p), level)
         words = ("residuals depart from a normal distribution" if v == "warning"
