@@ -35,7 +35,7 @@ from scipy import special
 
 from .calibration import Calibration, householder_qr
 from .curve import ENDS, Curve
-from .distributions import beta_cdf, log_binomial, normal_two_sided, t_two_sided
+from .distributions import beta_cdf, log_factorials, normal_two_sided, t_two_sided
 from .prediction import roots_of
 from .results import Check, PointDiagnostics
 from .selection import fmt_p, mandel_test
@@ -170,11 +170,14 @@ def runs_distribution(n1: int, n2: int) -> tuple[np.ndarray, np.ndarray]:
     from memory)."""
     r = np.arange(2, n1 + n2 + 1)
     k = r // 2
+    ln_fact = log_factorials(n1 + n2)
 
     def lc(n: int, j: np.ndarray) -> np.ndarray:  # ln C(n, j), -inf outside 0 <= j <= n
-        return np.where((j >= 0) & (j <= n), log_binomial(n, np.clip(j, 0, n)), -np.inf)
+        inside = (j >= 0) & (j <= n)
+        j = np.where(inside, j, 0)
+        return np.where(inside, ln_fact[n] - ln_fact[j] - ln_fact[n - j], -np.inf)
 
-    total = log_binomial(n1 + n2, n1)
+    total = ln_fact[n1 + n2] - ln_fact[n1] - ln_fact[n2]
     with np.errstate(divide="ignore"):
         even = math.log(2.0) + lc(n1 - 1, k - 1) + lc(n2 - 1, k - 1)
         odd = np.logaddexp(lc(n1 - 1, k - 1) + lc(n2 - 1, k), lc(n1 - 1, k) + lc(n2 - 1, k - 1))
@@ -372,8 +375,8 @@ def curve_checks(cal: Calibration, order: int, alpha: float = 0.05, point_labels
         # algorithm takes a range below 1e-19 as zero
         from scipy.stats import shapiro  # imported on first use: scipy.stats takes half a second to import
 
-        # undecorated: scipy's axis/NaN-policy wrapper adds 11 % to a sheet's eight functions after an edit
-        # (benchmarks, alternating rounds); tests compare against the public scipy.stats.shapiro
+        # undecorated: scipy's axis/NaN-policy wrapper adds 11 % to a sheet's family after an edit
+        # (benchmarks/bench_family.py); tests compare against the public scipy.stats.shapiro
         w_stat, w_p = getattr(shapiro, "__wrapped__", shapiro)(np.ldexp(e, -math.frexp(float(np.abs(e).max()))[1]))
         v = _verdict(float(w_p), level)
         words = ("residuals depart from a normal distribution" if v == "warning"

@@ -36,9 +36,9 @@ def beta_cdf(x, a, b):
     return special.betainc(a, b, np.clip(x, 0.0, 1.0))
 
 
-def log_binomial(n, k):
-    """ln C(n, k) (0 <= k <= n), through the log-gamma function."""
-    return special.gammaln(n + 1.0) - special.gammaln(k + 1.0) - special.gammaln(n - k + 1.0)
+def log_factorials(n: int) -> np.ndarray:
+    """ln j! for j = 0 .. n, through the log-gamma function."""
+    return special.gammaln(np.arange(1.0, n + 2.0))
 
 
 def chi2_sf(x, df):

@@ -70,8 +70,6 @@ def predict(cal: Calibration, new_x, order: int, level: float = 0.95) -> tuple[P
 def roots_of(curve: Curve, readings: np.ndarray, z_lo: float, z_hi: float):
     """Every z in [z_lo, z_hi] (grid nodes) with f(z) = reading (in curve units): (reading index, z), sorted."""
     z, f, _ = curve.grid
-    if curve.turning_points(z_lo, z_hi).size == 0:
-        return _monotonic_roots(curve, readings, z_lo, z_hi)
     g = f[None, :] - readings[:, None]
     rows, cells = sign_changes(g, z, z_lo, z_hi)
     zs = newton_in_cells(lambda zz: (curve.value(zz) - readings[rows], curve.slope(zz)), z[cells], z[cells + 1],
@@ -83,21 +81,6 @@ def roots_of(curve: Curve, readings: np.ndarray, z_lo: float, z_hi: float):
         rows, zs = np.concatenate([rows, on_end]), np.concatenate([zs, np.full(on_end.size, z[first])])
     order = np.lexsort((zs, rows))
     return rows[order], zs[order]
-
-
-def _monotonic_roots(curve: Curve, readings: np.ndarray, z_lo: float, z_hi: float):
-    """roots_of for a curve without turning points in [z_lo, z_hi]: at most one root per reading,
-    bracketed by a binary search of the grid values."""
-    z, f, _ = curve.grid
-    inside = slice(int(np.searchsorted(z, z_lo, "left")), int(np.searchsorted(z, z_hi, "right")))  # nodes in [z_lo, z_hi]
-    zg, fg = z[inside], f[inside]
-    fs, ys = (fg, readings) if fg[-1] >= fg[0] else (-fg, -readings)
-    rows = ((ys >= fs[0]) & (ys <= fs[-1])).nonzero()[0]
-    cell = np.minimum(np.maximum(np.searchsorted(fs, ys[rows]), 1), fs.size - 1)
-    target = readings[rows]
-    zs = newton_in_cells(lambda zz: (curve.value(zz) - target, curve.slope(zz)), zg[cell - 1], zg[cell],
-                         fg[cell - 1] - target, fg[cell] - target)
-    return rows, zs
 
 
 def _weight_response(curve: Curve, zz: np.ndarray, fz: np.ndarray) -> np.ndarray:
@@ -146,16 +129,11 @@ def _solve_on_monotonic_band(curve: Curve, cal: Calibration, y0: np.ndarray, m: 
     j_lo = np.searchsorted(table[1], inside, "left")  # first node where the upper edge reaches the reading
     j_hi = np.searchsorted(table[2], inside, "right")  # first node where the lower edge passes it
     lo_rows, hi_rows = (j_lo > 0).nonzero()[0], (j_hi < z.size).nonzero()[0]
-    every = rows.size == lo_rows.size == hi_rows.size == y0.size  # the usual case: nothing left out
-    if every:
-        which, kind, edge, moving = _every_root(y0.size)
-        right = np.concatenate([cell, j_lo, j_hi])
-    else:
-        which = np.concatenate([rows, rows[lo_rows], rows[hi_rows]])
-        kind = np.repeat(_KINDS, [rows.size, lo_rows.size, hi_rows.size])
-        right = np.concatenate([cell, j_lo[lo_rows], j_hi[hi_rows]])
-        edge = _EDGES[kind]
-        moving = edge != 0
+    which = np.concatenate([rows, rows[lo_rows], rows[hi_rows]])
+    kind = np.repeat(_KINDS, [rows.size, lo_rows.size, hi_rows.size])
+    right = np.concatenate([cell, j_lo[lo_rows], j_hi[hi_rows]])
+    edge = _EDGES[kind]
+    moving = edge != 0
     mm, target = m[which], ys[which]
     spread, weighted = t2s2 / mm, cal.weighting.values is not None
 
@@ -177,19 +155,9 @@ def _solve_on_monotonic_band(curve: Curve, cal: Calibration, y0: np.ndarray, m: 
 
     found = newton_in_cells(value_and_slope, z[right - 1], z[right], table[kind, right - 1] - target,
                             table[kind, right] - target)
-    if every:
-        return found.reshape(3, y0.size)
     out = np.full((3, y0.size), np.nan)
     out[kind, which] = found
     return out
-
-
-def _every_root(count: int):
-    """For ``count`` readings that all have an estimate and both bounds: the reading, kind and band edge
-    of each root (estimates, then lower ends, then upper ends), and which of them lie on a moving edge."""
-    which, kind = np.tile(np.arange(count), 3), np.repeat(_KINDS, count)
-    edge = _EDGES[kind]
-    return which, kind, edge, edge != 0
 
 
 def _band_edges(curve: Curve, cal: Calibration, y0: np.ndarray, m: np.ndarray, z_hat: np.ndarray, t: float):

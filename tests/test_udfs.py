@@ -216,7 +216,7 @@ def test_bad_cells_in_data(data, bad, message):
 
 
 def test_a_logical_never_shares_a_cached_result_with_the_number_it_equals(data):
-    # True == 1.0 in Python; the cache of prepared inputs must still see a logical cell as bad
+    # True == 1.0 in Python; the caches must still see a logical cell as bad
     x, y = data
     assert x[0] == 1.0
     assert isinstance(degreewise.calib_order(column(x), column(y)), int)

@@ -20,8 +20,8 @@ import numpy as np
 from . import engine
 from .engine.weighting import SCHEMES as WEIGHT_SCHEMES
 
-from .coercion import (COM_ERRORS, ERROR_TEXTS, CellError, Cells, describe, flatten, is_blank, is_omitted,
-                       number, numbers_or_blank)
+from .coercion import (ERROR_TEXTS, CellError, Cells, describe, flatten, is_blank, is_omitted, number,
+                       numbers_or_blank)
 
 CACHE_SIZE = 128
 SCHEMES = tuple(WEIGHT_SCHEMES)
@@ -109,35 +109,8 @@ def _weights(weights, x_cells: Cells, used: np.ndarray, x: np.ndarray, y: np.nda
 
 def prepare(x, y, weights=None, exclude=None) -> Prepared:
     """The usable points of x and y (and their weights), or a CellError naming the bad cell."""
-    x_cells, y_cells = flatten(x, "x"), flatten(y, "y")
-    if not is_omitted(exclude):
-        return _prepare(x_cells, y_cells, weights, flatten(exclude, "exclude"))
-    key = _plain_key(x_cells, y_cells, weights)
-    if key is None:
-        return _prepare(x_cells, y_cells, weights)
-    return PREPARED.get(key, lambda: _prepare(x_cells, y_cells, weights))
-
-
-def _plain_key(x_cells: Cells, y_cells: Cells, weights):
-    """A key for the usual call, numbers only (no blanks, no other types) and no range of weights, else None.
-
-    Floats and ints only: True == 1 in Python, so cells of other types never share a key with numbers;
-    an int that is a desktop error code is not a number.
-    """
-    if x_cells.size != y_cells.size or len(x_cells.values) != len(y_cells.values):
-        return None
-    values = x_cells.values + y_cells.values
-    kinds = set(map(type, values))
-    if not kinds <= {float, int}:
-        return None
-    low, high = COM_ERRORS
-    if int in kinds and any(type(v) is int and low <= v <= high for v in values):
-        return None
-    while isinstance(weights, list) and len(weights) == 1:
-        weights = weights[0]
-    if weights is None or type(weights) is str:
-        return x_cells.values, y_cells.values, x_cells.axis, x_cells.size, weights
-    return None
+    return _prepare(flatten(x, "x"), flatten(y, "y"), weights,
+                    None if is_omitted(exclude) else flatten(exclude, "exclude"))
 
 
 def prepare_named(x, y, weights, names: tuple[str, str]) -> Prepared:
@@ -224,14 +197,13 @@ class LRU:
         self._items.clear()
 
 
-PREPARED = LRU(CACHE_SIZE)
 CALIBRATIONS = LRU(CACHE_SIZE)
 RESULTS = LRU(4 * CACHE_SIZE)
 
 
 def clear_caches() -> None:
-    """Forget every prepared input, calibration and result (the next calls compute afresh)."""
-    for cache in (PREPARED, CALIBRATIONS, RESULTS):
+    """Forget every calibration and result (the next calls compute afresh)."""
+    for cache in (CALIBRATIONS, RESULTS):
         cache.clear()
 
 
