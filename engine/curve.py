@@ -48,8 +48,8 @@ class Curve:
         r_inv = cal.r_factor_inverse(self.order)
         self.r_inv = r_inv
         # Var(mean f(z)) / s^2 = b(z)' C b(z) with C = R^-1 R^-T: a polynomial in z of degree 2k, kept as
-        # C 2^-2g with R^-1 scaled by 2^-g to entries below 1, exactly, so that C cannot overflow where
-        # weights near the ends of the double range make R tiny; s 2^g (``_s_var``) puts 2^2g back
+        # C 2^-2g (R^-1 scaled exactly by 2^-g to entries below 1), so that it cannot overflow where weights
+        # near the ends of the double range make R tiny; s 2^g (``_s_var``) puts 2^2g back
         g = math.frexp(float(np.abs(r_inv).max()))[1]
         r_scaled = np.ldexp(r_inv, -g)
         c = r_scaled @ r_scaled.T
@@ -65,7 +65,7 @@ class Curve:
         self._turns_in: dict[tuple[float, float], np.ndarray] = {}
         self.stats = cal.stats(self.order)
         self.s = cal.scaled_residual_sd(self.order)  # in curve units
-        self._s_var = math.ldexp(self.s, g)  # s^2 Var(mean f(z)) / s^2 = _s_var^2 times the variance polynomial
+        self._s_var = math.ldexp(self.s, g)  # Var(mean f(z)) = _s_var^2 times the variance polynomial
         self.df = self.stats.df_resid
         self.x_min = float(cal.x[cal.by_x[0]])
         self.x_max = float(cal.x[cal.by_x[-1]])
