@@ -73,10 +73,9 @@ def test_huge_and_tiny_magnitudes(ex, ey, seed):
         xs, ys = [[float(v)] for v in x], [[float(v)] for v in y]
         with warnings.catch_warnings(record=True) as caught:
             warnings.simplefilter("always")
-            # left for the refinement's rework (issue 13): weights 1/y^2 near 1e308 (y near 1e-154) still
-            # overflow in the refinement and in the sum of the weights (calibration.py, the weighted total
-            # sum of squares, through numpy's reduction)
-            warnings.filterwarnings("ignore", category=RuntimeWarning, module=r"degreewise\.engine\.refine$")
+            # left as it is: 1/y^2 weights near 1e308 (y near 1e-154, in CALIB_WEIGHTING) overflow in the
+            # weighted total sum of squares (calibration.py: the sums of the weights, in numpy's reduction)
+            warnings.filterwarnings("ignore", category=RuntimeWarning, module=r"degreewise\.engine\.calibration$")
             warnings.filterwarnings("ignore", "overflow encountered in reduce", RuntimeWarning)
             results = (degreewise.calib_coefs(xs, ys), degreewise.calib_orders(xs, ys),
                        degreewise.calib_checks(xs, ys), degreewise.calib_inverse(xs, ys, [[float(y[3])]]),
