@@ -52,7 +52,7 @@ def test_addin_command_prints_the_numbered_steps_that_the_readme_gives(tmp_path,
 def test_the_worksheet_functions_load_neither_the_file_format_nor_the_command_line():
     """What in-workbook Python runs: the functions room only (no files, no subprocesses), through a first
     CALIB_ORDER and a first CALIB_CHECKS. The first result of a session pays for scipy.special only:
-    scipy.stats (half a second to import, more than everything else together; see
+    scipy.stats (0.5 to 1 s to import, more than everything else together; see
     benchmarks/bench_first_result.py) and the scipy.optimize it brings load with the first CALIB_CHECKS,
     for Shapiro-Wilk, and no worksheet function loads pandas, plotting, PDF or xlsx code."""
     code = ("import sys; from degreewise.registration import headless; headless(); import degreewise;"
