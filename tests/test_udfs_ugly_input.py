@@ -58,6 +58,7 @@ def test_every_function_answers_with_cells(data, weights, order):
 @settings(max_examples=60, deadline=None)
 @given(st.floats(-300, 300), st.floats(-300, 300), st.integers(0, 2**31 - 1))
 @example(300.0, 160.0, 0)  # 1/y^2 weights near 1e-320 (in CALIB_WEIGHTING)
+@example(0.0, 161.0, 0)  # 1/y^2 weights near 1e-322, whose weighted total sum of squares underflows to 0
 def test_huge_and_tiny_magnitudes(ex, ey, seed):
     # the same invented calibration at 10^ex in x and 10^ey in y gives the unscaled one's figures, scaled:
     # coefficient j by 10^(ey - j ex) (compared as logarithms, so that the scale factor never overflows),
