@@ -452,12 +452,12 @@ class Calibration:
             log_rss = (math.log(r) if r > 0 else -math.inf) + ey2 * _LN2
             llf = -0.5 * n * (_LN_2PI + log_rss - math.log(n) + 1) + 0.5 * log_w
             aicc = -2 * llf + 2 * npar + (2 * npar * (npar + 1) / (n - npar - 1) if n - npar - 1 > 0 else math.nan)
-            r2 = 1.0 - r / self._tss
+            r2 = 1.0 - r / self._tss if self._tss else math.nan  # 0 only where weights near 1e-322 underflow
             made[k] = OrderStats(
                 order=k, n_points=n, df_resid=d, rss=_ldexp(r, ey2),
                 residual_sd=math.ldexp(math.sqrt(r / d), self._ey),
                 r_squared=r2, adj_r_squared=1.0 - (1.0 - r2) * (n - 1) / d,
-                press=_ldexp(pr, ey2), predicted_r_squared=1.0 - pr / self._tss,
+                press=_ldexp(pr, ey2), predicted_r_squared=1.0 - pr / self._tss if self._tss else math.nan,
                 aicc=aicc, bic=-2 * llf + npar * math.log(n),
                 overall=overall if k >= 1 else None,
                 lack_of_fit=lack[k],

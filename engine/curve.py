@@ -9,6 +9,7 @@ that variances and squared gaps neither overflow nor underflow.
 
 from __future__ import annotations
 
+import math
 from functools import cached_property
 
 import numpy as np
@@ -46,8 +47,12 @@ class Curve:
         self.a = cal.scaled_coefficients(self.order)
         r_inv = cal.r_factor_inverse(self.order)
         self.r_inv = r_inv
-        # Var(mean f(z)) / s^2 = b(z)' C b(z) with C = R^-1 R^-T: a polynomial in z of degree 2k
-        c = r_inv @ r_inv.T
+        # Var(mean f(z)) / s^2 = b(z)' C b(z) with C = R^-1 R^-T: a polynomial in z of degree 2k, kept as
+        # C 2^-2g (R^-1 scaled exactly by 2^-g to entries below 1), so that it cannot overflow where weights
+        # near the ends of the double range make R tiny; s 2^g (``_s_var``) puts 2^2g back
+        g = math.frexp(float(np.abs(r_inv).max()))[1]
+        r_scaled = np.ldexp(r_inv, -g)
+        c = r_scaled @ r_scaled.T
         p = np.arange(self.order + 1)
         self._var_poly = np.bincount(np.add.outer(p, p).ravel(), c.ravel())  # z^i z^j = z^(i+j)
         self._dvar = _derivative(self._var_poly)
@@ -60,6 +65,7 @@ class Curve:
         self._turns_in: dict[tuple[float, float], np.ndarray] = {}
         self.stats = cal.stats(self.order)
         self.s = cal.scaled_residual_sd(self.order)  # in curve units
+        self._s_var = math.ldexp(self.s, g)  # Var(mean f(z)) = _s_var^2 times the variance polynomial
         self.df = self.stats.df_resid
         self.x_min = float(cal.x[cal.by_x[0]])
         self.x_max = float(cal.x[cal.by_x[-1]])
@@ -84,12 +90,12 @@ class Curve:
 
     def mean_variance(self, z) -> np.ndarray:
         """Var of the fitted mean at z, in curve units squared."""
-        return self.s**2 * np.maximum(P.polyval(z, self._var_poly), 0.0)
+        return self._s_var**2 * np.maximum(P.polyval(z, self._var_poly), 0.0)
 
     def local(self, z: np.ndarray):
         """f(z), f'(z), the variance of the fitted mean and its slope, at the points z (1-D), in curve units."""
         v = P.polyvander(z, self.local_polynomials.shape[0] - 1) @ self.local_polynomials
-        s2 = self.s**2
+        s2 = self._s_var**2
         return v[:, 0], v[:, 1], s2 * np.maximum(v[:, 2], 0.0), s2 * v[:, 3]
 
     def t_value(self, level: float) -> float:
@@ -162,7 +168,8 @@ class Curve:
             np.subtract(curve_row, half, out=lower)
             rising = bool((upper[1:] > upper[:-1]).all() and (lower[1:] > lower[:-1]).all())
             # sign f, sign f', t^2 Var(mean f) and its slope, as polynomials in z (columns)
-            local = self.local_polynomials * np.array([sign, sign, t2s2, t2s2])
+            t2s2_var = t2 * self._s_var**2
+            local = self.local_polynomials * np.array([sign, sign, t2s2_var, t2s2_var])
             self._bands[key] = (sign, table, local) if rising else None
         return self._bands[key]
 

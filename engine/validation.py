@@ -8,7 +8,7 @@ import operator
 
 import numpy as np
 
-from .errors import DataError, OptionError, OrderError
+from .errors import DataError, OptionError, OrderError, WeightError
 
 RULES = ("stepdown", "forward", "aicc", "bic", "press")
 DEFAULT_RULE = RULES[0]
@@ -24,9 +24,8 @@ def check_vector(values, name: str, *, flat: bool = False) -> np.ndarray:
         a = a.ravel()
     elif a.ndim != 1:
         raise DataError(f"{name} must be one-dimensional, not of shape {a.shape}", argument=name)
-    bad = np.flatnonzero(~np.isfinite(a))
-    if bad.size:
-        i = int(bad[0])
+    i = first_failing(np.isfinite(a))
+    if i is not None:
         raise DataError(f"{name}[{i}] is {float(a[i])!r}: every value must be a finite number", argument=name,
                         index=i)
     return a
@@ -101,8 +100,33 @@ def check_replicates(replicates, count: int) -> np.ndarray:
     if m.size != count:
         raise OptionError(f"replicates has {m.size} values for {count} readings; give one number or one per reading",
                           argument="replicates")
-    bad = np.flatnonzero(~(np.isfinite(m) & (m >= 1) & (m == np.round(m))))
-    if bad.size:
-        raise OptionError(f"replicates must be a whole number of at least 1, not {float(m[bad[0]])!r}",
-                          argument="replicates", index=int(bad[0]))
+    i = first_failing(np.isfinite(m) & (m >= 1) & (m == np.round(m)))
+    if i is not None:
+        raise OptionError(f"replicates must be a whole number of at least 1, not {float(m[i])!r}",
+                          argument="replicates", index=i)
     return m
+
+
+def check_weights(weights, count: int) -> np.ndarray:
+    """Weights given as values: one positive finite number per point (``count`` of them), as floats."""
+    w = np.asarray(weights, dtype=float).ravel()
+    if w.size != count:
+        raise WeightError(f"weights has {w.size} values but there are {count} points; give one weight per point",
+                          argument="weights")
+    return positive_weights(w)
+
+
+def positive_weights(w: np.ndarray, verb: str = "is") -> np.ndarray:
+    """w, when each weight is a positive finite number; else the message names the first that is not, with
+    ``verb`` ("is" for weights as given, "works out as" for a scheme's)."""
+    i = first_failing(np.isfinite(w) & (w > 0))
+    if i is not None:
+        raise WeightError(f"weights[{i}] {verb} {float(w[i])!r}: every weight must be a positive finite number",
+                          argument="weights", index=i)
+    return w
+
+
+def first_failing(ok: np.ndarray) -> int | None:
+    """The position of the first value that fails a check (``ok`` False there), or None."""
+    bad = np.flatnonzero(~ok)
+    return int(bad[0]) if bad.size else None

@@ -33,6 +33,7 @@ from __future__ import annotations
 import numpy as np
 
 from .errors import WeightError
+from .validation import check_weights, first_failing, positive_weights
 
 SCHEMES = {"1/x": ("x", 1), "1/x^2": ("x", 2), "1/y": ("y", 1), "1/y^2": ("y", 2)}
 SETTLED = 1e-10
@@ -69,22 +70,7 @@ class Weighting:
                 return
             self.values = _from_base(key, x)
         else:
-            w = np.asarray(weights, dtype=float).ravel()
-            if w.size != x.size:
-                raise WeightError(
-                    f"weights has {w.size} values but there are {x.size} points; "
-                    "give one weight per point",
-                    argument="weights",
-                )
-            bad = np.flatnonzero(~(np.isfinite(w) & (w > 0)))
-            if bad.size:
-                i = int(bad[0])
-                raise WeightError(
-                    f"weights[{i}] is {float(w[i])!r}: every weight must be a positive finite number",
-                    argument="weights",
-                    index=i,
-                )
-            self.values = w
+            self.values = check_weights(weights, x.size)
         if self.scheme is None:
             ux, inv = np.unique(x, return_inverse=True)
             self._grid = ux
@@ -103,9 +89,8 @@ class Weighting:
         values = _from_base(self.scheme, y) if (y > 0).all() else np.ones_like(x)
         for _ in range(CYCLES):
             fitted = fitted_for(values)
-            bad = np.flatnonzero(~(fitted > 0))
-            if bad.size:
-                i = int(bad[0])
+            i = first_failing(fitted > 0)
+            if i is not None:
                 raise WeightError(
                     f"weights '{self.scheme}' need a fitted y > 0 at every standard, but the curve gives "
                     f"{float(fitted[i]):.6g} at x = {float(x[i])!r} (point {i}); use 1/x weights or none",
@@ -160,9 +145,8 @@ class Weighting:
 def _from_base(key: str, base: np.ndarray) -> np.ndarray:
     """The weights base^-power of scheme ``key``, each a positive finite number."""
     var, power = SCHEMES[key]
-    bad = np.flatnonzero(~(base > 0))
-    if bad.size:
-        i = int(bad[0])
+    i = first_failing(base > 0)
+    if i is not None:
         raise WeightError(
             f"weights '{key}' needs every {var} > 0, but {var}[{i}] is {float(base[i])!r}",
             argument="weights",
@@ -170,12 +154,4 @@ def _from_base(key: str, base: np.ndarray) -> np.ndarray:
         )
     with np.errstate(over="ignore"):
         values = base ** (-float(power))
-    bad = np.flatnonzero(~np.isfinite(values) | (values <= 0))
-    if bad.size:
-        i = int(bad[0])
-        raise WeightError(
-            f"weights[{i}] works out as {float(values[i])!r}: every weight must be a positive finite number",
-            argument="weights",
-            index=i,
-        )
-    return values
+    return positive_weights(values, "works out as")

@@ -86,6 +86,13 @@ def test_scheme_needs_positive_values():
     assert str(err.value) == "weights '1/x^2' needs every x > 0, but x[0] is 0.0"
 
 
+def test_scheme_weights_beyond_the_double_range():
+    with pytest.raises(WeightError) as err:  # 1/x^2 at x = 1e-200 is 1e400
+        engine.Calibration([1e-200] + X[1:], Y, weights="1/x^2")
+    assert (str(err.value), err.value.index) == (
+        "weights[0] works out as inf: every weight must be a positive finite number", 0)
+
+
 @pytest.mark.parametrize("call,message", [
     (lambda c: engine.choose_order(c, "best"),
      "rule 'best' is not known; use one of 'stepdown', 'forward', 'aicc', 'bic', 'press'"),

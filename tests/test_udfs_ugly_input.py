@@ -4,7 +4,7 @@ import math
 
 import numpy as np
 import pytest
-from hypothesis import HealthCheck, given, settings
+from hypothesis import HealthCheck, example, given, settings
 from hypothesis import strategies as st
 
 import degreewise
@@ -57,18 +57,31 @@ def test_every_function_answers_with_cells(data, weights, order):
 
 @settings(max_examples=60, deadline=None)
 @given(st.floats(-300, 300), st.floats(-300, 300), st.integers(0, 2**31 - 1))
+@example(300.0, 160.0, 0)  # 1/y^2 weights near 1e-320 (in CALIB_WEIGHTING)
+@example(0.0, 161.0, 0)  # 1/y^2 weights near 1e-322, whose weighted total sum of squares underflows to 0
 def test_huge_and_tiny_magnitudes(ex, ey, seed):
     # the same invented calibration at 10^ex in x and 10^ey in y gives the unscaled one's figures, scaled:
     # coefficient j by 10^(ey - j ex) (compared as logarithms, so that the scale factor never overflows),
-    # t and p unchanged, the inverse estimate by 10^ex, every order's table row and every check the same
+    # t and p unchanged, the inverse estimate by 10^ex, every order's table row and every check the same;
+    # and no warning on the way (a weighted curve near the ends of the double range once overflowed in its
+    # variance polynomial)
+    import warnings
+
     def calls(ex, ey):
         rng = np.random.default_rng(seed)
         x = np.repeat(np.linspace(1, 9, 5), 2) * 10.0**ex
         y = (1 + 2 * np.linspace(0, 1, 10) + rng.normal(0, 0.01, 10)) * 10.0**ey
         xs, ys = [[float(v)] for v in x], [[float(v)] for v in y]
-        results = (degreewise.calib_coefs(xs, ys), degreewise.calib_orders(xs, ys), degreewise.calib_checks(xs, ys),
-                   degreewise.calib_inverse(xs, ys, [[float(y[3])]]), degreewise.calib_limits(xs, ys),
-                   degreewise.calib_weighting(xs, ys))
+        with warnings.catch_warnings(record=True) as caught:
+            warnings.simplefilter("always")
+            # left as it is: 1/y^2 weights near 1e308 (y near 1e-154, in CALIB_WEIGHTING) overflow in the
+            # weighted total sum of squares (calibration.py: the sums of the weights, in numpy's reduction)
+            warnings.filterwarnings("ignore", category=RuntimeWarning, module=r"degreewise\.engine\.calibration$")
+            warnings.filterwarnings("ignore", "overflow encountered in reduce", RuntimeWarning)
+            results = (degreewise.calib_coefs(xs, ys), degreewise.calib_orders(xs, ys),
+                       degreewise.calib_checks(xs, ys), degreewise.calib_inverse(xs, ys, [[float(y[3])]]),
+                       degreewise.calib_limits(xs, ys), degreewise.calib_weighting(xs, ys))
+        assert [f"{w.filename}:{w.lineno}: {w.message}" for w in caught] == []
         for result in results:
             assert _ok(result)
         return results
@@ -87,6 +100,20 @@ def test_huge_and_tiny_magnitudes(ex, ey, seed):
     assert [r[0] for r in orders] == [r[0] for r in base[1]] and [r[-1] for r in orders] == [r[-1] for r in base[1]]
     assert [(r[0], r[3]) for r in checks] == [(r[0], r[3]) for r in base[2]]
     assert inverse[0][0] / 10.0**ex == pytest.approx(base[3][0][0], rel=1e-9)
+
+
+def test_weights_near_the_end_of_the_double_range_keep_the_band_of_the_mean():
+    # 1/y^2 weights of responses near 2^515 (1e155) are subnormal, near 2^-1030: the curve's variance
+    # polynomial is kept scaled by a power of two, so the band of the fitted mean is the unscaled
+    # calibration's times 2^515 (to the digits subnormal weights keep), not an overflow
+    rng = np.random.default_rng(0)
+    x = [[float(v)] for v in np.repeat(np.linspace(1, 9, 5), 2)]
+    y = 1 + 2 * np.linspace(0, 1, 10) + rng.normal(0, 0.01, 10)
+    new_x = [[3.0], [7.5]]
+    base = degreewise.calib_predict(x, [[float(v)] for v in y], new_x, None, None, "1/y^2")
+    huge = degreewise.calib_predict(x, [[math.ldexp(float(v), 515)] for v in y], new_x, None, None, "1/y^2")
+    for row, ref in zip(huge, base):
+        assert [math.ldexp(v, -515) for v in row[:3]] == pytest.approx(ref[:3], rel=1e-9)
 
 
 def test_values_far_beyond_the_calibration_scale_give_empty_cells_quietly():
