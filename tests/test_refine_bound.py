@@ -106,6 +106,42 @@ def test_far_off_centre_x_keeps_its_plain_solution_within_the_target(refine_call
     assert refine_calls == []
 
 
+def _far_off_centre(case: str):
+    """Invented far-off-centre calibrations (x, y, orders): a narrow range far from zero, 10^4 half-ranges from
+    zero, and days given as spreadsheet serial numbers (46000 is in 2025)."""
+    rng = np.random.default_rng(2)
+    if case == "1e6 to 1e6 + 10":
+        x = 1e6 + np.repeat(np.linspace(0.0, 10.0, 8), 3)
+        return x, 5 + 2 * (x - 1e6) + rng.normal(0, 0.5, x.size), [4]
+    if case == "1e4 half-ranges":
+        t = np.repeat(np.linspace(-1.0, 1.0, 10), 3)
+        return 100 * (1e4 + t), 10 + 3 * t + 0.5 * t**2 + rng.normal(0, 1e-6, t.size), [3]
+    x = 46000.0 + np.repeat(np.arange(0.0, 31.0, 5.0), 2)  # days 0..30 of a stability study
+    return x, 100 - 0.02 * (x - 46000) - 1e-3 * (x - 46000) ** 2 + rng.normal(0, 0.05, x.size), [2, 3]
+
+
+@pytest.mark.parametrize("case", ["1e6 to 1e6 + 10", "1e4 half-ranges", "dates"])
+def test_far_off_centre_x_meets_the_target_where_refined(case, refine_calls):
+    """Far from zero the refinement's corrections can add more error than they remove: in [1e6, 1e6 + 10] the
+    quartic's refined coefficients were off by 2e-7 relative while the plain ones were within 3e-14 (``refine``
+    now sees that its corrections do not contract and keeps the plain solution). Where they contract the
+    refined solution is kept, and iterated until it converges: 10^4 half-ranges from zero the plain cubic is off
+    by 4e-9, and one step of refinement had left 6e-12. Each case refines something (a plain estimate above the
+    target), and coefficients, standard errors and the covariance diagonal meet the target against exact
+    rational arithmetic (``test_exact_least_squares.exact_fit``)."""
+    x, y, orders = _far_off_centre(case)
+    cal = engine.Calibration(x, y, max_order=max(orders))
+    for order in orders:
+        b, cov, rss = exact_fit(x, y, order)
+        fit = cal.fit(order)
+        assert _worst_relative(fit.coefficients, b) <= TARGET, (order, cal.plain_bounds(order))
+        assert _worst_relative(_variances(cal, order), cov) <= TARGET, (order, cal.plain_bounds(order))
+        s = Fraction(rss / (x.size - order - 1))
+        exact_se = [math.sqrt(s * d) for d in cov]  # the square root rounds once: within a unit of 2^-53
+        assert _worst_relative(fit.std_errors, exact_se) <= TARGET, order
+    assert refine_calls
+
+
 def test_an_exact_fit_refines_its_residuals(refine_calls):
     """NIST StRD Wampler1 (y an exact quintic of x): the quintic's residual is rounding error, so its plain
     sum of squares has no relative accuracy; the residuals of that order are refined when first needed."""
@@ -118,7 +154,7 @@ def test_an_exact_fit_refines_its_residuals(refine_calls):
 
 @settings(max_examples=25, deadline=None, suppress_health_check=[HealthCheck.too_slow])
 @given(
-    offset=st.sampled_from([0.0, 1.0, 10.0, 1e2, 1e3]),
+    offset=st.sampled_from([0.0, 1.0, 10.0, 1e2, 1e3, 1e4]),
     width=st.sampled_from([1e-3, 1.0, 100.0]),
     levels=st.integers(6, 10),
     curvature=st.floats(-0.5, 0.5),
@@ -128,9 +164,8 @@ def test_an_exact_fit_refines_its_residuals(refine_calls):
 )
 def test_every_figure_meets_the_target_whichever_branch(offset, width, levels, curvature, noise, weighted, seed):
     """Plain or refined, coefficients, covariance diagonals and residual sums of squares of orders 1..3 are within
-    the target of the exact solution (``test_exact_least_squares.exact_fit``). The centre of x is at most 1e3
-    half-ranges from zero: further out the refinement's own double-double residuals cancel (at 1e4 a cubic's
-    refined coefficients kept 2e-12; DEVELOPERS.md)."""
+    the target of the exact solution (``test_exact_least_squares.exact_fit``). The centre of x is at most 1e4
+    half-ranges from zero: beyond about 1e5 neither branch is sure to meet the target (DEVELOPERS.md)."""
     rng = np.random.default_rng(seed)
     t = np.repeat(np.linspace(-1.0, 1.0, levels), 3)
     x = width * (offset + t)
