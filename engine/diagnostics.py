@@ -145,7 +145,8 @@ def point_diagnostics(cal: Calibration, order: int, alpha: float = 0.05) -> Poin
             words.append("deviation % not defined at x = 0")
         notes[i] = "; ".join(words)
     dev = np.full(cal.n_points, np.nan)
-    np.divide(100.0 * (back - x), np.abs(x), out=dev, where=x != 0)
+    with np.errstate(over="ignore"):  # a back-calculated x near the double range: an empty cell
+        np.divide(100.0 * (back - x), np.abs(x), out=dev, where=x != 0)
     columns = (fitted, resid, r, t, h, cook, back, dev)
     return PointDiagnostics(*map(tuple, np.array(columns).tolist()), tuple(notes))
 
