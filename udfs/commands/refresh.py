@@ -143,11 +143,20 @@ def _block(values: dict, area: Area, sheet_rows: int):
 
 
 class Refresher:
+    """One workbook's CALIB_* formulas, computed in dependency order, sheet by sheet: after the last
+    formula that reads or writes a sheet, its changed XML replaces its part (``parts`` is updated in
+    place) and the sheet is forgotten. The sheets that hold CALIB_* formulas are kept from the first
+    reading; any other is read when first needed (and, after the refresh, read again as refreshed)."""
+
     def __init__(self, parts: dict[str, bytes]):
         self.parts = parts
         self.book = Workbook(parts)
+        self.sheets: dict[str, Sheet] = {}  # the sheets in memory
+        self.edits: dict[str, SheetText] = {}  # part -> its text being edited
         self.formulas: list[Formula] = []
-        for sheet in self.book.sheets.values():
+        for name in self.book.sheet_parts:
+            sheet = self.book.read_sheet(name)
+            count = len(self.formulas)
             masters = {attrs.get("si"): (r, c, text) for (r, c), (text, attrs) in sheet.formulas.items()
                        if attrs.get("t") == "shared" and text}
             for (r, c), (text, attrs) in sheet.formulas.items():
@@ -158,14 +167,23 @@ class Refresher:
                         self.formulas.append(Formula(sheet.name, r, c, master, attrs, shift=(r - r0, c - c0)))
                 elif MENTION.search(text or ""):
                     self.formulas.append(Formula(sheet.name, r, c, text, attrs, shift=(0, 0) if shared else None))
+            if len(self.formulas) > count:
+                self.sheets[name] = sheet
+
+    def sheet(self, name: str) -> Sheet:
+        """The worksheet ``name`` as it now stands (read from its part if it is not in memory)."""
+        sheet = self.sheets.get(name)
+        if sheet is None:
+            sheet = self.sheets[name] = self.book.read_sheet(name)
+        return sheet
 
     def _evaluate(self, call: Call, sheet: str):
         args = []
         for a in call.args:
             if isinstance(a, Area):
-                if a.sheet not in self.book.sheets:
+                if a.sheet not in self.book.sheet_parts:
                     raise Unsupported(f"the sheet '{a.sheet}' does not exist in the workbook")
-                target = self.book.sheets[a.sheet]
+                target = self.sheet(a.sheet)
                 args.append(_block(target.values, a, target.max_row))
             elif isinstance(a, Call):
                 inner = self._evaluate(a, sheet)
@@ -175,13 +193,8 @@ class Refresher:
                 args.append(a)
         return CALLABLE[call.name](*args)
 
-    def run(self, report: Report, workers: int = 1) -> tuple[dict[str, bytes], list[str]]:
-        """Compute every CALIB_* cell; return the changed parts and the names of new parts.
-
-        With ``workers`` > 1 on Linux, a large workbook's sheets are split into groups
-        that do not refer to one another and computed in that many forked processes;
-        the parts and the report are the same as one process makes.
-        """
+    def run(self, report: Report) -> tuple[dict[str, bytes], list[str]]:
+        """Compute every CALIB_* cell; return the changed parts and the names of new parts."""
         by_cell = {}
         for f in self.formulas:
             try:
@@ -204,12 +217,24 @@ class Refresher:
         # the cm index a dynamic array will carry, found on a copy; the parts change only if one is written
         cm = dynamic_array_metadata(dict(self.parts), self.book.workbook_part, self.book.workbook_rels)[0] \
             if by_cell else None
-        plan = (by_cell, graph, dead, cm)
-        shares = _shares(order, by_cell, workers) if workers > 1 and len(order) >= PARALLEL_FROM else [order]
-        if len(shares) > 1 and _can_fork():
-            changed, arrays = self._compute_in_processes(shares, plan, report, order)
-        else:
-            changed, arrays = self._compute(order, plan, report)
+        last = {}  # part -> the position in ``order`` of the last formula that reads or writes it
+        for i, key in enumerate(order):
+            f = by_cell[key]
+            for name in {f.sheet, *(a.sheet for a in areas_of(f.call))}:
+                last[self.book.sheet_parts.get(name)] = i
+        finished: dict[int, list] = {}
+        for part, i in last.items():
+            finished.setdefault(i, []).append(part)
+        changed, arrays = {}, False
+        for i, key in enumerate(order):
+            f = by_cell[key]
+            if any(dep in dead for dep in graph[key]):
+                report.failed.append((f.where, "it reads a CALIB_* cell that could not be computed"))
+                dead.add(key)
+            else:
+                arrays |= self._compute(f, cm, report, dead)
+            for part in finished.get(i, ()):
+                self._finish(part, changed)
         added: list[str] = []
         if arrays:
             added = dynamic_array_metadata(self.parts, self.book.workbook_part, self.book.workbook_rels)[1]
@@ -218,63 +243,37 @@ class Refresher:
             changed[self.book.workbook_part] = set_full_calc_on_load(wb).encode("utf-8")
         return changed, added
 
-    def _compute(self, keys, plan, report: Report) -> tuple[dict[str, bytes], bool]:
-        """Evaluate and write the formulas ``keys`` in this order: the sheet parts whose bytes change, and
-        whether a cell now refers to the dynamic-array record."""
-        by_cell, graph, dead, cm = plan
-        edits: dict[str, SheetText] = {}
-        arrays = False
-        for key in keys:
-            f = by_cell[key]
-            if any(dep in dead for dep in graph[key]):
-                report.failed.append((f.where, "it reads a CALIB_* cell that could not be computed"))
-                dead.add(key)
-                continue
-            try:
-                result = self._evaluate(f.call, f.sheet)
-            except Unsupported as why:
-                report.left_alone.append((f.where, str(why)))
-                dead.add(key)
-                continue
-            rows = result if isinstance(result, list) else [[result]]
-            if f.shift is not None and (len(rows) > 1 or len(rows[0]) > 1):
-                report.left_alone.append((f.where, "a filled (shared) formula whose result covers several cells: "
-                                                   "enter it in its cell alone"))
-                dead.add(key)
-                continue
-            arrays |= self._write(f, rows, cm, edits, report)
-        rendered = ((part, text.render().encode("utf-8")) for part, text in edits.items())
-        return {part: data for part, data in rendered if data != self.parts[part]}, arrays
-
-    def _compute_in_processes(self, shares, plan, report: Report, order):
-        """``_compute`` of each share, the first here and each other in a forked process (the shares
-        touch disjoint sheets); parts and report merged in formula order."""
-        import multiprocessing
-        from concurrent.futures import ProcessPoolExecutor
-
-        global _FORKED
-        _FORKED = self, plan, shares
+    def _compute(self, f: Formula, cm, report: Report, dead: set) -> bool:
+        """Evaluate and write one formula; True when a cell was given the dynamic-array record ``cm``."""
+        key = (f.sheet, f.row, f.col)
         try:
-            with ProcessPoolExecutor(len(shares) - 1, mp_context=multiprocessing.get_context("fork")) as pool:
-                futures = [pool.submit(_compute_share, i) for i in range(1, len(shares))]
-                outcomes = [_compute_share(0)] + [f.result() for f in futures]  # this process takes the first
-        finally:
-            _FORKED = None
-        position = {plan[0][k].where: i for i, k in enumerate(order)}
-        changed, arrays = {}, False
-        for parts, used, _, values_changed in outcomes:
-            changed.update(parts)
-            arrays |= used
-            report.changed |= values_changed
-        for name in outcomes[0][2]:
-            added = [e for o in outcomes for e in o[2][name]]
-            getattr(report, name).extend(sorted(added, key=lambda e: position[e if isinstance(e, str) else e[0]]))
-        return changed, arrays
+            result = self._evaluate(f.call, f.sheet)
+        except Unsupported as why:
+            report.left_alone.append((f.where, str(why)))
+            dead.add(key)
+            return False
+        rows = result if isinstance(result, list) else [[result]]
+        if f.shift is not None and (len(rows) > 1 or len(rows[0]) > 1):
+            report.left_alone.append((f.where, "a filled (shared) formula whose result covers several cells: "
+                                               "enter it in its cell alone"))
+            dead.add(key)
+            return False
+        return self._write(f, rows, cm, report)
+
+    def _finish(self, part: str, changed: dict) -> None:
+        """Forget the sheets of ``part``; store its XML in ``parts`` (and ``changed``) if its bytes change."""
+        for name in [n for n, s in self.sheets.items() if s.part == part]:
+            del self.sheets[name]
+        text = self.edits.pop(part, None)
+        if text is not None:
+            data = text.render().encode("utf-8")
+            if data != self.parts[part]:
+                self.parts[part] = changed[part] = data
 
     def _order(self, graph, by_cell, report):
         """Dependencies first, otherwise sheet by sheet and cell by cell (so a sheet's calibrations
         are computed together while the cache holds them); cells on a cycle are reported and dropped."""
-        sheet_index = {name: i for i, name in enumerate(self.book.sheet_order)}
+        sheet_index = {name: i for i, name in enumerate(self.book.sheet_parts)}
         keys = sorted(graph, key=lambda k: (sheet_index.get(k[0], 0), k[1], k[2]))
         state, order, dead = {}, [], set()
         for start in keys:
@@ -313,7 +312,7 @@ class Refresher:
             return f"{size} would reach beyond the sheet's last {edge}; nothing was written"
         if height == width == 1:
             return None
-        sheet, anchor = self.book.sheets[f.sheet], (f.row, f.col)
+        sheet, anchor = self.sheet(f.sheet), (f.row, f.col)
         values, formulas = sheet.values, sheet.formulas
         covered = ((f.row + i, f.col + j) for i in range(height) for j in range(width))
         in_the_way = next((k for k in covered if k != anchor and k not in old_cells
@@ -328,12 +327,12 @@ class Refresher:
                         "where the spreadsheet program does not allow a spilled result; nothing was written")
         return None
 
-    def _write(self, f: Formula, rows, cm, edits, report: Report) -> bool:
+    def _write(self, f: Formula, rows, cm, report: Report) -> bool:
         """Store one result; True when a cell was given the dynamic-array record ``cm``."""
-        sheet = self.book.sheets[f.sheet]
-        text = edits.get(sheet.part)
+        sheet = self.sheet(f.sheet)
+        text = self.edits.get(sheet.part)
         if text is None:
-            text = edits[sheet.part] = SheetText(text_of(sheet.part, self.parts[sheet.part]), sheet.part)
+            text = self.edits[sheet.part] = SheetText(text_of(sheet.part, self.parts[sheet.part]), sheet.part)
         height, width = len(rows), max(len(r) for r in rows)
         anchor = (f.row, f.col)
         old_cells = set()
@@ -365,8 +364,7 @@ class Refresher:
                 cleared.append(f"{cell_name(*key)} {_change(values.pop(key), None)}")
         ref = None if not array else (cell_name(f.row, f.col) if height == width == 1 else
                                       f"{cell_name(f.row, f.col)}:{cell_name(new.bottom, new.right)}")
-        p, letters = text.p, [column_letters(f.col + j) for j in range(width)]
-        get_style, get_value = styles.get, values.get
+        letters = [column_letters(f.col + j) for j in range(width)]
         for i, row in enumerate(rows):
             r = f.row + i
             if len(row) < width:
@@ -375,10 +373,8 @@ class Refresher:
             for j, value in enumerate(row):
                 c = f.col + j
                 key = (r, c)
-                style = get_style(key)
-                if style is None and type(value) is float and (i or j):  # the usual cell, written here for speed
-                    cells[c] = f'<{p}c r="{letters[j]}{r}"><{p}v>{value!r}</{p}v></{p}c>'
-                elif i == 0 and j == 0:
+                style = styles.get(key)
+                if i == 0 and j == 0:
                     if f.shift is not None:  # a filled formula keeps its stored <f> element as it is
                         cells[c] = text.cell_xml(r, c, value, style, f_xml=text.formula_xml(r, c))
                     else:
@@ -387,7 +383,7 @@ class Refresher:
                     cells[c] = None
                 else:
                     cells[c] = text.cell_xml(r, c, value, style)
-                old = get_value(key)
+                old = values.get(key)
                 if old != value or isinstance(old, bool) != isinstance(value, bool):
                     listed.append(f"{letters[j]}{r} {_change(old, value)}")
                     if value is None:
@@ -401,54 +397,6 @@ class Refresher:
             report.changes.append((f.where, (height, width), len(listed), trail))
         report.changed |= changed or bool(listed)
         return own_cm is not None
-
-
-# a workbook with at least this many CALIB_* formulas is split over processes when workers > 1
-PARALLEL_FROM = 48
-_FORKED = None  # (refresher, plan, shares), inherited by forked processes
-
-
-def _can_fork() -> bool:
-    """Forked processes share the parsed workbook for free; only on Linux, where fork is safe and the default."""
-    return sys.platform.startswith("linux")
-
-
-def _shares(order, by_cell, workers: int) -> list[list]:
-    """``order`` split into at most ``workers`` lists, each a union of sheet groups that refer only to
-    themselves, balanced by formula count; each list keeps the order of ``order``."""
-    parent: dict[str, str] = {}
-
-    def root(s):
-        while parent.setdefault(s, s) != s:
-            parent[s] = parent[parent[s]]
-            s = parent[s]
-        return s
-
-    for key in order:
-        f = by_cell[key]
-        for a in areas_of(f.call):
-            parent[root(a.sheet)] = root(f.sheet)
-    sizes: dict[str, int] = {}
-    for key in order:
-        sizes[root(key[0])] = sizes.get(root(key[0]), 0) + 1
-    load, home = [0] * min(workers, len(sizes)), {}
-    for group, size in sorted(sizes.items(), key=lambda kv: -kv[1]):
-        i = load.index(min(load))
-        home[group] = i
-        load[i] += size
-    shares = [[] for _ in load]
-    for key in order:
-        shares[home[root(key[0])]].append(key)
-    return [s for s in shares if s]
-
-
-def _compute_share(index: int):
-    refresher, plan, shares = _FORKED
-    report = Report(Path())
-    parts, arrays = refresher._compute(shares[index], plan, report)
-    lists = {name: getattr(report, name) for name in ("refreshed", "messages", "changes", "blocked", "left_alone",
-                                                      "failed")}
-    return parts, arrays, lists, report.changed
 
 
 def _target(path: Path, check: bool) -> Path:
@@ -500,8 +448,8 @@ def _replace(real: Path, infos, parts: dict, added: list[str], backup: bool, rep
             os.unlink(tmp)
 
 
-def refresh_file(path: Path, check: bool = False, backup: bool = False, workers: int | None = None) -> Report:
-    """Refresh one workbook in place; ``workers`` processes for a large one (default: one per CPU core).
+def refresh_file(path: Path, check: bool = False, backup: bool = False) -> Report:
+    """Refresh one workbook in place.
 
     Never raises: whatever stops it is the report's one-line error, and the file is left as it was."""
     path = Path(path)
@@ -509,7 +457,7 @@ def refresh_file(path: Path, check: bool = False, backup: bool = False, workers:
     try:
         real = _target(path, check)
         infos, parts = read_package(real)
-        changed, added = Refresher(parts).run(report, (os.cpu_count() or 1) if workers is None else workers)
+        changed, added = Refresher(parts).run(report)
         if check or not changed:
             return report
         parts.update(changed)
@@ -537,16 +485,11 @@ def workbooks(paths) -> list[Path]:
     return found
 
 
-def _one(args):
-    path, check, backup = args
-    return refresh_file(path, check, backup, workers=1)
-
-
 def run(paths, check: bool = False, backup: bool = False, jobs: int | None = None) -> int:
     """Refresh every workbook; print each one's report; 0 only when everything succeeded.
 
     ``jobs`` processes (default: one per CPU core): several workbooks are refreshed
-    that many at a time; a single large workbook has its sheets split over them.
+    that many at a time.
     """
     jobs = jobs or os.cpu_count() or 1
     files = workbooks(paths)
@@ -567,13 +510,13 @@ def run(paths, check: bool = False, backup: bool = False, jobs: int | None = Non
 
         reports = []
         with ProcessPoolExecutor(max_workers=jobs) as pool:
-            for task, future in progress(list(zip(tasks, [pool.submit(_one, t) for t in tasks]))):
+            for task, future in progress(list(zip(tasks, [pool.submit(refresh_file, *t) for t in tasks]))):
                 try:
                     reports.append(future.result())
                 except Exception as err:  # a worker that died: the others are still reported  # noqa: BLE001
                     reports.append(Report(task[0], error=f"the process refreshing it stopped ({err!r})"))
     else:
-        reports = [refresh_file(*t, workers=jobs) for t in progress(tasks)]
+        reports = [refresh_file(*t) for t in progress(tasks)]
     for r in reports:
         print("\n".join(r.lines(check)))
     bad = [r for r in reports if r.error]
