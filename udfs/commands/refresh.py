@@ -80,8 +80,13 @@ class Report:
         return self.error is None and not (self.blocked or self.left_alone or self.failed or self.messages)
 
     def lines(self, check: bool = False) -> list[str]:
+        return list(self.each_line(check))
+
+    def each_line(self, check: bool = False):
+        """The report's lines one by one (an audit trail of a large workbook is printed without a copy)."""
         if self.error:
-            return [f"{self.path}: not refreshed: {self.error}"]
+            yield f"{self.path}: not refreshed: {self.error}"
+            return
         cells = sum(n for _, _, n, _ in self.changes)
         head = (f"{self.path}: {len(self.refreshed)} CALIB_* cells {'computed' if check else 'refreshed'} "
                 f"({len(self.messages)} with a message), {len(self.blocked)} blocked, {len(self.left_alone)} left "
@@ -92,18 +97,17 @@ class Report:
             head += f"{cells} cell values would change" if check else f"{cells} cell values changed"
         else:
             head += "only stored formulas would change" if check else "only stored formulas changed"
-        out = [head]
+        yield head
         verb = "would change" if check else "changed"
         for anchor, (height, width), n, listed in self.changes:
             shape = "" if height == width == n == 1 else f" (result {height} x {width}), {n} cells"
-            out.append(f"  {verb} {anchor}{shape}: {listed}")
-        out += [f"  message {c}: {text}" for c, text in self.messages]
-        out += [f"  blocked {c}: {why}" for c, why in self.blocked]
-        out += [f"  left alone {c}: {why}" for c, why in self.left_alone]
-        out += [f"  failed {c}: {why}" for c, why in self.failed]
+            yield f"  {verb} {anchor}{shape}: {listed}"
+        yield from (f"  message {c}: {text}" for c, text in self.messages)
+        yield from (f"  blocked {c}: {why}" for c, why in self.blocked)
+        yield from (f"  left alone {c}: {why}" for c, why in self.left_alone)
+        yield from (f"  failed {c}: {why}" for c, why in self.failed)
         if self.backup:
-            out.append(f"  original kept as {self.backup}")
-        return out
+            yield f"  original kept as {self.backup}"
 
 
 @dataclass
@@ -518,7 +522,8 @@ def run(paths, check: bool = False, backup: bool = False, jobs: int | None = Non
     else:
         reports = [refresh_file(*t) for t in progress(tasks)]
     for r in reports:
-        print("\n".join(r.lines(check)))
+        for line in r.each_line(check):
+            print(line)
     bad = [r for r in reports if r.error]
     if len(reports) > 1:
         print(f"{len(reports)} workbooks: {len(reports) - len(bad)} read and computed, {len(bad)} not refreshed"
