@@ -400,8 +400,6 @@ class SheetText:
         """XML of one cell holding ``value`` (and a formula for an anchor, or its stored <f> element)."""
         p = self.p
         attrs = f' r="{column_letters(col)}{row}"' if style is None else f' r="{column_letters(col)}{row}" s="{style}"'
-        if type(value) is float and formula is None and f_xml is None:  # the common case, made short
-            return f"<{p}c{attrs}><{p}v>{value!r}</{p}v></{p}c>"
         f = f_xml or ""
         if formula is not None:
             if array_ref:
