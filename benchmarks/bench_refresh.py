@@ -3,12 +3,12 @@
 The workbook is SHEETS invented calibration sheets (6 CALIB_* formulas a sheet, default 200) or a
 workbook file given by its path (a demo workbook: what one refresh of one calibration costs).
 Each run is a fresh process (imports included) on a fresh copy, which also reports its peak memory
-(max RSS of the process plus its largest child, if any). The refresh runs as the command `degreewise
-refresh BOOK > report.txt` does (the audit trail goes to a file), with pandas hidden as in an install from the
-README's first command. Rounds
-alternate (openpyxl then refresh, refresh then openpyxl, ...); each round gives a time ratio
-(openpyxl / refresh: above 1 means the refresh is faster) and a memory ratio (refresh / openpyxl);
-the medians and quartiles of the per-round ratios are what to quote on a noisy machine.
+(max RSS of the process plus its largest child, if any). The refresh runs as the command
+`degreewise refresh BOOK > report.txt` does (the audit trail goes to a file), with pandas hidden as
+in an install from the README's first command. Rounds alternate (openpyxl then refresh, refresh
+then openpyxl, ...); each round gives a time ratio (openpyxl / refresh: above 1 means the refresh is
+faster) and a memory ratio (refresh / openpyxl); the medians and quartiles of the per-round ratios
+are what to quote on a noisy machine.
 Run: python benchmarks/bench_refresh.py [SHEETS|BOOK.xlsx] [ROUNDS] [--jobs N]   (default 200, 5 rounds)
 """
 
