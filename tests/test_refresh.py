@@ -373,6 +373,40 @@ def _many_sheets(path: Path) -> Path:
     return path
 
 
+def test_sheets_split_over_processes_give_the_same_file_and_report(tmp_path, monkeypatch):
+    import degreewise.commands.refresh as refresh
+
+    monkeypatch.setattr(refresh, "PARALLEL_FROM", 1)
+    one = _many_sheets(tmp_path / "one.xlsx")
+    three = Path(shutil.copy(one, tmp_path / "three.xlsx"))  # one build: openpyxl stamps the time it saved
+    serial = refresh_file(one, workers=1)
+    split = refresh_file(three, workers=3)
+    assert [c for c, _ in serial.blocked] == ["'Cal 5'!D10"]
+    assert [c for c, _ in serial.failed] == ["Check!F1", "Check!F2"]
+    assert {a for a, _, _, _ in serial.changes} == set(serial.refreshed) | {c for c, _ in serial.blocked}
+    for name in ("refreshed", "messages", "changes", "blocked", "left_alone", "failed"):
+        assert getattr(split, name) == getattr(serial, name)
+    assert split.lines()[1:] == serial.lines()[1:]
+    assert split.changed and serial.changed
+    assert entries(three) == entries(one)
+
+
+def test_sheets_that_refer_to_each_other_share_a_process(tmp_path):
+    import degreewise.commands.refresh as refresh
+
+    book = refresh.Refresher(refresh.read_package(_many_sheets(tmp_path / "book.xlsx"))[1])
+    by_cell = {}
+    for f in book.formulas:
+        f.call = refresh.parse_call(f.text, f.sheet, book.book.names)
+        by_cell[(f.sheet, f.row, f.col)] = f
+    order = sorted(by_cell)
+    shares = refresh._shares(order, by_cell, 3)
+    assert len(shares) == 3 and sorted(k for s in shares for k in s) == order
+    home = {k[0]: i for i, s in enumerate(shares) for k in s}
+    assert home["Check"] == home["Cal 4"]
+    assert all(s == sorted(s) for s in shares)  # each share keeps the order it was given
+
+
 def test_a_sheet_reads_the_refreshed_cells_of_another(tmp_path):
     """Sheets are computed one after another and forgotten when done: 'Check' still reads the order that
     the refresh stored on 'Cal 4' (not the empty cell the file held), and every sheet's problems are reported."""

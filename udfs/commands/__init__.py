@@ -81,7 +81,8 @@ def main(argv=None) -> int:
     p.add_argument("--check", action="store_true", help="compute and report what would change; write nothing")
     p.add_argument("--backup", action="store_true", help="keep the original beside each refreshed workbook")
     p.add_argument("--jobs", type=_jobs, default=None,
-                   help="processes to use (default: one per CPU core): several workbooks at a time")
+                   help="processes to use (default: one per CPU core): several workbooks at a time, "
+                        "or the sheets of one large workbook")
     p.set_defaults(run=_refresh)
     p = sub.add_parser("freeze", help="write a copy whose CALIB_* formulas are replaced by their values")
     p.add_argument("book", help="the workbook (.xlsx, .xlsm); it is not changed")

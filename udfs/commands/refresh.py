@@ -197,8 +197,13 @@ class Refresher:
                 args.append(a)
         return CALLABLE[call.name](*args)
 
-    def run(self, report: Report) -> tuple[dict[str, bytes], list[str]]:
-        """Compute every CALIB_* cell; return the changed parts and the names of new parts."""
+    def run(self, report: Report, workers: int = 1) -> tuple[dict[str, bytes], list[str]]:
+        """Compute every CALIB_* cell; return the changed parts and the names of new parts.
+
+        With ``workers`` > 1 on Linux, a large workbook's sheets are split into groups
+        that do not refer to one another and computed in that many forked processes;
+        the parts and the report are the same as one process makes.
+        """
         by_cell = {}
         for f in self.formulas:
             try:
@@ -221,24 +226,12 @@ class Refresher:
         # the cm index a dynamic array will carry, found on a copy; the parts change only if one is written
         cm = dynamic_array_metadata(dict(self.parts), self.book.workbook_part, self.book.workbook_rels)[0] \
             if by_cell else None
-        last = {}  # part -> the position in ``order`` of the last formula that reads or writes it
-        for i, key in enumerate(order):
-            f = by_cell[key]
-            for name in {f.sheet, *(a.sheet for a in areas_of(f.call))}:
-                last[self.book.sheet_parts.get(name)] = i
-        finished: dict[int, list] = {}
-        for part, i in last.items():
-            finished.setdefault(i, []).append(part)
-        changed, arrays = {}, False
-        for i, key in enumerate(order):
-            f = by_cell[key]
-            if any(dep in dead for dep in graph[key]):
-                report.failed.append((f.where, "it reads a CALIB_* cell that could not be computed"))
-                dead.add(key)
-            else:
-                arrays |= self._compute(f, cm, report, dead)
-            for part in finished.get(i, ()):
-                self._finish(part, changed)
+        plan = (by_cell, graph, dead, cm)
+        shares = _shares(order, by_cell, workers) if workers > 1 and len(order) >= PARALLEL_FROM else [order]
+        if len(shares) > 1 and _can_fork():
+            changed, arrays = self._compute_in_processes(shares, plan, report, order)
+        else:
+            changed, arrays = self._compute(order, plan, report)
         added: list[str] = []
         if arrays:
             added = dynamic_array_metadata(self.parts, self.book.workbook_part, self.book.workbook_rels)[1]
@@ -247,7 +240,32 @@ class Refresher:
             changed[self.book.workbook_part] = set_full_calc_on_load(wb).encode("utf-8")
         return changed, added
 
-    def _compute(self, f: Formula, cm, report: Report, dead: set) -> bool:
+    def _compute(self, keys, plan, report: Report) -> tuple[dict[str, bytes], bool]:
+        """Evaluate and write the formulas ``keys`` in this order, finishing each sheet after the last of
+        them that reads or writes it: the sheet parts whose bytes change, and whether a cell now refers
+        to the dynamic-array record."""
+        by_cell, graph, dead, cm = plan
+        last = {}  # part -> the position in ``keys`` of the last formula that reads or writes it
+        for i, key in enumerate(keys):
+            f = by_cell[key]
+            for name in {f.sheet, *(a.sheet for a in areas_of(f.call))}:
+                last[self.book.sheet_parts.get(name)] = i
+        finished: dict[int, list] = {}
+        for part, i in last.items():
+            finished.setdefault(i, []).append(part)
+        changed, arrays = {}, False
+        for i, key in enumerate(keys):
+            f = by_cell[key]
+            if any(dep in dead for dep in graph[key]):
+                report.failed.append((f.where, "it reads a CALIB_* cell that could not be computed"))
+                dead.add(key)
+            else:
+                arrays |= self._compute_one(f, cm, report, dead)
+            for part in finished.get(i, ()):
+                self._finish(part, changed)
+        return changed, arrays
+
+    def _compute_one(self, f: Formula, cm, report: Report, dead: set) -> bool:
         """Evaluate and write one formula; True when a cell was given the dynamic-array record ``cm``."""
         key = (f.sheet, f.row, f.col)
         try:
@@ -273,6 +291,32 @@ class Refresher:
             data = text.render().encode("utf-8")
             if data != self.parts[part]:
                 self.parts[part] = changed[part] = data
+
+    def _compute_in_processes(self, shares, plan, report: Report, order):
+        """``_compute`` of each share, the first here and each other in a forked process (the shares
+        touch disjoint sheets); parts and report merged in formula order."""
+        import multiprocessing
+        from concurrent.futures import ProcessPoolExecutor
+
+        global _FORKED
+        _FORKED = self, plan, shares
+        try:
+            with ProcessPoolExecutor(len(shares) - 1, mp_context=multiprocessing.get_context("fork")) as pool:
+                futures = [pool.submit(_compute_share, i) for i in range(1, len(shares))]
+                outcomes = [_compute_share(0)] + [f.result() for f in futures]  # this process takes the first
+        finally:
+            _FORKED = None
+        position = {plan[0][k].where: i for i, k in enumerate(order)}
+        changed, arrays = {}, False
+        for parts, used, _, values_changed in outcomes:
+            self.parts.update(parts)
+            changed.update(parts)
+            arrays |= used
+            report.changed |= values_changed
+        for name in outcomes[0][2]:
+            added = [e for o in outcomes for e in o[2][name]]
+            getattr(report, name).extend(sorted(added, key=lambda e: position[e if isinstance(e, str) else e[0]]))
+        return changed, arrays
 
     def _order(self, graph, by_cell, report):
         """Dependencies first, otherwise sheet by sheet and cell by cell (so a sheet's calibrations
@@ -403,6 +447,54 @@ class Refresher:
         return own_cm is not None
 
 
+# a workbook with at least this many CALIB_* formulas is split over processes when workers > 1
+PARALLEL_FROM = 48
+_FORKED = None  # (refresher, plan, shares), inherited by forked processes
+
+
+def _can_fork() -> bool:
+    """Forked processes share the parsed workbook for free; only on Linux, where fork is safe and the default."""
+    return sys.platform.startswith("linux")
+
+
+def _shares(order, by_cell, workers: int) -> list[list]:
+    """``order`` split into at most ``workers`` lists, each a union of sheet groups that refer only to
+    themselves, balanced by formula count; each list keeps the order of ``order``."""
+    parent: dict[str, str] = {}
+
+    def root(s):
+        while parent.setdefault(s, s) != s:
+            parent[s] = parent[parent[s]]
+            s = parent[s]
+        return s
+
+    for key in order:
+        f = by_cell[key]
+        for a in areas_of(f.call):
+            parent[root(a.sheet)] = root(f.sheet)
+    sizes: dict[str, int] = {}
+    for key in order:
+        sizes[root(key[0])] = sizes.get(root(key[0]), 0) + 1
+    load, home = [0] * min(workers, len(sizes)), {}
+    for group, size in sorted(sizes.items(), key=lambda kv: -kv[1]):
+        i = load.index(min(load))
+        home[group] = i
+        load[i] += size
+    shares = [[] for _ in load]
+    for key in order:
+        shares[home[root(key[0])]].append(key)
+    return [s for s in shares if s]
+
+
+def _compute_share(index: int):
+    refresher, plan, shares = _FORKED
+    report = Report(Path())
+    parts, arrays = refresher._compute(shares[index], plan, report)
+    lists = {name: getattr(report, name) for name in ("refreshed", "messages", "changes", "blocked", "left_alone",
+                                                      "failed")}
+    return parts, arrays, lists, report.changed
+
+
 def _target(path: Path, check: bool) -> Path:
     """The file a refresh reads and replaces: a symlink's target. Refused with a message: a backup kept by an
     earlier refresh, an open workbook and, when it would be written, a read-only or hard-linked one."""
@@ -452,8 +544,8 @@ def _replace(real: Path, infos, parts: dict, added: list[str], backup: bool, rep
             os.unlink(tmp)
 
 
-def refresh_file(path: Path, check: bool = False, backup: bool = False) -> Report:
-    """Refresh one workbook in place.
+def refresh_file(path: Path, check: bool = False, backup: bool = False, workers: int | None = None) -> Report:
+    """Refresh one workbook in place; ``workers`` processes for a large one (default: one per CPU core).
 
     Never raises: whatever stops it is the report's one-line error, and the file is left as it was."""
     path = Path(path)
@@ -461,7 +553,7 @@ def refresh_file(path: Path, check: bool = False, backup: bool = False) -> Repor
     try:
         real = _target(path, check)
         infos, parts = read_package(real)
-        changed, added = Refresher(parts).run(report)
+        changed, added = Refresher(parts).run(report, (os.cpu_count() or 1) if workers is None else workers)
         if check or not changed:
             return report
         parts.update(changed)
@@ -489,11 +581,16 @@ def workbooks(paths) -> list[Path]:
     return found
 
 
+def _one(args):
+    path, check, backup = args
+    return refresh_file(path, check, backup, workers=1)
+
+
 def run(paths, check: bool = False, backup: bool = False, jobs: int | None = None) -> int:
     """Refresh every workbook; print each one's report; 0 only when everything succeeded.
 
     ``jobs`` processes (default: one per CPU core): several workbooks are refreshed
-    that many at a time.
+    that many at a time; a single large workbook has its sheets split over them.
     """
     jobs = jobs or os.cpu_count() or 1
     files = workbooks(paths)
@@ -514,13 +611,13 @@ def run(paths, check: bool = False, backup: bool = False, jobs: int | None = Non
 
         reports = []
         with ProcessPoolExecutor(max_workers=jobs) as pool:
-            for task, future in progress(list(zip(tasks, [pool.submit(refresh_file, *t) for t in tasks]))):
+            for task, future in progress(list(zip(tasks, [pool.submit(_one, t) for t in tasks]))):
                 try:
                     reports.append(future.result())
                 except Exception as err:  # a worker that died: the others are still reported  # noqa: BLE001
                     reports.append(Report(task[0], error=f"the process refreshing it stopped ({err!r})"))
     else:
-        reports = [refresh_file(*t) for t in progress(tasks)]
+        reports = [refresh_file(*t, workers=jobs) for t in progress(tasks)]
     for r in reports:
         for line in r.each_line(check):
             print(line)
