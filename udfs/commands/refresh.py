@@ -316,6 +316,7 @@ class Refresher:
         for name in outcomes[0][2]:
             added = [e for o in outcomes for e in o[2][name]]
             getattr(report, name).extend(sorted(added, key=lambda e: position[e if isinstance(e, str) else e[0]]))
+        self.sheets = {n: s for n, s in self.sheets.items() if s.part not in changed}  # read again as refreshed
         return changed, arrays
 
     def _order(self, graph, by_cell, report):
