@@ -407,6 +407,22 @@ def test_sheets_that_refer_to_each_other_share_a_process(tmp_path):
     assert all(s == sorted(s) for s in shares)  # each share keeps the order it was given
 
 
+def test_a_sheet_reads_the_refreshed_cells_of_another(tmp_path):
+    """Sheets are computed one after another and forgotten when done: 'Check' still reads the order that
+    the refresh stored on 'Cal 4' (not the empty cell the file held), and every sheet's problems are reported."""
+    path = _many_sheets(tmp_path / "book.xlsx")
+    report = refresh_file(path)
+    assert [c for c, _ in report.blocked] == ["'Cal 5'!D10"]
+    assert [c for c, _ in report.failed] == ["Check!F1", "Check!F2"]
+    assert {a for a, _, _, _ in report.changes} == set(report.refreshed) | {c for c, _ in report.blocked}
+    rows = values(path, "Cal 4", "A2", 12, 2)
+    xs, ys = [[r[0]] for r in rows], [[r[1]] for r in rows]
+    order = degreewise.calib_order(xs, ys)
+    assert values(path, "Cal 4", "D1", 1, 1) == [[order]]
+    stats = degreewise.calib_stats(xs, ys, order)
+    assert values(path, "Check", "A1", len(stats), 2) == stats
+
+
 _BOMB_BODY = _bomb_xml().replace(b'<?xml version="1.0"?>', b"").decode("ascii")
 
 
@@ -420,18 +436,6 @@ def test_entity_declarations_are_refused_in_any_encoding(xml, message):
 
     with pytest.raises(PackageError, match=rf"^{message} XML in part\.xml: "):
         parse_xml("part.xml", xml)
-
-
-def test_plain_parts_parse_alike_on_both_paths():
-    from defusedxml import ElementTree as SafeET
-
-    from degreewise.xlsx.package import parse_xml
-
-    xml = ('<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n<worksheet xmlns="urn:x"><c r="A1" t="str">'
-           '<v>a &amp; b &lt; c &#233;</v></c></worksheet>').encode()
-    fast, safe = parse_xml("part.xml", xml), SafeET.fromstring(xml, forbid_dtd=True)
-    assert [(e.tag, e.attrib, e.text) for e in fast.iter()] == [(e.tag, e.attrib, e.text) for e in safe.iter()]
-    assert fast.find("{urn:x}c/{urn:x}v").text == "a & b < c \u00e9"
 
 
 class _Terminal(io.StringIO):

@@ -82,13 +82,13 @@ def freeze(book: Path, out: Path) -> Report:
             raise PackageError(f"{out} is the workbook itself; give another name for the frozen copy")
         infos, parts = read_package(book)
         refresher = Refresher(parts)
-        changed, added = refresher.run(report, workers=1)
+        changed, added = refresher.run(report)
         if report.blocked or report.left_alone or report.failed:
             raise PackageError("not every CALIB_* cell could be computed (listed below); nothing was written")
         parts.update(changed)
         edits: dict[str, SheetText] = {}
         for f in refresher.formulas:
-            part = refresher.book.sheets[f.sheet].part
+            part = refresher.book.sheet_parts[f.sheet]
             text = edits.setdefault(part, SheetText(parts[part].decode("utf-8")))
             text.set_cell(f.row, f.col, frozen_cell(text.rows[f.row][1][f.col], re.escape(text.p)))
         for part, text in edits.items():

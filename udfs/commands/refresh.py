@@ -80,8 +80,13 @@ class Report:
         return self.error is None and not (self.blocked or self.left_alone or self.failed or self.messages)
 
     def lines(self, check: bool = False) -> list[str]:
+        return list(self.each_line(check))
+
+    def each_line(self, check: bool = False):
+        """The report's lines one by one (an audit trail of a large workbook is printed without a copy)."""
         if self.error:
-            return [f"{self.path}: not refreshed: {self.error}"]
+            yield f"{self.path}: not refreshed: {self.error}"
+            return
         cells = sum(n for _, _, n, _ in self.changes)
         head = (f"{self.path}: {len(self.refreshed)} CALIB_* cells {'computed' if check else 'refreshed'} "
                 f"({len(self.messages)} with a message), {len(self.blocked)} blocked, {len(self.left_alone)} left "
@@ -92,18 +97,17 @@ class Report:
             head += f"{cells} cell values would change" if check else f"{cells} cell values changed"
         else:
             head += "only stored formulas would change" if check else "only stored formulas changed"
-        out = [head]
+        yield head
         verb = "would change" if check else "changed"
         for anchor, (height, width), n, listed in self.changes:
             shape = "" if height == width == n == 1 else f" (result {height} x {width}), {n} cells"
-            out.append(f"  {verb} {anchor}{shape}: {listed}")
-        out += [f"  message {c}: {text}" for c, text in self.messages]
-        out += [f"  blocked {c}: {why}" for c, why in self.blocked]
-        out += [f"  left alone {c}: {why}" for c, why in self.left_alone]
-        out += [f"  failed {c}: {why}" for c, why in self.failed]
+            yield f"  {verb} {anchor}{shape}: {listed}"
+        yield from (f"  message {c}: {text}" for c, text in self.messages)
+        yield from (f"  blocked {c}: {why}" for c, why in self.blocked)
+        yield from (f"  left alone {c}: {why}" for c, why in self.left_alone)
+        yield from (f"  failed {c}: {why}" for c, why in self.failed)
         if self.backup:
-            out.append(f"  original kept as {self.backup}")
-        return out
+            yield f"  original kept as {self.backup}"
 
 
 @dataclass
@@ -143,11 +147,20 @@ def _block(values: dict, area: Area, sheet_rows: int):
 
 
 class Refresher:
+    """One workbook's CALIB_* formulas, computed in dependency order, sheet by sheet: after the last
+    formula that reads or writes a sheet, its changed XML replaces its part (``parts`` is updated in
+    place) and the sheet is forgotten. The sheets that hold CALIB_* formulas are kept from the first
+    reading; any other is read when first needed (and, after the refresh, read again as refreshed)."""
+
     def __init__(self, parts: dict[str, bytes]):
         self.parts = parts
         self.book = Workbook(parts)
+        self.sheets: dict[str, Sheet] = {}  # the sheets in memory
+        self.edits: dict[str, SheetText] = {}  # part -> its text being edited
         self.formulas: list[Formula] = []
-        for sheet in self.book.sheets.values():
+        for name in self.book.sheet_parts:
+            sheet = self.book.read_sheet(name)
+            count = len(self.formulas)
             masters = {attrs.get("si"): (r, c, text) for (r, c), (text, attrs) in sheet.formulas.items()
                        if attrs.get("t") == "shared" and text}
             for (r, c), (text, attrs) in sheet.formulas.items():
@@ -158,14 +171,23 @@ class Refresher:
                         self.formulas.append(Formula(sheet.name, r, c, master, attrs, shift=(r - r0, c - c0)))
                 elif MENTION.search(text or ""):
                     self.formulas.append(Formula(sheet.name, r, c, text, attrs, shift=(0, 0) if shared else None))
+            if len(self.formulas) > count:
+                self.sheets[name] = sheet
+
+    def sheet(self, name: str) -> Sheet:
+        """The worksheet ``name`` as it now stands (read from its part if it is not in memory)."""
+        sheet = self.sheets.get(name)
+        if sheet is None:
+            sheet = self.sheets[name] = self.book.read_sheet(name)
+        return sheet
 
     def _evaluate(self, call: Call, sheet: str):
         args = []
         for a in call.args:
             if isinstance(a, Area):
-                if a.sheet not in self.book.sheets:
+                if a.sheet not in self.book.sheet_parts:
                     raise Unsupported(f"the sheet '{a.sheet}' does not exist in the workbook")
-                target = self.book.sheets[a.sheet]
+                target = self.sheet(a.sheet)
                 args.append(_block(target.values, a, target.max_row))
             elif isinstance(a, Call):
                 inner = self._evaluate(a, sheet)
@@ -219,32 +241,56 @@ class Refresher:
         return changed, added
 
     def _compute(self, keys, plan, report: Report) -> tuple[dict[str, bytes], bool]:
-        """Evaluate and write the formulas ``keys`` in this order: the sheet parts whose bytes change, and
-        whether a cell now refers to the dynamic-array record."""
+        """Evaluate and write the formulas ``keys`` in this order, finishing each sheet after the last of
+        them that reads or writes it: the sheet parts whose bytes change, and whether a cell now refers
+        to the dynamic-array record."""
         by_cell, graph, dead, cm = plan
-        edits: dict[str, SheetText] = {}
-        arrays = False
-        for key in keys:
+        last = {}  # part -> the position in ``keys`` of the last formula that reads or writes it
+        for i, key in enumerate(keys):
+            f = by_cell[key]
+            for name in {f.sheet, *(a.sheet for a in areas_of(f.call))}:
+                last[self.book.sheet_parts.get(name)] = i
+        finished: dict[int, list] = {}
+        for part, i in last.items():
+            finished.setdefault(i, []).append(part)
+        changed, arrays = {}, False
+        for i, key in enumerate(keys):
             f = by_cell[key]
             if any(dep in dead for dep in graph[key]):
                 report.failed.append((f.where, "it reads a CALIB_* cell that could not be computed"))
                 dead.add(key)
-                continue
-            try:
-                result = self._evaluate(f.call, f.sheet)
-            except Unsupported as why:
-                report.left_alone.append((f.where, str(why)))
-                dead.add(key)
-                continue
-            rows = result if isinstance(result, list) else [[result]]
-            if f.shift is not None and (len(rows) > 1 or len(rows[0]) > 1):
-                report.left_alone.append((f.where, "a filled (shared) formula whose result covers several cells: "
-                                                   "enter it in its cell alone"))
-                dead.add(key)
-                continue
-            arrays |= self._write(f, rows, cm, edits, report)
-        rendered = ((part, text.render().encode("utf-8")) for part, text in edits.items())
-        return {part: data for part, data in rendered if data != self.parts[part]}, arrays
+            else:
+                arrays |= self._compute_one(f, cm, report, dead)
+            for part in finished.get(i, ()):
+                self._finish(part, changed)
+        return changed, arrays
+
+    def _compute_one(self, f: Formula, cm, report: Report, dead: set) -> bool:
+        """Evaluate and write one formula; True when a cell was given the dynamic-array record ``cm``."""
+        key = (f.sheet, f.row, f.col)
+        try:
+            result = self._evaluate(f.call, f.sheet)
+        except Unsupported as why:
+            report.left_alone.append((f.where, str(why)))
+            dead.add(key)
+            return False
+        rows = result if isinstance(result, list) else [[result]]
+        if f.shift is not None and (len(rows) > 1 or len(rows[0]) > 1):
+            report.left_alone.append((f.where, "a filled (shared) formula whose result covers several cells: "
+                                               "enter it in its cell alone"))
+            dead.add(key)
+            return False
+        return self._write(f, rows, cm, report)
+
+    def _finish(self, part: str, changed: dict) -> None:
+        """Forget the sheets of ``part``; store its XML in ``parts`` (and ``changed``) if its bytes change."""
+        for name in [n for n, s in self.sheets.items() if s.part == part]:
+            del self.sheets[name]
+        text = self.edits.pop(part, None)
+        if text is not None:
+            data = text.render().encode("utf-8")
+            if data != self.parts[part]:
+                self.parts[part] = changed[part] = data
 
     def _compute_in_processes(self, shares, plan, report: Report, order):
         """``_compute`` of each share, the first here and each other in a forked process (the shares
@@ -263,18 +309,20 @@ class Refresher:
         position = {plan[0][k].where: i for i, k in enumerate(order)}
         changed, arrays = {}, False
         for parts, used, _, values_changed in outcomes:
+            self.parts.update(parts)
             changed.update(parts)
             arrays |= used
             report.changed |= values_changed
         for name in outcomes[0][2]:
             added = [e for o in outcomes for e in o[2][name]]
             getattr(report, name).extend(sorted(added, key=lambda e: position[e if isinstance(e, str) else e[0]]))
+        self.sheets = {n: s for n, s in self.sheets.items() if s.part not in changed}  # read again as refreshed
         return changed, arrays
 
     def _order(self, graph, by_cell, report):
         """Dependencies first, otherwise sheet by sheet and cell by cell (so a sheet's calibrations
         are computed together while the cache holds them); cells on a cycle are reported and dropped."""
-        sheet_index = {name: i for i, name in enumerate(self.book.sheet_order)}
+        sheet_index = {name: i for i, name in enumerate(self.book.sheet_parts)}
         keys = sorted(graph, key=lambda k: (sheet_index.get(k[0], 0), k[1], k[2]))
         state, order, dead = {}, [], set()
         for start in keys:
@@ -313,7 +361,7 @@ class Refresher:
             return f"{size} would reach beyond the sheet's last {edge}; nothing was written"
         if height == width == 1:
             return None
-        sheet, anchor = self.book.sheets[f.sheet], (f.row, f.col)
+        sheet, anchor = self.sheet(f.sheet), (f.row, f.col)
         values, formulas = sheet.values, sheet.formulas
         covered = ((f.row + i, f.col + j) for i in range(height) for j in range(width))
         in_the_way = next((k for k in covered if k != anchor and k not in old_cells
@@ -328,12 +376,12 @@ class Refresher:
                         "where the spreadsheet program does not allow a spilled result; nothing was written")
         return None
 
-    def _write(self, f: Formula, rows, cm, edits, report: Report) -> bool:
+    def _write(self, f: Formula, rows, cm, report: Report) -> bool:
         """Store one result; True when a cell was given the dynamic-array record ``cm``."""
-        sheet = self.book.sheets[f.sheet]
-        text = edits.get(sheet.part)
+        sheet = self.sheet(f.sheet)
+        text = self.edits.get(sheet.part)
         if text is None:
-            text = edits[sheet.part] = SheetText(text_of(sheet.part, self.parts[sheet.part]), sheet.part)
+            text = self.edits[sheet.part] = SheetText(text_of(sheet.part, self.parts[sheet.part]), sheet.part)
         height, width = len(rows), max(len(r) for r in rows)
         anchor = (f.row, f.col)
         old_cells = set()
@@ -365,8 +413,7 @@ class Refresher:
                 cleared.append(f"{cell_name(*key)} {_change(values.pop(key), None)}")
         ref = None if not array else (cell_name(f.row, f.col) if height == width == 1 else
                                       f"{cell_name(f.row, f.col)}:{cell_name(new.bottom, new.right)}")
-        p, letters = text.p, [column_letters(f.col + j) for j in range(width)]
-        get_style, get_value = styles.get, values.get
+        letters = [column_letters(f.col + j) for j in range(width)]
         for i, row in enumerate(rows):
             r = f.row + i
             if len(row) < width:
@@ -375,10 +422,8 @@ class Refresher:
             for j, value in enumerate(row):
                 c = f.col + j
                 key = (r, c)
-                style = get_style(key)
-                if style is None and type(value) is float and (i or j):  # the usual cell, written here for speed
-                    cells[c] = f'<{p}c r="{letters[j]}{r}"><{p}v>{value!r}</{p}v></{p}c>'
-                elif i == 0 and j == 0:
+                style = styles.get(key)
+                if i == 0 and j == 0:
                     if f.shift is not None:  # a filled formula keeps its stored <f> element as it is
                         cells[c] = text.cell_xml(r, c, value, style, f_xml=text.formula_xml(r, c))
                     else:
@@ -387,7 +432,7 @@ class Refresher:
                     cells[c] = None
                 else:
                     cells[c] = text.cell_xml(r, c, value, style)
-                old = get_value(key)
+                old = values.get(key)
                 if old != value or isinstance(old, bool) != isinstance(value, bool):
                     listed.append(f"{letters[j]}{r} {_change(old, value)}")
                     if value is None:
@@ -575,7 +620,8 @@ def run(paths, check: bool = False, backup: bool = False, jobs: int | None = Non
     else:
         reports = [refresh_file(*t, workers=jobs) for t in progress(tasks)]
     for r in reports:
-        print("\n".join(r.lines(check)))
+        for line in r.each_line(check):
+            print(line)
     bad = [r for r in reports if r.error]
     if len(reports) > 1:
         print(f"{len(reports)} workbooks: {len(reports) - len(bad)} read and computed, {len(bad)} not refreshed"

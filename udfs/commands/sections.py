@@ -128,7 +128,7 @@ class Book:
         _, parts = read_package(path)
         self.refresher = Refresher(parts)
         self.report = Report(path)
-        self.refresher.run(self.report, workers=1)
+        self.refresher.run(self.report)
 
     def call(self, name: str, sheet: str, **args):
         """CALIB_<name> with these arguments (the rest omitted), evaluated as the refresh evaluates it."""
@@ -137,7 +137,7 @@ class Book:
 
     def cells(self, area: Area) -> list:
         """The values of a one-row or one-column range, in order."""
-        sheet = self.refresher.book.sheets[area.sheet]
+        sheet = self.refresher.sheet(area.sheet)
         top, bottom = (area.top, area.bottom) if area.top is not None else (1, max(sheet.max_row, 1))
         return [sheet.values.get((r, c)) for r in range(top, bottom + 1) for c in range(area.left, area.right + 1)]
 
@@ -145,7 +145,7 @@ class Book:
         """The text above a column of standards (its header), if there is one."""
         if area.top is None or area.top < 2:
             return None
-        value = self.refresher.book.sheets[area.sheet].values.get((area.top - 1, area.left))
+        value = self.refresher.sheet(area.sheet).values.get((area.top - 1, area.left))
         return value if isinstance(value, str) else None
 
     def sections(self) -> list[Section]:

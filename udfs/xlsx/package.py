@@ -1,8 +1,8 @@
 """A workbook file as a zip package: safe reading, cell values, and surgical edits of sheet XML.
 
 Every part is read with limits (entry count, unpacked size, compression ratio)
-and no XML part may declare a DTD or entities (``parse_xml``: defusedxml's
-check, or for plain UTF-8 a byte check), so a hostile file cannot expand or
+and no XML part may declare a DTD or entities (``parse_xml``: defusedxml), so a
+hostile file cannot expand or
 reach outside. Nothing in a workbook is ever executed. Sheet XML is edited as
 text inside <sheetData>, row by row, so every byte outside the cells that
 change stays as it was.
@@ -15,7 +15,6 @@ import posixpath
 import re
 import zipfile
 from dataclasses import dataclass, field
-from xml.etree import ElementTree
 
 from defusedxml import ElementTree as SafeET
 from defusedxml.common import DefusedXmlException
@@ -67,21 +66,6 @@ def _q(tag: str) -> str:
     return f"{{{MAIN}}}{tag}"
 
 
-_DECLARED_ENCODING = re.compile(rb'^(?:\xef\xbb\xbf)?<\?xml[^>]*?\bencoding\s*=\s*["\']([^"\']*)["\']')
-
-
-def _plain_utf8(data: bytes) -> bool:
-    """True for UTF-8 XML (declared so, or by default) without a document type declaration.
-
-    In UTF-8 a declaration would have to appear as the ASCII bytes "<!DOCTYPE", and without one
-    there are no entity declarations: nothing can expand or reach outside. (No NUL byte: UTF-16
-    text has them, UTF-8 XML never.)"""
-    if b"<!DOCTYPE" in data or b"\0" in data:
-        return False
-    declared = _DECLARED_ENCODING.match(data[:256])
-    return declared is None or declared.group(1).lower().replace(b"_", b"-") in (b"utf-8", b"utf8")
-
-
 def text_of(name: str, data: bytes) -> str:
     """A part that the refresh edits as text: UTF-8, as spreadsheet programs write it, or a PackageError."""
     try:
@@ -92,18 +76,12 @@ def text_of(name: str, data: bytes) -> str:
 
 
 def parse_xml(name: str, data: bytes):
-    """The parsed XML part, or a one-line PackageError: a DTD or an entity is refused.
-
-    Plain UTF-8 parts without a DTD (what spreadsheet programs write) go straight to the
-    standard library's C parser; anything else goes through defusedxml, which refuses DTDs and
-    entity declarations with its own check (and parses five times slower)."""
+    """The parsed XML part (defusedxml), or a one-line PackageError: a DTD or an entity is refused."""
     try:
-        if _plain_utf8(data):
-            return ElementTree.fromstring(data)
         return SafeET.fromstring(data, forbid_dtd=True)
     except DefusedXmlException as err:
         raise PackageError(f"unsafe XML in {name}: {type(err).__name__} (DTDs and entities are not allowed)") from None
-    except ElementTree.ParseError as err:
+    except SafeET.ParseError as err:
         raise PackageError(f"broken XML in {name}: {err}") from None
 
 
@@ -197,7 +175,7 @@ def _text(el) -> str:
 
 
 class Workbook:
-    """The parts of one workbook that a refresh reads: sheets, names, shared strings, cell values."""
+    """The parts of one workbook that a refresh reads: sheets, names, shared strings; a sheet's cells when asked."""
 
     def __init__(self, parts: dict[str, bytes]):
         self.parts = parts
@@ -215,14 +193,13 @@ class Workbook:
         strings_part = next((t for kind, t in rels.values() if kind.endswith("/sharedStrings")), None)
         self.shared = ([_text(si) for si in parse_xml(strings_part, parts[strings_part]).iter(_q("si"))]
                        if strings_part in parts else [])
-        self.sheets: dict[str, Sheet] = {}
+        self.sheet_parts: dict[str, str] = {}  # each worksheet's name -> its part, in the workbook's order
         every = [sh.get("name", "") for sh in book.iter(_q("sheet"))]  # all sheets, chart and dialog sheets too
         for sh in book.iter(_q("sheet")):
             rid = sh.get(f"{{{REL}}}id")
             kind, target = rels.get(rid, ("", ""))
             if kind.endswith("/worksheet") and target in parts:
-                self.sheets[sh.get("name")] = Sheet(sh.get("name"), target)
-        self.sheet_order = list(self.sheets)
+                self.sheet_parts[sh.get("name")] = target
         self.names = {}
         for dn in book.iter(_q("definedName")):
             scope = dn.get("localSheetId")  # ECMA-376 18.2.5: the index of the sheet among all <sheet> elements
@@ -233,10 +210,10 @@ class Workbook:
                                        f"sheet scope {scope!r}, which is not a sheet of the workbook")
                 sheet = every[int(scope)]
             self.names[(sheet, dn.get("name", "").upper())] = (dn.text or "").strip()
-        for sheet in self.sheets.values():
-            self._read_sheet(sheet)
 
-    def _read_sheet(self, sheet: Sheet) -> None:
+    def read_sheet(self, name: str) -> Sheet:
+        """The worksheet ``name`` as its part now stands: cells, merged blocks and tables."""
+        sheet = Sheet(name, self.sheet_parts[name])
         root = parse_xml(sheet.part, self.parts[sheet.part])
         merges = root.find(_q("mergeCells"))
         sheet.merged = [_box(sheet.part, m.get("ref", "")) for m in merges.iter(_q("mergeCell"))] \
@@ -253,6 +230,7 @@ class Workbook:
         data = root.find(_SHEET_DATA)
         if data is not None:
             self._read_cells(sheet, data)
+        return sheet
 
     def _read_cells(self, sheet: Sheet, data) -> None:
         styles, formulas, values = sheet.styles, sheet.formulas, sheet.values
@@ -422,8 +400,6 @@ class SheetText:
         """XML of one cell holding ``value`` (and a formula for an anchor, or its stored <f> element)."""
         p = self.p
         attrs = f' r="{column_letters(col)}{row}"' if style is None else f' r="{column_letters(col)}{row}" s="{style}"'
-        if type(value) is float and formula is None and f_xml is None:  # the common case, made short
-            return f"<{p}c{attrs}><{p}v>{value!r}</{p}v></{p}c>"
         f = f_xml or ""
         if formula is not None:
             if array_ref:
