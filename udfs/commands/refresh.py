@@ -181,7 +181,9 @@ class Refresher:
             sheet = self.sheets[name] = self.book.read_sheet(name)
         return sheet
 
-    def _evaluate(self, call: Call, sheet: str):
+    def evaluate(self, call: Call, sheet: str):
+        """The result of one CALIB_* call on ``sheet``, its arguments read from the refreshed cells (nested
+        calls evaluated first); the report and the demo printout evaluate their tables through it."""
         args = []
         for a in call.args:
             if isinstance(a, Area):
@@ -190,7 +192,7 @@ class Refresher:
                 target = self.sheet(a.sheet)
                 args.append(_block(target.values, a, target.max_row))
             elif isinstance(a, Call):
-                inner = self._evaluate(a, sheet)
+                inner = self.evaluate(a, sheet)
                 args.append(inner[0][0] if isinstance(inner, list) and len(inner) == 1 and len(inner[0]) == 1
                             else inner)
             else:
@@ -269,7 +271,7 @@ class Refresher:
         """Evaluate and write one formula; True when a cell was given the dynamic-array record ``cm``."""
         key = (f.sheet, f.row, f.col)
         try:
-            result = self._evaluate(f.call, f.sheet)
+            result = self.evaluate(f.call, f.sheet)
         except Unsupported as why:
             report.left_alone.append((f.where, str(why)))
             dead.add(key)

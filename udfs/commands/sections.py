@@ -133,7 +133,7 @@ class Book:
     def call(self, name: str, sheet: str, **args):
         """CALIB_<name> with these arguments (the rest omitted), evaluated as the refresh evaluates it."""
         full = f"CALIB_{name.upper()}"
-        return self.refresher._evaluate(Call(full, tuple(args.get(p) for p in _parameters(full))), sheet)
+        return self.refresher.evaluate(Call(full, tuple(args.get(p) for p in _parameters(full))), sheet)
 
     def cells(self, area: Area) -> list:
         """The values of a one-row or one-column range, in order."""
@@ -208,8 +208,8 @@ class Book:
                 grid = [lo + (hi - lo) * i / (GRID - 1) for i in range(GRID)]
             t["grid"] = grid
             t["predict"] = self.call("predict", s.sheet, new_x=[[g] for g in grid], level=st.get("level"), **one)
-        s.readbacks = [(area, self.cells(area), self.refresher._evaluate(f.call, f.sheet)) for area, f in s.readbacks]
-        s.comparisons = [(f.where, self.refresher._evaluate(f.call, f.sheet)) for f in s.comparisons]
+        s.readbacks = [(area, self.cells(area), self.refresher.evaluate(f.call, f.sheet)) for area, f in s.readbacks]
+        s.comparisons = [(f.where, self.refresher.evaluate(f.call, f.sheet)) for f in s.comparisons]
 
 
 def sections(path: Path) -> tuple[list[Section], Report]:
