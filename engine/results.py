@@ -1,5 +1,4 @@
-"""Plain result objects handed out by the engine: immutable named tuples (cheap to make, read by name),
-and OrderChoice, whose reason in words is written when first read (treat it as read-only too).
+"""Plain result objects handed out by the engine: immutable named tuples (cheap to make, read by name).
 
 Not-applicable values are ``nan`` (for example a predicted R-squared when a
 standard has leverage 1, or a lack-of-fit test without replicates).
@@ -106,37 +105,19 @@ class SequentialTable(NamedTuple):
     df_total: int
 
 
-class OrderChoice:
-    """The order a rule picks, and why, in words (written when first read: a table of every rule's
-    pick does not need them); ``settings`` names the rule, alpha and max order that decided it."""
+class OrderChoice(NamedTuple):
+    """The order a rule picks, and why, in words; ``settings`` names the rule, alpha and max order that
+    decided it."""
 
-    __slots__ = ("order", "rule", "alpha", "max_order", "_words", "_reason")
-
-    def __init__(self, order: int, rule: str, alpha: float, words, max_order: int | None = None):
-        self.order, self.rule, self.alpha, self.max_order = order, rule, alpha, max_order
-        self._words, self._reason = words, None  # words: a function that writes the reason
+    order: int
+    rule: str
+    alpha: float
+    max_order: int
+    reason: str
 
     @property
     def settings(self) -> str:
         return f"rule {self.rule}, alpha {self.alpha:g}, max order {self.max_order}"
-
-    @property
-    def reason(self) -> str:
-        if self._reason is None:
-            self._reason = self._words()
-        return self._reason
-
-    def __eq__(self, other):
-        if not isinstance(other, OrderChoice):
-            return NotImplemented
-        return ((self.order, self.rule, self.alpha, self.max_order, self.reason)
-                == (other.order, other.rule, other.alpha, other.max_order, other.reason))
-
-    __hash__ = None
-
-    def __repr__(self) -> str:
-        return (f"OrderChoice(order={self.order}, rule={self.rule!r}, alpha={self.alpha!r}, "
-                f"max_order={self.max_order!r}, reason={self.reason!r})")
 
 
 class Influence(NamedTuple):

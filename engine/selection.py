@@ -174,7 +174,7 @@ def choose(cal: Calibration, rule: str, alpha: float) -> OrderChoice:
                      "or another model.")
         return text + " " + lack
 
-    return OrderChoice(order, rule, alpha, reason, cal.max_order)
+    return OrderChoice(order, rule, alpha, cal.max_order, reason())
 
 
 def mandel_test(cal: Calibration) -> FTest:

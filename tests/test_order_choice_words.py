@@ -43,13 +43,6 @@ def test_each_rule_gives_its_order_and_reason(rule):
     assert engine.choose_order(engine.Calibration(X, Y), rule) == choice  # compared field by field
 
 
-def test_the_reason_is_written_once_and_only_when_read():
-    cal = engine.Calibration(X, Y)
-    choice = engine.choose_order(cal, "aicc")
-    assert choice._reason is None
-    assert choice.reason is choice.reason
-
-
 def test_the_why_row_of_calib_stats():
     import degreewise
 
