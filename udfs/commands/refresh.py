@@ -149,8 +149,8 @@ def _block(values: dict, area: Area, sheet_rows: int):
 class Refresher:
     """One workbook's CALIB_* formulas, computed in dependency order, sheet by sheet: after the last
     formula that reads or writes a sheet, its changed XML replaces its part (``parts`` is updated in
-    place) and the sheet is forgotten. The sheets that hold CALIB_* formulas are kept from the first
-    reading; any other is read when first needed (and, after the refresh, read again as refreshed)."""
+    place) and the sheet is forgotten. Every sheet is read once for its formulas and again when a formula
+    first needs it (after the refresh, as refreshed), so that no more than the sheets in use are in memory."""
 
     def __init__(self, parts: dict[str, bytes]):
         self.parts = parts
@@ -160,7 +160,6 @@ class Refresher:
         self.formulas: list[Formula] = []
         for name in self.book.sheet_parts:
             sheet = self.book.read_sheet(name)
-            count = len(self.formulas)
             masters = {attrs.get("si"): (r, c, text) for (r, c), (text, attrs) in sheet.formulas.items()
                        if attrs.get("t") == "shared" and text}
             for (r, c), (text, attrs) in sheet.formulas.items():
@@ -171,8 +170,6 @@ class Refresher:
                         self.formulas.append(Formula(sheet.name, r, c, master, attrs, shift=(r - r0, c - c0)))
                 elif MENTION.search(text or ""):
                     self.formulas.append(Formula(sheet.name, r, c, text, attrs, shift=(0, 0) if shared else None))
-            if len(self.formulas) > count:
-                self.sheets[name] = sheet
 
     def sheet(self, name: str) -> Sheet:
         """The worksheet ``name`` as it now stands (read from its part if it is not in memory)."""
