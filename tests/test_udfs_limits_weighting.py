@@ -110,6 +110,7 @@ def test_the_catalogue_is_the_one_list_of_the_family():
     defined = [n for n, f in vars(functions).items() if n.startswith("calib_") and inspect.isfunction(f)]
     assert sorted(defined) == sorted(names) and degreewise.FUNCTIONS is catalogue.FUNCTIONS
     assert {n: f.__name__ for n, f in refresh.CALLABLE.items()} == {n.upper(): n for n in names}
+    assert set(catalogue.TEXT_ANSWERS) <= set(names)
     for n in names:
         assert set(inspect.signature(getattr(functions, n)).parameters) <= set(catalogue.ARGUMENTS), n
     readme = (Path(__file__).resolve().parent.parent / "README.md").read_text()

@@ -28,6 +28,9 @@ FUNCTIONS = {
     "calib_version": None,
 }
 
+# functions whose one-cell text result is an answer, not a message (the refresh reports messages)
+TEXT_ANSWERS = ("calib_version",)
+
 # a table's header by the table's name (CALIB_LABELS, the demo layout)
 HEADERS = {name[len("calib_"):]: header for name, header in FUNCTIONS.items() if header}
 

@@ -27,6 +27,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from .. import FUNCTIONS, functions
+from ..catalogue import TEXT_ANSWERS
 from ..xlsx.cells import cell_name, column_letters
 from ..xlsx.package import (MAX_COL, MAX_ROW, PackageError, SheetText, Workbook, dynamic_array_metadata, read_package,
                             set_full_calc_on_load, text_of, write_package)
@@ -34,7 +35,7 @@ from .formula import MENTION, Area, Call, Unsupported, areas_of, parse_call, quo
 
 SUFFIXES = (".xlsx", ".xlsm")
 CALLABLE = {name.upper(): getattr(functions, name) for name in FUNCTIONS}  # every function of the family
-TEXT_RESULTS = {"CALIB_VERSION"}  # functions whose one-cell text result is an answer, not a message
+TEXT_RESULTS = {name.upper() for name in TEXT_ANSWERS}
 BACKUP = re.compile(r"\.before-refresh-\d{8}-\d{6}(?:-\d+)?$")  # the stem of a backup kept by --backup
 
 
