@@ -3,6 +3,7 @@
 import io
 import shutil
 import sys
+import tempfile
 import zipfile
 from pathlib import Path
 
@@ -379,8 +380,12 @@ def test_sheets_split_over_processes_give_the_same_file_and_report(tmp_path, mon
     monkeypatch.setattr(refresh, "PARALLEL_FROM", 1)
     one = _many_sheets(tmp_path / "one.xlsx")
     three = Path(shutil.copy(one, tmp_path / "three.xlsx"))  # one build: openpyxl stamps the time it saved
+    spools = tmp_path / "temporary"
+    spools.mkdir()
+    monkeypatch.setattr(tempfile, "tempdir", str(spools))
     serial = refresh_file(one, workers=1)
     split = refresh_file(three, workers=3)
+    assert list(spools.iterdir()) == []  # the parts put aside by each process are removed
     assert [c for c, _ in serial.blocked] == ["'Cal 5'!D10"]
     assert [c for c, _ in serial.failed] == ["Check!F1", "Check!F2"]
     assert {a for a, _, _, _ in serial.changes} == set(serial.refreshed) | {c for c, _ in serial.blocked}
@@ -389,6 +394,22 @@ def test_sheets_split_over_processes_give_the_same_file_and_report(tmp_path, mon
     assert split.lines()[1:] == serial.lines()[1:]
     assert split.changed and serial.changed
     assert entries(three) == entries(one)
+
+
+def test_changed_parts_are_put_aside_on_disk_and_read_back(tmp_path):
+    import degreewise.commands.refresh as refresh
+
+    _, parts = refresh.read_package(_many_sheets(tmp_path / "book.xlsx"))
+    _, in_memory = refresh.read_package(tmp_path / "book.xlsx")
+    expected, _ = refresh.Refresher(in_memory).run(refresh.Report(Path()))
+    with refresh.Spooled(parts, spool=True) as spooled:
+        changed, _ = refresh.Refresher(spooled).run(refresh.Report(Path()))
+        sheets = [name for name in changed if name.startswith("xl/worksheets/")]
+        assert len(sheets) == 6 and all(isinstance(parts[name], refresh.Kept) for name in sheets)
+        assert {name: spooled[name] for name in changed} == expected
+        folder = Path(spooled._folder.name)
+        assert len(list(folder.iterdir())) == 1  # one process, one file
+    assert not folder.exists()
 
 
 def test_sheets_that_refer_to_each_other_share_a_process(tmp_path):

@@ -16,6 +16,7 @@ whose bytes would not change is not written at all.
 
 from __future__ import annotations
 
+import gc
 import os
 import re
 import shutil
@@ -23,8 +24,10 @@ import stat
 import sys
 import tempfile
 import time
+from collections.abc import MutableMapping
 from dataclasses import dataclass, field
 from pathlib import Path
+from typing import NamedTuple
 
 from .. import FUNCTIONS, functions
 from ..catalogue import TEXT_ANSWERS
@@ -127,6 +130,70 @@ class Formula:
         return f"{quote_sheet(self.sheet)}!{cell_name(self.row, self.col)}"
 
 
+class Kept(NamedTuple):
+    """Where a changed part's bytes were put aside: a file of the spool folder, an offset and a size."""
+
+    file: str
+    offset: int
+    size: int
+
+
+class Spooled(MutableMapping):
+    """A package's parts (name -> bytes), updated in place. With ``spool``, the changed parts that ``keep``
+    puts aside are written to a temporary file (one per process) and read back when asked for, so that a
+    large workbook's refreshed sheets are not all held in memory and a forked process hands back where
+    its parts are, not their bytes; leaving the ``with`` block removes the files."""
+
+    def __init__(self, parts: dict, spool: bool = False):
+        self.parts = parts
+        self._folder = tempfile.TemporaryDirectory(prefix="degreewise-") if spool else None
+        self._out, self._pid = None, None
+
+    def __enter__(self) -> Spooled:
+        return self
+
+    def __exit__(self, *exc) -> None:
+        if self._out is not None:
+            self._out.close()
+        if self._folder is not None:
+            self._folder.cleanup()
+
+    def keep(self, data: bytes):
+        """``data`` as it is to be stored: where it was put aside, or the bytes themselves without a spool."""
+        if self._folder is None:
+            return data
+        if self._pid != os.getpid():  # a forked process writes a file of its own
+            self._pid = os.getpid()
+            self._out = open(os.path.join(self._folder.name, f"parts-{self._pid}"), "ab")  # noqa: SIM115
+        kept = Kept(self._out.name, self._out.tell(), len(data))
+        self._out.write(data)
+        self._out.flush()
+        return kept
+
+    def __getitem__(self, name: str) -> bytes:
+        value = self.parts[name]
+        if isinstance(value, Kept):
+            with open(value.file, "rb") as f:
+                f.seek(value.offset)
+                return f.read(value.size)
+        return value
+
+    def __contains__(self, name) -> bool:  # without reading a part put aside
+        return name in self.parts
+
+    def __setitem__(self, name: str, value) -> None:
+        self.parts[name] = value
+
+    def __delitem__(self, name: str) -> None:
+        del self.parts[name]
+
+    def __iter__(self):
+        return iter(self.parts)
+
+    def __len__(self) -> int:
+        return len(self.parts)
+
+
 def lock_file(path: Path) -> Path | None:
     """The lock file a spreadsheet program keeps beside an open workbook, if present."""
     for name in (f"~${path.name}", f".~lock.{path.name}#"):
@@ -153,9 +220,9 @@ class Refresher:
     place) and the sheet is forgotten. Every sheet is read once for its formulas and again when a formula
     first needs it (after the refresh, as refreshed), so that no more than the sheets in use are in memory."""
 
-    def __init__(self, parts: dict[str, bytes]):
-        self.parts = parts
-        self.book = Workbook(parts)
+    def __init__(self, parts: dict[str, bytes] | Spooled):
+        self.parts = parts if isinstance(parts, Spooled) else Spooled(parts)
+        self.book = Workbook(self.parts)
         self.sheets: dict[str, Sheet] = {}  # the sheets in memory
         self.edits: dict[str, SheetText] = {}  # part -> its text being edited
         self.formulas: list[Formula] = []
@@ -253,7 +320,7 @@ class Refresher:
         finished: dict[int, list] = {}
         for part, i in last.items():
             finished.setdefault(i, []).append(part)
-        changed, arrays = {}, False
+        changed, arrays, done = {}, False, 0
         for i, key in enumerate(keys):
             f = by_cell[key]
             if any(dep in dead for dep in graph[key]):
@@ -263,6 +330,9 @@ class Refresher:
                 arrays |= self._compute_one(f, cm, report, dead)
             for part in finished.get(i, ()):
                 self._finish(part, changed)
+                done += 1
+                if done % COLLECT_EVERY == 0:
+                    gc.collect()
         return changed, arrays
 
     def _compute_one(self, f: Formula, cm, report: Report, dead: set) -> bool:
@@ -290,7 +360,7 @@ class Refresher:
         if text is not None:
             data = text.render().encode("utf-8")
             if data != self.parts[part]:
-                self.parts[part] = changed[part] = data
+                self.parts[part] = changed[part] = self.parts.keep(data)
 
     def _compute_in_processes(self, shares, plan, report: Report, order):
         """``_compute`` of each share, the first here and each other in a forked process (the shares
@@ -448,6 +518,10 @@ class Refresher:
         return own_cm is not None
 
 
+# a calibration left behind is a reference cycle (it keeps its orders' results, which refer back to it):
+# collected after every this many finished sheets, not when Python's collector gets round to it (a
+# 3000-sheet refresh held 44 MiB of them at its end)
+COLLECT_EVERY = 100
 # a workbook with at least this many CALIB_* formulas is split over processes when workers > 1
 PARALLEL_FROM = 48
 _FORKED = None  # (refresher, plan, shares), inherited by forked processes
@@ -554,11 +628,12 @@ def refresh_file(path: Path, check: bool = False, backup: bool = False, workers:
     try:
         real = _target(path, check)
         infos, parts = read_package(real)
-        changed, added = Refresher(parts).run(report, (os.cpu_count() or 1) if workers is None else workers)
-        if check or not changed:
-            return report
-        parts.update(changed)
-        _replace(real, infos, parts, added, backup, report)
+        with Spooled(parts, spool=True) as parts:
+            changed, added = Refresher(parts).run(report, (os.cpu_count() or 1) if workers is None else workers)
+            if check or not changed:
+                return report
+            parts.update(changed)
+            _replace(real, infos, parts, added, backup, report)
         report.written = True
     except PackageError as err:
         report.error = str(err)
