@@ -396,9 +396,12 @@ def test_sheets_split_over_processes_give_the_same_file_and_report(tmp_path, mon
     assert entries(three) == entries(one)
 
 
-def test_changed_parts_are_put_aside_on_disk_and_read_back(tmp_path):
+def test_changed_parts_are_put_aside_on_disk_and_read_back(tmp_path, monkeypatch):
     import degreewise.commands.refresh as refresh
 
+    spools = tmp_path / "temporary"
+    spools.mkdir()
+    monkeypatch.setattr(tempfile, "tempdir", str(spools))
     _, parts = refresh.read_package(_many_sheets(tmp_path / "book.xlsx"))
     _, in_memory = refresh.read_package(tmp_path / "book.xlsx")
     expected, _ = refresh.Refresher(in_memory).run(refresh.Report(Path()))
@@ -407,9 +410,8 @@ def test_changed_parts_are_put_aside_on_disk_and_read_back(tmp_path):
         sheets = [name for name in changed if name.startswith("xl/worksheets/")]
         assert len(sheets) == 6 and all(isinstance(parts[name], refresh.Kept) for name in sheets)
         assert {name: spooled[name] for name in changed} == expected
-        folder = Path(spooled._folder.name)
-        assert len(list(folder.iterdir())) == 1  # one process, one file
-    assert not folder.exists()
+        assert [len(list(folder.iterdir())) for folder in spools.iterdir()] == [1]  # one process, one file
+    assert list(spools.iterdir()) == []
 
 
 def test_sheets_that_refer_to_each_other_share_a_process(tmp_path):
