@@ -3,8 +3,9 @@
 Only formulas whose result is certain are computed: a single CALIB_* call whose
 arguments are empty (omitted), numbers, texts, TRUE/FALSE, references or
 ranges (same or other sheet, absolute or relative, whole columns), defined
-names that stand for a reference, or nested CALIB_* calls. Anything else (an
-operator, another function, a spill reference) is `Unsupported`.
+names that stand for a reference, array constants ({1;25;60}, {"1/x"}), or nested
+CALIB_* calls. Anything else (an operator, another function, a spill reference) is
+`Unsupported`.
 """
 
 from __future__ import annotations
@@ -62,9 +63,20 @@ class Area:
 
 
 @dataclass(frozen=True)
+class Constant:
+    """An array constant as stored ({1;25;60}: rows split by ";", columns by ","), rows of values."""
+
+    rows: tuple
+
+    def value(self):
+        """As the spreadsheet hands it to a function: one value, or a list of rows."""
+        return self.rows[0][0] if len(self.rows) == len(self.rows[0]) == 1 else [list(r) for r in self.rows]
+
+
+@dataclass(frozen=True)
 class Call:
     name: str
-    args: tuple  # each: None (omitted), float, str, bool, Area or Call
+    args: tuple  # each: None (omitted), float, str, bool, Constant, Area or Call
 
 
 def _tokens(text: str):
@@ -89,15 +101,15 @@ def _tokens(text: str):
         i += 1
 
 
-def _split_args(text: str) -> list[str]:
-    """The top-level arguments of an argument list."""
+def _split_args(text: str, separator: str = ",") -> list[str]:
+    """The top-level arguments of an argument list (or the rows of an array constant, with ";")."""
     args, depth, start = [], 0, 0
     for i, ch in _tokens(text):
         if ch in "({":
             depth += 1
         elif ch in ")}":
             depth -= 1
-        elif ch == "," and depth == 0:
+        elif ch == separator and depth == 0:
             args.append(text[start:i])
             start = i + 1
     if depth != 0:
@@ -146,16 +158,36 @@ def _call_parts(text: str) -> tuple[str, tuple[str, ...]]:
     return m.group(1).upper(), tuple(_split_args(inner) if inner.strip() else [])
 
 
-def _argument(text: str, sheet: str, names: dict):
+def _constant(text: str):
+    """One element of an array constant or a literal argument: a number, a text or a logical; else None."""
     t = text.strip()
-    if t == "":
-        return None
     if _NUMBER.match(t):
         return float(t)
     if len(t) >= 2 and t[0] == '"' and t[-1] == '"' and '"' not in t[1:-1].replace('""', ""):
         return t[1:-1].replace('""', '"')
     if t.upper() in ("TRUE", "FALSE"):
         return t.upper() == "TRUE"
+    return None
+
+
+def _array(text: str) -> Constant:
+    """{1;25;60} or {10,80} or {"1/x"}: rows split by ";", elements by "," (the stored form)."""
+    rows = tuple(tuple(_constant(e) for e in _split_args(r)) for r in _split_args(text[1:-1], ";"))
+    if any(v is None for r in rows for v in r) or len({len(r) for r in rows}) != 1:
+        raise Unsupported(f"the array constant {text} holds something other than numbers, texts and "
+                          "TRUE/FALSE in rows of one length")
+    return Constant(rows)
+
+
+def _argument(text: str, sheet: str, names: dict):
+    t = text.strip()
+    if t == "":
+        return None
+    if t.startswith("{") and t.endswith("}"):
+        return _array(t)
+    literal = _constant(t)
+    if literal is not None:
+        return literal
     if HEAD.match(t):
         return parse_call(t, sheet, names)
     area = reference(t, sheet)

@@ -17,6 +17,7 @@ whose bytes would not change is not written at all.
 from __future__ import annotations
 
 import gc
+import inspect
 import os
 import re
 import shutil
@@ -34,7 +35,8 @@ from ..catalogue import TEXT_ANSWERS
 from ..xlsx.cells import cell_name, column_letters
 from ..xlsx.package import (MAX_COL, MAX_ROW, PackageError, SheetText, Workbook, dynamic_array_metadata, read_package,
                             set_full_calc_on_load, text_of, write_package)
-from .formula import MENTION, Area, Call, Unsupported, areas_of, parse_call, quote_sheet, reference, shift_references
+from .formula import (MENTION, Area, Call, Constant, Unsupported, areas_of, parse_call, quote_sheet, reference,
+                      shift_references)
 
 SUFFIXES = (".xlsx", ".xlsm")
 CALLABLE = {name.upper(): getattr(functions, name) for name in FUNCTIONS}  # every function of the family
@@ -74,6 +76,7 @@ class Report:
     blocked: list[tuple[str, str]] = field(default_factory=list)
     left_alone: list[tuple[str, str]] = field(default_factory=list)
     failed: list[tuple[str, str]] = field(default_factory=list)
+    spills: list[tuple[str, Area]] = field(default_factory=list)  # anchors whose results now cover a range
     changed: bool = False  # some value or stored formula changes
     written: bool = False  # the file was rewritten
     error: str | None = None
@@ -194,6 +197,20 @@ class Spooled(MutableMapping):
         return len(self.parts)
 
 
+LISTS = ("refreshed", "messages", "changes", "blocked", "left_alone", "failed", "spills")  # a Report's entries
+MAX_CHAIN = 50  # formulas without stored values, each reading the next: deeper is refused in words
+
+
+class NoValue(Exception):
+    """An argument reads a formula cell that has no stored value and cannot be computed; the message, naming
+    the argument and the cell, becomes the CALIB_* cell's result."""
+
+
+def _parameters(name: str) -> tuple[str, ...]:
+    """The argument names of a function of the family, in order."""
+    return tuple(inspect.signature(CALLABLE[name]).parameters)
+
+
 def lock_file(path: Path) -> Path | None:
     """The lock file a spreadsheet program keeps beside an open workbook, if present."""
     for name in (f"~${path.name}", f".~lock.{path.name}#"):
@@ -203,10 +220,15 @@ def lock_file(path: Path) -> Path | None:
     return None
 
 
-def _block(values: dict, area: Area, sheet_rows: int):
-    """Cell values of ``area`` as the spreadsheet passes them: a scalar for one cell, else rows."""
-    bottom = area.bottom if area.top is not None else max(sheet_rows, 1)
-    top = area.top if area.top is not None else 1
+def _block(sheet: Sheet, area: Area):
+    """Cell values of ``area`` as the spreadsheet passes them: a scalar for one cell, else rows. A whole
+    column ends at its last stored cell (not at the sheet's, which a refresh's own results move)."""
+    values = sheet.values
+    if area.top is None:
+        top, bottom = 1, max((r for (r, c) in (*values, *sheet.formulas) if area.left <= c <= area.right),
+                             default=1)
+    else:
+        top, bottom = area.top, area.bottom
     if area.left == area.right:  # the usual case, one column
         rows = [[values.get((r, area.left))] for r in range(top, bottom + 1)]
     else:
@@ -226,6 +248,7 @@ class Refresher:
         self.sheets: dict[str, Sheet] = {}  # the sheets in memory
         self.edits: dict[str, SheetText] = {}  # part -> its text being edited
         self.formulas: list[Formula] = []
+        self._unstored_of: tuple = (None, {})
         for name in self.book.sheet_parts:
             sheet = self.book.read_sheet(name)
             masters = {attrs.get("si"): (r, c, text) for (r, c), (text, attrs) in sheet.formulas.items()
@@ -255,7 +278,13 @@ class Refresher:
                 if a.sheet not in self.book.sheet_parts:
                     raise Unsupported(f"the sheet '{a.sheet}' does not exist in the workbook")
                 target = self.sheet(a.sheet)
-                args.append(_block(target.values, a, target.max_row))
+                try:
+                    self._compute_unstored(target, a)
+                except NoValue as why:
+                    raise NoValue(f"{_parameters(call.name)[len(args)]}: {why}") from None
+                args.append(_block(target, a))
+            elif isinstance(a, Constant):
+                args.append(a.value())
             elif isinstance(a, Call):
                 inner = self.evaluate(a, sheet)
                 args.append(inner[0][0] if isinstance(inner, list) and len(inner) == 1 and len(inner[0]) == 1
@@ -263,6 +292,60 @@ class Refresher:
             else:
                 args.append(a)
         return CALLABLE[call.name](*args)
+
+    def _unstored(self, sheet: Sheet) -> dict:
+        """(row, col) -> formula text of the cells of ``sheet`` that hold a formula other than a CALIB_*
+        call and no stored value (a filled formula's text shifted from its master), found once per read."""
+        if self._unstored_of[0] is not sheet:
+            masters = {a.get("si"): (r, c, t) for (r, c), (t, a) in sheet.formulas.items()
+                       if a.get("t") == "shared" and t}
+            found = {}
+            for (r, c), (text, attrs) in sheet.formulas.items():
+                if (r, c) in sheet.values:
+                    continue
+                if not text and attrs.get("si") in masters:
+                    r0, c0, master = masters[attrs["si"]]
+                    try:
+                        text = shift_references(master, r - r0, c - c0)
+                    except Unsupported:
+                        text = master
+                if text and not MENTION.search(text):
+                    found[(r, c)] = text
+            self._unstored_of = (sheet, found)  # the sheet last asked for; one at a time is enough
+        return self._unstored_of[1]
+
+    def _compute_unstored(self, sheet: Sheet, area: Area, depth: int = 0) -> None:
+        """Give every unstored formula cell of ``area`` its value (plain arithmetic, `evaluate_arithmetic`),
+        or raise NoValue naming the cell: such a cell is never read as blank."""
+        unstored = self._unstored(sheet)
+        for key in [k for k in unstored if area.contains(sheet.name, *k)]:
+            text = unstored.pop(key)
+            where = f"{quote_sheet(sheet.name)}!{cell_name(*key)}"
+
+            def refused(why: str) -> NoValue:
+                return NoValue(f"{where} holds ={text} and no stored value, which the refresh cannot "
+                                    f"compute ({why}); open the workbook in the spreadsheet program and save it, "
+                                    "or enter the number")
+
+            if depth > MAX_CHAIN:
+                raise refused(f"it starts a chain of more than {MAX_CHAIN} such formulas")
+
+            def cell(ref: str):
+                target = reference(ref, sheet.name)
+                if target is None or target.top is None or (target.top, target.left) != (target.bottom,
+                                                                                         target.right):
+                    raise refused(f"{ref} is not a single cell")
+                if target.sheet not in self.book.sheet_parts:
+                    raise refused(f"the sheet '{target.sheet}' does not exist")
+                other = self.sheet(target.sheet)
+                self._compute_unstored(other, target, depth + 1)
+                return other.values.get((target.top, target.left))
+
+            from .arithmetic import evaluate_arithmetic  # openpyxl's tokenizer, for such workbooks only
+
+            value = evaluate_arithmetic(text, cell, refused)
+            if value is not None:
+                sheet.values[key] = value
 
     def run(self, report: Report, workers: int = 1) -> tuple[dict[str, bytes], list[str]]:
         """Compute every CALIB_* cell; return the changed parts and the names of new parts.
@@ -289,16 +372,31 @@ class Refresher:
         for key, f in by_cell.items():
             graph[key] = {k for a in areas_of(f.call) for k, g in on_sheet.get(a.sheet, ()) if k != key and (
                 a.contains(g.sheet, g.row, g.col) or (g.previous is not None and a.overlaps(g.previous)))}
-        order, dead = self._order(graph, by_cell, report)
         # the cm index a dynamic array will carry, found on a copy; the parts change only if one is written
         cm = dynamic_array_metadata(dict(self.parts), self.book.workbook_part, self.book.workbook_rels)[0] \
             if by_cell else None
-        plan = (by_cell, graph, dead, cm)
-        shares = _shares(order, by_cell, workers) if workers > 1 and len(order) >= PARALLEL_FROM else [order]
-        if len(shares) > 1 and _can_fork():
-            changed, arrays = self._compute_in_processes(shares, plan, report, order)
-        else:
-            changed, arrays = self._compute(order, plan, report)
+        before, marks = dict(self.parts.parts), {name: len(getattr(report, name)) for name in LISTS}
+        while True:
+            order, dead = self._order(graph, by_cell, report)
+            plan = (by_cell, graph, dead, cm)
+            shares = _shares(order, by_cell, workers) if workers > 1 and len(order) >= PARALLEL_FROM else [order]
+            if len(shares) > 1 and _can_fork():
+                changed, arrays = self._compute_in_processes(shares, plan, report, order)
+            else:
+                changed, arrays = self._compute(order, plan, report)
+            late = _late_reads(order, by_cell, graph, report.spills)
+            if not late:
+                break
+            # a formula read cells that a result computed after it came to cover (a first refresh, where no
+            # spill range was stored): order it after that result and compute everything again
+            for reader, anchor in late:
+                graph[reader].add(anchor)
+            self.parts.parts.clear()
+            self.parts.parts.update(before)
+            self.sheets, self.edits, self._unstored_of = {}, {}, (None, {})
+            for name, n in marks.items():
+                del getattr(report, name)[n:]
+            report.changed = False
         added: list[str] = []
         if arrays:
             added = dynamic_array_metadata(self.parts, self.book.workbook_part, self.book.workbook_rels)[1]
@@ -344,6 +442,8 @@ class Refresher:
         key = (f.sheet, f.row, f.col)
         try:
             result = self.evaluate(f.call, f.sheet)
+        except NoValue as why:  # a message in the cell, as for any input a function cannot use
+            result = str(why)
         except Unsupported as why:
             report.left_alone.append((f.where, str(why)))
             dead.add(key)
@@ -476,6 +576,8 @@ class Refresher:
         cell_cm = sheet.dynamic.get(anchor) or own_cm
         new = Area(f.sheet, f.row, f.col, f.row + height - 1, f.col + width - 1)
         changed = f.previous != (new if array else None)
+        if height > 1 or width > 1:
+            report.spills.append((f.where, new))
         values, styles, listed, cleared = sheet.values, sheet.styles, [], []  # the audit trail, as text
         bottom, right = f.row + height - 1, f.col + width - 1
         for key in sorted(old_cells):
@@ -533,6 +635,30 @@ PARALLEL_FROM = 48
 _FORKED = None  # (refresher, plan, shares), inherited by forked processes
 
 
+def _late_reads(order, by_cell, graph, spills) -> list[tuple]:
+    """(reader, anchor) for each formula that read cells of a spilled result computed after it, where the
+    dependency graph had no edge (the spill range was not stored). Reads are indexed by sheet and column,
+    so the work grows with the reads of a spill's own columns, not with every formula."""
+    position = {k: i for i, k in enumerate(order)}
+    key_of = {f.where: k for k, f in by_cell.items()}
+    reads: dict[tuple[str, int], list] = {}
+    wide: list = []  # reads of more than 64 columns, checked against every spill
+    for k in order:
+        for a in areas_of(by_cell[k].call):
+            if a.right - a.left >= 64:
+                wide.append((a, k))
+            for c in range(a.left, a.right + 1) if a.right - a.left < 64 else ():
+                reads.setdefault((a.sheet, c), []).append((a, k))
+    late = set()
+    for where, spill in spills:
+        anchor = key_of[where]
+        near = [r for c in range(spill.left, spill.right + 1) for r in reads.get((spill.sheet, c), ())]
+        for a, k in near + wide:
+            if k != anchor and anchor not in graph[k] and position[k] < position[anchor] and a.overlaps(spill):
+                late.add((k, anchor))
+    return sorted(late)
+
+
 def _can_fork() -> bool:
     """Forked processes share the parsed workbook for free; only on Linux, where fork is safe and the default."""
     return sys.platform.startswith("linux")
@@ -571,8 +697,7 @@ def _compute_share(index: int):
     refresher, plan, shares = _FORKED
     report = Report(Path())
     parts, arrays = refresher._compute(shares[index], plan, report)
-    lists = {name: getattr(report, name) for name in ("refreshed", "messages", "changes", "blocked", "left_alone",
-                                                      "failed")}
+    lists = {name: getattr(report, name) for name in LISTS}
     return parts, arrays, lists, report.changed
 
 
