@@ -25,7 +25,7 @@ from .distributions import f_sf, t_quantile, t_two_sided
 from .errors import OrderError
 from .prediction import inverse
 from .results import Comparison, DifferenceRow, FTest
-from .validation import check_level, order_limit
+from .validation import check_level, check_vector, order_limit
 
 
 def _rss(columns: np.ndarray, yw: np.ndarray) -> float:
@@ -53,7 +53,7 @@ def compare(today: Calibration, reference: Calibration, order: int, level: float
     """Tests that the curves coincide, that they are parallel and that their residual SDs agree; the
     difference of each raw coefficient (today - reference) and of the fitted responses at ``at``, each
     with its two-sided interval at ``level``; and the x today's curve reads for the reference's response."""
-    level = check_level(level)
+    level, at = check_level(level), check_vector(at, "at", flat=True)
     for cal, which in ((today, "today's"), (reference, "reference")):
         _check_order(order, cal, which)
     k = order
