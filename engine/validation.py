@@ -12,9 +12,10 @@ from .errors import DataError, OptionError, OrderError, WeightError
 
 RULES = ("stepdown", "forward", "aicc", "bic", "press")
 DEFAULT_RULE = RULES[0]
-# the smallest alpha: below it scipy's tail quantiles of the non-central t (ISO 11843-2 delta) no longer
-# bracket a root (measured: fails from 1e-16) and the prediction band's limits are nan (1e-12)
-ALPHA_MIN = 1e-6
+# the smallest alpha: below it scipy's non-central t (the ISO 11843-2 delta) fails to give a root for some
+# degrees of freedom (measured: alpha 1e-5 fails at 1 and 39-44 df, 1e-6 at 1, 30, 31 and many more; 1e-4
+# holds for every df from 1 to 5000 and at 1e5 and 1e6)
+ALPHA_MIN = 1e-4
 
 
 def check_vector(values, name: str, *, flat: bool = False) -> np.ndarray:

@@ -96,7 +96,7 @@ def test_scheme_weights_beyond_the_double_range():
 @pytest.mark.parametrize("call,message", [
     (lambda c: engine.choose_order(c, "best"),
      "rule 'best' is not known; use one of 'stepdown', 'forward', 'aicc', 'bic', 'press'"),
-    (lambda c: engine.choose_order(c, alpha=5), "alpha must be from 1e-06 to below 0.5 (for example 0.05), not 5"),
+    (lambda c: engine.choose_order(c, alpha=5), "alpha must be from 0.0001 to below 0.5 (for example 0.05), not 5"),
     (lambda c: engine.predict(c, [1.0], 1, level=95),
      "level must be between 0 and 1 (for example 0.95), not 95"),
     (lambda c: engine.inverse(c, [2.0], 1, replicates=0),

@@ -245,7 +245,7 @@ def test_bad_cell_in_a_row_range(data):
 
 @pytest.mark.parametrize("call,message", [
     (lambda x, y: degreewise.calib_coefs(x, y[:-1]), "x has 21 cells and y has 20: give ranges of the same size"),
-    (lambda x, y: degreewise.calib_order(x, y, None, 5), "alpha must be from 1e-06 to below 0.5 (for example 0.05), not 5"),
+    (lambda x, y: degreewise.calib_order(x, y, None, 5), "alpha must be from 0.0001 to below 0.5 (for example 0.05), not 5"),
     (lambda x, y: degreewise.calib_order(x, y, None, None, "best"),
      "rule 'best' is not known; use one of 'stepdown', 'forward', 'aicc', 'bic', 'press'"),
     (lambda x, y: degreewise.calib_coefs(x, y, 2.5), "order must be a whole number, not 2.5"),

@@ -70,7 +70,7 @@ def test_limits_options_are_checked_in_words():
     assert degreewise.calib_limits(X, Y, None, 0) == [[
         "replicates must be a whole number of at least 1, not 0"]]
     assert degreewise.calib_limits(X, Y, None, None, None, 0.7) == [[
-        "alpha must be from 1e-06 to below 0.5 (for example 0.05), not 0.7"]]
+        "alpha must be from 0.0001 to below 0.5 (for example 0.05), not 0.7"]]
     assert degreewise.calib_limits([[1.0], ["x"]], [[1.0], [2.0]]) == [[
         "x, row 2 of 2: the text 'x' is not a number; enter a number or clear the cell"]]
 

@@ -281,7 +281,7 @@ def _aligned(cells_arg, name: str):
     if not (blank.any() or notes):
         return values, range(values.size), values.size, notes
     filled = np.flatnonzero(~blank & ~np.isnan(values))
-    return values[filled], tuple(filled.tolist()), len(cells.values), notes
+    return values[filled], tuple(filled.tolist()), len(cells.values) if filled.size or notes else 0, notes
 
 
 def _rows(size: int, width: int, notes: dict, name: str) -> list:
