@@ -6,7 +6,6 @@ error" cell, directly and through xlwings' own desktop and browser code."""
 import datetime
 import decimal
 import math
-import random
 
 import numpy as np
 import openpyxl
@@ -14,6 +13,7 @@ import pytest
 import xlwings_runtimes as rt
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
+from random_cells import as_com, as_js, internal, random_calls
 
 import degreewise
 from degreewise import engine
@@ -274,113 +274,15 @@ def test_engine_entry_points_check_what_they_are_given():
 
 
 # ---- the fuzz: random cells through the functions, directly and through xlwings' own code ----
-
-def _random_cell(rng: random.Random):
-    kind = rng.randrange(12)
-    if kind < 4:
-        return rng.choice([rng.uniform(-5, 50), float(rng.randrange(10)), rng.uniform(0, 1e-300)])
-    return rng.choice([
-        None, math.nan, math.inf, -math.inf, 1e308, -1e308, 5e-324, 10**400, -(10**30), 2**53 + 1, True, False,
-        "", " ", "n.d.", "3.5", "#N/A", "#DIV/0!", "#SPILL!", -2146826246, datetime.datetime(2024, 1, 2, 12),
-        datetime.date(1900, 1, 1), decimal.Decimal("sNaN"), decimal.Decimal("NaN"), decimal.Decimal("-Infinity"),
-        decimal.Decimal("1E+400"), decimal.Decimal("0.25"), "1/x", "1/y^2", rng.randrange(-3, 12),
-    ])
-
-
-def _random_range(rng: random.Random, n: int):
-    shape = rng.randrange(10)
-    if shape == 0:
-        return _random_cell(rng)  # a single cell where a range belongs
-    if shape == 1:
-        return [[_random_cell(rng) for _ in range(2)] for _ in range(2)]  # a block
-    if shape == 2:
-        return [[_random_cell(rng) for _ in range(n + rng.randrange(-2, 3))]]  # a row, maybe of another size
-    good = shape > 4
-    return [[rng.uniform(0, 10) if good and rng.random() < 0.8 else _random_cell(rng)] for _ in range(n)]
-
-
-def random_calls(count: int, seed: int):
-    """(function name, arguments) of ``count`` random calls of the family, each argument a random range or
-    cell, sometimes one argument too many."""
-    rng = random.Random(seed)
-    names = sorted(degreewise.FUNCTIONS)
-    calls = []
-    for _ in range(count):
-        name = rng.choice(names)
-        f = getattr(degreewise, name)
-        params = list(inspect_params(f))
-        n = rng.randrange(3, 9)
-        args = [_random_range(rng, n) if p in ("x", "y", "weights", "exclude", "new_x", "reading", "ref_x",
-                                               "ref_y", "at", "blank") else
-                (_random_cell(rng) if rng.random() < 0.6 else None) for p in params]
-        if params[:2] == ["x", "y"] and rng.random() < 0.3:  # standards that mostly work
-            xs = [float(rng.choice([1, 2, 3, 4, 5, 6])) for _ in range(n)]
-            args[0], args[1] = [[v] for v in xs], [[v * 2 + rng.random()] for v in xs]
-        if rng.random() < 0.03:
-            args.append(1.0)
-        calls.append((name, tuple(args)))
-    return calls
-
-
-def inspect_params(f):
-    import inspect
-    return inspect.signature(f).parameters
-
-
-def internal(result) -> bool:
-    cells = result if isinstance(result, list) else [[result]]
-    return any(isinstance(v, str) and "internal error" in v for row in cells
-               for v in (row if isinstance(row, list) else [row]))
-
+# (benchmarks/fuzz_cells.py runs the same with more calls)
 
 def test_random_calls_are_answered_in_words():
-    bad = []
-    for name, args in random_calls(2000, seed=2026):
-        result = getattr(degreewise, name)(*args)
-        if internal(result):
-            bad.append((name, result))
+    bad = [(name, result) for name, args in random_calls(2000, seed=2026)
+           if internal(result := getattr(degreewise, name)(*args))]
     assert bad == []
 
 
-NUM = -2146826252  # COM's #NUM! (recalled from memory, as in coercion.ERROR_CODES)
-
-
-def _com_cell(v):
-    """A cell as COM would hand it over: no NaN, infinity or huge numbers (the cell shows #NUM!), currency
-    only finite, dates as datetimes."""
-    if isinstance(v, decimal.Decimal):
-        return v if v.is_finite() and abs(v) < 10**15 else NUM
-    if type(v) is datetime.date:
-        return datetime.datetime(v.year, v.month, v.day)
-    if type(v) in (int, float):
-        return v if abs(v) < 1e308 and math.isfinite(v) else NUM
-    return v
-
-
-def _com(value):
-    if isinstance(value, list):
-        return rt.ComRange(tuple(tuple(map(_com_cell, r)) if isinstance(r, list) else (_com_cell(r),)
-                                 for r in value))
-    return _com_cell(value)
-
-
 def test_random_calls_through_the_runtimes_are_answered_in_words():
-    """xlwings' desktop and browser code on random calls (the desktop hands Decimal and dates as COM would;
-    the browser has no such types, so those become numbers as Office.js would give them)."""
     calls = random_calls(200, seed=7)
-    desktop = rt.desktop([(name.upper(), tuple(_com(a) if a is not None else rt.MISSING for a in args))
-                          for name, args in calls])
-    browser = rt.browser([(name, tuple(_js(a) for a in args)) for name, args in calls])
-    for result in desktop["results"] + browser["results"]:
-        assert not internal(result), result
-
-
-def _js(value):
-    """A cell as Office.js would hand it to Python: numbers, text, logicals, null; no dates or Decimal."""
-    if isinstance(value, list):
-        return [_js(v) for v in value]
-    if isinstance(value, (datetime.date, decimal.Decimal)):
-        return str(value)
-    if isinstance(value, float) and not math.isfinite(value):
-        return "#NUM!"
-    return value
+    results = rt.desktop(as_com(calls))["results"] + rt.browser(as_js(calls))["results"]
+    assert [r for r in results if internal(r)] == []
