@@ -29,33 +29,54 @@ def random_cell(rng: random.Random):
     ])
 
 
-def random_range(rng: random.Random, n: int):
-    shape = rng.randrange(10)
-    if shape == 0:
-        return random_cell(rng)  # a single cell where a range belongs
-    if shape == 1:
-        return [[random_cell(rng) for _ in range(2)] for _ in range(2)]  # a block
-    if shape == 2:
-        return [[random_cell(rng) for _ in range(n + rng.randrange(-2, 3))]]  # a row, maybe of another size
-    good = shape > 4
-    return [[rng.uniform(0, 10) if good and rng.random() < 0.8 else random_cell(rng)] for _ in range(n)]
+def _usable(rng: random.Random, name: str, n: int, xs: list):
+    """A value the argument ``name`` usually gets (None for an optional left empty)."""
+    if name == "x":
+        return [[v] for v in xs]
+    if name == "y":
+        return [[0.2 + 2 * v + 0.01 * v * v + rng.gauss(0, 0.05)] for v in xs]
+    if name in ("new_x", "reading", "at", "blank"):
+        return [[rng.uniform(0, 12)] for _ in range(rng.randrange(1, 4))]
+    if name in ("ref_x", "ref_y"):
+        return [[v] for v in xs] if name == "ref_x" else [[0.1 + 2.1 * v + rng.gauss(0, 0.05)] for v in xs]
+    if name == "weights" and rng.random() < 0.3:
+        return rng.choice(["1/x", "1/x^2", "1/y", "1/y^2", [[rng.uniform(0.5, 2)] for _ in range(n)]])
+    if name == "exclude" and rng.random() < 0.3:
+        return [["bubble" if rng.random() < 0.2 else None] for _ in range(n)]
+    if name == "name":
+        return rng.choice(["predict", "checks", "inverse"])
+    return None
+
+
+def _spoiled(rng: random.Random, value, n: int):
+    """value with one thing wrong: a random cell in a range or in place of an option, or another shape."""
+    if isinstance(value, list) and value and all(value) and rng.random() < 0.7:
+        rows = [list(r) for r in value]
+        rows[rng.randrange(len(rows))][0] = random_cell(rng)
+        return rows
+    return rng.choice([
+        random_cell(rng), [[random_cell(rng) for _ in range(2)] for _ in range(2)],
+        [[random_cell(rng) for _ in range(n + rng.randrange(-2, 3))]], [], [[]],
+    ])
 
 
 def random_calls(count: int, seed: int) -> list[tuple[str, tuple]]:
-    """(function name, arguments) of ``count`` random calls of the family."""
+    """(function name, arguments) of ``count`` random calls of the family: usable arguments (3 to 12
+    standards, often replicated) with 0 to 3 of them spoiled, and now and then one argument too many."""
     rng = random.Random(seed)
     names = sorted(degreewise.FUNCTIONS)
     calls = []
     for _ in range(count):
         name = rng.choice(names)
         params = list(inspect.signature(getattr(degreewise, name)).parameters)
-        n = rng.randrange(3, 9)
-        args = [random_range(rng, n) if p in RANGES else (random_cell(rng) if rng.random() < 0.6 else None)
-                for p in params]
-        if params[:2] == ["x", "y"] and rng.random() < 0.3:  # standards that mostly work
-            xs = [float(rng.choice([1, 2, 3, 4, 5, 6])) for _ in range(n)]
-            args[0], args[1] = [[v] for v in xs], [[v * 2 + rng.random()] for v in xs]
-        if rng.random() < 0.03:
+        n = rng.randrange(3, 13)
+        levels = [rng.choice([0.0, 0.5, 1.0, 2.0, 5.0, 10.0, 20.0]) for _ in range(rng.randrange(2, 8))]
+        xs = [rng.choice(levels) for _ in range(n)]
+        args = [_usable(rng, p, n, xs) for p in params]
+        for _ in range(rng.choice([0, 1, 1, 1, 2, 3]) if args else 0):
+            i = rng.randrange(len(args))
+            args[i] = _spoiled(rng, args[i], n)
+        if rng.random() < 0.02:
             args.append(1.0)
         calls.append((name, tuple(args)))
     return calls
@@ -83,6 +104,8 @@ def _com_cell(v):
 def _com(value):
     if value is None:
         return rt.MISSING
+    if value in ([], [[]]):  # no range has no cells: the nearest is one blank cell
+        return None
     if isinstance(value, list):
         return rt.ComRange(tuple(tuple(map(_com_cell, r)) if isinstance(r, list) else (_com_cell(r),)
                                  for r in value))
@@ -91,6 +114,8 @@ def _com(value):
 
 def _js(value):
     """A cell as Office.js hands it over: numbers, text, logicals, null; no dates, Decimal or NaN."""
+    if value in ([], [[]]):  # no range has no cells: the nearest is one blank cell
+        return [[None]]
     if isinstance(value, list):
         return [_js(v) for v in value]
     if isinstance(value, (datetime.date, decimal.Decimal)):
@@ -100,9 +125,15 @@ def _js(value):
     return value
 
 
+def _declared(name: str, args: tuple) -> tuple:
+    """The arguments a runtime passes: the spreadsheet itself refuses a call with more than the function
+    declares (the VBA wrapper and the Office.js registration fix their number)."""
+    return args[:len(inspect.signature(getattr(degreewise, name)).parameters)]
+
+
 def as_com(calls):
-    return [(name.upper(), tuple(map(_com, args))) for name, args in calls]
+    return [(name.upper(), tuple(map(_com, _declared(name, args)))) for name, args in calls]
 
 
 def as_js(calls):
-    return [(name, tuple(map(_js, args))) for name, args in calls]
+    return [(name, tuple(map(_js, _declared(name, args)))) for name, args in calls]
