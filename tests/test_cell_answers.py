@@ -79,7 +79,7 @@ CELL = st.one_of(st.none(), st.sampled_from([1.0, 2.0, 2.5, 3.0, 4.0, 7.0, 0.0, 
                                              False, " ", "reason"]),
                  st.floats(-10, 10, allow_nan=False), st.integers(-3, 9))
 OPTION = st.one_of(st.none(), st.none(), st.none(), st.sampled_from([1, 2, 0.01, 0.9, 0.05, 3, "1/x", "1/y", "x"]))
-FAMILY = [  # (function, the arguments after x and y: which come from the drawn options)
+FAMILY = [  # (function, its arguments after x and y: a range of the case, an option, or None)
     (degreewise.calib_order, ("opt", "opt", None, "w", "ex")),
     (degreewise.calib_orders, ("opt", "opt", "w", "ex")),
     (degreewise.calib_seqf, ("opt", "w", "ex")),
@@ -91,17 +91,17 @@ FAMILY = [  # (function, the arguments after x and y: which come from the drawn 
     (degreewise.calib_checks, ("opt", "opt", "w", "ex")),
     (degreewise.calib_limits, ("cells", "opt", "opt", "opt", "w", "ex")),
     (degreewise.calib_weighting, ("opt", "opt", "ex")),
+    (degreewise.calib_compare, ("ref_x", "ref_y", "cells", "opt", "opt", None, "ex")),
 ]
-
-
 NUMBER = st.one_of(st.sampled_from([1.0, 2.0, 3.0, 4.0, 5.0, 6.0]), st.floats(0.5, 9, allow_nan=False))
 REASON = st.one_of(st.none(), st.none(), st.sampled_from([True, "reason", "bubble"]))
 
 
 @st.composite
-def cells_and_change(draw):
-    """Input cells of the family (x, y, weights, exclude, a sample range, options), mostly usable, and the
-    same with one cell changed."""
+def inputs_and_change(draw):
+    """The inputs of the family (x, y, weights, exclude, reference standards, a sample range, options, whether
+    weights are given, whether the ranges are rows or columns), mostly usable, and the same with one thing
+    changed: a cell, an option, the weighting or the ranges' direction."""
     n = draw(st.integers(5, 9))
 
     def cells(usual):  # a quarter of the ranges hold one cell of any kind
@@ -110,43 +110,42 @@ def cells_and_change(draw):
             values[draw(st.integers(0, n - 1))] = draw(CELL)
         return values
 
-    ranges = {"x": cells(NUMBER), "y": cells(NUMBER), "ex": cells(REASON), "w": cells(st.floats(0.1, 5)),
-              "cells": draw(st.lists(st.one_of(NUMBER, CELL), min_size=1, max_size=4))}
-    options = draw(st.lists(OPTION, min_size=4, max_size=4))
-    which = draw(st.sampled_from(sorted(ranges)))
-    changed = {k: list(v) for k, v in ranges.items()}
-    i = draw(st.integers(0, len(changed[which]) - 1))
-    changed[which][i] = draw(st.one_of(NUMBER, REASON, CELL))
-    return ranges, changed, options, draw(st.booleans())
+    case = {"x": cells(NUMBER), "y": cells(NUMBER), "ex": cells(REASON), "w": cells(st.floats(0.1, 5)),
+            "ref_x": cells(NUMBER), "ref_y": cells(NUMBER),
+            "cells": draw(st.lists(st.one_of(NUMBER, CELL), min_size=1, max_size=4)),
+            "opt": draw(st.lists(OPTION, min_size=4, max_size=4)), "weighted": draw(st.booleans()), "row": False}
+    changed = {k: v if isinstance(v, bool) else list(v) for k, v in case.items()}
+    which = draw(st.sampled_from(sorted(case)))
+    if which in ("weighted", "row"):
+        changed[which] = not case[which]
+    else:
+        i = draw(st.integers(0, len(changed[which]) - 1))
+        changed[which][i] = draw(OPTION if which == "opt" else st.one_of(NUMBER, REASON, CELL))
+    return case, changed
 
 
-def _call(f, spec, ranges, options, weighted):
-    opts = iter(options)
-    args = []
-    for s in spec:
-        if s == "opt":
-            args.append(next(opts))
-        elif s == "w":
-            args.append(column(ranges["w"]) if weighted else None)
-        elif s is None:
-            args.append(None)
-        else:
-            args.append(column(ranges[s]))
-    return f(column(ranges["x"]), column(ranges["y"]), *args)
+def _call(f, spec, case):
+    def cells(values):
+        return [values] if case["row"] else column(values)
+
+    options = iter(case["opt"])
+    args = [next(options) if s == "opt" else None if s is None or (s == "w" and not case["weighted"])
+            else cells(case[s]) for s in spec]
+    return f(cells(case["x"]), cells(case["y"]), *args)
 
 
 @settings(max_examples=80, deadline=None, derandomize=True, suppress_health_check=[HealthCheck.too_slow])
-@given(cells_and_change())
-def test_any_changed_cell_gives_the_fresh_result(case):
-    """Each function of the family called on cells A, then on A with one cell changed (the caches warm):
+@given(inputs_and_change())
+def test_any_changed_input_gives_the_fresh_result(case_and_change):
+    """Each function of the family called on inputs A, then on A with one thing changed (the caches warm):
     the result equals a fresh computation's (caches cleared), whether the key changed or not."""
-    ranges, changed, options, weighted = case
+    case, changed = case_and_change
     clear_caches()
     for f, spec in FAMILY:
-        _call(f, spec, ranges, options, weighted)
-    warm = [_call(f, spec, changed, options, weighted) for f, spec in FAMILY]
+        _call(f, spec, case)
+    warm = [_call(f, spec, changed) for f, spec in FAMILY]
     clear_caches()
-    fresh = [_call(f, spec, changed, options, weighted) for f, spec in FAMILY]
+    fresh = [_call(f, spec, changed) for f, spec in FAMILY]
     assert repr(warm) == repr(fresh)  # repr: a nan equals itself
 
 
