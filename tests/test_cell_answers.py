@@ -195,6 +195,8 @@ def test_a_template_without_samples_is_refreshed_and_frozen(tmp_path):
      "CALIB_ORDER takes 2 to 7 arguments (x, y, max_order, alpha, rule, weights, exclude); 9 were given"),
     (lambda: degreewise.calib_coefs(column(X)),
      [["CALIB_COEFS takes 2 to 6 arguments (x, y, order, level, weights, exclude); 1 was given"]]),
+    (lambda: degreewise.calib_version(1), "CALIB_VERSION takes no arguments; 1 was given"),
+    (lambda: degreewise.calib_labels("predict", 2), [["CALIB_LABELS takes 1 argument (name); 2 were given"]]),
     (lambda: degreewise.calib_order(column([decimal.Decimal("sNaN")] + X[1:]), column(Y)),
      "x, row 1 of 6: the value is not a number (NaN); enter a number or clear the cell"),
     (lambda: degreewise.calib_order(column(X), column(Y), decimal.Decimal("NaN")),
@@ -265,6 +267,9 @@ def test_engine_entry_points_check_what_they_are_given():
     with pytest.raises(engine.DataError) as err:
         engine.compare(cal, cal, 1, at=[math.nan])
     assert err.value.message == "at[0] is nan: every value must be a finite number"
+    with pytest.raises(engine.OrderError) as err:
+        engine.compare(cal, cal, 0)
+    assert err.value.message == "order must be at least 1, not 0"
     x = np.repeat([1.0, 2.0, 4.0, 8.0], 3)
     y = x * (1 + 0.05 * np.random.default_rng(3).standard_normal(x.size))
     with pytest.raises(engine.OptionError) as err:

@@ -64,8 +64,10 @@ def _arguments_problem(f, args: tuple, kwargs: dict) -> str | None:
         names = list(signature.parameters)
         needed = sum(p.default is inspect.Parameter.empty for p in signature.parameters.values())
         given = len(args) + len(kwargs)
-        return (f"{f.__name__.upper()} takes {needed} to {len(names)} arguments ({', '.join(names)}); "
-                f"{given} {'was' if given == 1 else 'were'} given")
+        takes = (f"{needed} to {len(names)} arguments" if needed < len(names) else
+                 f"{len(names)} argument{'' if len(names) == 1 else 's'}" if names else "no arguments")
+        listed = f" ({', '.join(names)})" if names else ""
+        return f"{f.__name__.upper()} takes {takes}{listed}; {given} {'was' if given == 1 else 'were'} given"
     return None
 
 
