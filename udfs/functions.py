@@ -276,21 +276,21 @@ def calib_stats(x, y, order=None, weights=None, exclude=None):
 def _aligned(cells_arg, name: str):
     """A range whose output rows stay aligned with it: the filled cells' values, their positions, the
     number of rows, and a note for each cell that is not a number (that row gets the note, the others
-    are computed)."""
+    are computed). A range with no values yet (a template before the samples are entered) gives one row
+    whose note says so."""
     cells = flatten(cells_arg, name)
     values, blank, problems = cell_numbers(cells)
     notes = {i: f"{cells.where(i)}: {why}; enter a number or clear the cell" for i, why in problems}
-    if not (blank.any() or notes):
+    if values.size and not (blank.any() or notes):
         return values, range(values.size), values.size, notes
     filled = np.flatnonzero(~blank & ~np.isnan(values))
-    return values[filled], tuple(filled.tolist()), len(cells.values) if filled.size or notes else 0, notes
+    if not (filled.size or notes):
+        return values[filled], (), 1, {0: f"{name}: no values yet; the results appear when the cells are filled"}
+    return values[filled], tuple(filled.tolist()), len(cells.values), notes
 
 
-def _rows(size: int, width: int, notes: dict, name: str) -> list:
-    """Empty output rows, the note of a bad cell in the last column of its row; a range with no values
-    yet (a template before the samples are entered) gives one empty row whose note says so."""
-    if not size:
-        return [[None] * (width - 1) + [f"{name}: no values yet; the results appear when the cells are filled"]]
+def _rows(size: int, width: int, notes: dict) -> list:
+    """Empty output rows, the note of a bad cell in the last column of its row."""
     rows = [[None] * width for _ in range(size)]
     for i, note in notes.items():
         rows[i][-1] = note
@@ -307,7 +307,7 @@ def calib_predict(x, y, new_x, order=None, level=None, weights=None, exclude=Non
 
     def compute():
         cal, chosen, _ = _fitted(prep, k)
-        rows = _rows(size, 6, notes, "new_x")
+        rows = _rows(size, 6, notes)
         for i, p in zip(filled, engine.predict(cal, values, chosen, lev) if values.size else ()):
             rows[i] = _column((p.fitted, p.mean_lower, p.mean_upper, p.pred_lower, p.pred_upper)) + [p.note or None]
         return rows
@@ -331,7 +331,7 @@ def calib_inverse(x, y, reading, replicates=None, order=None, level=None, weight
 
     def compute():
         cal, chosen, _ = _fitted(prep, k)
-        rows = _rows(size, 4, notes, "reading")
+        rows = _rows(size, 4, notes)
         for i, e in zip(filled, engine.inverse(cal, values, chosen, reps, lev) if values.size else ()):
             rows[i] = _column((e.x, e.lower, e.upper)) + [e.note or None]
         return rows
