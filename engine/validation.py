@@ -142,7 +142,7 @@ def positive_weights(w: np.ndarray, verb: str = "is") -> np.ndarray:
     ``verb`` ("is" for weights as given, "works out as" for a scheme's)."""
     i = first_failing(np.isfinite(w) & (w > 0))
     if i is not None:
-        raise WeightError(f"weights[{i}] {verb} {float(w[i])!r}: every weight must be a positive finite number",
+        raise WeightError(f"weights[{i}] {verb} {_shown(w[i])}: every weight must be a positive finite number",
                           argument="weights", index=i)
     return w
 

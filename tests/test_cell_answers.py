@@ -262,6 +262,15 @@ def test_a_scheme_that_needs_x_above_zero_names_the_cell():
     assert note == "does not apply: weights '1/x' need every x > 0, but x, row 2 of 7 is 0"
 
 
+def test_a_weight_that_is_not_positive_names_the_cell():
+    with pytest.raises(engine.WeightError) as err:
+        engine.Calibration(X, Y, weights=[1, 1, -2, 1, 1, 1])
+    assert err.value.message == "weights[2] is -2: every weight must be a positive finite number"
+    assert degreewise.calib_coefs(column([None] + X), column([None] + Y), None, None,
+                                  column([5, 1, 1, -2, 1, 1, 1])) == [[
+        "weights, row 4 of 7 is -2: every weight must be a positive finite number"]]
+
+
 def test_engine_entry_points_check_what_they_are_given():
     cal = engine.Calibration(X, Y)
     with pytest.raises(engine.DataError) as err:

@@ -68,8 +68,8 @@ def test_order_the_data_cannot_support():
 
 @pytest.mark.parametrize("weights,message", [
     ([1, 1, 1], "weights has 3 values but there are 6 points; give one weight per point"),
-    ([1, 1, 0, 1, 1, 1], "weights[2] is 0.0: every weight must be a positive finite number"),
-    ([1, 1, 1, -2, 1, 1], "weights[3] is -2.0: every weight must be a positive finite number"),
+    ([1, 1, 0, 1, 1, 1], "weights[2] is 0: every weight must be a positive finite number"),
+    ([1, 1, 1, -2, 1, 1], "weights[3] is -2: every weight must be a positive finite number"),
     ([1, 1, 1, 1, math.nan, 1], "weights[4] is nan: every weight must be a positive finite number"),
     ("1/z", "weights: unknown scheme '1/z'; use one of '1/x', '1/x^2', '1/y', '1/y^2' or a range of "
             "positive numbers"),

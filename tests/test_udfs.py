@@ -258,7 +258,7 @@ def test_bad_cell_in_a_row_range(data):
     (lambda x, y: degreewise.calib_coefs(x, y, None, None, [[1.0]] * 20),
      "weights has 20 cells and x has 21: give one weight per row, or one of '1/x', '1/x^2', '1/y', '1/y^2'"),
     (lambda x, y: degreewise.calib_coefs(x, y, None, None, [[1.0]] * 4 + [[0.0]] + [[1.0]] * 16),
-     "weights, row 5 of 21: the weight 0 is not positive; enter a positive number"),
+     "weights, row 5 of 21 is 0: every weight must be a positive finite number"),
     (lambda x, y: degreewise.calib_inverse(x, y, [[100.0]], 0), "replicates must be a whole number of at least 1, not 0"),
     (lambda x, y: degreewise.calib_orders(x, y, 9), "max_order 9 needs at least 10 distinct x values and 11 points; "
                                               "there are 7 and 21"),

@@ -109,10 +109,8 @@ def _weights(weights, x_cells: Cells, used: np.ndarray):
         why = describe(v)
         if why is not None:
             raise CellError(f"{cells.where(i)}: {why}; enter a positive number")
-        if not number(v) > 0:
-            raise CellError(f"{cells.where(i)}: the weight {number(v):g} is not positive; enter a positive number")
         w[j] = number(v)
-    return w, w.tobytes()
+    return w, w.tobytes()  # the engine checks that each is positive
 
 
 def prepare(x, y, weights=None, exclude=None) -> Prepared:
