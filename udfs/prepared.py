@@ -14,7 +14,7 @@ from __future__ import annotations
 
 import re
 from collections import OrderedDict
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 
@@ -51,7 +51,7 @@ class Prepared:
     layout: tuple  # where the points sit in the input and what is recorded of the excluded standards (their
     # positions, values and reasons): what aligned outputs and messages depend on beyond ``key``
     excluded: tuple = ()  # Excluded standards, in input order
-    names: dict = None  # {engine argument: its cell argument}: x and y, or ref_x and ref_y
+    names: dict = field(default_factory=dict)  # {engine argument: its cell argument}: x, y or ref_x, ref_y
 
     @property
     def n_input(self) -> int:
