@@ -93,7 +93,7 @@ class Weighting:
             if i is not None:
                 raise WeightError(
                     f"weights '{self.scheme}' need a fitted y > 0 at every standard, but the curve gives "
-                    f"{float(fitted[i]):.6g} at x = {float(x[i])!r} (point {i}); use 1/x weights or none",
+                    f"{float(fitted[i]):.6g} at x = {float(x[i]):g} (x[{i}]); use 1/x weights or none",
                     argument="weights",
                     index=i,
                 )

@@ -262,6 +262,13 @@ def test_a_scheme_that_needs_x_above_zero_names_the_cell():
     assert note == "does not apply: weights '1/x' need every x > 0, but x, row 2 of 7 is 0"
 
 
+def test_a_fitted_response_below_zero_under_1_over_y_names_the_cell():
+    x, y = [None, 0.0, 1.0, 2.0, 3.0, 4.0, 5.0], [None, -0.5, 2.1, 3.9, 6.2, 8.0, 9.9]
+    assert degreewise.calib_coefs(column(x), column(y), None, None, "1/y") == [[
+        "weights '1/y' need a fitted y > 0 at every standard, but the curve gives -0.417857 at x = 0 (x, row 2 of 7); "
+        "use 1/x weights or none"]]
+
+
 def test_a_weight_that_is_not_positive_names_the_cell():
     with pytest.raises(engine.WeightError) as err:
         engine.Calibration(X, Y, weights=[1, 1, -2, 1, 1, 1])
