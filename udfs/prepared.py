@@ -176,7 +176,7 @@ def _prepare(x_cells: Cells, y_cells: Cells, weights, exclude: Cells | None = No
     else:
         used, xu, yu = np.arange(xv.size), xv, yv
     w, wkey = _weights(weights, x_cells, used)
-    record = tuple((e.position, e.reason) for e in excluded), np.array([(e.x, e.y) for e in excluded]).tobytes()
+    record = tuple((e.position, e.reason, e.x.hex(), e.y.hex()) for e in excluded)  # hex: a nan equals itself
     layout = (x_cells.axis, x_cells.size, n, used.tobytes(), record)
     key = (xu.tobytes(), yu.tobytes(), wkey) + ((repr(sorted(reasons.items())),) if reasons else ())
     return Prepared(x_cells, used, xu, yu, w, key, layout, excluded, {"x": x_cells.name, "y": y_cells.name})
