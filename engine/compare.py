@@ -25,7 +25,7 @@ from .distributions import f_sf, t_quantile, t_two_sided
 from .errors import OrderError
 from .prediction import inverse
 from .results import Comparison, DifferenceRow, FTest
-from .validation import check_level, order_limit
+from .validation import check_count, check_level, check_order, check_vector
 
 
 def _rss(columns: np.ndarray, yw: np.ndarray) -> float:
@@ -36,12 +36,10 @@ def _rss(columns: np.ndarray, yw: np.ndarray) -> float:
 
 
 def _check_order(order: int, cal: Calibration, which: str) -> None:
-    if order > order_limit(cal.n_points, cal.n_distinct):
-        raise OrderError(
-            f"order {order} needs at least {order + 1} distinct x values and {order + 2} points in the "
-            f"{which} calibration; it has {cal.n_distinct} and {cal.n_points}",
-            argument="order",
-        )
+    try:
+        check_order(order, "order", cal.n_points, cal.n_distinct)
+    except OrderError as err:
+        raise OrderError(f"{which} calibration: {err.message}", argument="order") from None
 
 
 def _f_test(extra: float, df_extra: int, rss: float, df: int) -> FTest:
@@ -53,7 +51,7 @@ def compare(today: Calibration, reference: Calibration, order: int, level: float
     """Tests that the curves coincide, that they are parallel and that their residual SDs agree; the
     difference of each raw coefficient (today - reference) and of the fitted responses at ``at``, each
     with its two-sided interval at ``level``; and the x today's curve reads for the reference's response."""
-    level = check_level(level)
+    level, at, order = check_level(level), check_vector(at, "at", flat=True), check_count(order, "order")
     for cal, which in ((today, "today's"), (reference, "reference")):
         _check_order(order, cal, which)
     k = order

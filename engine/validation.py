@@ -12,6 +12,10 @@ from .errors import DataError, OptionError, OrderError, WeightError
 
 RULES = ("stepdown", "forward", "aicc", "bic", "press")
 DEFAULT_RULE = RULES[0]
+# the smallest alpha: below it scipy's non-central t (the ISO 11843-2 delta) fails to give a root for some
+# degrees of freedom (measured: alpha 1e-5 fails at 1 and 39-44 df, 1e-6 at 1, 30, 31 and many more; 1e-4
+# holds for every df from 1 to 5000 and at 1e5 and 1e6)
+ALPHA_MIN = 1e-4
 
 
 def check_vector(values, name: str, *, flat: bool = False) -> np.ndarray:
@@ -38,7 +42,7 @@ def check_whole(value, name: str) -> int:
     except TypeError:
         if isinstance(value, float) and value.is_integer():
             return int(value)
-        raise OrderError(f"{name} must be a whole number, not {value!r}", argument=name) from None
+        raise OrderError(f"{name} must be a whole number, not {_shown(value)}", argument=name) from None
 
 
 def order_limit(n_points: int, n_distinct: int) -> int:
@@ -46,10 +50,17 @@ def order_limit(n_points: int, n_distinct: int) -> int:
     return min(n_distinct - 1, n_points - 2)
 
 
+def check_count(value, name: str) -> int:
+    """A whole number of at least 1 (an order or a max order)."""
+    k = check_whole(value, name)
+    if k < 1:
+        raise OrderError(f"{name} must be at least 1, not {k}", argument=name)
+    return k
+
+
 def check_order(order: int, name: str, n: int, m: int) -> None:
     """An order of at least 1 that n points at m distinct x can fit (``order_limit``)."""
-    if order < 1:
-        raise OrderError(f"{name} must be at least 1, not {order}", argument=name)
+    check_count(order, name)
     if order > order_limit(n, m):
         raise OrderError(
             f"{name} {order} needs at least {order + 1} distinct x values and {order + 2} points; "
@@ -59,13 +70,14 @@ def check_order(order: int, name: str, n: int, m: int) -> None:
 
 
 def check_alpha(alpha, name: str = "alpha") -> float:
-    """alpha must lie strictly between 0 and 0.5."""
+    """alpha must lie in [ALPHA_MIN, 0.5)."""
     try:
         a = float(alpha)
     except (TypeError, ValueError):
-        raise OptionError(f"{name} must be a number between 0 and 0.5, not {alpha!r}", argument=name) from None
-    if not 0 < a < 0.5:
-        raise OptionError(f"{name} must be between 0 and 0.5 (for example 0.05), not {alpha!r}", argument=name)
+        a = math.nan
+    if not ALPHA_MIN <= a < 0.5:
+        raise OptionError(f"{name} must be from {ALPHA_MIN:g} to below 0.5 (for example 0.05), not {_shown(alpha)}",
+                          argument=name)
     return a
 
 
@@ -74,9 +86,10 @@ def check_level(level) -> float:
     try:
         v = float(level)
     except (TypeError, ValueError):
-        raise OptionError(f"level must be a number between 0 and 1, not {level!r}", argument="level") from None
+        v = math.nan
     if not 0 < v < 1:
-        raise OptionError(f"level must be between 0 and 1 (for example 0.95), not {level!r}", argument="level")
+        raise OptionError(f"level must be between 0 and 1 (for example 0.95), not {_shown(level)}",
+                          argument="level")
     return v
 
 
@@ -102,7 +115,7 @@ def check_replicates(replicates, count: int) -> np.ndarray:
                           argument="replicates")
     i = first_failing(np.isfinite(m) & (m >= 1) & (m == np.round(m)))
     if i is not None:
-        raise OptionError(f"replicates must be a whole number of at least 1, not {float(m[i])!r}",
+        raise OptionError(f"replicates must be a whole number of at least 1, not {_shown(m[i])}",
                           argument="replicates", index=i)
     return m
 
@@ -116,14 +129,27 @@ def check_weights(weights, count: int) -> np.ndarray:
     return positive_weights(w)
 
 
+def check_scheme_base(key: str, var: str, base: np.ndarray) -> None:
+    """The weights of scheme ``key`` are a power of ``var`` (x, or y or its fitted value): every one > 0."""
+    i = first_failing(base > 0)
+    if i is not None:
+        raise WeightError(f"weights '{key}' need every {var} > 0, but {var}[{i}] is {float(base[i]):g}",
+                          argument=var, index=i)
+
+
 def positive_weights(w: np.ndarray, verb: str = "is") -> np.ndarray:
     """w, when each weight is a positive finite number; else the message names the first that is not, with
     ``verb`` ("is" for weights as given, "works out as" for a scheme's)."""
     i = first_failing(np.isfinite(w) & (w > 0))
     if i is not None:
-        raise WeightError(f"weights[{i}] {verb} {float(w[i])!r}: every weight must be a positive finite number",
+        raise WeightError(f"weights[{i}] {verb} {_shown(w[i])}: every weight must be a positive finite number",
                           argument="weights", index=i)
     return w
+
+
+def _shown(value) -> str:
+    """A value in a message: a number as the sheet shows it (5, 0.7, 1e-21), anything else as its repr."""
+    return f"{value:g}" if isinstance(value, (int, float, np.floating)) and not isinstance(value, bool) else repr(value)
 
 
 def first_failing(ok: np.ndarray) -> int | None:

@@ -37,7 +37,7 @@ from .distributions import chi2_sf, t_quantile
 from .errors import WeightError
 from .results import SchemeResult, SpreadExponent
 from .selection import choose_order, fmt_p
-from .validation import check_alpha, check_vector
+from .validation import check_alpha, check_level, check_scheme_base, check_vector
 
 SCHEMES = ("none", "1/x", "1/x^2", "1/y", "1/y^2")
 FROM_REPLICATES = "1/x^2b"
@@ -45,7 +45,7 @@ FROM_REPLICATES = "1/x^2b"
 
 def spread_exponent(x, y, level: float = 0.95) -> SpreadExponent | str:
     """b in SD = c x^b from the replicate SDs (module docstring), or the reason in words why not."""
-    x, y = check_vector(x, "x"), check_vector(y, "y")
+    x, y, level = check_vector(x, "x"), check_vector(y, "y"), check_level(level)
     if y.any():  # an exact power-of-two scaling (it moves only log c) keeps squares in range
         y = np.ldexp(y, -math.frexp(float(np.abs(y).max()))[1])
     levels, inverse, counts = np.unique(x, return_inverse=True, return_counts=True)
@@ -71,9 +71,9 @@ def spread_exponent(x, y, level: float = 0.95) -> SpreadExponent | str:
 def _judge(x, y, scheme: str, weights, order, note: str = "") -> SchemeResult:
     """One scheme fitted and judged; a scheme that cannot apply gets the engine's reason in the note (other
     errors, such as too few points, concern every scheme and are raised)."""
-    if scheme.startswith("1/x") and not (x > 0).all():
-        return _not_applied(scheme, note, f"weights {scheme} need every x > 0, and the lowest is {float(x.min()):g}")
     try:
+        if scheme.startswith("1/x"):
+            check_scheme_base(scheme, "x", x)
         cal = Calibration(x, y, max_order=order, weights=weights)
     except WeightError as err:
         return _not_applied(scheme, note, err.message)

@@ -33,7 +33,7 @@ from __future__ import annotations
 import numpy as np
 
 from .errors import WeightError
-from .validation import check_weights, first_failing, positive_weights
+from .validation import check_scheme_base, check_weights, first_failing, positive_weights
 
 SCHEMES = {"1/x": ("x", 1), "1/x^2": ("x", 2), "1/y": ("y", 1), "1/y^2": ("y", 2)}
 SETTLED = 1e-10
@@ -93,7 +93,7 @@ class Weighting:
             if i is not None:
                 raise WeightError(
                     f"weights '{self.scheme}' need a fitted y > 0 at every standard, but the curve gives "
-                    f"{float(fitted[i]):.6g} at x = {float(x[i])!r} (point {i}); use 1/x weights or none",
+                    f"{float(fitted[i]):.6g} at x = {float(x[i]):g} (x[{i}]); use 1/x weights or none",
                     argument="weights",
                     index=i,
                 )
@@ -145,13 +145,7 @@ class Weighting:
 def _from_base(key: str, base: np.ndarray) -> np.ndarray:
     """The weights base^-power of scheme ``key``, each a positive finite number."""
     var, power = SCHEMES[key]
-    i = first_failing(base > 0)
-    if i is not None:
-        raise WeightError(
-            f"weights '{key}' needs every {var} > 0, but {var}[{i}] is {float(base[i])!r}",
-            argument="weights",
-            index=i,
-        )
+    check_scheme_base(key, var, base)
     with np.errstate(over="ignore"):
         values = base ** (-float(power))
     return positive_weights(values, "works out as")

@@ -154,4 +154,4 @@ def test_response_weights_need_a_positive_fitted_curve():
     with pytest.raises(engine.WeightError) as err:
         engine.Calibration(x, x - 0.5, max_order=1, weights="1/y")
     assert str(err.value) == ("weights '1/y' need a fitted y > 0 at every standard, but the curve gives -0.5 at "
-                              "x = 0.0 (point 0); use 1/x weights or none")
+                              "x = 0 (x[0]); use 1/x weights or none")

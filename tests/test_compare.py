@@ -94,5 +94,5 @@ def test_an_order_the_reference_cannot_support_is_refused_in_words():
     ref = Calibration([1.0, 2.0, 3.0, 4.0], [1.1, 2.0, 3.2, 3.9], 1)
     with pytest.raises(OrderError) as err:
         compare(Calibration(x_t, y_t, 3), ref, 3)
-    assert str(err.value) == ("order 3 needs at least 4 distinct x values and 5 points in the reference "
-                              "calibration; it has 4 and 4")
+    assert str(err.value) == ("reference calibration: order 3 needs at least 4 distinct x values and 5 points; "
+                              "there are 4 and 4")

@@ -68,8 +68,8 @@ def test_order_the_data_cannot_support():
 
 @pytest.mark.parametrize("weights,message", [
     ([1, 1, 1], "weights has 3 values but there are 6 points; give one weight per point"),
-    ([1, 1, 0, 1, 1, 1], "weights[2] is 0.0: every weight must be a positive finite number"),
-    ([1, 1, 1, -2, 1, 1], "weights[3] is -2.0: every weight must be a positive finite number"),
+    ([1, 1, 0, 1, 1, 1], "weights[2] is 0: every weight must be a positive finite number"),
+    ([1, 1, 1, -2, 1, 1], "weights[3] is -2: every weight must be a positive finite number"),
     ([1, 1, 1, 1, math.nan, 1], "weights[4] is nan: every weight must be a positive finite number"),
     ("1/z", "weights: unknown scheme '1/z'; use one of '1/x', '1/x^2', '1/y', '1/y^2' or a range of "
             "positive numbers"),
@@ -83,7 +83,7 @@ def test_bad_weights(weights, message):
 def test_scheme_needs_positive_values():
     with pytest.raises(WeightError) as err:
         engine.Calibration([0.0] + X[1:], Y, weights="1/x^2")
-    assert str(err.value) == "weights '1/x^2' needs every x > 0, but x[0] is 0.0"
+    assert str(err.value) == "weights '1/x^2' need every x > 0, but x[0] is 0"
 
 
 def test_scheme_weights_beyond_the_double_range():
@@ -96,11 +96,11 @@ def test_scheme_weights_beyond_the_double_range():
 @pytest.mark.parametrize("call,message", [
     (lambda c: engine.choose_order(c, "best"),
      "rule 'best' is not known; use one of 'stepdown', 'forward', 'aicc', 'bic', 'press'"),
-    (lambda c: engine.choose_order(c, alpha=5), "alpha must be between 0 and 0.5 (for example 0.05), not 5"),
+    (lambda c: engine.choose_order(c, alpha=5), "alpha must be from 0.0001 to below 0.5 (for example 0.05), not 5"),
     (lambda c: engine.predict(c, [1.0], 1, level=95),
      "level must be between 0 and 1 (for example 0.95), not 95"),
     (lambda c: engine.inverse(c, [2.0], 1, replicates=0),
-     "replicates must be a whole number of at least 1, not 0.0"),
+     "replicates must be a whole number of at least 1, not 0"),
     (lambda c: engine.inverse(c, [2.0], 1, replicates=float("inf")),
      "replicates must be a whole number of at least 1, not inf"),
     (lambda c: engine.inverse(c, [2.0, 3.0], 1, replicates=[1, 2, 3]),

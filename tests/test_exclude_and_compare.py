@@ -187,4 +187,4 @@ def test_compare_takes_a_scheme_only_and_names_the_reference_in_messages():
         "reference calibration: ref_y, row 5 of 12: the text 'n.d.' is not a number; enter a number or clear "
         "the cell"]]
     assert degreewise.calib_compare(column(X), column(Y), column(REF_X[:4]), column(REF_Y[:4]), None, 3) == [[
-        "order 3 needs at least 4 distinct x values and 5 points in the reference calibration; it has 2 and 4"]]
+        "reference calibration: order 3 needs at least 4 distinct x values and 5 points; there are 2 and 4"]]

@@ -330,7 +330,7 @@ def test_a_one_cell_message_keeps_the_dynamic_array_form(tmp_path):
     rewrite(path, {"xl/worksheets/sheet1.xml": sheet.encode()})
     report = refresh_file(path)
     message = degreewise.calib_coefs(XS, YS, 0)[0][0]
-    assert message.startswith("order: 0 is out of range") and report.messages == [("Sheet1!AD3", message)]
+    assert message == "order must be at least 1, not 0" and report.messages == [("Sheet1!AD3", message)]
     assert not report.ok
     sheet = entries(path)["xl/worksheets/sheet1.xml"].decode()
     assert re.search(r'<c r="AD3" cm="1" t="str"><f t="array" ref="AD3">CALIB_COEFS\(\$AA\$2:\$AA\$13,'

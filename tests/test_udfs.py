@@ -245,12 +245,10 @@ def test_bad_cell_in_a_row_range(data):
 
 @pytest.mark.parametrize("call,message", [
     (lambda x, y: degreewise.calib_coefs(x, y[:-1]), "x has 21 cells and y has 20: give ranges of the same size"),
-    (lambda x, y: degreewise.calib_order(x, y, None, 5), "alpha: 5 is out of range; leave it empty or enter a level "
-                                                     "such as 0.05"),
+    (lambda x, y: degreewise.calib_order(x, y, None, 5), "alpha must be from 0.0001 to below 0.5 (for example 0.05), not 5"),
     (lambda x, y: degreewise.calib_order(x, y, None, None, "best"),
-     "rule: 'best' is not known; use one of 'stepdown', 'forward', 'aicc', 'bic', 'press'"),
-    (lambda x, y: degreewise.calib_coefs(x, y, 2.5), "order: 2.5 is not a whole number; leave it empty or enter a "
-                                                "whole number such as 2, or the CALIB_ORDER cell"),
+     "rule 'best' is not known; use one of 'stepdown', 'forward', 'aicc', 'bic', 'press'"),
+    (lambda x, y: degreewise.calib_coefs(x, y, 2.5), "order must be a whole number, not 2.5"),
     (lambda x, y: degreewise.calib_coefs(x, y, 9), "order 9 needs at least 10 distinct x values and 11 points; "
                                               "there are 7 and 21"),
     (lambda x, y: degreewise.calib_coefs(x, y, None, "high"), "level: the text 'high' is not a number; leave it empty "
@@ -260,9 +258,8 @@ def test_bad_cell_in_a_row_range(data):
     (lambda x, y: degreewise.calib_coefs(x, y, None, None, [[1.0]] * 20),
      "weights has 20 cells and x has 21: give one weight per row, or one of '1/x', '1/x^2', '1/y', '1/y^2'"),
     (lambda x, y: degreewise.calib_coefs(x, y, None, None, [[1.0]] * 4 + [[0.0]] + [[1.0]] * 16),
-     "weights, row 5 of 21: the weight 0 is not positive; enter a positive number"),
-    (lambda x, y: degreewise.calib_inverse(x, y, [[100.0]], 0), "replicates: 0 is out of range; leave it empty or enter "
-                                                          "a whole number such as 3"),
+     "weights, row 5 of 21 is 0: every weight must be a positive finite number"),
+    (lambda x, y: degreewise.calib_inverse(x, y, [[100.0]], 0), "replicates must be a whole number of at least 1, not 0"),
     (lambda x, y: degreewise.calib_orders(x, y, 9), "max_order 9 needs at least 10 distinct x values and 11 points; "
                                               "there are 7 and 21"),
     (lambda x, y: degreewise.calib_coefs([[1, 2], [3, 4]], y), "x: the range is 2 rows by 2 columns; give a single row "
@@ -290,7 +287,7 @@ def test_scheme_weights_need_positive_values(data):
     xs = column(x)
     xs[2] = [0.0]
     assert degreewise.calib_coefs(xs, column(y), None, None, "1/x") == [[
-        "x, row 3 of 21: weights '1/x' need every x > 0, but this x is 0"]]
+        "weights '1/x' need every x > 0, but x, row 3 of 21 is 0"]]
 
 
 def test_cache_serves_identical_results_and_never_stale(data):

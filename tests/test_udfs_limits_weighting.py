@@ -67,10 +67,10 @@ def test_blank_cells_skip_as_everywhere_and_bad_blank_readings_are_answered_in_w
 
 
 def test_limits_options_are_checked_in_words():
-    assert degreewise.calib_limits(X, Y, None, 0) == [["replicates: 0 is out of range; leave it empty or enter a "
-                                                        "whole number such as 3"]]
-    assert degreewise.calib_limits(X, Y, None, None, None, 0.7) == [["alpha: 0.7 is out of range; leave it empty or "
-                                                                      "enter a level such as 0.05"]]
+    assert degreewise.calib_limits(X, Y, None, 0) == [[
+        "replicates must be a whole number of at least 1, not 0"]]
+    assert degreewise.calib_limits(X, Y, None, None, None, 0.7) == [[
+        "alpha must be from 0.0001 to below 0.5 (for example 0.05), not 0.7"]]
     assert degreewise.calib_limits([[1.0], ["x"]], [[1.0], [2.0]]) == [[
         "x, row 2 of 2: the text 'x' is not a number; enter a number or clear the cell"]]
 
@@ -92,7 +92,7 @@ def test_weighting_table_equals_the_engine():
 def test_weighting_with_a_blank_standard_says_which_schemes_cannot_apply():
     rows = degreewise.calib_weighting(X, Y)
     assert rows[2] == ["1/x", None, None, None, None, None,
-                       "does not apply: weights 1/x need every x > 0, and the lowest is 0"]
+                       "does not apply: weights '1/x' need every x > 0, but x, row 1 of 7 is 0"]
     assert len(rows) == 6  # no replicates: no row from replicate SDs
     assert degreewise.calib_weighting(X, Y, 9) == [["order 9 needs at least 10 distinct x values and 11 points; "
                                                    "there are 7 and 7"]]

@@ -112,9 +112,9 @@ def test_schemes_that_cannot_apply_say_why():
     rows = {r.scheme: r for r in engine.compare_weightings(x, y)}
     for scheme in ("1/x", "1/x^2"):
         assert rows[scheme].order is None and math.isnan(rows[scheme].sum_abs_deviation)
-        assert rows[scheme].note == f"does not apply: weights {scheme} need every x > 0, and the lowest is 0"
+        assert rows[scheme].note == f"does not apply: weights '{scheme}' need every x > 0, but x[0] is 0"
     assert rows["none"].note.endswith("deviation % leaves out the standards at x = 0")
-    assert rows[FROM_REPLICATES].note.endswith("does not apply: weights 1/x^2b need every x > 0, and the lowest is 0")
+    assert rows[FROM_REPLICATES].note.endswith("does not apply: weights '1/x^2b' need every x > 0, but x[0] is 0")
     assert rows[FROM_REPLICATES].note.startswith("b = ")
     single = engine.compare_weightings(np.arange(1.0, 8.0), 2.0 * np.arange(1.0, 8.0) + [0.1, -0.1, 0, 0.2, -0.2, 0.1, 0])
     assert [r.scheme for r in single] == list(SCHEMES)  # no replicates: no row from replicate SDs

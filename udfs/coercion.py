@@ -61,7 +61,8 @@ def is_blank(v) -> bool:
 
 
 def number(v) -> float:
-    """The number a cell holds; a date or time as its serial day number (days since 1899-12-30)."""
+    """The number a cell holds (one that ``describe`` accepts); a date or time as its serial day number
+    (days since 1899-12-30)."""
     if isinstance(v, datetime.datetime):
         return (v.replace(tzinfo=None) - _EPOCH) / _DAY
     if isinstance(v, datetime.date):
@@ -73,21 +74,25 @@ def describe(v) -> str | None:
     """Why v is not a usable number, or None when it is one."""
     if isinstance(v, bool):
         return f"the logical value {'TRUE' if v else 'FALSE'} is not a number"
-    if isinstance(v, (datetime.date, decimal.Decimal)):  # a date-formatted or currency-formatted cell
-        v = number(v)
+    if isinstance(v, decimal.Decimal) and v.is_nan():  # float() refuses a signalling NaN
+        return "the value is not a number (NaN)"
     if isinstance(v, numbers.Integral):
         code = int(v)
         if code in ERROR_CODES:
             return f"the cell holds the error {ERROR_CODES[code]}"
         if _COM_ERROR_BASE + 2000 <= code <= _COM_ERROR_BASE + 2100:
             return "the cell holds an error value"
-        return None
-    if isinstance(v, numbers.Real):
-        f = float(v)
+    if isinstance(v, (numbers.Real, decimal.Decimal, datetime.date)):  # currency and dates too
+        try:
+            f = number(v)
+        except OverflowError:  # an int beyond the doubles (the browser hands whole numbers as ints)
+            f = math.inf
         if math.isnan(f):
             return "the value is not a number (NaN)"
         if math.isinf(f):
-            return "the value is infinite"
+            return ("the value is infinite" if isinstance(v, float) or (isinstance(v, decimal.Decimal)
+                                                                           and v.is_infinite())
+                    else "the number is too large for double precision (beyond 1.8e308)")
         return None
     if isinstance(v, str):
         text = v.strip()
@@ -164,7 +169,10 @@ def cell_numbers(cells: Cells) -> tuple[np.ndarray, np.ndarray, list]:
     neither blank nor a number."""
     kinds = set(map(type, cells.values))
     if kinds <= {float, int}:  # the usual case: every cell a number (ints: whole numbers in the browser)
-        out = np.array(cells.values, dtype=float)
+        try:
+            out = np.array(cells.values, dtype=float)
+        except OverflowError:  # an int beyond the doubles: the loop below names it
+            out = np.full(len(cells.values), math.nan)
         codes = int in kinds and ((out >= COM_ERRORS[0]) & (out <= COM_ERRORS[1])).any()
         if np.isfinite(out).all() and not codes:
             return out, np.zeros(out.size, dtype=bool), []
@@ -207,21 +215,15 @@ def scalar(v, name: str):
     return v
 
 
-def number_option(v, name: str, default, low: float, high: float, example: str, whole: bool = False):
-    """An optional number within (low, high), or its default when omitted."""
+def number_option(v, name: str, example: str):
+    """The number of an optional one-cell argument, None when omitted; the engine judges its range."""
     if v is None or is_omitted(v):
-        return default
+        return None
     v = scalar(v, name)
-    if not (type(v) in (float, int) and math.isfinite(v)):
-        why = describe(v)
-        if why is not None:
-            raise CellError(f"{name}: {why}; leave it empty or enter {example}")
-    f = number(v)
-    if whole and f != int(f):
-        raise CellError(f"{name}: {f:g} is not a whole number; leave it empty or enter {example}")
-    if not low < f < high:
-        raise CellError(f"{name}: {f:g} is out of range; leave it empty or enter {example}")
-    return int(f) if whole else f
+    why = describe(v)
+    if why is not None:
+        raise CellError(f"{name}: {why}; leave it empty or enter {example}")
+    return number(v)
 
 
 def text_option(v, name: str, default: str, choices) -> str:

@@ -16,6 +16,7 @@ constant beyond them.
 from __future__ import annotations
 
 import functools
+import inspect
 import math
 import platform
 
@@ -24,8 +25,10 @@ import scipy
 
 from . import VERSION, engine
 from .catalogue import ARGUMENTS, CAUTION, HEADERS, LIMITS_CAUTION, term
-from .coercion import CellError, cell_numbers, flatten, is_omitted, number_option, numbers_or_blank, text_option
-from .engine.validation import check_order, order_limit
+from .coercion import (CellError, cell_numbers, flatten, is_omitted, number_option, numbers_or_blank, scalar,
+                       text_option)
+from .engine.validation import (check_alpha, check_count, check_level, check_order, check_replicates, check_rule,
+                                order_limit)
 from .prepared import RESULTS, SCHEMES, calibration, prepare, prepare_named
 from .registration import declared
 
@@ -52,6 +55,22 @@ def _column(values) -> list:
     return [v if finite(v) else None for v in values]
 
 
+def _arguments_problem(f, args: tuple, kwargs: dict) -> str | None:
+    """What is wrong with the number of arguments of a call of f, in words, or None when they fit."""
+    signature = inspect.signature(f)
+    try:
+        signature.bind(*args, **kwargs)
+    except TypeError:
+        names = list(signature.parameters)
+        needed = sum(p.default is inspect.Parameter.empty for p in signature.parameters.values())
+        given = len(args) + len(kwargs)
+        takes = (f"{needed} to {len(names)} arguments" if needed < len(names) else
+                 f"{len(names)} argument{'' if len(names) == 1 else 's'}" if names else "no arguments")
+        listed = f" ({', '.join(names)})" if names else ""
+        return f"{f.__name__.upper()} takes {takes}{listed}; {given} {'was' if given == 1 else 'were'} given"
+    return None
+
+
 def _guarded(single: bool = False):
     """Turn CellError (and any engine error) into one cell of text; never a traceback."""
 
@@ -65,10 +84,11 @@ def _guarded(single: bool = False):
             except engine.CalibrationError as err:
                 message = err.message
             except OverflowError:
-                message = ("the numbers are too large or too small for double precision in this computation "
-                           "(squares of y or x overflow); express x and y in other units and try again")
+                message = ("the numbers are too large or too small for double precision in this computation; "
+                           "express x and y in other units and try again")
             except Exception as err:  # noqa: BLE001 - a cell must never show a traceback
-                message = f"internal error ({type(err).__name__}: {err}); please report it with the workbook"
+                message = (isinstance(err, TypeError) and _arguments_problem(f, args, kwargs)
+                           or f"internal error ({type(err).__name__}: {err}); please report it with the workbook")
             return message if single else [[message]]
 
         return inner
@@ -81,21 +101,27 @@ def _cached(name: str, prep, options: tuple, compute):
     return [list(r) for r in rows] if isinstance(rows, list) else rows
 
 
+def _option(v, name: str, example: str, default, check):
+    """An optional number: its default when omitted, else as the engine's ``check`` accepts it."""
+    value = number_option(v, name, example)
+    return default if value is None else check(value)
+
+
 def _max_order(v):
-    return number_option(v, "max_order", None, 0.5, 1e6, "a whole number such as 3", whole=True)
+    return _option(v, "max_order", "a whole number such as 3", None, lambda k: check_count(k, "max_order"))
 
 
 def _alpha(v):
-    return number_option(v, "alpha", 0.05, 0.0, 0.5, "a level such as 0.05")
+    return _option(v, "alpha", "a level such as 0.05", 0.05, check_alpha)
 
 
 def _level(v):
-    return number_option(v, "level", 0.95, 0.0, 1.0, "a level such as 0.95")
+    return _option(v, "level", "a level such as 0.95", 0.95, check_level)
 
 
 def _order(v):
-    return number_option(v, "order", None, 0.5, 1e6, "a whole number such as 2, or the CALIB_ORDER cell",
-                         whole=True)
+    return _option(v, "order", "a whole number such as 2, or the CALIB_ORDER cell", None,
+                   lambda k: check_count(k, "order"))
 
 
 def _fitted(prep, order):
@@ -137,7 +163,7 @@ def calib_order(x, y, max_order=None, alpha=None, rule=None, weights=None, exclu
     """The chosen order of the calibration polynomial (one number)."""
     prep = prepare(x, y, weights, exclude)
     k, a = _max_order(max_order), _alpha(alpha)
-    r = text_option(rule, "rule", engine.DEFAULT_RULE, engine.RULES)
+    r = engine.DEFAULT_RULE if is_omitted(rule) else check_rule(scalar(rule, "rule"))
     return _cached("order", prep, (k, a, r), lambda: engine.choose_order(calibration(prep, k), r, a).order)
 
 
@@ -250,13 +276,16 @@ def calib_stats(x, y, order=None, weights=None, exclude=None):
 def _aligned(cells_arg, name: str):
     """A range whose output rows stay aligned with it: the filled cells' values, their positions, the
     number of rows, and a note for each cell that is not a number (that row gets the note, the others
-    are computed)."""
+    are computed). A range with no values yet (a template before the samples are entered) gives one row
+    whose note says so."""
     cells = flatten(cells_arg, name)
     values, blank, problems = cell_numbers(cells)
     notes = {i: f"{cells.where(i)}: {why}; enter a number or clear the cell" for i, why in problems}
-    if not (blank.any() or notes):
+    if values.size and not (blank.any() or notes):
         return values, range(values.size), values.size, notes
     filled = np.flatnonzero(~blank & ~np.isnan(values))
+    if not (filled.size or notes):
+        return values[filled], (), 1, {0: f"{name}: no values yet; the results appear when the cells are filled"}
     return values[filled], tuple(filled.tolist()), len(cells.values), notes
 
 
@@ -279,7 +308,7 @@ def calib_predict(x, y, new_x, order=None, level=None, weights=None, exclude=Non
     def compute():
         cal, chosen, _ = _fitted(prep, k)
         rows = _rows(size, 6, notes)
-        for i, p in zip(filled, engine.predict(cal, values, chosen, lev)):
+        for i, p in zip(filled, engine.predict(cal, values, chosen, lev) if values.size else ()):
             rows[i] = _column((p.fitted, p.mean_lower, p.mean_upper, p.pred_lower, p.pred_upper)) + [p.note or None]
         return rows
 
@@ -287,7 +316,8 @@ def calib_predict(x, y, new_x, order=None, level=None, weights=None, exclude=Non
 
 
 def _replicates(v):
-    return number_option(v, "replicates", 1, 0.5, 1e9, "a whole number such as 3", whole=True)
+    return _option(v, "replicates", "a whole number such as 3", 1,
+                   lambda m: int(check_replicates(m, 1)[0]))
 
 
 @worksheet_function
@@ -302,7 +332,7 @@ def calib_inverse(x, y, reading, replicates=None, order=None, level=None, weight
     def compute():
         cal, chosen, _ = _fitted(prep, k)
         rows = _rows(size, 4, notes)
-        for i, e in zip(filled, engine.inverse(cal, values, chosen, reps, lev)):
+        for i, e in zip(filled, engine.inverse(cal, values, chosen, reps, lev) if values.size else ()):
             rows[i] = _column((e.x, e.lower, e.upper)) + [e.note or None]
         return rows
 
@@ -507,7 +537,7 @@ def calib_weighting(x, y, order=None, alpha=None, exclude=None):
         rows = [list(HEADERS["weighting"])]
         for r in engine.compare_weightings(prep.x, prep.y, k, a):
             rows.append([r.scheme, r.order, *_column((r.sum_abs_deviation, r.max_abs_deviation, r.spread_p)),
-                         "picked" if r.picked else None, r.note or None])
+                         "picked" if r.picked else None, prep.located(r.note) or None])
         return rows
 
     return _cached("weighting", prep, (k, a), compute)

@@ -12,8 +12,9 @@ factorisation and a changed cell is never served stale.
 
 from __future__ import annotations
 
+import re
 from collections import OrderedDict
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 
@@ -47,8 +48,10 @@ class Prepared:
     y: np.ndarray
     weights: object  # None, a scheme name or an array over the used points
     key: tuple  # the content: what the calibration depends on
-    layout: tuple  # where the points sit in the input: what aligned outputs and messages depend on
+    layout: tuple  # where the points sit in the input and what is recorded of the excluded standards (their
+    # positions, values and reasons): what aligned outputs and messages depend on beyond ``key``
     excluded: tuple = ()  # Excluded standards, in input order
+    names: dict = field(default_factory=dict)  # {engine argument: its cell argument}: x, y or ref_x, ref_y
 
     @property
     def n_input(self) -> int:
@@ -57,6 +60,18 @@ class Prepared:
     @property
     def skipped(self) -> int:
         return self.n_input - self.used.size - len(self.excluded)
+
+    def located(self, text: str) -> str:
+        """An engine message or note with each point it names ("x[3]", "weights[0]": the engine's argument
+        and index) given as its cell ("x, row 5 of 12")."""
+        if "[" not in text:
+            return text
+
+        def cell(m: re.Match) -> str:
+            cells = self.x_cells._replace(name=self.names.get(m[1], m[1]))
+            return cells.where(int(self.used[int(m[2])]))
+
+        return re.sub(r"\b(x|y|weights)\[(\d+)\]", cell, text)
 
     def label(self, point: int) -> str:
         """Position of engine point ``point`` in the input range (e.g. 'standard 7 of 24')."""
@@ -69,7 +84,7 @@ class Prepared:
         return f"standard {e.position + 1} of {self.n_input}, {values}: {e.reason}"
 
 
-def _weights(weights, x_cells: Cells, used: np.ndarray, x: np.ndarray, y: np.ndarray):
+def _weights(weights, x_cells: Cells, used: np.ndarray):
     if is_omitted(weights):
         return None, b""
     single = weights
@@ -80,14 +95,7 @@ def _weights(weights, x_cells: Cells, used: np.ndarray, x: np.ndarray, y: np.nda
         if key not in SCHEMES:
             raise CellError(f"weights: '{single}' is not a weighting; use one of "
                             + ", ".join(f"'{s}'" for s in SCHEMES) + " or a range of positive numbers")
-        which = key[2]
-        values = x if which == "x" else y
-        bad = np.flatnonzero(~(values > 0))
-        if bad.size:
-            i = int(used[bad[0]])
-            raise CellError(f"{which}, {x_cells.axis} {i + 1} of {x_cells.size}: weights '{key}' "
-                            f"need every {which} > 0, but this {which} is {values[bad[0]]:g}")
-        return key, key.encode()
+        return key, key.encode()  # the engine checks that the scheme applies
     cells = flatten(weights, "weights")
     if cells.size != x_cells.size:
         raise CellError(f"weights has {cells.size} cells and x has {x_cells.size}: "
@@ -101,10 +109,8 @@ def _weights(weights, x_cells: Cells, used: np.ndarray, x: np.ndarray, y: np.nda
         why = describe(v)
         if why is not None:
             raise CellError(f"{cells.where(i)}: {why}; enter a positive number")
-        if not float(v) > 0:
-            raise CellError(f"{cells.where(i)}: the weight {number(v):g} is not positive; enter a positive number")
         w[j] = number(v)
-    return w, w.tobytes()
+    return w, w.tobytes()  # the engine checks that each is positive
 
 
 def prepare(x, y, weights=None, exclude=None) -> Prepared:
@@ -169,10 +175,11 @@ def _prepare(x_cells: Cells, y_cells: Cells, weights, exclude: Cells | None = No
         xu, yu = xv[used], yv[used]
     else:
         used, xu, yu = np.arange(xv.size), xv, yv
-    w, wkey = _weights(weights, x_cells, used, xu, yu)
-    layout = (x_cells.axis, x_cells.size, n, used.tobytes())
+    w, wkey = _weights(weights, x_cells, used)
+    record = tuple((e.position, e.reason, e.x.hex(), e.y.hex()) for e in excluded)  # hex: a nan equals itself
+    layout = (x_cells.axis, x_cells.size, n, used.tobytes(), record)
     key = (xu.tobytes(), yu.tobytes(), wkey) + ((repr(sorted(reasons.items())),) if reasons else ())
-    return Prepared(x_cells, used, xu, yu, w, key, layout, excluded)
+    return Prepared(x_cells, used, xu, yu, w, key, layout, excluded, {"x": x_cells.name, "y": y_cells.name})
 
 
 class LRU:
@@ -214,8 +221,8 @@ def calibration(prep: Prepared, max_order=None) -> engine.Calibration:
             return engine.Calibration(prep.x, prep.y, max_order=max_order, weights=prep.weights)
         except engine.DataError as err:
             extra = f" ({prep.skipped} of {prep.n_input} rows skipped as blank)" if prep.skipped else ""
-            raise CellError(f"{err.message}{extra}") from None
+            raise CellError(f"{prep.located(err.message)}{extra}") from None
         except engine.CalibrationError as err:
-            raise CellError(err.message) from None
+            raise CellError(prep.located(err.message)) from None
 
     return CALIBRATIONS.get((prep.key, max_order), make)
