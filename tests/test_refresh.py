@@ -91,9 +91,9 @@ def test_refresh_stores_what_the_functions_return(tmp_path):
                                                    for r in degreewise.calib_seqf(xs, ys)]
     stats = degreewise.calib_stats(xs, ys, 2)
     assert values(path, "Summary", "H1", len(stats), 2) == stats
-    # whole columns carry the header text, exactly as the spreadsheet would pass it
+    # whole columns carry the header text and every row of the sheet, exactly as the spreadsheet passes them
     assert values(path, "Summary", "A22", 1, 1) == [[
-        "x, row 1 of 13: the text 'conc' is not a number; enter a number or clear the cell"]]
+        "x, row 1 of 1048576: the text 'conc' is not a number; enter a number or clear the cell"]]
     # formulas unchanged, arrays marked dynamic
     wb = openpyxl.load_workbook(path)
     assert wb["Run 2"]["D1"].value == "=CALIB_ORDER(A2:A13,B2:B13)"

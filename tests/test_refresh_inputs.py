@@ -2,12 +2,17 @@
 whole columns (a refresh computes what the cells would hold, and a second refresh changes nothing)."""
 
 from pathlib import Path
+from types import SimpleNamespace
 
 import numpy as np
 import openpyxl
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from degreewise.commands.arithmetic import evaluate_arithmetic
+from degreewise.commands.dependencies import graph_of
+from degreewise.commands.formula import Area, Call, areas_of
 from degreewise.commands.refresh import refresh_file
 
 X = [0.0, 5.0, 10.0, 20.0, 40.0, 60.0, 80.0, 100.0, 120.0, 140.0, 160.0, 200.0]
@@ -172,7 +177,49 @@ def test_a_whole_column_message_does_not_follow_the_sheet_and_a_second_refresh_c
     wb.save(path)
     refresh_file(path, workers=1)
     (text,), = values(path, "Sheet", "D1:D1")
-    assert text.startswith("x, row 1 of 13: ")  # the column's last stored cell, not the sheet's (now D40's table)
+    assert text.startswith("x, row 1 of 1048576: ")  # a whole column, as the program hands it over
     refresh_file(path, workers=1)
     assert check(path)[0].endswith("nothing would change")
     assert values(path, "Sheet", "D1:D1") == [[text]]
+
+
+def test_ranges_past_the_sheet_are_refused_and_huge_ranges_cost_a_pointer_per_row(tmp_path):
+    wb = openpyxl.Workbook()
+    ws = wb.active
+    ws.title = "Data"
+    standards(ws)
+    out = wb.create_sheet("Out")
+    out["A1"] = "=CALIB_COEFS(Data!A1:XFD1048576,Data!B2:B13)"
+    out["A3"] = "=CALIB_PREDICT(Data!A2:A13,Data!B2:B13,Data!A1:A9999999)"
+    out["A5"] = "=CALIB_PREDICT(Data!A2:A13,Data!B2:B13,Data!D:D)"
+    path = tmp_path / "huge.xlsx"
+    wb.save(path)
+    report = refresh_file(path, workers=1)
+    assert report.left_alone == [("Out!A3", "the range Data!A1:A9999999 reaches beyond the sheet's last row "
+                                            "(1048576) or column (XFD)")]
+    assert report.messages == [("Out!A1", "x: the range is 1048576 rows by 16384 columns; give a single row or "
+                                          "column")]
+    assert values(path, "Out", "A5:F6") == [[None] * 5 + ["new_x: no values yet; the results appear when the "
+                                                           "cells are filled"], [None] * 6]
+
+
+def _brute_force_graph(by_cell):
+    """The dependency graph by comparing every range with every formula (the definition)."""
+    return {key: {k for a in areas_of(f.call) for k, g in by_cell.items() if k != key and (
+        a.contains(g.sheet, g.row, g.col) or (g.previous is not None and a.overlaps(g.previous)))}
+        for key, f in by_cell.items()}
+
+
+@settings(max_examples=60, deadline=None, derandomize=True)
+@given(st.lists(st.tuples(st.sampled_from("ST"), st.integers(1, 30), st.integers(1, 8),
+                          st.sampled_from("ST"), st.integers(1, 30), st.integers(0, 12), st.integers(1, 8),
+                          st.integers(0, 3), st.booleans(), st.integers(1, 12), st.integers(1, 4)),
+                min_size=1, max_size=40))
+def test_the_indexed_graph_equals_the_definition(specs):
+    by_cell = {}
+    for sheet, row, col, on, top, rows, left, cols, whole, height, width in specs:
+        area = Area(on, None if whole else top, left, None if whole else top + rows, left + cols)
+        previous = Area(sheet, row, col, row + height - 1, col + width - 1) if height * width > 1 else None
+        by_cell[(sheet, row, col)] = SimpleNamespace(sheet=sheet, row=row, col=col, previous=previous,
+                                                     call=Call("CALIB_ORDER", (area,)))
+    assert graph_of(by_cell) == _brute_force_graph(by_cell)

@@ -146,22 +146,24 @@ def flatten(value, name: str) -> Cells:
     """A scalar, a row, a column or a one-wide block as one sequence of cells, cut after its last filled cell."""
     if not isinstance(value, (list, tuple)):
         return Cells(name, () if is_blank(value) else (value,), "row", 1)
-    shared = len(value) > 1 and value[-1] is value[-2] and value[-1] == [None]  # blank rows put back by xlwings
-    rows = value[:filled_length(value, value[-1])] if shared else value
+    last = value[-1] if value else None
+    # blank rows put back as one shared row (by xlwings' converter, or the refresh for a range past the data)
+    shared = len(value) > 1 and last is value[-2] and isinstance(last, list) and last.count(None) == len(last)
+    rows = value[:filled_length(value, last)] if shared else value
     column = one_wide(rows)
     if column is not None:  # the usual case
         return Cells(name, column[:filled_length(column)], "row", len(value))
-    rows = [list(r) if isinstance(r, (list, tuple)) else [r] for r in value]
+    rows = [list(r) if isinstance(r, (list, tuple)) else [r] for r in rows]
     if not rows:
-        return Cells(name, (), "row", 0)
-    width = max(len(r) for r in rows)
-    if len(rows) == 1 and width > 1:
+        return Cells(name, (), "row", len(value))
+    width = max(len(r) for r in (*rows, last if shared else ()))
+    if len(value) == 1 and width > 1:
         cells = rows[0]
         return Cells(name, tuple(cells[:filled_length(cells)]), "column", width)
     if width == 1:
         cells = [r[0] if r else None for r in rows]
-        return Cells(name, tuple(cells[:filled_length(cells)]), "row", len(rows))
-    raise CellError(f"{name}: the range is {len(rows)} rows by {width} columns; give a single row or column")
+        return Cells(name, tuple(cells[:filled_length(cells)]), "row", len(value))
+    raise CellError(f"{name}: the range is {len(value)} rows by {width} columns; give a single row or column")
 
 
 def cell_numbers(cells: Cells) -> tuple[np.ndarray, np.ndarray, list]:

@@ -16,6 +16,7 @@ from dataclasses import dataclass
 
 from ..catalogue import FUNCTIONS
 from ..xlsx.cells import CELL, column_letters, column_number
+from ..xlsx.package import MAX_COL, MAX_ROW
 
 NAMES = frozenset(name.upper() for name in FUNCTIONS)  # the family, as the spreadsheet shows it
 MENTION = re.compile(r"CALIB_[A-Z]+\s*\(", re.IGNORECASE)
@@ -192,6 +193,8 @@ def _argument(text: str, sheet: str, names: dict):
         return parse_call(t, sheet, names)
     area = reference(t, sheet)
     if area is not None:
+        if area.right > MAX_COL or (area.top is not None and area.bottom > MAX_ROW):
+            raise Unsupported(f"the range {t} reaches beyond the sheet's last row ({MAX_ROW}) or column (XFD)")
         return area
     if _NAME.match(t):
         target = names.get((sheet, t.upper()), names.get((None, t.upper())))

@@ -35,6 +35,7 @@ from ..catalogue import TEXT_ANSWERS
 from ..xlsx.cells import cell_name, column_letters
 from ..xlsx.package import (MAX_COL, MAX_ROW, PackageError, SheetText, Workbook, dynamic_array_metadata, read_package,
                             set_full_calc_on_load, text_of, write_package)
+from .dependencies import graph_of
 from .formula import (MENTION, Area, Call, Constant, Unsupported, areas_of, parse_call, quote_sheet, reference,
                       shift_references)
 
@@ -221,18 +222,20 @@ def lock_file(path: Path) -> Path | None:
 
 
 def _block(sheet: Sheet, area: Area):
-    """Cell values of ``area`` as the spreadsheet passes them: a scalar for one cell, else rows. A whole
-    column ends at its last stored cell (not at the sheet's, which a refresh's own results move)."""
-    values = sheet.values
-    if area.top is None:
-        top, bottom = 1, max((r for (r, c) in (*values, *sheet.formulas) if area.left <= c <= area.right),
-                             default=1)
+    """Cell values of ``area`` as the spreadsheet passes them: a scalar for one cell, else rows (a whole
+    column down to the sheet's last row, as the program hands it). Rows past the last stored cell are one
+    shared blank row, as xlwings' converter puts them back, so a huge range costs a pointer per row."""
+    values, width = sheet.values, area.right - area.left + 1
+    top, bottom = (1, MAX_ROW) if area.top is None else (area.top, area.bottom)
+    filled = bottom
+    if (bottom - top + 1) * width > len(values) + len(sheet.formulas):  # larger than the stored cells
+        filled = max((r for (r, c) in (*values, *sheet.formulas) if top <= r <= bottom
+                      and area.left <= c <= area.right), default=top - 1)
+    if width == 1:  # the usual case, one column
+        rows = [[values.get((r, area.left))] for r in range(top, filled + 1)]
     else:
-        top, bottom = area.top, area.bottom
-    if area.left == area.right:  # the usual case, one column
-        rows = [[values.get((r, area.left))] for r in range(top, bottom + 1)]
-    else:
-        rows = [[values.get((r, c)) for c in range(area.left, area.right + 1)] for r in range(top, bottom + 1)]
+        rows = [[values.get((r, c)) for c in range(area.left, area.right + 1)] for r in range(top, filled + 1)]
+    rows += [[None] * width] * (bottom - filled)
     return rows[0][0] if len(rows) == 1 and len(rows[0]) == 1 else rows
 
 
@@ -365,13 +368,7 @@ class Refresher:
             if f.attrs.get("t") == "array" and f.attrs.get("ref"):
                 f.previous = reference(f.attrs["ref"], f.sheet)
             by_cell[(f.sheet, f.row, f.col)] = f
-        on_sheet: dict[str, list] = {}
-        for key, g in by_cell.items():
-            on_sheet.setdefault(g.sheet, []).append((key, g))
-        graph = {}
-        for key, f in by_cell.items():
-            graph[key] = {k for a in areas_of(f.call) for k, g in on_sheet.get(a.sheet, ()) if k != key and (
-                a.contains(g.sheet, g.row, g.col) or (g.previous is not None and a.overlaps(g.previous)))}
+        graph = graph_of(by_cell)
         # the cm index a dynamic array will carry, found on a copy; the parts change only if one is written
         cm = dynamic_array_metadata(dict(self.parts), self.book.workbook_part, self.book.workbook_rels)[0] \
             if by_cell else None
