@@ -1,6 +1,7 @@
 """What the refresh reads: formula cells without stored values, spills not yet stored, array constants and
 whole columns (a refresh computes what the cells would hold, and a second refresh changes nothing)."""
 
+import zipfile
 from pathlib import Path
 from types import SimpleNamespace
 
@@ -223,3 +224,39 @@ def test_the_indexed_graph_equals_the_definition(specs):
         by_cell[(sheet, row, col)] = SimpleNamespace(sheet=sheet, row=row, col=col, previous=previous,
                                                      call=Call("CALIB_ORDER", (area,)))
     assert graph_of(by_cell) == _brute_force_graph(by_cell)
+
+
+def _sheet_with(path: Path, extra_rows: str) -> Path:
+    """The workbook with ``extra_rows`` put at the end of its first sheet's cells, as a hand-edited file holds."""
+    with zipfile.ZipFile(path) as z:
+        parts = {i.filename: z.read(i) for i in z.infolist()}
+    xml = parts["xl/worksheets/sheet1.xml"].decode()
+    at = xml.index("</sheetData>")
+    parts["xl/worksheets/sheet1.xml"] = (xml[:at] + extra_rows + xml[at:]).encode()
+    with zipfile.ZipFile(path, "w") as z:
+        for name, data in parts.items():
+            z.writestr(name, data)
+    return path
+
+
+@pytest.mark.parametrize("extra, why", [
+    ('<row r="30"><c r="A30"><v>7</v></c></row><row r="30"><c r="B30"><v>8</v></c></row>',
+     "has row 30 twice; a refresh would lose one of them"),
+    ('<row r="30"><c r="A30"><v>7</v></c><c r="A30"><v>8</v></c></row>',
+     "has the cell A30 twice; a refresh would lose one of them"),
+    ('<row r="30"><c r="A30"><v>7</v></c></row><!-- <row r="31"><c r="A31"><v>8</v></c></row> -->',
+     "holds a comment among its cells, which the refresh does not edit"),
+])
+def test_malformed_rows_are_refused_in_words_and_the_file_kept(tmp_path, extra, why):
+    wb = openpyxl.Workbook()
+    ws = wb.active
+    standards(ws)
+    ws["D2"] = "=CALIB_COEFS(A2:A13,B2:B13,1)"
+    path = tmp_path / "rows.xlsx"
+    wb.save(path)
+    before = _sheet_with(path, extra).read_bytes()
+    report = refresh_file(path, workers=1)
+    assert report.error == (f"part xl/worksheets/sheet1.xml {why}" + (
+        ": open and save the workbook in the spreadsheet program, then refresh it" if "twice" in why else
+        "; open and save the workbook in the spreadsheet program, then refresh it"))
+    assert path.read_bytes() == before

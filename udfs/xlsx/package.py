@@ -319,14 +319,26 @@ class SheetText:
         self.rows: dict[int, list] = {}  # row -> [open tag attrs text, {col: cell xml}, changed]
         self.order: list[int] = []
         self._cell = re.compile(rf"<{p}c\b([^>]*?)(?:/>|>(.*?)</{p}c>)", re.S)
+        body = data.group(1) or ""
+        for mark, what in (("<!--", "a comment"), ("<?", "a processing instruction"), ("<![CDATA[", "a CDATA section")):
+            if mark in body:  # row markup inside one would be taken for a row of cells
+                raise PackageError(f"part {name} holds {what} among its cells, which the refresh does not edit; "
+                                   "open and save the workbook in the spreadsheet program, then refresh it")
         row_no = 0
-        for rm in re.finditer(rf"<{p}row\b([^>]*?)(?:/>|>(.*?)</{p}row>)", data.group(1) or "", re.S):
+        for rm in re.finditer(rf"<{p}row\b([^>]*?)(?:/>|>(.*?)</{p}row>)", body, re.S):
             attrs = _attrs(rm.group(1))
             row_no = int(attrs.get("r", row_no + 1))
+            if row_no in self.rows:
+                raise PackageError(f"part {name} has row {row_no} twice; a refresh would lose one of them: "
+                                   "open and save the workbook in the spreadsheet program, then refresh it")
             cells, col_no = {}, 0
             for cm in self._cell.finditer(rm.group(2) or ""):
                 ref = _CELL_REF.search(cm.group(1))
                 col_no = column_number(ref.group(1)) if ref else col_no + 1
+                if col_no in cells:
+                    raise PackageError(f"part {name} has the cell {column_letters(col_no)}{row_no} twice; a refresh "
+                                       "would lose one of them: open and save the workbook in the spreadsheet "
+                                       "program, then refresh it")
                 cells[col_no] = cm.group(0)
             self.rows[row_no] = [rm.group(1), cells, False, rm.group(0)]
             self.order.append(row_no)
