@@ -172,7 +172,10 @@ def test_sheet_scoped_name_counts_chartsheets_in_workbook_order(tmp_path):
     wb.save(path)
     # openpyxl counts worksheets only; the program counts every sheet, so Lab A's scope is index 1
     book = entries(path)["xl/workbook.xml"].decode()
-    assert '<sheet name="Overview" sheetId="1"' in book and 'localSheetId="0">\'Lab A\'' in book
+    root = ElementTree.fromstring(book)
+    main = "{http://schemas.openxmlformats.org/spreadsheetml/2006/main}"
+    assert [s.get("name") for s in root.iter(main + "sheet")][0] == "Overview"
+    assert {d.get("localSheetId"): d.text for d in root.iter(main + "definedName")}["0"] == "'Lab A'!$B$2:$B$13"
     rewrite(path, {"xl/workbook.xml": book.replace('localSheetId="0"', 'localSheetId="1"').encode()})
     report = refresh_file(path)
     assert report.ok, report.lines()

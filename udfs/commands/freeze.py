@@ -12,22 +12,23 @@ the functions returned.
 
 from __future__ import annotations
 
+import hashlib
 import os
 import re
 import tempfile
 import time
 from pathlib import Path
 
+from lxml import etree
+
 from .. import VERSION
-from ..xlsx.package import PackageError, SheetText, escape, read_package, write_package
+from ..xlsx.package import PackageError, SheetText, add_part, edit_xml, read_package, write_package, xml_bytes
 from .refresh import Refresher, Report
 
 CORE = "docProps/core.xml"
 CORE_TYPE = "application/vnd.openxmlformats-package.core-properties+xml"
 CORE_REL = "http://schemas.openxmlformats.org/package/2006/relationships/metadata/core-properties"
-CORE_XML = ('<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n<cp:coreProperties '
-            'xmlns:cp="http://schemas.openxmlformats.org/package/2006/metadata/core-properties" '
-            'xmlns:dc="http://purl.org/dc/elements/1.1/"></cp:coreProperties>')
+CP, DC = "http://schemas.openxmlformats.org/package/2006/metadata/core-properties", "http://purl.org/dc/elements/1.1/"
 
 
 def frozen_cell(xml: str, p: str) -> str:
@@ -41,36 +42,31 @@ def frozen_cell(xml: str, p: str) -> str:
     return xml
 
 
-def note(when: str) -> str:
-    return (f"Frozen by Degreewise {VERSION} on {when}: every CALIB_* formula was replaced by the value it "
-            "returned; the copy no longer recomputes.")
+def note(book: Path, digest: str, when: str) -> str:
+    """The record a frozen copy carries: what it was made from (name and SHA-256), by what, and when."""
+    import numpy
+    import scipy
+
+    return (f"Frozen by Degreewise {VERSION} (numpy {numpy.__version__}, scipy {scipy.__version__}) on {when} "
+            f"from {book.name}, SHA-256 {digest}: every CALIB_* formula was replaced by the value it returned; "
+            f"the copy no longer recomputes. To check that a workbook is the one it was made from, compare its "
+            f"SHA-256 (sha256sum {book.name}; on Windows certutil -hashfile {book.name} SHA256).")
 
 
 def _describe(parts: dict[str, bytes], text: str) -> list[str]:
-    """docProps/core.xml with ``text`` put before any existing description; names of parts added."""
+    """docProps/core.xml (added if missing) with ``text`` put before any existing description, edited as an
+    XML tree; the names of the parts added."""
     added = []
     if CORE not in parts:
-        parts[CORE] = CORE_XML.encode()
+        empty = etree.Element(f"{{{CP}}}coreProperties", nsmap={"cp": CP, "dc": DC})
+        add_part(parts, CORE, xml_bytes(empty), CORE_TYPE, "", CORE_REL)
         added.append(CORE)
-        types = parts["[Content_Types].xml"].decode("utf-8")
-        parts["[Content_Types].xml"] = re.sub(
-            r"</(\w+:)?Types>", lambda m: f'<{m.group(1) or ""}Override PartName="/{CORE}" '
-            f'ContentType="{CORE_TYPE}"/></{m.group(1) or ""}Types>', types, count=1).encode("utf-8")
-        rels = parts["_rels/.rels"].decode("utf-8")
-        parts["_rels/.rels"] = re.sub(
-            r"</(\w+:)?Relationships>", lambda m: f'<{m.group(1) or ""}Relationship Id="rIdFrozenCore" '
-            f'Type="{CORE_REL}" Target="{CORE}"/></{m.group(1) or ""}Relationships>', rels, count=1).encode("utf-8")
-    xml = parts[CORE].decode("utf-8")
-    m = re.search(r"<dc:description>(.*?)</dc:description>", xml, re.S)
-    if m:
-        xml = xml[: m.start(1)] + escape(text) + "\n" + xml[m.start(1):]
-    else:
-        if "xmlns:dc=" not in xml:
-            xml = re.sub(r"<cp:coreProperties\b", '<cp:coreProperties xmlns:dc="http://purl.org/dc/elements/1.1/"',
-                         xml, count=1)
-        xml = re.sub(r"</cp:coreProperties>", f"<dc:description>{escape(text)}</dc:description></cp:coreProperties>",
-                     xml, count=1)
-    parts[CORE] = xml.encode("utf-8")
+    root = edit_xml(CORE, parts[CORE])
+    description = root.find(f"{{{DC}}}description")
+    if description is None:  # lxml declares the dc prefix where the file does not
+        description = etree.SubElement(root, f"{{{DC}}}description", nsmap={"dc": DC})
+    description.text = text + ("\n" + description.text if description.text else "")
+    parts[CORE] = xml_bytes(root)
     return added
 
 
@@ -93,7 +89,8 @@ def freeze(book: Path, out: Path) -> Report:
             text.set_cell(f.row, f.col, frozen_cell(text.rows[f.row][1][f.col], re.escape(text.p)))
         for part, text in edits.items():
             parts[part] = text.render().encode("utf-8")
-        added += _describe(parts, note(time.strftime("%Y-%m-%d %H:%M:%S %z")))
+        digest = hashlib.sha256(book.read_bytes()).hexdigest()
+        added += _describe(parts, note(book, digest, time.strftime("%Y-%m-%d %H:%M:%S %z")))
         fd, tmp = tempfile.mkstemp(prefix=".~degreewise-", suffix=out.suffix, dir=out.parent)
         os.close(fd)
         try:

@@ -18,6 +18,7 @@ from dataclasses import dataclass, field
 
 from defusedxml import ElementTree as SafeET
 from defusedxml.common import DefusedXmlException
+from lxml import etree
 
 from .cells import cell_name, column_letters, column_number, parse_cell
 
@@ -85,6 +86,49 @@ def parse_xml(name: str, data: bytes):
         raise PackageError(f"broken XML in {name}: {err}") from None
 
 
+CONTENT_TYPES = "http://schemas.openxmlformats.org/package/2006/content-types"
+PACKAGE_RELS = "http://schemas.openxmlformats.org/package/2006/relationships"
+# lxml for the parts the refresh and freeze edit as trees: prefixes and namespace declarations stay as the
+# file has them. A part is first read by parse_xml (defusedxml: no DTD, no entity), then by this parser,
+# which resolves no entity and reaches no network either.
+_EDIT = etree.XMLParser(resolve_entities=False, no_network=True, load_dtd=False, remove_blank_text=False)
+
+
+def edit_xml(name: str, data: bytes):
+    """A part as an lxml tree to edit (refused like parse_xml refuses it)."""
+    parse_xml(name, data)
+    return etree.fromstring(data, _EDIT)
+
+
+def xml_bytes(root) -> bytes:
+    """An edited tree as a part, with the declaration spreadsheet programs write."""
+    return etree.tostring(root, xml_declaration=True, encoding="UTF-8", standalone=True)
+
+
+def rels_name(part: str) -> str:
+    """The relationships part of ``part`` ("" for the package itself)."""
+    folder, base = posixpath.split(part)
+    return posixpath.join(folder, "_rels", base + ".rels")
+
+
+def add_part(parts: dict, name: str, data: bytes, content_type: str, owner: str, rel_type: str) -> None:
+    """Put the new part ``name`` into ``parts``, declared in [Content_Types].xml (an Override) and related
+    from ``owner`` ("" for the package) under the first free rIdN; both edited as XML trees."""
+    parts[name] = data
+    types = edit_xml("[Content_Types].xml", parts["[Content_Types].xml"])
+    etree.SubElement(types, f"{{{CONTENT_TYPES}}}Override", PartName="/" + name, ContentType=content_type)
+    parts["[Content_Types].xml"] = xml_bytes(types)
+    rels = rels_name(owner)
+    root = edit_xml(rels, parts[rels]) if rels in parts else etree.Element(f"{{{PACKAGE_RELS}}}Relationships",
+                                                                          nsmap={None: PACKAGE_RELS})
+    ids, n = {r.get("Id") for r in root}, 1
+    while f"rId{n}" in ids:
+        n += 1
+    target = posixpath.relpath(name, posixpath.dirname(owner) or ".")
+    etree.SubElement(root, f"{{{PACKAGE_RELS}}}Relationship", Id=f"rId{n}", Type=rel_type, Target=target)
+    parts[rels] = xml_bytes(root)
+
+
 def read_package(path) -> tuple[list[zipfile.ZipInfo], dict[str, bytes]]:
     """Every entry of the zip at ``path`` with its unpacked bytes, within the limits."""
     try:
@@ -149,8 +193,8 @@ class Sheet:
 
 
 def _rels(parts: dict[str, bytes], part: str) -> dict[str, tuple[str, str]]:
-    folder, base = posixpath.split(part)
-    name = posixpath.join(folder, "_rels", base + ".rels")
+    folder = posixpath.dirname(part)
+    name = rels_name(part)
     if name not in parts:
         return {}
     out = {}
@@ -463,23 +507,8 @@ def dynamic_array_metadata(parts: dict[str, bytes], workbook_part: str, rels: di
             xml, index = _merge_dynamic_record(existing, text_of(existing, parts[existing]))
             parts[existing] = xml.encode("utf-8")
         return index, []
-    folder = posixpath.dirname(workbook_part)
-    name = posixpath.join(folder, "metadata.xml")
-    parts[name] = METADATA_XML.encode()
-    rels_name = posixpath.join(folder, "_rels", posixpath.basename(workbook_part) + ".rels")
-    text = text_of(rels_name, parts[rels_name])
-    ids = set(re.findall(r'Id="([^"]+)"', text))
-    n = 1
-    while f"rId{n}" in ids:
-        n += 1
-    text = re.sub(r"</(\w+:)?Relationships>",
-                  lambda m: f'<{m.group(1) or ""}Relationship Id="rId{n}" Type="{METADATA_REL}" '
-                            f'Target="metadata.xml"/></{m.group(1) or ""}Relationships>', text, count=1)
-    parts[rels_name] = text.encode("utf-8")
-    types = text_of("[Content_Types].xml", parts["[Content_Types].xml"])
-    types = re.sub(r"</(\w+:)?Types>", lambda m: f'<{m.group(1) or ""}Override PartName="/{name}" '
-                   f'ContentType="{METADATA_TYPE}"/></{m.group(1) or ""}Types>', types, count=1)
-    parts["[Content_Types].xml"] = types.encode("utf-8")
+    name = posixpath.join(posixpath.dirname(workbook_part), "metadata.xml")
+    add_part(parts, name, METADATA_XML.encode(), METADATA_TYPE, workbook_part, METADATA_REL)
     return "1", [name]
 
 
