@@ -171,20 +171,19 @@ def test_demo_command_writes_refreshed_workbooks(tmp_path, capsys):
     assert "chosen order 1:" in out and "does not replace, method validation" in out
     # units, points, levels, range, every setting, one way of writing p-values, and the reports written
     assert "  x: tracer Q (ug/L), 21 points at 7 levels, from 0.5 to 40; y: detector counts" in out
-    assert ("  settings: rule stepdown (default); alpha 0.05 (default); max order 4 (default); order 1 from "
-            "'Weighted'!E1; level 0.95 (default); weights 1/x^2; exclude none") in out
+    assert "  Weighted!N26: order 'Weighted'!E1 (= 1); weights 1/x^2; exclude none" in out  # the STATS cell's own
     for name in SCENARIOS:
         report = tmp_path / "out" / f"degreewise-demo-{name}-report.pdf"
         assert f"  report: {report}" in out and report.read_bytes().startswith(b"%PDF-")
     p_values = re.findall(r"lack-of-fit p (\S+)", out)
     assert len(p_values) == 3 and all(re.fullmatch(r"0\.\d{3}", p) for p in p_values)
     # limits on every sheet, blank readings where the scenario has them, the weighting picked on the weighted one
-    assert out.count("  limits in x (estimates from one calibration, to be confirmed with samples near the "
-                     "limit):") == 3
+    assert len(re.findall(r"^  limits in x \(\w+!J\d+; estimates from one calibration, to be confirmed with "
+                          r"samples near the limit\):$", out, re.M)) == 3
     assert len(re.findall(r"^    prediction band   decision \S+, detection \S+, quantitation \S+$", out, re.M)) == 2
     assert len(re.findall(r"^    blank readings    decision \S+, detection \S+, quantitation \S+$", out, re.M)) == 2
     assert "    prediction band   none: weights '1/x^2' give a new reading at x = 0 zero variance" in out
-    assert len(re.findall(r"^  weighting \S+ picked \(at order 1\): ", out, re.M)) == 1
+    assert len(re.findall(r"^  weighting \S+ picked \(at order 1; Weighted!I104\): ", out, re.M)) == 1
 
 
 def test_validate_command(capsys):

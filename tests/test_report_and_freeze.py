@@ -78,9 +78,9 @@ def test_report_shows_what_the_functions_return(reports, name, paper):
     x, y, w = standards(name)
     order = degreewise.calib_order(x, y, None, None, None, w)
     assert order == SCENARIOS[name].expected_order
-    assert f"Chosen order: {order}" in text
+    assert re.search(rf"Chosen order: [A-Z][a-z]+!E1 =CALIB_ORDER\(.*? order {order} ", text)  # the cell, as stored
     stats = dict(degreewise.calib_stats(x, y, order, w)[1:])
-    assert f"Why this order: {words(stats['why this order'])}" in text
+    assert f"why this order {words(stats['why this order'])[:60]}" in text
     for term, b, se, t, p, lower, upper in degreewise.calib_coefs(x, y, order, None, w)[1:]:
         assert re.search(rf"{re.escape(term)} {re.escape(number(b, 10))} {re.escape(number(se))} ", text), term
     for row in degreewise.calib_seqf(x, y, None, w)[1:]:  # the sequential table, row by row
@@ -97,9 +97,7 @@ def test_report_shows_what_the_functions_return(reports, name, paper):
 def test_report_pages_render_none_blank_nothing_beyond_the_margins(reports, name, paper, tmp_path):
     pdf = reports[name, paper]
     pages = page_count(pdf)
-    # front matter and charts, tables, back-calculated standards and samples; the limits, the weighting schemes
-    # (weighted) and the comparison with last month (straight) push the tables onto a fourth page
-    assert pages == {("curved", "a4"): 3}.get((name, paper), 4)
+    assert pages == {"weighted": 6}.get(name, 5)  # every CALIB_* cell, the 41-point prediction table too
     subprocess.run(["pdftoppm", "-r", "30", "-png", str(pdf), str(tmp_path / "p")], check=True)
     assert len(list(tmp_path.glob("p-*.png"))) == pages
     for page in range(1, pages + 1):
@@ -129,6 +127,7 @@ def test_a_long_table_repeats_its_header_on_every_page(tmp_path):
         ws.cell(i + 2, 1, x)
         ws.cell(i + 2, 2, 0.1 + 0.5 * x + 0.01 * ((i * 7919) % 13 - 6))
     ws["D1"] = "=CALIB_COEFS(A2:A121,B2:B121)"
+    ws["L1"] = "=CALIB_RESIDUALS(A2:A121,B2:B121)"
     book = tmp_path / "long.xlsx"
     wb.save(book)
     pdf = write_report(book, tmp_path / "long.pdf")[0]
@@ -253,5 +252,60 @@ def test_report_shows_the_comparison_with_an_earlier_calibration(reports):
     text = words(pdf_text(reports["straight", "a4"]))
     wb = openpyxl.load_workbook(FOLDER / "degreewise-demo-straight.xlsx", data_only=True)
     same_curve = [c.value for c in wb["Compare"][2]][5:13]  # F2:M2, as the refresh stored them
-    assert "Compared with an earlier calibration (Compare!F1)" in text
+    assert "Compared with an earlier calibration: Compare!F1" in text
     assert f"same curve {number(same_curve[6], 3)} {same_curve[7]} F = " in text  # p to 3 digits
+
+
+@needs_poppler
+def test_every_number_in_the_report_is_a_cell_of_the_workbook_with_its_own_settings(tmp_path):
+    """A main calibration, side checks at other settings and a sheet of wrong formulas: each table names its
+    cell, formula and settings, and every number printed is a value the refreshed workbook holds."""
+    wb = openpyxl.Workbook()
+    ws = wb.active
+    ws.title = "Run"
+    ws["A1"], ws["B1"] = "conc", "signal"
+    x = [1.0, 1.0, 2.0, 2.0, 5.0, 5.0, 10.0, 10.0, 20.0, 20.0, 40.0, 40.0]
+    y = [17.3, 16.4, 28.8, 29.9, 64.1, 63.0, 117.2, 118.6, 211.0, 209.2, 367.1, 368.9]  # invented
+    for i, (a, b) in enumerate(zip(x, y), start=2):
+        ws.cell(i, 1, a)
+        ws.cell(i, 2, b)
+    ws["D1"] = "=CALIB_ORDER(A2:A13,B2:B13)"
+    ws["D3"] = "=CALIB_COEFS(A2:A13,B2:B13,D1)"
+    ws["D8"] = "=CALIB_STATS(A2:A13,B2:B13,D1)"
+    ws["D40"] = "=CALIB_COEFS(A2:A13,B2:B13,1,0.99)"  # side checks at other settings
+    ws["D45"] = "=CALIB_ORDERS(A2:A13,B2:B13,,0.2)"
+    wrong = wb.create_sheet("Wrong")
+    wrong["A1"] = '=CALIB_ORDER(Run!A2:A13,Run!B2:B13,,,"stepdwon")'
+    wrong["A3"] = "=CALIB_ORDER(Run!A2:A13,Run!B2:B13,,5)"
+    book = tmp_path / "side.xlsx"
+    wb.save(book)
+    pdf = write_report(book, tmp_path / "side.pdf")[0]
+    text = pdf_text(pdf)
+    flat = words(text)
+    for cell, formula in (("Run!D3", "=CALIB_COEFS(A2:A13,B2:B13,D1)"), ("Run!D40", "=CALIB_COEFS(A2:A13,B2:B13,1,0.99)"),
+                          ("Run!D45", "=CALIB_ORDERS(A2:A13,B2:B13,,0.2)"),
+                          ("Wrong!A1", '=CALIB_ORDER(Run!A2:A13,Run!B2:B13,,,"stepdwon")')):
+        assert f": {cell} {formula} Settings: " in flat, cell
+    assert "Settings: order 1; level 0.99; weights none; exclude none" in flat
+    order = degreewise.calib_order([[v] for v in x], [[v] for v in y])
+    assert f"Settings: order 'Run'!D1 (= {order}); level 0.95 (default); weights none; exclude none" in flat
+    assert "Settings: max order default; alpha 0.2; weights none; exclude none" in flat
+    assert "rule stepdwon; weights none; exclude none The cell holds: rule 'stepdwon' is not known" in flat
+    assert "alpha 5; rule stepdown (default); weights none; exclude none The cell holds: alpha must be" in flat
+    refresh_file(book)
+    held = openpyxl.load_workbook(book, data_only=True)
+    allowed = set()
+    for sheet in held.worksheets:
+        for row in sheet.iter_rows():
+            for c in row:
+                if isinstance(c.value, (int, float)) and not isinstance(c.value, bool):
+                    allowed |= {number(c.value, d) for d in range(3, 11)}
+                elif isinstance(c.value, str):
+                    allowed |= set(re.findall(r"-?\d[\d.]*(?:e[+-]?\d+)?", c.value))
+    body = [line for line in text.splitlines() if not re.search(
+        r"SHA-256|SHA256|Computed:|Workbook:|page \d+ of|Caution|Calibration \d|numpy", line)]
+    for line in body:
+        if re.match(r"\s*=CALIB_|\s*Settings:|\s*Standards:|\s*Charts \(|\s*[A-Z][a-z ]+\(?.*: (Run|Wrong)!", line):
+            continue  # a formula, settings (the charts' too) or a title: references and typed numbers
+        for token in re.findall(r"(?<![\w.!$:'])-?\d[\d.]*(?:e[+-]?\d+)?", line):
+            assert token in allowed, (token, line)

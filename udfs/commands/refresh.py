@@ -222,7 +222,7 @@ class NoValue(Exception):
     the argument and the cell, becomes the CALIB_* cell's result."""
 
 
-def _parameters(name: str) -> tuple[str, ...]:
+def parameters(name: str) -> tuple[str, ...]:
     """The argument names of a function of the family, in order."""
     return tuple(inspect.signature(CALLABLE[name]).parameters)
 
@@ -299,7 +299,7 @@ class Refresher:
                 try:
                     self._compute_unstored(target, a)
                 except NoValue as why:
-                    raise NoValue(f"{_parameters(call.name)[len(args)]}: {why}") from None
+                    raise NoValue(f"{parameters(call.name)[len(args)]}: {why}") from None
                 args.append(_block(target, a))
             elif isinstance(a, Constant):
                 args.append(a.value())

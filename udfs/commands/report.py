@@ -1,7 +1,7 @@
 """`degreewise report`: a printable PDF per workbook, one section per calibration.
 
-The numbers come from ``sections`` (every table evaluated through the CALIB_*
-functions, as a refresh evaluates them). The document is laid out with
+Every table is a CALIB_* cell of the workbook with the values the refresh stores
+in it (``sections``); the charts, the only addition, say whose settings they use. The document is laid out with
 reportlab's page-layout engine (Platypus: paragraphs wrap, tables split between
 pages with their header row repeated, page templates for the footer) and the
 charts are drawn with matplotlib (its object interface, no global plotting
@@ -20,6 +20,7 @@ from xml.sax.saxutils import escape
 
 import matplotlib
 from matplotlib.figure import Figure
+from matplotlib.ticker import LogLocator, NullFormatter
 from reportlab.lib import colors
 from reportlab.lib.enums import TA_RIGHT
 from reportlab.lib.pagesizes import A4, LETTER
@@ -28,13 +29,15 @@ from reportlab.lib.units import mm
 from reportlab.pdfbase import pdfmetrics
 from reportlab.pdfbase.ttfonts import TTFont
 from reportlab.pdfgen.canvas import Canvas
-from reportlab.platypus import Image, KeepTogether, PageBreak, Paragraph, SimpleDocTemplate, Spacer, Table, TableStyle
+from reportlab.platypus import Image, PageBreak, Paragraph, SimpleDocTemplate, Spacer, Table, TableStyle
 
 from .. import VERSION, functions
 from ..catalogue import CAUTION
 from ..xlsx.package import PackageError
 from .refresh import workbooks
-from .sections import Section, number, sections, where
+from .formula import Area, Constant
+from .sections import Section, number, sections
+from .sections import Table as CellTable
 
 PAPER = {"a4": A4, "letter": LETTER}
 MARGIN = 16 * mm
@@ -65,7 +68,7 @@ class _Styles:
         self.h1 = _style("h1", 12.5, True, spaceBefore=2, spaceAfter=4, keepWithNext=1)
         self.h2 = _style("h2", 10, True, spaceBefore=8, spaceAfter=3, keepWithNext=1)
         self.body = _style("body", 8.5, spaceAfter=3)
-        self.order = _style("order", 11, True, spaceAfter=2)
+        self.formula = _style("formula", 8, spaceAfter=2, textColor=colors.HexColor("#333333"))
         self.caution = _style("caution", 8.5, True, borderColor=colors.HexColor("#b03a2e"), borderWidth=0.8,
                               borderPadding=5, spaceBefore=6, spaceAfter=10)
 
@@ -118,13 +121,23 @@ def _table(rows, width: float, wrap=(), digits=None, size: float = 7.5) -> Table
     return t
 
 
-def _message(result) -> str | None:
-    """The one-cell message a function returns instead of a table, if it did."""
-    if isinstance(result, str):
-        return result
-    if isinstance(result, list) and len(result) == 1 and len(result[0]) == 1 and isinstance(result[0][0], str):
-        return result[0][0]
-    return None
+# each function's table in the report: its title, the columns that wrap, the significant digits of others
+TITLES = {
+    "CALIB_ORDER": ("Chosen order", (), {}),
+    "CALIB_ORDERS": ("Statistics of every order", (11,), {}),
+    "CALIB_SEQF": ("Sequential (Type I) table", (), {}),
+    "CALIB_COEFS": ("Coefficients (raw powers of x, in the units of x and y)", (), {1: 10}),
+    "CALIB_STATS": ("Statistics of the curve", (1,), {}),
+    "CALIB_PREDICT": ("Predicted responses", (6,), {}),
+    "CALIB_INVERSE": ("Samples read back", (4,), {}),
+    "CALIB_RESIDUALS": ("Back-calculated standards", (9,), {}),
+    "CALIB_CHECKS": ("Checks of the curve", (4,), {}),
+    "CALIB_COMPARE": ("Compared with an earlier calibration", (8,), {1: 5, 2: 5, 3: 4, 4: 4, 5: 4, 6: 3}),
+    "CALIB_LIMITS": ("Detection and quantitation limits", (5,), {}),
+    "CALIB_WEIGHTING": ("Weighting schemes compared", (6,), {}),
+}
+# headerless tables get the values they were computed for as a first column (cells of the workbook too)
+INPUTS = {"CALIB_PREDICT": ("new_x", "new x"), "CALIB_INVERSE": ("reading", "reading")}
 
 
 def _numbers(values):
@@ -142,9 +155,8 @@ def _chart_png(draw, width: float, height: float) -> Image:
 
 def _points(s: Section, values) -> tuple[list, list]:
     """(x, value) of the standards that have both, split into those fitted and those excluded (whose
-    diagnostics note says "excluded")."""
-    rows = s.tables["residuals"]
-    notes = [None] * len(s.x) if _message(rows) else [r[7] for r in rows]
+    residuals note says "excluded")."""
+    notes = [r[7] if len(r) > 7 else None for r in s.residuals] if s.residuals else [None] * len(s.x)
     kept, gone = [], []
     for x, v, note in zip(_numbers(s.x), _numbers(values), notes):
         if x is not None and v is not None:
@@ -156,144 +168,135 @@ def _plot_points(ax, kept, gone) -> None:
     if kept:
         ax.plot(*zip(*kept), "o", ms=4, color=STANDARD_COLOUR, label="standards")
     if gone:
-        ax.plot(*zip(*gone), "x", ms=6, mew=1.5, color=EXCLUDED_COLOUR, label="excluded")
+        ax.plot(*zip(*gone), "x", ms=6, mew=1.5, color=EXCLUDED_COLOUR, label="excluded (not fitted)")
 
 
 def _finish(ax, s: Section, title: str, y_label: str) -> None:
+    if s.log_x:
+        ax.set_xscale("log")
+        ax.xaxis.set_major_locator(LogLocator(numticks=6))  # decades only: labels never run together
+        ax.xaxis.set_minor_formatter(NullFormatter())
     ax.set_xlabel(s.x_label or "x", fontsize=7)
     ax.set_ylabel(y_label, fontsize=7)
     ax.set_title(title, fontsize=8)
     ax.tick_params(labelsize=6.5)
     ax.grid(True, lw=0.3, alpha=0.6)
+    ax.legend(fontsize=6, loc="best", frameon=False)
 
 
 def _curve_chart(s: Section, width: float, height: float) -> Image:
-    rows = s.tables.get("predict")
-    band = [] if not rows or _message(rows) else rows
-    grid = s.tables.get("grid", [])
-    level = s.settings.get("level")
+    level = s.chart.args.get("level")
     lev = number(level * 100 if isinstance(level, (int, float)) else 95)
     kept, gone = _points(s, s.y)
 
     def draw(ax):
-        if band:
-            lower, upper = _numbers(r[3] for r in band), _numbers(r[4] for r in band)
-            ax.fill_between(grid, lower, upper, color=CURVE_COLOUR, alpha=0.15, lw=0,
-                            label=f"{lev} % prediction band")
-            ax.plot(grid, _numbers(r[0] for r in band), color=CURVE_COLOUR, lw=1.4,
-                    label=f"fitted, order {number(s.order)}")
-        else:
-            lower = []
+        lower = _numbers(r[3] for r in s.curve)
+        ax.fill_between(s.grid, lower, _numbers(r[4] for r in s.curve), color=CURVE_COLOUR, alpha=0.15, lw=0,
+                        label=f"{lev} % prediction band")
+        ax.plot(s.grid, _numbers(r[0] for r in s.curve), color=CURVE_COLOUR, lw=1.4, label="fitted curve")
         _plot_points(ax, kept, gone)
-        if s.log_x:
-            ax.set_xscale("log")
-            if all(v is not None and v > 0 for v in [y for _, y in kept + gone] + lower):
-                ax.set_yscale("log")
+        if s.log_x and all(v is not None and v > 0 for v in [y for _, y in kept + gone] + lower):
+            ax.set_yscale("log")
         _finish(ax, s, "standards, fitted curve, prediction band", s.y_label or "y")
-        ax.legend(fontsize=6, loc="best", frameon=False)
 
     return _chart_png(draw, width, height)
 
 
 def _residual_chart(s: Section, width: float, height: float) -> Image:
     """Residuals against x; for a weighted fit the deviation % of the back-calculated x (raw residuals
-    fan out by design there)."""
-    rows = s.tables["residuals"]
+    fan out by design there). An excluded standard is drawn apart and does not set the scale."""
     weighted = s.args.get("weights") is not None
     column, label = (6, "deviation of back-calculated x (%)") if weighted else (1, f"residual ({s.y_label or 'y'})")
-    kept, gone = _points(s, [None] * len(s.x) if _message(rows) else [r[column] for r in rows])
+    kept, gone = _points(s, [r[column] for r in s.residuals])
 
     def draw(ax):
-        _plot_points(ax, kept, gone)
-        if gone:
-            ax.legend(fontsize=6, frameon=False)
+        _plot_points(ax, kept, [])
+        if kept:
+            low, high = min(v for _, v in kept), max(v for _, v in kept)
+            pad = 0.15 * (high - low or abs(high) or 1.0)
+            ax.set_ylim(min(low, 0) - pad, max(high, 0) + pad)
+            outside = [(x, min(max(v, low - pad / 2), high + pad / 2)) for x, v in gone]
+            if outside:  # at the edge of the plot, marked: its value is in the table
+                ax.plot(*zip(*outside), "x", ms=6, mew=1.5, color=EXCLUDED_COLOUR,
+                        label="excluded (not fitted; value in the table)")
         ax.axhline(0, color="black", lw=0.7)
-        if s.log_x:
-            ax.set_xscale("log")
         _finish(ax, s, "deviation % against x (weighted fit)" if weighted else "residuals against x", label)
 
     return _chart_png(draw, width, height)
 
 
-def _tables(s: Section, st: _Styles, width: float) -> list:
-    """Headed tables of one calibration (a function's message in words where it gave no table)."""
-    t = s.tables
-    flow = []
+def _rows(t: CellTable, book) -> list:
+    """A table's rows as printed: its header, the inputs it was computed for, then its stored values."""
+    if t.name == "CALIB_RESIDUALS":
+        xs, ys = book.cells(t.args["x"]), book.cells(t.args["y"])
+        return [["x", "y", *t.header]] + [[x, y, *r] for x, y, r in zip(xs, ys, t.rows)]
+    if t.name in INPUTS:
+        name, label = INPUTS[t.name]
+        source = t.args.get(name)
+        given = (book.cells(source) if isinstance(source, Area) else
+                 [v for row in source.rows for v in row] if isinstance(source, Constant) else [source])
+        return [[label, *t.header]] + [[v, *r] for v, r in zip(given, t.rows)]
+    if t.name == "CALIB_ORDER":
+        return [["order"], *t.rows]
+    return t.rows
 
-    def add(title: str, rows, **kw):
-        flow.append(Paragraph(escape(title), st.h2))
-        message = _message(rows)
-        flow.append(Paragraph(escape(message), st.body) if message else _table(rows, width, **kw))
 
-    add("Coefficients (raw powers of x, in the units of x and y)", t["coefs"], digits={1: 10})
-    add("Sequential (Type I) table", t["seqf"])
-    add("Statistics of every order", t["orders"], wrap=(11,))
-    stats = t["stats"]
-    if not _message(stats):
-        stats = [r for r in stats if r[0] not in ("why this order", "caution")]
-    add("Statistics of the chosen order", stats, wrap=(1,))
-    checks = t["checks"]
-    if not _message(checks):
-        checks = [r for r in checks if r[0] != "caution"]
-    add("Checks of the curve", checks, wrap=(4,))
-    if "limits" in t:
-        add("Detection and quantitation limits", t["limits"], wrap=(5,))
-    if "weighting" in t:
-        add("Weighting schemes compared", t["weighting"], wrap=(6,))
-    for where_, rows in s.comparisons:
-        if not _message(rows):
-            rows = [r for r in rows if r[0] != "caution"]
-        add(f"Compared with an earlier calibration ({where_})", rows, wrap=(8,),
-            digits={1: 5, 2: 5, 3: 4, 4: 4, 5: 4, 6: 3})  # narrower numbers leave the detail room to read
-    res = t["residuals"]
-    if _message(res):
-        add("Back-calculated standards", res)
+def _table_flow(t: CellTable, book, st: _Styles, width: float) -> list:
+    """One CALIB_* cell: title and cell, its formula, its settings, then its values (or why there are none)."""
+    title, wrap, digits = TITLES.get(t.name, (t.name or "A CALIB_* cell", (), {}))
+    flow = [Paragraph(escape(f"{title}: {t.where}"), st.h2), Paragraph(escape(t.formula), st.formula)]
+    if t.settings:
+        flow.append(Paragraph(escape("Settings: " + "; ".join(f"{k} {v}" for k, v in t.settings)), st.body))
+    if t.problem:
+        flow.append(Paragraph(escape(t.problem[:1].upper() + t.problem[1:]), st.body))
+    if t.rows is None:
+        return flow
+    if t.message is not None:
+        return flow + [Paragraph(escape(f"The cell holds: {t.message}"), st.body)]
+    return flow + [_table(_rows(t, book), width, wrap=wrap, digits=digits)]
+
+
+def _section(s: Section, book, n: int, st: _Styles, width: float) -> list:
+    flow = [Paragraph(escape(f"Calibration {n}: sheet '{s.sheet}'"), st.h1),
+            Paragraph(escape(f"Standards: {s.ranges}. x: {s.x_label or 'x'}; y: {s.y_label or 'y'}. "
+                             f"{len(s.tables)} CALIB_* cells of the workbook use them; each table below is one "
+                             "cell, with its own settings and the values the cell holds."), st.body)]
+    if s.chart is not None and s.curve is not None and s.residuals is not None:
+        half = (width - 8) / 2
+        charts = Table([[_curve_chart(s, half, half * 0.78), _residual_chart(s, half, half * 0.78)]],
+                       colWidths=[half + 4, half + 4], hAlign="LEFT")
+        charts.setStyle(TableStyle([("LEFTPADDING", (0, 0), (-1, -1), 0), ("RIGHTPADDING", (0, 0), (-1, -1), 4)]))
+        settings = "; ".join(f"{k} {v}" for k, v in s.chart.settings if k in ("order", "level", "weights",
+                                                                              "exclude"))
+        flow += [Spacer(1, 6), charts,
+                 Paragraph(escape(f"Charts (not cells of the workbook) computed with the settings of {s.chart.where} "
+                                  f"({settings})."), st.body)]
     else:
-        rows = [["x", "y", "fitted", "residual", "back-calculated x", "deviation %", "note"]]
-        rows += [[x, y, r[0], r[1], r[5], r[6], r[7]] for x, y, r in zip(s.x, s.y, res)]
-        add("Back-calculated standards", rows, wrap=(6,))
-    for area, readings, result in s.readbacks:
-        title = f"Samples read back ({where(area)})"
-        if _message(result):
-            add(title, result)
-        else:
-            add(title, [["reading", "x estimate", "lower", "upper", "note"]]
-                + [[v, *r] for v, r in zip(readings, result)], wrap=(4,))
+        flow.append(Paragraph("No chart: no cell on these standards gives a curve.", st.body))
+    for t in s.tables:
+        flow += _table_flow(t, book, st, width)
     return flow
 
 
-def _section(s: Section, n: int, st: _Styles, width: float) -> list:
-    flow = [Paragraph(escape(f"Calibration {n}: sheet '{s.sheet}'"), st.h1),
-            Paragraph(escape(f"Standards: {s.ranges}. x: {s.x_label or 'x'}; y: {s.y_label or 'y'}."), st.body)]
-    order = s.order
-    if isinstance(order, str):
-        flow.append(Paragraph(escape(f"No order could be chosen: {order}"), st.order))
-    else:
-        flow.append(Paragraph(escape(f"Chosen order: {number(order)}"), st.order))
-        flow.append(Paragraph(escape(f"Why this order: {s.stat('why this order')}"), st.body))
-    settings = [["setting", "value"]] + [list(r) for r in s.setting_rows()]
-    flow.append(KeepTogether([Paragraph("Settings", st.h2), _table(settings, width, wrap=(1,))]))
-    half = (width - 8) / 2
-    charts = Table([[_curve_chart(s, half, half * 0.78), _residual_chart(s, half, half * 0.78)]],
-                   colWidths=[half + 4, half + 4], hAlign="LEFT")
-    charts.setStyle(TableStyle([("LEFTPADDING", (0, 0), (-1, -1), 0), ("RIGHTPADDING", (0, 0), (-1, -1), 4)]))
-    flow += [Spacer(1, 6), charts]
-    return flow + _tables(s, st, width)
-
-
-def _front(path: Path, found: list[Section], refresh_report, st: _Styles, width: float) -> list:
+def _front(path: Path, found: list[Section], book, st: _Styles, width: float) -> list:
     stamp = time.strftime("%Y-%m-%d %H:%M:%S %z")
     flow = [Paragraph(escape(f"Calibration report: {path.name}"), st.title),
             Paragraph(escape(f"Workbook: {path.resolve()}"), st.body),
+            Paragraph(escape(f"SHA-256 of the workbook: {book.sha256}. To check that a workbook is the one this "
+                             f"report was made from, compare its SHA-256: sha256sum {path.name} (Linux), "
+                             f"shasum -a 256 {path.name} (macOS), certutil -hashfile {path.name} SHA256 "
+                             "(Windows)."), st.body),
             Paragraph(escape(f"Computed: {stamp}, by the CALIB_* functions (the same computation as "
                              f"'degreewise refresh'); {functions.calib_version()}"), st.body),
             Paragraph(escape(f"Calibrations: {len(found)} (one per distinct set of standards that the workbook's "
-                             "CALIB_* formulas use)"), st.body)]
-    problems = ([(c, f"blocked: {w}") for c, w in refresh_report.blocked]
-                + [(c, f"left alone: {w}") for c, w in refresh_report.left_alone]
-                + [(c, f"failed: {w}") for c, w in refresh_report.failed])
+                             "CALIB_* formulas use). Every table is a CALIB_* cell of the workbook, printed with "
+                             "the values the refresh stores in it."), st.body)]
+    report = book.report
+    problems = ([(c, f"blocked: {w}") for c, w in report.blocked]
+                + [(c, f"left alone: {w}") for c, w in report.left_alone]
+                + [(c, f"not computed: {w}") for c, w in report.failed])
     if problems:
-        flow.append(Paragraph("Cells the computation could not fill (not in this report)", st.h2))
+        flow.append(Paragraph("Cells the computation could not fill", st.h2))
         flow.append(_table([["cell", "why"]] + [list(p) for p in problems], width, wrap=(1,)))
     flow.append(Paragraph(escape("Caution. " + CAUTION_TEXT), st.caution))
     line = "_" * 34
@@ -335,9 +338,9 @@ def _canvas(footer: tuple[str, str]):
 
 def write_report(path: Path, out: Path, paper: str = "a4") -> tuple[Path, int]:
     """Write the report of the workbook at ``path`` to the PDF ``out``; return it and its calibration count."""
-    found, refresh_report = sections(path)
-    if refresh_report.error:
-        raise PackageError(refresh_report.error)
+    found, book = sections(path)
+    if book.report.error:
+        raise PackageError(book.report.error)
     if not found:
         raise PackageError("no CALIB_* formula with standards (x and y ranges) in the workbook")
     _fonts()
@@ -347,12 +350,13 @@ def write_report(path: Path, out: Path, paper: str = "a4") -> tuple[Path, int]:
                             bottomMargin=MARGIN + 8 * mm, title=f"Calibration report: {path.name}",
                             author=f"Degreewise {VERSION}", subject="calibration report")
     width = size[0] - 2 * MARGIN
-    story = _front(path, found, refresh_report, st, width)
+    story = _front(path, found, book, st, width)
     for n, s in enumerate(found, start=1):
         if n > 1:
             story.append(PageBreak())
-        story += _section(s, n, st, width)
-    footer = (f"{path.name}: calibration report, Degreewise {VERSION}", f"Caution: {CAUTION}")
+        story += _section(s, book, n, st, width)
+    footer = (f"{path.name}: calibration report, Degreewise {VERSION}, workbook SHA-256 {book.sha256[:16]}…",
+              f"Caution: {CAUTION}")
     doc.build(story, canvasmaker=_canvas(footer))
     return out, len(found)
 

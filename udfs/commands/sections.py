@@ -1,34 +1,39 @@
-"""The calibrations of a workbook, each with every table computed through the CALIB_* functions.
+"""A workbook's calibrations as its cells hold them, for the report and the demo printout.
 
-A calibration is one distinct set of standards (x, y, weights and, where the
-functions take it, exclude) that the workbook's CALIB_* formulas use. The
-workbook is refreshed in memory first (``refresh.Refresher``), so a setting
-that refers to a CALIB_* cell (an order taken from CALIB_ORDER) reads its
-refreshed value; then each table is evaluated as a CALIB_* call with the
-calibration's settings, through the same path as the refresh. This module
-needs no plotting or PDF library: `degreewise demo` prints from it and the
-report draws from it.
+The workbook is refreshed in memory (``refresh.Refresher``, the computation of
+`degreewise refresh`). Each CALIB_* formula that takes standards becomes a
+`Table`: its cell, its formula, its own settings in words, and exactly the values
+the refresh stored in the cells its result covers (or why it stored none).
+Tables on the same standards (x, y, weights, exclude) form one `Section`; their
+settings are never blended. Nothing shown as a table is recomputed; the charts,
+the only addition, are computed with the settings of one named table
+(`Section.chart`). This module needs no plotting or PDF library.
 """
 
 from __future__ import annotations
 
-import inspect
+import hashlib
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from .. import engine
+from ..catalogue import FUNCTIONS as CATALOGUE
 from ..xlsx.cells import column_letters
 from ..xlsx.package import read_package
-from .formula import Area, Call
-from .refresh import CALLABLE, Refresher, Report
+from .formula import Area, Call, Constant
+from .refresh import Refresher, Report, parameters
 
 STANDARDS = ("x", "y", "weights", "exclude")
-SETTINGS = ("rule", "alpha", "max_order", "order", "level")
+DATA = ("x", "y")  # shown once, in the section's heading
+# each setting's words, and what it is when the formula leaves it empty (the README's defaults)
+SETTINGS = {"max_order": ("max order", "default"), "alpha": ("alpha", "0.05 (default)"),
+            "rule": ("rule", "stepdown (default)"), "order": ("order", "chosen by the stepdown rule (default)"),
+            "level": ("level", "0.95 (default)"), "replicates": ("replicates", "1 (default)"),
+            "weights": ("weights", "none"), "exclude": ("exclude", "none"), "blank": ("blank readings", "none"),
+            "new_x": ("new x", None), "reading": ("readings", None), "ref_x": ("reference x", None),
+            "ref_y": ("reference y", None), "at": ("compared at", "none")}
 GRID = 161  # points of the curve and band in the report's chart
-
-
-def _parameters(name: str) -> tuple[str, ...]:
-    return tuple(inspect.signature(CALLABLE[name]).parameters)
+CHARTED = ("CALIB_COEFS", "CALIB_STATS", "CALIB_PREDICT", "CALIB_INVERSE", "CALIB_RESIDUALS", "CALIB_CHECKS",
+           "CALIB_LIMITS")  # tables whose settings say which curve they describe
 
 
 def where(area: Area) -> str:
@@ -61,31 +66,59 @@ def p_text(p) -> str:
 
 
 @dataclass
+class Table:
+    """One CALIB_* cell: where, its formula, its settings in words, and what the refresh stored."""
+
+    where: str
+    formula: str
+    name: str  # CALIB_COEFS
+    args: dict  # argument name -> Area, number, text, Constant, Call or None
+    settings: list  # (words, value in words)
+    rows: list | None  # the stored values of the cells the result covers; None where none were stored
+    problem: str | None = None  # why the refresh stored no result (blocked, left alone, failed)
+
+    @property
+    def header(self):
+        """The table's header row for the functions whose result has none (predict, inverse, residuals)."""
+        return CATALOGUE[self.name.lower()] if self.name in HEADERLESS else None
+
+    @property
+    def message(self) -> str | None:
+        """The one-cell message the function stored instead of a table, if it did."""
+        rows = self.rows
+        if rows and len(rows) == 1 and len(rows[0]) == 1 and isinstance(rows[0][0], str):
+            return rows[0][0]
+        return None
+
+
+HEADERLESS = ("CALIB_PREDICT", "CALIB_INVERSE", "CALIB_RESIDUALS")
+
+
+@dataclass
 class Section:
-    """One calibration: where its standards are, its settings, and every table the functions return."""
+    """One calibration: its standards, the tables of the workbook on them, and the charts' data."""
 
     sheet: str
-    args: dict  # the standards' arguments (Area, text or None) by parameter name
-    settings: dict  # rule, alpha, max_order, order, level as the formulas give them (Area, number or None)
+    args: dict  # the standards' arguments by name
     x: list
     y: list
     x_label: str | None
     y_label: str | None
-    tables: dict = field(default_factory=dict)
-    log_x: bool = False  # the standards span more than two decades, or the fit is weighted: log x axes
-    readbacks: list = field(default_factory=list)  # (reading range, readings, rows of CALIB_INVERSE)
-    limits_args: dict = field(default_factory=dict)  # blank and replicates of the workbook's CALIB_LIMITS
-    weighting: bool = False  # the workbook compares weighting schemes for these standards (CALIB_WEIGHTING)
-    comparisons: list = field(default_factory=list)  # (where, rows of CALIB_COMPARE) against earlier calibrations
+    tables: list = field(default_factory=list)
+    chart: Table | None = None  # the table whose settings the charts use
+    grid: list = field(default_factory=list)
+    curve: list | None = None  # CALIB_PREDICT rows on the grid, with the chart table's settings
+    residuals: list | None = None  # CALIB_RESIDUALS rows with the chart table's settings
+    log_x: bool = False  # the standards span more than two decades, or the fit is weighted
 
-    @property
-    def order(self):
-        """The order of the curve the tables describe (CALIB_STATS's), else CALIB_ORDER's answer or message."""
-        chosen = self.stat("order")
-        return chosen if chosen is not None else self.tables["order"]
+    def first(self, name: str) -> Table | None:
+        """The first table of function ``name`` that holds values (not a message)."""
+        return next((t for t in self.tables if t.name == name and t.rows and t.message is None), None)
 
     def stat(self, label: str):
-        return next((r[1] for r in self.tables["stats"][1:] if r[0] == label), None)
+        """A row of the first CALIB_STATS table, if the workbook has one."""
+        stats = self.first("CALIB_STATS")
+        return next((r[1] for r in stats.rows[1:] if r[0] == label), None) if stats else None
 
     @property
     def ranges(self) -> str:
@@ -93,38 +126,17 @@ class Section:
         for name in ("weights", "exclude"):
             a = self.args.get(name)
             if a is not None:
-                parts.append(f"{name} {where(a) if isinstance(a, Area) else repr(a)}")
+                parts.append(f"{name} {where(a) if isinstance(a, Area) else a}")
         return ", ".join(parts)
-
-    def setting_rows(self) -> list[tuple[str, str]]:
-        """Every setting that decided the tables, in words (defaults named as such)."""
-        s = self.settings
-        orders = self.tables["orders"]
-        max_order = len(orders) - 1 if isinstance(orders, list) and len(orders) > 1 else None
-        order = s.get("order")
-
-        def given(name: str, default: str) -> str:
-            v = s.get(name)
-            return default + " (default)" if v is None else where(v) if isinstance(v, Area) else number(v)
-
-        return [
-            ("rule", given("rule", engine.DEFAULT_RULE)),
-            ("alpha", given("alpha", "0.05")),
-            ("max order", (number(max_order) + ("" if s.get("max_order") is not None else " (default)"))
-             if max_order else "n/a"),
-            ("order", f"{number(self.order)} from {where(order)}" if isinstance(order, Area)
-             else number(order) if order is not None else f"{number(self.order)}, chosen by the rule"),
-            ("level", given("level", "0.95")),
-            ("weights", str(self.stat("weights") or "none")),
-            ("exclude", where(self.args["exclude"]) if isinstance(self.args.get("exclude"), Area) else "none"),
-        ]
 
 
 class Book:
-    """A workbook refreshed in memory, able to evaluate CALIB_* calls with its refreshed values."""
+    """A workbook refreshed in memory: its cells as the refresh stores them, and calls evaluated likewise."""
 
     def __init__(self, path: Path):
         self.path = path
+        data = path.read_bytes()
+        self.sha256 = hashlib.sha256(data).hexdigest()
         _, parts = read_package(path)
         self.refresher = Refresher(parts)
         self.report = Report(path)
@@ -133,13 +145,17 @@ class Book:
     def call(self, name: str, sheet: str, **args):
         """CALIB_<name> with these arguments (the rest omitted), evaluated as the refresh evaluates it."""
         full = f"CALIB_{name.upper()}"
-        return self.refresher.evaluate(Call(full, tuple(args.get(p) for p in _parameters(full))), sheet)
+        return self.refresher.evaluate(Call(full, tuple(args.get(p) for p in parameters(full))), sheet)
+
+    def block(self, area: Area) -> list:
+        """The stored values of ``area``, row by row."""
+        sheet = self.refresher.sheet(area.sheet)
+        top, bottom = (area.top, area.bottom) if area.top is not None else (1, max(sheet.max_row, 1))
+        return [[sheet.values.get((r, c)) for c in range(area.left, area.right + 1)] for r in range(top, bottom + 1)]
 
     def cells(self, area: Area) -> list:
         """The values of a one-row or one-column range, in order."""
-        sheet = self.refresher.sheet(area.sheet)
-        top, bottom = (area.top, area.bottom) if area.top is not None else (1, max(sheet.max_row, 1))
-        return [sheet.values.get((r, c)) for r in range(top, bottom + 1) for c in range(area.left, area.right + 1)]
+        return [v for row in self.block(area) for v in row]
 
     def label(self, area: Area) -> str | None:
         """The text above a column of standards (its header), if there is one."""
@@ -148,114 +164,125 @@ class Book:
         value = self.refresher.sheet(area.sheet).values.get((area.top - 1, area.left))
         return value if isinstance(value, str) else None
 
-    def sections(self) -> list[Section]:
-        found: dict[tuple, Section] = {}
-        compared = set()  # x, y, exclude of CALIB_WEIGHTING formulas: they join the calibrations of those standards
+    def _words(self, value) -> str:
+        """A setting as the formula gives it, in words: a reference with the value it holds."""
+        if isinstance(value, Area):
+            if (value.top, value.left) == (value.bottom, value.right):
+                return f"{where(value)} (= {number(self.block(value)[0][0])})"
+            return where(value)
+        if isinstance(value, Constant):
+            return "{" + ";".join(",".join(number(v) for v in row) for row in value.rows) + "}"
+        if isinstance(value, Call):
+            return f"the result of {value.name}"
+        return number(value)
+
+    def tables(self) -> list[Table]:
+        """Every CALIB_* cell with standards, in the workbook's order, with the values the refresh stored."""
+        spills = dict(self.report.spills)
+        problems = {c: f"{kind}: {why}" for kind, entries in (("blocked", self.report.blocked),
+                                                             ("left alone", self.report.left_alone),
+                                                             ("not computed", self.report.failed))
+                    for c, why in entries}
+        out = []
         for f in self.refresher.formulas:
-            if f.call is None or f.call.name not in CALLABLE:
+            if f.call is None:
+                if f.where in problems:  # a formula the refresh could not read: shown with its reason
+                    out.append(Table(f.where, "=" + f.text, "", {}, [], None, problems[f.where]))
                 continue
-            args = dict(zip(_parameters(f.call.name), f.call.args))
+            args = dict(zip(parameters(f.call.name), f.call.args))
             if not isinstance(args.get("x"), Area) or not isinstance(args.get("y"), Area):
                 continue
-            if f.call.name == "CALIB_WEIGHTING":  # it takes no weights: it compares them
-                compared.add((args["x"], args["y"], args.get("exclude")))
-                continue
-            key = tuple(args.get(name) for name in STANDARDS)
-            s = found.get(key)
-            if s is None:
-                x, y = args["x"], args["y"]
-                s = found[key] = Section(f.sheet, {n: args.get(n) for n in STANDARDS}, {}, self.cells(x),
-                                         self.cells(y), self.label(x), self.label(y))
-            for name in SETTINGS:
-                if args.get(name) is not None:
-                    s.settings.setdefault(name, args[name])
-            if f.call.name == "CALIB_INVERSE" and isinstance(args.get("reading"), Area):
-                s.readbacks.append((args["reading"], f))
-            if f.call.name == "CALIB_COMPARE":
-                s.comparisons.append(f)
-            if f.call.name == "CALIB_LIMITS":
-                s.limits_args = {n: args[n] for n in ("blank", "replicates") if args.get(n) is not None}
-        out = list(found.values())
-        for s in out:
-            s.weighting = (s.args["x"], s.args["y"], s.args.get("exclude")) in compared
-            self._compute(s)
+            settings = [(SETTINGS[n][0], self._words(args[n]) if args.get(n) is not None else SETTINGS[n][1])
+                        for n in parameters(f.call.name) if n in SETTINGS and n not in DATA
+                        and (args.get(n) is not None or SETTINGS[n][1] is not None)]
+            problem = problems.get(f.where)
+            area = spills.get(f.where, Area(f.sheet, f.row, f.col, f.row, f.col))
+            rows = None if problem and not problem.startswith("blocked") else self.block(area)
+            out.append(Table(f.where, "=" + f.text, f.call.name, args, settings, rows, problem))
         return out
 
-    def _compute(self, s: Section) -> None:
-        std = {n: v for n, v in s.args.items() if v is not None}
-        st = s.settings
-        one = dict(std, order=st.get("order"))
-        t = s.tables
-        t["order"] = self.call("order", s.sheet, max_order=st.get("max_order"), alpha=st.get("alpha"),
-                               rule=st.get("rule"), **std)
-        t["orders"] = self.call("orders", s.sheet, max_order=st.get("max_order"), alpha=st.get("alpha"), **std)
-        t["seqf"] = self.call("seqf", s.sheet, max_order=st.get("max_order"), **std)
-        t["coefs"] = self.call("coefs", s.sheet, level=st.get("level"), **one)
-        t["stats"] = self.call("stats", s.sheet, **one)
-        t["checks"] = self.call("checks", s.sheet, alpha=st.get("alpha"), **one)
-        t["residuals"] = self.call("residuals", s.sheet, **one)
-        t["limits"] = self.call("limits", s.sheet, alpha=st.get("alpha"), **s.limits_args, **one)
-        if s.weighting:
-            t["weighting"] = self.call("weighting", s.sheet, x=std["x"], y=std["y"], order=st.get("order"),
-                                       alpha=st.get("alpha"), exclude=std.get("exclude"))
+    def sections(self) -> list[Section]:
+        found: dict[tuple, Section] = {}
+        for t in self.tables():
+            if not t.name:
+                continue
+            key = tuple(t.args.get(n) for n in STANDARDS)
+            s = found.get(key)
+            if s is None:
+                x, y = t.args["x"], t.args["y"]
+                s = found[key] = Section(x.sheet, {n: t.args.get(n) for n in STANDARDS}, self.cells(x),
+                                         self.cells(y), self.label(x), self.label(y))
+            s.tables.append(t)
+        for s in found.values():
+            self._charts(s)
+        return list(found.values())
+
+    def _charts(self, s: Section) -> None:
+        """The curve, band and residuals with the settings of the first table that names a curve."""
+        s.chart = next((t for t in s.tables if t.name in CHARTED and t.rows and t.message is None), None)
         xs = [v for v in s.x if isinstance(v, (int, float)) and not isinstance(v, bool)]
-        if xs:
-            lo, hi = min(xs), max(xs)
-            s.log_x = lo > 0 and (hi / lo > 100 or s.args.get("weights") is not None)
-            if s.log_x:
-                grid = [lo * (hi / lo) ** (i / (GRID - 1)) for i in range(GRID)]
-            else:
-                grid = [lo + (hi - lo) * i / (GRID - 1) for i in range(GRID)]
-            t["grid"] = grid
-            t["predict"] = self.call("predict", s.sheet, new_x=[[g] for g in grid], level=st.get("level"), **one)
-        s.readbacks = [(area, self.cells(area), self.refresher.evaluate(f.call, f.sheet)) for area, f in s.readbacks]
-        s.comparisons = [(f.where, self.refresher.evaluate(f.call, f.sheet)) for f in s.comparisons]
+        if s.chart is None or not xs:
+            return
+        std = {n: v for n, v in s.args.items() if v is not None}
+        order, level = s.chart.args.get("order"), s.chart.args.get("level")
+        lo, hi = min(xs), max(xs)
+        s.log_x = lo > 0 and (hi / lo > 100 or s.args.get("weights") is not None)
+        s.grid = ([lo * (hi / lo) ** (i / (GRID - 1)) for i in range(GRID)] if s.log_x else
+                  [lo + (hi - lo) * i / (GRID - 1) for i in range(GRID)])
+        curve = self.call("predict", s.sheet, new_x=[[g] for g in s.grid], order=order, level=level, **std)
+        s.curve = curve if isinstance(curve, list) and len(curve[0]) > 1 else None
+        same = next((t for t in s.tables if t.name == "CALIB_RESIDUALS" and t.args.get("order") == order
+                     and t.rows and t.message is None), None)
+        residuals = same.rows if same else self.call("residuals", s.sheet, order=order, **std)
+        s.residuals = residuals if isinstance(residuals, list) and len(residuals[0]) > 1 else None
 
 
-def sections(path: Path) -> tuple[list[Section], Report]:
-    """The calibrations of the workbook at ``path``, and what its in-memory refresh reported."""
+def sections(path: Path) -> tuple[list[Section], Book]:
+    """The calibrations of the workbook at ``path``, and the refreshed book (its report, hash, cells)."""
     book = Book(path)
-    return book.sections(), book.report
+    return book.sections(), book
 
 
 def summary(s: Section) -> list[str]:
-    """The lines `degreewise demo` prints for one calibration."""
+    """The lines `degreewise demo` prints for one calibration, read from its tables."""
     xs = [v for v, w in zip(s.x, s.y) if isinstance(v, (int, float)) and isinstance(w, (int, float))]
     lines = [f"  sheet '{s.sheet}': {s.ranges}"]
     if xs:
         lines.append(f"  x: {s.x_label or 'x'}, {len(xs)} points at {len(set(xs))} levels, "
                      f"from {number(min(xs))} to {number(max(xs))}; y: {s.y_label or 'y'}")
-    lines.append("  settings: " + "; ".join(f"{k} {v}" for k, v in s.setting_rows()))
-    lines.append(f"  chosen order {number(s.order)}: {s.stat('why this order')}")
-    stats = s.tables["stats"]
-    for label, value in stats[1:] if isinstance(stats, list) else ():
-        if label == "excluded standard":
-            lines.append(f"  excluded: {value}")
-    coefs = s.tables["coefs"]
-    if isinstance(coefs, list) and len(coefs) > 1:
-        for term, b, se, *_ in coefs[1:]:
+    stats = s.first("CALIB_STATS")
+    if stats:
+        lines.append(f"  {stats.where}: " + "; ".join(f"{k} {v}" for k, v in stats.settings))
+        lines.append(f"  chosen order {number(s.stat('order'))}: {s.stat('why this order')}")
+        lines += [f"  excluded: {value}" for label, value in stats.rows[1:] if label == "excluded standard"]
+    coefs = s.first("CALIB_COEFS")
+    if coefs:
+        lines.append(f"  coefficients ({coefs.where}):")
+        for term, b, se, *_ in coefs.rows[1:]:
             lines.append(f"    {term:<10} {number(b, 10):>16}  (std error {number(se, 3)})")
-    lof = s.stat("lack-of-fit p")
-    lines.append(f"  residual SD {number(s.stat('residual SD'))}, R² {number(s.stat('R²'), 8)}, "
-                 f"lack-of-fit p {p_text(lof) if lof is not None else 'n/a (no replicates)'}")
-    limits = s.tables.get("limits")
-    if isinstance(limits, list) and len(limits) > 1:
-        lines.append("  limits in x (estimates from one calibration, to be confirmed with samples near the limit):")
-        for method, _, *values, note in limits[1:]:
-            if method == "caution":
+    if stats:
+        lof = s.stat("lack-of-fit p")
+        lines.append(f"  residual SD {number(s.stat('residual SD'))}, R² {number(s.stat('R²'), 8)}, "
+                     f"lack-of-fit p {p_text(lof) if lof is not None else 'n/a (no replicates)'}")
+    limits = s.first("CALIB_LIMITS")
+    if limits:
+        lines.append(f"  limits in x ({limits.where}; estimates from one calibration, to be confirmed with "
+                     "samples near the limit):")
+        for method, _, *values, note in limits.rows[1:]:
+            if method == "caution" or method is None:
                 continue
             given = [f"{name} {number(v, 4)}" for name, v in zip(("decision", "detection", "quantitation"), values)
                      if v is not None]
             lines.append(f"    {method:<17} " + (", ".join(given) if given else f"none: {note}"))
-    for where, rows in s.comparisons:
-        if isinstance(rows, list) and len(rows) > 3:
-            lines.append(f"  compared with an earlier calibration ({where}):")
-            for item, *_, p, verdict, detail in rows[1:4]:
+    for t in s.tables:
+        if t.name == "CALIB_COMPARE" and t.rows and len(t.rows) > 3 and t.message is None:
+            lines.append(f"  compared with an earlier calibration ({t.where}):")
+            for item, *_, p, verdict, detail in t.rows[1:4]:
                 lines.append(f"    {item:<17} {verdict} (p {p_text(p)}): {detail.split('; ')[0]}")
-    weighting = s.tables.get("weighting")
-    if isinstance(weighting, list):
-        for scheme, order, *_, picked, note in weighting[1:]:
+    weighting = s.first("CALIB_WEIGHTING")
+    if weighting:
+        for scheme, order, *_, picked, note in weighting.rows[1:]:
             if picked:
-                lines.append(f"  weighting {scheme} picked (at order {order}): {note.removeprefix('picked: ')}")
+                lines.append(f"  weighting {scheme} picked (at order {number(order)}; {weighting.where}): "
+                             f"{note.removeprefix('picked: ')}")
     return lines
-
