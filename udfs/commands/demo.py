@@ -190,7 +190,9 @@ def calibration_sheet(wb: Workbook, sc: Scenario):
         ws.column_dimensions["C"].width = 16
     for col in range(first.column, first.column + 7):
         ws.column_dimensions[get_column_letter(col)].width = NUMBER_WIDTH
-    _row_heights(ws, sc)
+    blocks = _results(sc)
+    _number_formats(ws, blocks)
+    _row_heights(ws, sc, blocks)
     _page_setup(ws, f"A1:O{ws[last].row}",
                 (ws[LAYOUT["checks"]].row - 1, ws[residuals].row - 2, ws[limits_at].row - 2))
     _charts(ws, sc, n)
@@ -202,27 +204,107 @@ def _lines(text, width: float) -> int:
     return max(1, *(math.ceil(len(part) / (1.2 * width)) for part in str(text or "").split("\n")))
 
 
-def _row_heights(ws, sc: Scenario) -> None:
-    """Heights for rows whose wrapped texts need more than one line (spreadsheet programs do not fit rows
-    on opening a file); the texts are those the functions return for this calibration."""
+def _results(sc: Scenario) -> list[tuple[str, list]]:
+    """Each table of the calibration sheet as the functions return it for this scenario: (the cell of its
+    header row, rows); headerless tables with the header CALIB_LABELS puts above them."""
     from .. import functions
 
     x, y = [[v] for v in sc.x], [[v] for v in sc.y]
     e = _exclude_cells(sc)
     order = functions.calib_order(x, y, None, None, None, sc.weights, e)
-    blocks = [(LAYOUT["stats"], functions.calib_stats(x, y, order, sc.weights, e)),
+    lo, hi = min(sc.x), max(sc.x)
+    grid = np.geomspace(lo, hi, GRID) if _log_axes(sc) else np.linspace(lo, hi, GRID)
+    blocks = [(LAYOUT["orders"], functions.calib_orders(x, y, None, None, sc.weights, e)),
+              (LAYOUT["seqf"], functions.calib_seqf(x, y, None, sc.weights, e)),
+              (LAYOUT["coefs"], functions.calib_coefs(x, y, order, None, sc.weights, e)),
+              (LAYOUT["stats"], functions.calib_stats(x, y, order, sc.weights, e)),
               (LAYOUT["checks"], functions.calib_checks(x, y, order, None, sc.weights, e)),
-              (LAYOUT["orders"], functions.calib_orders(x, y, None, None, sc.weights, e)),
-              (_cell(LAYOUT["residuals"], -1), [HEADERS["residuals"]]), ("A1", [(sc.x_label, sc.y_label)])]
+              (_cell(LAYOUT["residuals"], -1),
+               [HEADERS["residuals"]] + functions.calib_residuals(x, y, order, sc.weights, e)),
+              (_cell(LAYOUT["predict"], -1), [HEADERS["predict"]] + functions.calib_predict(
+                  x, y, [[float(g)] for g in grid], order, None, sc.weights, e))]
     if sc.samples:
-        blocks.append((_cell(samples_anchor(len(sc.x)), -1), [("sample reading",) + HEADERS["inverse"]]))
+        blocks.append((_cell(samples_anchor(len(sc.x)), -1, 1), [HEADERS["inverse"]] + functions.calib_inverse(
+            x, y, [[v] for v in sc.samples], None, order, None, sc.weights, e)))
     _, limits_at, weighting_at = limits_anchors(sc)
     blanks = [[v] for v in sc.blanks] or None
     blocks.append((limits_at, functions.calib_limits(x, y, blanks, None, order, None, sc.weights, e)))
     if sc.weights:
         blocks.append((weighting_at, functions.calib_weighting(x, y, None, None, e)))
+    return blocks
+
+
+P_FORMAT = '[<0.0001]"<0.0001";0.0000'  # p-values: four decimals, the smallest shown as a bound
+COUNTS = ("order", "df", "residual df", "points used", "points skipped", "points excluded", "x min", "x max")
+
+
+def _format(label, values) -> str | None:
+    """A number format fit for a column (or a row of the statistics) from its label and the values the
+    functions give: p-values to four decimals, % to two, counts whole, others five significant digits at the
+    column's smallest value, or scientific where the values span more than a fixed format can show."""
+    label = str(label or "")
+    nums = [abs(v) for v in values if isinstance(v, (int, float)) and not isinstance(v, bool)
+            and math.isfinite(v) and v != 0]
+    if not nums:
+        return None
+    if label == "p-value" or label.endswith(" p") or label.endswith("p-value"):
+        return P_FORMAT
+    if "%" in label:
+        return "0.00"
+    if label in COUNTS or all(float(v).is_integer() and v < 1e9 for v in nums):
+        return "0"
+    if "R²" in label:  # near 1: six decimals tell the orders apart
+        return "0.000000"
+    lo, hi = min(nums), max(nums)
+    if hi >= 1e7 or lo < 1e-4 or hi / lo > 1e4:
+        return "0.0000E+00"
+    return "0." + "0" * min(max(1, 4 - math.floor(math.log10(lo))), 9)
+
+
+def _shown(value, fmt: str) -> str:
+    """About the text a number takes under ``fmt`` (for column widths)."""
+    if fmt == P_FORMAT:
+        return "<0.0001"
+    if fmt.endswith("E+00"):
+        return f"{value:.4E}"
+    decimals = len(fmt) - 2 if fmt.startswith("0.") else 0
+    return f"{value:.{decimals}f}"
+
+
+def _number_formats(ws, blocks) -> None:
+    """Number formats on every result cell (the refresh keeps them) and column widths that hold the formatted
+    numbers, so that live, frozen and printed pages read without one number running into the next."""
+    need: dict[int, float] = {}
+    for anchor, rows in blocks:
+        if not (isinstance(rows, list) and len(rows) > 1):
+            continue
+        col0, row0, _, _ = range_boundaries(anchor)
+        header, body = rows[0], rows[1:]
+        if tuple(header) == HEADERS["stats"]:
+            formats = [[None, _format(r[0], [r[1]])] for r in body]
+        else:
+            columns = [_format(h, [r[j] for r in body if j < len(r)]) for j, h in enumerate(header)]
+            formats = [columns] * len(body)
+        for i, (row, fmts) in enumerate(zip(body, formats), start=1):
+            for j, (value, fmt) in enumerate(zip(row, fmts)):
+                if fmt is None:
+                    continue
+                ws.cell(row0 + i, col0 + j).number_format = fmt
+                if isinstance(value, (int, float)) and not isinstance(value, bool) and math.isfinite(value):
+                    need[col0 + j] = max(need.get(col0 + j, 0), len(_shown(value, fmt)) + 2)
+    for col, chars in need.items():
+        letter = get_column_letter(col)
+        ws.column_dimensions[letter].width = max(ws.column_dimensions[letter].width or NUMBER_WIDTH, chars)
+
+
+def _row_heights(ws, sc: Scenario, blocks) -> None:
+    """Heights for rows whose wrapped texts need more than one line (spreadsheet programs do not fit rows
+    on opening a file); the texts are those the functions return for this calibration."""
+    blocks = blocks + [("A1", [(sc.x_label, sc.y_label)])]
+    if sc.samples:
+        blocks.append((_cell(samples_anchor(len(sc.x)), -1), [("sample reading",) + HEADERS["inverse"]]))
     if sc.excluded:
-        blocks.append(("C2", e))
+        blocks.append(("C2", _exclude_cells(sc)))
     need: dict[int, int] = {}
     for anchor, rows in blocks:
         col0, row0, _, _ = range_boundaries(anchor)
@@ -270,7 +352,7 @@ def compare_sheet(wb: Workbook, sc: Scenario) -> None:
         ws.column_dimensions[get_column_letter(col)].width = NUMBER_WIDTH
     for r in range(2, rows + 2):
         ws.row_dimensions[r].height = LINE * 3
-    _page_setup(ws, f"A1:N{rows + 1}", ())
+    _page_setup(ws, f"A1:N{max(rows, len(sc.x), len(sc.reference_y)) + 1}", ())  # every standard of both runs
 
 
 def _page_setup(ws, area: str, breaks: tuple[int, ...]) -> None:
