@@ -10,10 +10,12 @@ change stays as it was.
 
 from __future__ import annotations
 
+import copy
 import html
 import posixpath
 import re
 import zipfile
+import zlib
 from dataclasses import dataclass, field
 
 from defusedxml import ElementTree as SafeET
@@ -129,9 +131,21 @@ def add_part(parts: dict, name: str, data: bytes, content_type: str, owner: str,
     parts[rels] = xml_bytes(root)
 
 
+ENCRYPTED = b"\xd0\xcf\x11\xe0\xa1\xb1\x1a\xe1"  # a compound file: how a password-protected workbook is stored
+CHUNK = 2**20  # bytes inflated at a time
+
+
 def read_package(path) -> tuple[list[zipfile.ZipInfo], dict[str, bytes]]:
-    """Every entry of the zip at ``path`` with its unpacked bytes, within the limits."""
+    """Every entry of the zip at ``path`` with its unpacked bytes, within the limits.
+
+    The limits are checked on the declared sizes first, then held while inflating: each entry is read
+    in chunks and refused as soon as it gives more than it declared, so an entry that lies about its
+    size (with a matching CRC of what it declares) never inflates more than the limits."""
     try:
+        with open(path, "rb") as f:
+            if f.read(len(ENCRYPTED)) == ENCRYPTED:
+                raise PackageError("the workbook is encrypted (password-protected); save it without a password "
+                                   "and try again")
         with zipfile.ZipFile(path) as z:
             infos = z.infolist()
             names = [i.filename for i in infos]
@@ -142,6 +156,9 @@ def read_package(path) -> tuple[list[zipfile.ZipInfo], dict[str, bytes]]:
                 raise PackageError(f"the package has {len(infos)} parts; refusing more than {MAX_ENTRIES}")
             total = 0
             for info in infos:
+                if info.flag_bits & 0x1:
+                    raise PackageError(f"part {info.filename} is encrypted; save the workbook without a password "
+                                       "and try again")
                 if info.file_size > MAX_PART:
                     raise PackageError(f"part {info.filename} unpacks to {info.file_size} bytes; "
                                        f"refusing parts over {MAX_PART // 2**20} MiB")
@@ -151,19 +168,38 @@ def read_package(path) -> tuple[list[zipfile.ZipInfo], dict[str, bytes]]:
                 total += info.file_size
             if total > MAX_TOTAL:
                 raise PackageError(f"the package unpacks to {total} bytes; refusing more than {MAX_TOTAL // 2**20} MiB")
-            parts = {}
-            for info in infos:
-                data = z.read(info)
-                if len(data) != info.file_size:
-                    raise PackageError(f"part {info.filename} does not unpack to its declared size")
-                parts[info.filename] = data
-            return infos, parts
+            parts = {info.filename: _inflate(z, info) for info in infos}
+        parse_xml("[Content_Types].xml", parts.get("[Content_Types].xml", b"<Types/>"))  # no DTD here either
+        return infos, parts
     except zipfile.BadZipFile as err:
         raise PackageError(f"not a workbook package (zip): {err}") from None
     except (EOFError, OSError, zipfile.LargeZipFile, NotImplementedError, RuntimeError) as err:
         raise PackageError(f"the package cannot be read: {err}") from None
     except ValueError as err:
         raise PackageError(f"the package cannot be read: {err}") from None
+
+
+def _inflate(z: zipfile.ZipFile, info: zipfile.ZipInfo) -> bytes:
+    """The bytes of one entry, inflated a chunk at a time and at most one byte past its declared size
+    (zipfile stops at the size the entry it opens declares, so it is opened as declaring one byte more,
+    and the CRC is checked here, over the whole entry)."""
+    allowed = copy.copy(info)
+    allowed.file_size, allowed.CRC = info.file_size + 1, None
+    chunks, size, crc = [], 0, 0
+    with z.open(allowed) as stream:
+        while size <= info.file_size:
+            chunk = stream.read(CHUNK)
+            if not chunk:
+                break
+            chunks.append(chunk)
+            size += len(chunk)
+            crc = zlib.crc32(chunk, crc)
+    if size != info.file_size:
+        raise PackageError(f"part {info.filename} does not unpack to its declared size "
+                           f"({'more' if size > info.file_size else 'less'} than {info.file_size} bytes)")
+    if crc != info.CRC:
+        raise PackageError(f"part {info.filename} is damaged (its CRC-32 does not match)")
+    return b"".join(chunks)
 
 
 def write_package(path, infos: list[zipfile.ZipInfo], parts: dict[str, bytes], extra: list[str]) -> None:
