@@ -119,7 +119,7 @@ def rss_bounds(rss: np.ndarray, y_norm: float) -> np.ndarray:
     so errors of the solution itself enter only to second order; Golub and Van Loan, Matrix Computations,
     3rd ed., sec. 5.3.7, recalled from memory). No dimension constant: measured errors at a million points
     stay below this estimate."""
-    with np.errstate(divide="ignore"):
+    with np.errstate(divide="ignore", invalid="ignore"):  # a nan estimate (inf / inf) counts as missing the target
         return 4 * _UNIT * y_norm / np.sqrt(rss)
 
 

@@ -7,10 +7,11 @@ from pathlib import Path
 
 import openpyxl
 import pytest
+from openpyxl.utils import get_column_letter
 
 import degreewise
 from degreewise.commands import main
-from degreewise.commands.demo import GRID, LAYOUT, limits_anchors, samples_anchor
+from degreewise.commands.demo import GRID, LAYOUT, P_FORMAT, _runs, _shown, limits_anchors, samples_anchor
 from degreewise.commands.refresh import refresh_file
 from degreewise.commands.scenarios import all_scenarios
 
@@ -119,19 +120,25 @@ def test_charts_read_ranges_that_hold_numbers_with_visible_markers(name):
         for ref in re.findall(r"<(?:c:)?f>([^<]+)</(?:c:)?f>", chart):
             where, cells = ref.split("!")
             assert where == f"'{sheet}'"
-            values = [c.value for row in ws[cells.replace("$", "")] for c in row]
-            assert len(values) in (n, GRID), ref
+            block = ws[cells.replace("$", "")]
+            values = [c.value for row in block for c in row] if isinstance(block, tuple) else [block.value]
+            assert len(values) in {GRID} | {count for runs in _runs(sc) for _, count in runs}, ref
             assert all(isinstance(v, (int, float)) and math.isfinite(v) for v in values), ref
         first = re.search(r"<(?:c:)?ser>.*?</(?:c:)?ser>", chart, re.S).group(0)  # the standards
         assert re.search(r'<(?:c:)?marker><(?:c:)?symbol val="circle"/><(?:c:)?size val="6"/><(?:c:)?spPr>'
-                         r'<a:solidFill><a:srgbClr val="1F4E79"/>', first), first
+                         r'<a:solidFill(?: xmlns:a="[^"]+")?><a:srgbClr val="1F4E79"/>', first), first
         logs = re.findall(r'<(?:c:)?logBase val="10(?:\.0)?"/>', chart)
         assert len(logs) == {"weighted": 2 if chart is charts[0] else 1}.get(name, 0)
     # the weighted fit's residual chart shows the deviation % of the back-calculated x
     column = 6 if sc.weights else 1
     resid = ws[LAYOUT["residuals"]].offset(0, column).column_letter
     top = ws[LAYOUT["residuals"]].row
-    assert f"'{sheet}'!${resid}${top}:${resid}${top + n - 1}" in charts[1]
+    used, excluded = _runs(sc)
+    for first, count in used:  # the standards the fit uses, and no excluded one
+        assert f"'{sheet}'!${resid}${top + first}:${resid}${top + first + count - 1}" in charts[1]
+    for first, _ in excluded:
+        assert f"${resid}${top + first}:" not in charts[1]
+        assert "excluded standard" in charts[0] and '<symbol val="x"/>' in charts[0]
 
 
 def test_calibration_sheets_print_on_a_few_pages():
@@ -207,3 +214,28 @@ def test_the_compare_sheet_holds_last_months_standards_and_their_comparison():
     want = degreewise.calib_compare(xs, ys, ref[0::2], ref[1::2], at, None, None, None, e)
     assert [r[0] for r in want[1:4]] == ["same curve", "same shape", "same residual SD"]
     assert same_numbers(block(ws, "F1", len(want), 9), want)
+
+
+def test_result_cells_carry_number_formats_and_every_page_holds_its_rows():
+    """Formats chosen from the values (common practice for printed calibration tables: p-values to four
+    decimals, % to two, R² near 1 to six), so that no number runs into the next; the Compare sheet prints every
+    standard of both runs."""
+    wb = openpyxl.load_workbook(book("straight"))
+    ws = wb["Straight"]
+    coefs = ws[LAYOUT["coefs"]]
+    intercept, slope = (coefs.offset(i, 1) for i in (1, 2))
+    assert intercept.number_format == slope.number_format == "0.0000000"  # 5 significant digits at 0.0027
+    assert coefs.offset(1, 4).number_format == P_FORMAT  # p-value
+    orders = ws[LAYOUT["orders"]]
+    assert orders.offset(1, 3).number_format == "0.000000"  # R²
+    assert orders.offset(1, 0).number_format == "0"  # order
+    residuals = ws[LAYOUT["residuals"]]
+    assert residuals.offset(0, 6).number_format == "0.00"  # deviation %
+    for col in range(1, 16):  # every formatted number fits its column
+        width = ws.column_dimensions[get_column_letter(col)].width
+        for row in ws.iter_rows(min_col=col, max_col=col):
+            c = row[0]
+            if isinstance(c.value, float) and c.number_format != "General":
+                assert len(_shown(c.value, c.number_format)) + 2 <= width, (c.coordinate, c.number_format)
+    compare = wb["Compare"]
+    assert compare.print_area == f"'Compare'!$A$1:$N${len(SCENARIOS['straight'].x) + 1}"

@@ -52,6 +52,7 @@ LINE = 15.0  # points per line of wrapped text
 HEADER_FILL = PatternFill("solid", fgColor="DDE5EE")
 WRAP = Alignment(wrap_text=True, vertical="top")
 MARKER = "1F4E79"
+EXCLUDED = "C00000"  # the excluded standards' marker
 ABOUT_WIDTH = 68  # the About sheet's one column: fits a portrait A4 or Letter page at full size
 
 
@@ -174,6 +175,7 @@ def calibration_sheet(wb: Workbook, sc: Scenario):
     _wrap(ws, _span(_cell(limits_at, 1), 6, 6))
     last = _cell(limits_at, 6, 5)
     if sc.weights:
+        ws[_cell(weighting_at, -1)] = f"weights {sc.weights}: fixed by the method (see About); this table is a check"
         ws[weighting_at] = _formula("CALIB_WEIGHTING", x, y, "", "", e)
         headers.append(_span(weighting_at, 1, 7))
         _wrap(ws, _span(_cell(weighting_at, 1), 6, 7))
@@ -410,13 +412,34 @@ def _chart(title: str, x_title: str, y_title: str, log: bool) -> ScatterChart:
     return chart
 
 
+def _runs(sc: Scenario) -> tuple[list, list]:
+    """(first, count) of each run of consecutive standards the fit uses, and of the excluded ones."""
+    out, runs = {i for i, _ in sc.excluded}, ([], [])
+    for i in range(len(sc.x)):
+        kind = runs[i in out]
+        if kind and sum(kind[-1]) == i:
+            kind[-1] = (kind[-1][0], kind[-1][1] + 1)
+        else:
+            kind.append((i, 1))
+    return runs
+
+
 def _charts(ws, sc: Scenario, n: int) -> None:
     log = _log_axes(sc)
-    x = _column(ws, "A2", 0, n)
     grid = _column(ws, LAYOUT["grid"], 0, GRID)
     curve = _chart(f"{sc.title}: standards, fitted curve, prediction band" + (" (log axes)" if log else ""),
                    sc.x_label, sc.y_label, log)
-    curve.series.append(_series(ws, x, _column(ws, "A2", 1, n), "standards", marker=True))
+    used, excluded = _runs(sc)
+    for first, count in used:
+        curve.series.append(_series(ws, _column(ws, _cell("A2", first), 0, count),
+                                    _column(ws, _cell("A2", first), 1, count), "standards", marker=True))
+    for first, count in excluded:  # drawn apart, with a marker of its own: not part of the fit
+        s = _series(ws, _column(ws, _cell("A2", first), 0, count), _column(ws, _cell("A2", first), 1, count),
+                    "excluded standard", marker=True)
+        s.marker.symbol = "x"
+        s.marker.size = 8
+        s.marker.graphicalProperties.solidFill = s.marker.graphicalProperties.line.solidFill = EXCLUDED
+        curve.series.append(s)
     predict = LAYOUT["predict"]
     curve.series.append(_series(ws, grid, _column(ws, predict, 0, GRID), "fitted"))
     curve.series.append(_series(ws, grid, _column(ws, predict, 3, GRID), "prediction lower", dash="dash"))
@@ -425,10 +448,15 @@ def _charts(ws, sc: Scenario, n: int) -> None:
     ws.add_chart(curve, LAYOUT["curve_chart"])
     # weighted fit: the deviation % of the back-calculated x (raw residuals fan out by design); else residuals
     column, label = (6, "deviation of back-calculated x (%)") if sc.weights else (1, "residual")
-    resid = _chart(f"{label} against x", sc.x_label, label, False)
+    # only the standards the fit uses: an excluded one's residual would set the scale
+    resid = _chart(f"{label} against x" + (" (standards used by the fit)" if excluded else ""), sc.x_label, label,
+                   False)
     if log:
         resid.x_axis.scaling.logBase = 10
-    resid.series.append(_series(ws, x, _column(ws, LAYOUT["residuals"], column, n), label, marker=True))
+    for first, count in used:
+        resid.series.append(_series(ws, _column(ws, _cell("A2", first), 0, count),
+                                    _column(ws, _cell(LAYOUT["residuals"], first), column, count), label,
+                                    marker=True))
     resid.legend = None
     resid.width, resid.height = 18, 8
     ws.add_chart(resid, LAYOUT["residual_chart"])
@@ -445,6 +473,14 @@ def about_sheet(wb: Workbook, sc: Scenario) -> None:
         (f"Weights: {sc.weights or 'none'}. The calibration sheet holds every CALIB_* function; "
          "'degreewise refresh' recomputes them without a spreadsheet program, 'degreewise report' writes a "
          "printable PDF of each calibration, and 'degreewise freeze' writes a copy with values only.", False),
+        ("Without the add-in, the CALIB_* cells show #NAME? in a spreadsheet program (or the values last stored, "
+         "which do not follow edited data). To hand the results to someone without the add-in, run "
+         "'degreewise freeze BOOK.xlsx COPY.xlsx': the copy's cells hold the values only, and its properties name "
+         "the source workbook and its SHA-256.", False),
+        *([(f"Why {sc.weights} although CALIB_WEIGHTING may pick another scheme: the weighting is part of the "
+            "method, fixed when the method was validated; the table compares the schemes for this run as a check, "
+            "and a change of weighting is decided in a new validation, not run by run (common practice).", False)]
+          if sc.weights else []),
         ("Caution: " + CAUTION, True),
     ]
     for i, (text, strong) in enumerate(lines, start=1):
