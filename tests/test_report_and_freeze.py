@@ -309,3 +309,17 @@ def test_every_number_in_the_report_is_a_cell_of_the_workbook_with_its_own_setti
             continue  # a formula, settings (the charts' too) or a title: references and typed numbers
         for token in re.findall(r"(?<![\w.!$:'])-?\d[\d.]*(?:e[+-]?\d+)?", line):
             assert token in allowed, (token, line)
+
+
+@pytest.mark.parametrize("cell,p,frozen", [
+    ('<c r="B2" s="3" t="str" cm="1"><f t="array" ref="B2">CALIB_VERSION()</f><v>a &amp; b</v></c>', "",
+     '<c r="B2" s="3" t="inlineStr"><is><t xml:space="preserve">a &amp; b</t></is></c>'),
+    ('<x:c r="B2" t="str"><x:f>CALIB_VERSION()</x:f><x:v>v</x:v></x:c>', "x:",
+     '<x:c r="B2" t="inlineStr"><x:is><x:t xml:space="preserve">v</x:t></x:is></x:c>'),
+    ('<c r="B2"><f>CALIB_ORDER(A1:A5,B1:B5)</f><v>2</v></c>', "", '<c r="B2"><v>2</v></c>'),
+])
+def test_a_frozen_cell_keeps_its_value_style_and_prefix(cell, p, frozen):
+    """The formula and the dynamic-array mark go; a text value becomes an inline string (ECMA-376 §18.3.1.4)."""
+    from degreewise.commands.freeze import frozen_cell
+
+    assert frozen_cell(cell, p) == frozen

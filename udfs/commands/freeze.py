@@ -14,7 +14,6 @@ from __future__ import annotations
 
 import hashlib
 import os
-import re
 import tempfile
 import time
 from pathlib import Path
@@ -22,7 +21,7 @@ from pathlib import Path
 from lxml import etree
 
 from .. import VERSION
-from ..xlsx.package import PackageError, SheetText, add_part, edit_xml, read_package, write_package, xml_bytes
+from ..xlsx.package import MAIN, PackageError, SheetText, add_part, edit_xml, read_package, write_package, xml_bytes
 from .refresh import Refresher, Report
 
 CORE = "docProps/core.xml"
@@ -32,14 +31,26 @@ CP, DC = "http://schemas.openxmlformats.org/package/2006/metadata/core-propertie
 
 
 def frozen_cell(xml: str, p: str) -> str:
-    """One cell's XML without its formula (and without the dynamic-array mark); a text value inline."""
-    xml = re.sub(rf"<{p}f\b[^>]*?(?:/>|>.*?</{p}f>)", "", xml, flags=re.S)
-    xml = re.sub(r'\s+cm\s*=\s*"[^"]*"', "", xml, count=1)
-    m = re.match(rf'<{p}c\b([^>]*?)\bt="str"([^>]*)><{p}v>(.*?)</{p}v></{p}c>$', xml, re.S)
-    if m:
-        xml = f'<{p}c{m.group(1)}t="inlineStr"{m.group(2)}><{p}is><{p}t xml:space="preserve">{m.group(3)}' \
-              f"</{p}t></{p}is></{p}c>"
-    return xml
+    """One cell's XML (``p`` its namespace prefix, e.g. "x:" or "") without its formula and without the
+    dynamic-array mark; a text value inline. Edited as an lxml tree inside a wrapper that declares ``p``."""
+    prefix = p.rstrip(":")
+    start = f'<w xmlns:{prefix}="{MAIN}">' if prefix else "<w>"
+    wrapper = edit_xml("a sheet cell", (start + xml + "</w>").encode("utf-8"))
+    (cell,) = wrapper
+    q = (lambda local: f"{{{MAIN}}}{local}" if prefix else local)
+    for f in cell.findall(q("f")):
+        cell.remove(f)
+    cell.attrib.pop("cm", None)
+    if cell.get("t") == "str" and [child.tag for child in cell] == [q("v")]:
+        value = cell[0]
+        cell.set("t", "inlineStr")
+        inline = etree.SubElement(cell, q("is"))
+        t = etree.SubElement(inline, q("t"))
+        t.set("{http://www.w3.org/XML/1998/namespace}space", "preserve")
+        t.text = value.text
+        cell.remove(value)
+    text = etree.tostring(wrapper, encoding="unicode")
+    return text[len(start): -len("</w>")]
 
 
 def note(book: Path, digest: str, when: str) -> str:
@@ -86,7 +97,7 @@ def freeze(book: Path, out: Path) -> Report:
         for f in refresher.formulas:
             part = refresher.book.sheet_parts[f.sheet]
             text = edits.setdefault(part, SheetText(parts[part].decode("utf-8")))
-            text.set_cell(f.row, f.col, frozen_cell(text.rows[f.row][1][f.col], re.escape(text.p)))
+            text.set_cell(f.row, f.col, frozen_cell(text.rows[f.row][1][f.col], text.p))
         for part, text in edits.items():
             parts[part] = text.render().encode("utf-8")
         digest = hashlib.sha256(book.read_bytes()).hexdigest()

@@ -517,19 +517,25 @@ class SheetText:
 
 
 def set_full_calc_on_load(xml: str) -> str:
-    """workbook.xml with <calcPr fullCalcOnLoad="1">, everything else kept as it was."""
-    m = re.search(r"<(\w+:)?calcPr\b([^>]*?)(/?)>", xml)
-    if m:
-        if re.search(r'\bfullCalcOnLoad\s*=\s*"(1|true)"', m.group(2)):
-            return xml
-        attrs = re.sub(r'\s+fullCalcOnLoad\s*=\s*"[^"]*"', "", m.group(2)).rstrip()
-        return xml[: m.start()] + f'<{m.group(1) or ""}calcPr{attrs} fullCalcOnLoad="1"{m.group(3)}>' + xml[m.end():]
-    p = (re.search(r"<(\w+:)?workbook\b", xml).group(1) or "")
-    for anchor in ("definedNames", "externalReferences", "functionGroups", "sheets"):
-        end = re.search(rf"</{re.escape(p)}{anchor}>|<{re.escape(p)}{anchor}\b[^>]*/>", xml)
-        if end:
-            return xml[: end.end()] + f'<{p}calcPr fullCalcOnLoad="1"/>' + xml[end.end():]
-    raise PackageError("workbook.xml has no sheets element")
+    """workbook.xml with <calcPr fullCalcOnLoad="1">, edited as an XML tree (lxml), the rest kept as it was."""
+    root = edit_xml("workbook.xml", xml.encode("utf-8"))
+    ns = etree.QName(root).namespace
+    tag = (lambda local: f"{{{ns}}}{local}" if ns else local)
+    calc = root.find(tag("calcPr"))
+    if calc is None:
+        anchor = next((el for local in ("definedNames", "externalReferences", "functionGroups", "sheets")
+                       for el in [root.find(tag(local))] if el is not None), None)
+        if anchor is None:
+            raise PackageError("workbook.xml has no sheets element")
+        calc = etree.Element(tag("calcPr"))
+        calc.tail, anchor.tail = anchor.tail, None
+        anchor.addnext(calc)
+    elif calc.get("fullCalcOnLoad") in ("1", "true"):
+        return xml
+    calc.set("fullCalcOnLoad", "1")
+    if xml.lstrip().startswith("<?xml"):
+        return xml_bytes(root).decode("utf-8")
+    return etree.tostring(root, encoding="unicode")
 
 
 def dynamic_array_metadata(parts: dict[str, bytes], workbook_part: str, rels: dict) -> tuple[str, list[str]]:
