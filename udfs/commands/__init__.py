@@ -4,6 +4,8 @@ freeze, addin), each loaded only when it runs."""
 from __future__ import annotations
 
 import argparse
+import os
+import signal
 import sys
 
 
@@ -102,7 +104,21 @@ def main(argv=None) -> int:
 
         headless()  # no spreadsheet to register with: the functions load without xlwings (and pandas)
         _defer_unused_numpy_modules()
-    return args.run(args)
+    signal.signal(signal.SIGTERM, _stop)  # a termination unwinds like Ctrl-C: temporary files are removed
+    try:
+        return args.run(args)
+    except KeyboardInterrupt as stop:
+        code = stop.args[0] if stop.args else 130
+        print(f"degreewise {args.command}: stopped ({'terminated' if code == 143 else 'interrupted'}); a "
+              "workbook not yet replaced was left as it was", file=sys.stderr)
+        return code
+    except BrokenPipeError:  # the reader of the output went away (| head): end quietly
+        os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
+        return 141
+
+
+def _stop(signum, frame):
+    raise KeyboardInterrupt(143)
 
 
 def _defer_unused_numpy_modules() -> None:

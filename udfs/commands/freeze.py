@@ -14,7 +14,6 @@ from __future__ import annotations
 
 import hashlib
 import os
-import tempfile
 import time
 from pathlib import Path
 
@@ -22,6 +21,7 @@ from lxml import etree
 
 from .. import VERSION
 from ..xlsx.package import MAIN, PackageError, SheetText, add_part, edit_xml, read_package, write_package, xml_bytes
+from . import files
 from .refresh import Refresher, Report
 
 CORE = "docProps/core.xml"
@@ -87,7 +87,10 @@ def freeze(book: Path, out: Path) -> Report:
     try:
         if out.exists() and book.exists() and os.path.samefile(book, out):
             raise PackageError(f"{out} is the workbook itself; give another name for the frozen copy")
-        infos, parts = read_package(book)
+        data, _ = files.read(book)
+        digest = hashlib.sha256(data).hexdigest()
+        infos, parts = read_package(data)
+        del data
         refresher = Refresher(parts)
         changed, added = refresher.run(report)
         if report.blocked or report.left_alone or report.failed:
@@ -100,20 +103,12 @@ def freeze(book: Path, out: Path) -> Report:
             text.set_cell(f.row, f.col, frozen_cell(text.rows[f.row][1][f.col], text.p))
         for part, text in edits.items():
             parts[part] = text.render().encode("utf-8")
-        digest = hashlib.sha256(book.read_bytes()).hexdigest()
         added += _describe(parts, note(book, digest, time.strftime("%Y-%m-%d %H:%M:%S %z")))
-        fd, tmp = tempfile.mkstemp(prefix=".~degreewise-", suffix=out.suffix, dir=out.parent)
-        os.close(fd)
-        try:
-            write_package(tmp, infos, parts, added)
-            os.replace(tmp, out)
-        finally:
-            if os.path.exists(tmp):
-                os.unlink(tmp)
+        files.write(out, lambda tmp: write_package(tmp, infos, parts, added))  # a new file's usual mode
     except PackageError as err:
         report.error = str(err)
     except OSError as err:
-        report.error = f"{type(err).__name__}: {err}"
+        report.error = files.in_words(err, out) if err.filename != str(book) else f"{err.strerror}: {book}"
     return report
 
 

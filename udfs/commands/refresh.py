@@ -20,7 +20,6 @@ import gc
 import inspect
 import os
 import re
-import shutil
 import stat
 import sys
 import tempfile
@@ -35,6 +34,7 @@ from ..catalogue import TEXT_ANSWERS
 from ..xlsx.cells import cell_name, column_letters
 from ..xlsx.package import (MAX_COL, MAX_ROW, PackageError, SheetText, Workbook, dynamic_array_metadata, read_package,
                             set_full_calc_on_load, text_of, write_package)
+from . import files
 from .dependencies import graph_of
 from .formula import (MENTION, Area, Call, Constant, Unsupported, areas_of, parse_call, quote_sheet, reference,
                       shift_references)
@@ -165,7 +165,9 @@ class Spooled(MutableMapping):
 
     def __init__(self, parts: dict, spool: bool = False):
         self.parts = parts
-        self._folder = tempfile.TemporaryDirectory(prefix="degreewise-") if spool else None
+        if spool:
+            files.sweep(Path(tempfile.gettempdir()))  # spool folders of runs that died
+        self._folder = tempfile.TemporaryDirectory(prefix=f"degreewise-{os.getpid()}-") if spool else None
         self._out, self._pid = None, None
 
     def __enter__(self) -> Spooled:
@@ -380,6 +382,9 @@ class Refresher:
             except Unsupported as why:
                 report.left_alone.append((f.where, str(why)))
                 continue
+            except RecursionError:
+                report.left_alone.append((f.where, "the formula nests calls more deeply than the refresh follows"))
+                continue
             if f.attrs.get("t") == "array" and f.attrs.get("ref"):
                 f.previous = reference(f.attrs["ref"], f.sheet)
             by_cell[(f.sheet, f.row, f.col)] = f
@@ -487,7 +492,8 @@ class Refresher:
         global _FORKED
         _FORKED = self, plan, shares
         try:
-            with ProcessPoolExecutor(len(shares) - 1, mp_context=multiprocessing.get_context("fork")) as pool:
+            with ProcessPoolExecutor(len(shares) - 1, mp_context=multiprocessing.get_context("fork"),
+                                     initializer=files.die_with_parent) as pool:
                 futures = [pool.submit(_compute_share, i) for i in range(1, len(shares))]
                 outcomes = [_compute_share(0)] + [f.result() for f in futures]  # this process takes the first
         finally:
@@ -730,6 +736,8 @@ def _target(path: Path, check: bool) -> Path:
     if lock is not None:
         raise PackageError(f"the workbook is open in a spreadsheet program ({lock.name} is present); "
                            "close it and try again")
+    if hasattr(os, "statvfs") and os.statvfs(real.parent).f_flag & os.ST_RDONLY:
+        raise PackageError(f"{real.parent} is on a read-only file system; nothing was changed")
     if not info.st_mode & 0o222 or not os.access(real, os.W_OK):
         raise PackageError("the workbook is read-only; make it writable to refresh it")
     if info.st_nlink > 1:
@@ -738,30 +746,19 @@ def _target(path: Path, check: bool) -> Path:
     return real
 
 
-def _replace(real: Path, infos, parts: dict, added: list[str], backup: bool, report: Report) -> None:
-    """Write the package to a temporary file beside ``real`` with its mode (and group, where allowed),
-    keep the original as a backup if asked, and move the new file into place atomically."""
-    info = real.stat()
-    fd, tmp = tempfile.mkstemp(prefix=".~degreewise-", suffix=real.suffix, dir=real.parent)
-    os.close(fd)
-    try:
-        os.chmod(tmp, stat.S_IMODE(info.st_mode))
-        try:
-            os.chown(tmp, -1, info.st_gid)
-        except (OSError, AttributeError):  # not a member of the group, or no chown: the folder's default stays
-            pass
-        write_package(tmp, infos, parts, added)
-        if backup:
-            stamp, n = time.strftime("%Y%m%d-%H%M%S"), 1
-            report.backup = real.with_name(f"{real.stem}.before-refresh-{stamp}{real.suffix}")
-            while report.backup.exists():
-                n += 1
-                report.backup = real.with_name(f"{real.stem}.before-refresh-{stamp}-{n}{real.suffix}")
-            shutil.copy2(real, report.backup)
-        os.replace(tmp, real)
-    finally:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
+def _replace(real: Path, infos, parts: dict, added: list[str], backup: bool, report: Report, seen) -> None:
+    """Keep the original as a backup if asked, then write the package in place of ``real`` (``files.write``:
+    beside it, with its owner, mode and attributes, only if it is still the file that was read)."""
+    if backup:
+        if not files.unchanged(real, seen):
+            raise files.Changed
+        stamp, n = time.strftime("%Y%m%d-%H%M%S"), 1
+        report.backup = real.with_name(f"{real.stem}.before-refresh-{stamp}{real.suffix}")
+        while report.backup.exists():
+            n += 1
+            report.backup = real.with_name(f"{real.stem}.before-refresh-{stamp}-{n}{real.suffix}")
+        files.copy(real, report.backup)
+    files.write(real, lambda tmp: write_package(tmp, infos, parts, added), like=real, seen=seen)
 
 
 def refresh_file(path: Path, check: bool = False, backup: bool = False, workers: int | None = None) -> Report:
@@ -772,18 +769,21 @@ def refresh_file(path: Path, check: bool = False, backup: bool = False, workers:
     report = Report(path)
     try:
         real = _target(path, check)
-        infos, parts = read_package(real)
+        data, seen = files.read(real)
+        infos, parts = read_package(data)
+        del data
         with Spooled(parts, spool=True) as parts:
             changed, added = Refresher(parts).run(report, (os.cpu_count() or 1) if workers is None else workers)
             if check or not changed:
                 return report
             parts.update(changed)
-            _replace(real, infos, parts, added, backup, report)
+            _replace(real, infos, parts, added, backup, report, seen)
         report.written = True
-    except PackageError as err:
+    except (PackageError, files.Changed) as err:
         report.error = str(err)
+        report.backup = None if report.backup is None or not report.backup.exists() else report.backup
     except OSError as err:
-        report.error = f"{type(err).__name__}: {err}"
+        report.error = files.in_words(err, path)
     except Exception as err:  # a defect of ours: reported on one line, so a folder run goes on  # noqa: BLE001
         report.error = f"unexpected {type(err).__name__} ({err}); the workbook was left as it was"
     return report
@@ -814,11 +814,11 @@ def run(paths, check: bool = False, backup: bool = False, jobs: int | None = Non
     that many at a time; a single large workbook has its sheets split over them.
     """
     jobs = jobs or os.cpu_count() or 1
-    files = workbooks(paths)
-    if not files:
+    books = workbooks(paths)
+    if not books:
         print("no workbooks (.xlsx, .xlsm) found in " + ", ".join(map(str, paths)))
         return 2
-    tasks = [(f, check, backup) for f in files]
+    tasks = [(f, check, backup) for f in books]
 
     def progress(items):  # a bar on a terminal when there are several workbooks
         if len(tasks) < 2 or not sys.stderr.isatty():
@@ -831,7 +831,7 @@ def run(paths, check: bool = False, backup: bool = False, jobs: int | None = Non
         from concurrent.futures import ProcessPoolExecutor
 
         reports = []
-        with ProcessPoolExecutor(max_workers=jobs) as pool:
+        with ProcessPoolExecutor(max_workers=jobs, initializer=files.die_with_parent) as pool:
             for task, future in progress(list(zip(tasks, [pool.submit(_one, t) for t in tasks]))):
                 try:
                     reports.append(future.result())

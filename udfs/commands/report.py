@@ -35,6 +35,7 @@ from .. import VERSION, functions
 from ..catalogue import CAUTION
 from ..xlsx.package import PackageError
 from .refresh import workbooks
+from . import files
 from .formula import Area, Constant
 from .sections import Section, number, sections
 from .sections import Table as CellTable
@@ -344,9 +345,14 @@ def write_report(path: Path, out: Path, paper: str = "a4") -> tuple[Path, int]:
     if not found:
         raise PackageError("no CALIB_* formula with standards (x and y ranges) in the workbook")
     _fonts()
-    st = _Styles()
     size = PAPER[paper]
-    doc = SimpleDocTemplate(str(out), pagesize=size, leftMargin=MARGIN, rightMargin=MARGIN, topMargin=MARGIN,
+    files.write(out, lambda tmp: _build(tmp, path, found, book, size))  # never a half-written PDF under its name
+    return out, len(found)
+
+
+def _build(out: str, path: Path, found: list[Section], book, size) -> None:
+    st = _Styles()
+    doc = SimpleDocTemplate(out, pagesize=size, leftMargin=MARGIN, rightMargin=MARGIN, topMargin=MARGIN,
                             bottomMargin=MARGIN + 8 * mm, title=f"Calibration report: {path.name}",
                             author=f"Degreewise {VERSION}", subject="calibration report")
     width = size[0] - 2 * MARGIN
@@ -358,7 +364,6 @@ def write_report(path: Path, out: Path, paper: str = "a4") -> tuple[Path, int]:
     footer = (f"{path.name}: calibration report, Degreewise {VERSION}, workbook SHA-256 {book.sha256[:16]}…",
               f"Caution: {CAUTION}")
     doc.build(story, canvasmaker=_canvas(footer))
-    return out, len(found)
 
 
 def report_path(book: Path, folder: Path | None) -> Path:
@@ -379,7 +384,10 @@ def run(paths, out: str | None = None, paper: str = "a4") -> int:
         try:
             written, count = write_report(book, report_path(book, folder), paper)
             print(f"{book}: report with {count} calibration{'s' if count != 1 else ''} written to {written}")
-        except (PackageError, OSError) as err:
+        except PackageError as err:
             print(f"{book}: no report: {err}")
+            status = 1
+        except OSError as err:
+            print(f"{book}: no report: {files.in_words(err, report_path(book, folder))}")
             status = 1
     return status

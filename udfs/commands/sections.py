@@ -12,13 +12,13 @@ the only addition, are computed with the settings of one named table
 
 from __future__ import annotations
 
-import hashlib
 from dataclasses import dataclass, field
 from pathlib import Path
 
 from ..catalogue import FUNCTIONS as CATALOGUE
 from ..xlsx.cells import column_letters
 from ..xlsx.package import read_package
+from . import files
 from .formula import Area, Call, Constant
 from .refresh import Refresher, Report, parameters
 
@@ -135,9 +135,9 @@ class Book:
 
     def __init__(self, path: Path):
         self.path = path
-        data = path.read_bytes()
-        self.sha256 = hashlib.sha256(data).hexdigest()
-        _, parts = read_package(path)
+        data, seen = files.read(path)  # a device or a pipe is refused unopened
+        self.sha256 = seen.sha256
+        _, parts = read_package(data)
         self.refresher = Refresher(parts)
         self.report = Report(path)
         self.refresher.run(self.report)

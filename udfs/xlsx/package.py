@@ -12,11 +12,13 @@ from __future__ import annotations
 
 import copy
 import html
+import io
 import posixpath
 import re
 import zipfile
 import zlib
 from dataclasses import dataclass, field
+from pathlib import Path
 
 from defusedxml import ElementTree as SafeET
 from defusedxml.common import DefusedXmlException
@@ -135,18 +137,18 @@ ENCRYPTED = b"\xd0\xcf\x11\xe0\xa1\xb1\x1a\xe1"  # a compound file: how a passwo
 CHUNK = 2**20  # bytes inflated at a time
 
 
-def read_package(path) -> tuple[list[zipfile.ZipInfo], dict[str, bytes]]:
-    """Every entry of the zip at ``path`` with its unpacked bytes, within the limits.
+def read_package(source) -> tuple[list[zipfile.ZipInfo], dict[str, bytes]]:
+    """Every entry of the zip (a path, or the file's bytes) with its unpacked bytes, within the limits.
 
     The limits are checked on the declared sizes first, then held while inflating: each entry is read
     in chunks and refused as soon as it gives more than it declared, so an entry that lies about its
     size (with a matching CRC of what it declares) never inflates more than the limits."""
     try:
-        with open(path, "rb") as f:
-            if f.read(len(ENCRYPTED)) == ENCRYPTED:
-                raise PackageError("the workbook is encrypted (password-protected); save it without a password "
-                                   "and try again")
-        with zipfile.ZipFile(path) as z:
+        data = source if isinstance(source, bytes) else Path(source).read_bytes()
+        if data.startswith(ENCRYPTED):
+            raise PackageError("the workbook is encrypted (password-protected); save it without a password "
+                               "and try again")
+        with zipfile.ZipFile(io.BytesIO(data)) as z:
             infos = z.infolist()
             names = [i.filename for i in infos]
             if len(set(names)) != len(names):
