@@ -143,3 +143,23 @@ def test_a_signal_ends_in_one_line_and_leaves_nothing_behind(tmp_path, sig, code
     assert path.read_bytes() in (before, done.read_bytes())  # as it was, or completely refreshed
     assert [p.name for p in tmp_path.iterdir() if p.name not in ("book.xlsx", "done")] == []
     assert list(Path(tempfile.gettempdir()).glob(f"degreewise-{run.pid}-*")) == []  # its spool folder too
+
+
+def test_a_temporary_folder_that_cannot_be_written_is_replaced_by_the_workbooks(tmp_path, monkeypatch):
+    path = workbook(tmp_path / "book.xlsx")
+    locked = tmp_path / "tmp"
+    locked.mkdir()
+    monkeypatch.setattr(tempfile, "tempdir", str(locked))
+    real = tempfile.TemporaryDirectory
+
+    def read_only(*args, **kwargs):  # as a read-only TMPDIR answers (root may write anywhere, so simulated)
+        if kwargs.get("dir") is None:
+            raise OSError(errno.EROFS, "Read-only file system", str(locked))
+        return real(*args, **kwargs)
+
+    monkeypatch.setattr(tempfile, "TemporaryDirectory", read_only)
+    report = refresh_file(path, workers=1)
+    assert report.written and report.notes == [f"the temporary folder {locked} cannot be written; {tmp_path} was "
+                                               "used instead"]
+    assert report.lines()[-1] == f"  note: {report.notes[0]}"
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["book.xlsx", "tmp"]

@@ -93,6 +93,7 @@ class Report:
     left_alone: list[tuple[str, str]] = field(default_factory=list)
     failed: list[tuple[str, str]] = field(default_factory=list)
     spills: list[tuple[str, Area]] = field(default_factory=list)  # anchors whose results now cover a range
+    notes: list[str] = field(default_factory=list)  # how the run went, where the user should know
     changed: bool = False  # some value or stored formula changes
     written: bool = False  # the file was rewritten
     error: str | None = None
@@ -131,6 +132,7 @@ class Report:
         yield from (f"  failed {c}: {why}" for c, why in self.failed)
         if self.backup:
             yield f"  original kept as {self.backup}"
+        yield from (f"  note: {n}" for n in self.notes)
 
 
 @dataclass
@@ -163,11 +165,20 @@ class Spooled(MutableMapping):
     large workbook's refreshed sheets are not all held in memory and a forked process hands back where
     its parts are, not their bytes; leaving the ``with`` block removes the files."""
 
-    def __init__(self, parts: dict, spool: bool = False):
-        self.parts = parts
+    def __init__(self, parts: dict, spool: bool = False, near: Path | None = None):
+        """With ``spool``, the parts put aside go to the system's temporary folder or, where that cannot be
+        written, to ``near`` (the workbook's folder); ``note`` then says so."""
+        self.parts, self.note, self._folder = parts, None, None
         if spool:
-            files.sweep(Path(tempfile.gettempdir()))  # spool folders of runs that died
-        self._folder = tempfile.TemporaryDirectory(prefix=f"degreewise-{os.getpid()}-") if spool else None
+            system = Path(tempfile.gettempdir())
+            files.sweep(system)  # spool folders of runs that died
+            try:
+                self._folder = tempfile.TemporaryDirectory(prefix=f"degreewise-{os.getpid()}-")
+            except OSError:
+                if near is None:
+                    raise
+                self._folder = tempfile.TemporaryDirectory(prefix=f".~degreewise-{os.getpid()}-", dir=near)
+                self.note = f"the temporary folder {system} cannot be written; {near} was used instead"
         self._out, self._pid = None, None
 
     def __enter__(self) -> Spooled:
@@ -772,7 +783,9 @@ def refresh_file(path: Path, check: bool = False, backup: bool = False, workers:
         data, seen = files.read(real)
         infos, parts = read_package(data)
         del data
-        with Spooled(parts, spool=True) as parts:
+        with Spooled(parts, spool=True, near=real.parent) as parts:
+            if parts.note:
+                report.notes.append(parts.note)
             changed, added = Refresher(parts).run(report, (os.cpu_count() or 1) if workers is None else workers)
             if check or not changed:
                 return report
