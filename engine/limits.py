@@ -185,11 +185,11 @@ def _at_zero(cal: Calibration, curve: Curve) -> _AtZero:
 def _iso_row(cal: Calibration, curve: Curve, zero: _AtZero, m: int, alpha: float, t1: float) -> Limit:
     none, order = (math.nan,) * 4, curve.order
     if order != 1:
-        return Limit(ISO, *none, f"applies to a straight line with constant SD; this curve is of order {order} "
-                                 "(see the prediction band row)")
+        return Limit(ISO, *none, "does not apply: ISO 11843-2 covers a straight line with constant SD; this curve "
+                                 f"is of order {order} (see the prediction band row)")
     if cal.weighting.values is not None:
-        return Limit(ISO, *none, f"applies to a straight line with constant SD; this calibration is weighted "
-                                 f"('{cal.weighting.label}') (see the prediction band row)")
+        return Limit(ISO, *none, "does not apply: ISO 11843-2 covers a straight line with constant SD; this "
+                                 f"calibration is weighted ('{cal.weighting.label}') (see the prediction band row)")
     z, n, df = cal.z, cal.n_points, curve.df
     zbar = float(z.mean())  # xbar^2 / Qx in the scaled variable z (x less 0 is z less z(0), times x per z)
     root = math.sqrt(1.0 / m + 1.0 / n + (zbar - float(cal.scaled_x(0.0))) ** 2 / float(((z - zbar) ** 2).sum()))

@@ -188,7 +188,8 @@ def test_weights_that_vanish_at_zero_are_answered_in_words():
     for method in ("prediction band", "ICH residual SD"):
         assert rows[method].note == words
         assert all(math.isnan(v) for v in rows[method][1:5])
-    assert rows["ISO 11843-2"].note == ("applies to a straight line with constant SD; this calibration is weighted "
+    assert rows["ISO 11843-2"].note == ("does not apply: ISO 11843-2 covers a straight line with constant SD; this "
+                                        "calibration is weighted "
                                         "('1/x^2') (see the prediction band row)")
     assert rows["ICH intercept SE"].detection_limit > 0  # the intercept's standard error still exists
 
