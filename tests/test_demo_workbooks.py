@@ -115,7 +115,6 @@ def test_charts_read_ranges_that_hold_numbers_with_visible_markers(name):
                   if n.startswith("xl/charts/chart")]
     assert len(charts) == 2
     ws = openpyxl.load_workbook(book(name), data_only=True)[sheet]
-    n = len(sc.x)
     for chart in charts:
         for ref in re.findall(r"<(?:c:)?f>([^<]+)</(?:c:)?f>", chart):
             where, cells = ref.split("!")

@@ -32,8 +32,8 @@ from typing import NamedTuple
 from .. import FUNCTIONS, functions
 from ..catalogue import TEXT_ANSWERS
 from ..xlsx.cells import cell_name, column_letters
-from ..xlsx.package import (MAX_COL, MAX_ROW, PackageError, SheetText, Workbook, dynamic_array_metadata, read_package,
-                            set_full_calc_on_load, text_of, write_package)
+from ..xlsx.package import (MAX_COL, MAX_ROW, PackageError, Sheet, SheetText, Workbook, dynamic_array_metadata,
+                            read_package, set_full_calc_on_load, text_of, write_package)
 from . import files
 from .dependencies import graph_of
 from .formula import (MENTION, Area, Call, Constant, Unsupported, areas_of, parse_call, quote_sheet, reference,
