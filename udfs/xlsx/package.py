@@ -11,14 +11,17 @@ change stays as it was.
 from __future__ import annotations
 
 import copy
+import gc
 import html
 import io
 import posixpath
 import re
+import xml.parsers.expat
 import zipfile
 import zlib
 from dataclasses import dataclass, field
 from pathlib import Path
+from xml.etree import ElementTree as ET
 
 from defusedxml import ElementTree as SafeET
 from defusedxml.common import DefusedXmlException
@@ -87,6 +90,32 @@ def parse_xml(name: str, data: bytes):
     except DefusedXmlException as err:
         raise PackageError(f"unsafe XML in {name}: {type(err).__name__} (DTDs and entities are not allowed)") from None
     except SafeET.ParseError as err:
+        raise PackageError(f"broken XML in {name}: {err}") from None
+
+
+class _RootReached(Exception):
+    pass
+
+
+def _refuse_dtd(name: str, data: bytes) -> None:
+    """Refuse a part with a document type declaration, read by expat up to its root element only (a DTD can
+    stand nowhere else, so what follows is parsed without one: no entity can be declared or expanded)."""
+    parser = xml.parsers.expat.ParserCreate()
+
+    def doctype(*_):
+        raise PackageError(f"unsafe XML in {name}: DTDForbidden (DTDs and entities are not allowed)")
+
+    def root(*_):
+        raise _RootReached
+
+    parser.StartDoctypeDeclHandler, parser.StartElementHandler = doctype, root
+    try:
+        for start in range(0, len(data), 1 << 16):
+            parser.Parse(data[start:start + (1 << 16)], False)
+        parser.Parse(b"", True)
+    except _RootReached:
+        pass
+    except xml.parsers.expat.ExpatError as err:
         raise PackageError(f"broken XML in {name}: {err}") from None
 
 
@@ -294,57 +323,74 @@ class Workbook:
             self.names[(sheet, dn.get("name", "").upper())] = (dn.text or "").strip()
 
     def read_sheet(self, name: str) -> Sheet:
-        """The worksheet ``name`` as its part now stands: cells, merged blocks and tables."""
+        """The worksheet ``name`` as its part now stands: cells, merged blocks and tables. Read as a stream
+        (ElementTree's iterparse, each row dropped once read), so memory holds the cells' values, not the part's
+        element tree; a DTD is refused first (``_refuse_dtd``), so no entity can be expanded."""
         sheet = Sheet(name, self.sheet_parts[name])
-        root = parse_xml(sheet.part, self.parts[sheet.part])
-        merges = root.find(_q("mergeCells"))
-        sheet.merged = [_box(sheet.part, m.get("ref", "")) for m in merges.iter(_q("mergeCell"))] \
-            if merges is not None else []
-        tables = root.find(_q("tableParts"))
-        if tables is not None:
-            rels = _rels(self.parts, sheet.part)
-            for tp in tables.iter(_q("tablePart")):
-                target = rels.get(tp.get(f"{{{REL}}}id"), ("", ""))[1]
-                if target in self.parts:
-                    table = parse_xml(target, self.parts[target])
-                    sheet.tables.append((table.get("displayName") or table.get("name") or target,
-                                         _box(target, table.get("ref", ""))))
-        data = root.find(_SHEET_DATA)
-        if data is not None:
-            self._read_cells(sheet, data)
+        part, table_ids, row_no, pending = sheet.part, [], 0, []
+        data = self.parts[part]
+        _refuse_dtd(part, data)
+        events = ET.iterparse(io.BytesIO(data), ("start", "end"))
+        collecting = gc.isenabled()
+        gc.disable()  # the cells read make no reference cycles; collections over millions of them would be wasted
+        try:
+            for event, el in events:
+                tag = el.tag
+                if event == "start":
+                    if tag == _SHEET_DATA:
+                        rows = el
+                    continue
+                if tag == _CELL:
+                    pending.append(el)
+                elif tag == _ROW:
+                    r_attr = el.get("r")
+                    if r_attr is not None and not r_attr.isdigit():
+                        raise PackageError(f"part {part} has a row numbered {r_attr!r}")
+                    row_no, col_no = int(r_attr) if r_attr is not None else row_no + 1, 0
+                    for c in pending:
+                        col_no = self._read_cell(sheet, c, row_no, col_no)
+                    pending.clear()
+                    rows.clear()  # the rows read so far: gone from the tree
+                elif tag == _MERGE:
+                    sheet.merged.append(_box(part, el.get("ref", "")))
+                elif tag == _TABLE_PART:
+                    table_ids.append(el.get(f"{{{REL}}}id"))
+        except ET.ParseError as err:
+            raise PackageError(f"broken XML in {part}: {err}") from None
+        finally:
+            if collecting:
+                gc.enable()
+        rels = _rels(self.parts, part) if table_ids else {}
+        for rid in table_ids:
+            target = rels.get(rid, ("", ""))[1]
+            if target in self.parts:
+                table = parse_xml(target, self.parts[target])
+                sheet.tables.append((table.get("displayName") or table.get("name") or target,
+                                     _box(target, table.get("ref", ""))))
         return sheet
 
-    def _read_cells(self, sheet: Sheet, data) -> None:
-        styles, formulas, values = sheet.styles, sheet.formulas, sheet.values
-        row_no = 0
-        for row in data.iter(_ROW):
-            r_attr = row.get("r")
-            if r_attr is not None and not r_attr.isdigit():
-                raise PackageError(f"part {sheet.part} has a row numbered {r_attr!r}")
-            row_no = int(r_attr) if r_attr is not None else row_no + 1
-            col_no = 0
-            for c in row.iter(_CELL):
-                ref = c.get("r")
-                try:
-                    r, col = parse_cell(ref) if ref else (row_no, col_no + 1)
-                except ValueError:
-                    raise PackageError(f"part {sheet.part} has a cell at {ref!r}, which is not a cell reference") \
-                        from None
-                col_no = col
-                key = (r, col)
-                style = c.get("s")
-                if style is not None:
-                    styles[key] = style
-                f = c.find(_FORMULA)
-                if f is not None:
-                    formulas[key] = (f.text or "", dict(f.attrib))
-                    if c.get("cm") is not None and f.get("t") == "array":
-                        sheet.dynamic[key] = c.get("cm")
-                value = self._value(c, sheet.part, ref)
-                if value is not None:
-                    values[key] = value
-                    if r > sheet.max_row:
-                        sheet.max_row = r
+    def _read_cell(self, sheet: Sheet, c, row_no: int, col_no: int) -> int:
+        """Store one <c> element's style, formula and value; its column (for the next cell without r)."""
+        ref = c.get("r")
+        try:
+            r, col = parse_cell(ref) if ref else (row_no, col_no + 1)
+        except ValueError:
+            raise PackageError(f"part {sheet.part} has a cell at {ref!r}, which is not a cell reference") from None
+        key = (r, col)
+        style = c.get("s")
+        if style is not None:
+            sheet.styles[key] = style
+        f = c.find(_FORMULA)
+        if f is not None:
+            sheet.formulas[key] = (f.text or "", dict(f.attrib))
+            if c.get("cm") is not None and f.get("t") == "array":
+                sheet.dynamic[key] = c.get("cm")
+        value = self._value(c, sheet.part, ref)
+        if value is not None:
+            sheet.values[key] = value
+            if r > sheet.max_row:
+                sheet.max_row = r
+        return col
 
     def _value(self, c, part: str, ref):
         t = c.get("t", "n")
@@ -371,7 +417,8 @@ class Workbook:
             return text
 
 
-_SHEET_DATA, _ROW, _CELL, _FORMULA, _VALUE, _INLINE = (_q(t) for t in ("sheetData", "row", "c", "f", "v", "is"))
+_SHEET_DATA, _ROW, _CELL, _FORMULA, _VALUE, _INLINE, _MERGE, _TABLE_PART = (
+    _q(t) for t in ("sheetData", "row", "c", "f", "v", "is", "mergeCell", "tablePart"))
 _CELL_REF = re.compile(r'\br\s*=\s*["\']\$?([A-Za-z]{1,3})\$?[0-9]')
 _ATTR = re.compile(r'([\w:]+)\s*=\s*("[^"]*"|\'[^\']*\')')
 
