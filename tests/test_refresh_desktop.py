@@ -564,3 +564,22 @@ def test_libreoffice_opens_a_refreshed_workbook_with_merged_cells_and_a_table(tm
     order = degreewise.calib_order(XS, YS)
     assert rows[0][11] == str(order) and rows[0][20] == "merged note"
     assert float(rows[1][26]) == X[0] and float(rows[1][27]) == pytest.approx(Y[0], rel=1e-14)
+
+
+@pytest.mark.parametrize("name", BOOKS)
+def test_a_frozen_copy_of_every_desktop_saved_workbook_opens_with_the_same_values(tmp_path, name):
+    """freeze on the files the desktop program saved: the copy opens in openpyxl with every value of the
+    refreshed workbook, and no CALIB_* formula is left."""
+    from degreewise.commands.freeze import freeze
+
+    path = desktop_copy(tmp_path, name, {**standards(), **CALIB_CELLS})
+    assert refresh_file(path).ok
+    out = tmp_path / "frozen.xlsx"
+    assert freeze(path, out).error is None
+    live, frozen = (openpyxl.load_workbook(p, data_only=True, keep_vba=True) for p in (path, out))
+    for ws in live.worksheets:
+        got = frozen[ws.title]
+        assert [[c.value for c in row] for row in got.iter_rows()] == [[c.value for c in row] for row in ws.iter_rows()]
+    formulas = openpyxl.load_workbook(out, keep_vba=True)
+    stored = [getattr(c.value, "text", c.value) for ws in formulas.worksheets for row in ws.iter_rows() for c in row]
+    assert not any(isinstance(v, str) and v.startswith("=") and "CALIB_" in v.upper() for v in stored)
