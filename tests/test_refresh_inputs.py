@@ -241,9 +241,9 @@ def _sheet_with(path: Path, extra_rows: str) -> Path:
 
 @pytest.mark.parametrize("extra, why", [
     ('<row r="30"><c r="A30"><v>7</v></c></row><row r="30"><c r="B30"><v>8</v></c></row>',
-     "has row 30 twice; a refresh would lose one of them"),
-    ('<row r="30"><c r="A30"><v>7</v></c><c r="A30"><v>8</v></c></row>',
-     "has the cell A30 twice; a refresh would lose one of them"),
+     "has row 30 twice; a refresh could lose a row"),
+    ('<row r="30"><c r="A30"><v>7</v></c></row><row r="29"><c r="B29"><v>8</v></c></row>',
+     "has row 29 out of order; a refresh could lose a row"),
     ('<row r="30"><c r="A30"><v>7</v></c></row><!-- <row r="31"><c r="A31"><v>8</v></c></row> -->',
      "holds a comment among its cells, which the refresh does not edit"),
 ])
@@ -257,6 +257,20 @@ def test_malformed_rows_are_refused_in_words_and_the_file_kept(tmp_path, extra, 
     before = _sheet_with(path, extra).read_bytes()
     report = refresh_file(path, workers=1)
     assert report.error == (f"part xl/worksheets/sheet1.xml {why}" + (
-        ": open and save the workbook in the spreadsheet program, then refresh it" if "twice" in why else
+        ": open and save the workbook in the spreadsheet program, then refresh it" if "lose" in why else
         "; open and save the workbook in the spreadsheet program, then refresh it"))
     assert path.read_bytes() == before
+
+
+def test_a_row_the_refresh_does_not_edit_is_kept_verbatim_even_with_a_cell_twice(tmp_path):
+    wb = openpyxl.Workbook()
+    ws = wb.active
+    standards(ws)
+    ws["D2"] = "=CALIB_COEFS(A2:A13,B2:B13,1)"
+    path = tmp_path / "rows.xlsx"
+    wb.save(path)
+    row = '<row r="30"><c r="A30"><v>7</v></c><c r="A30"><v>8</v></c></row>'
+    _sheet_with(path, row)
+    assert refresh_file(path, workers=1).written
+    with zipfile.ZipFile(path) as z:
+        assert row in z.read("xl/worksheets/sheet1.xml").decode()  # both cells, as stored

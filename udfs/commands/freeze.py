@@ -100,7 +100,7 @@ def freeze(book: Path, out: Path) -> Report:
         for f in refresher.formulas:
             part = refresher.book.sheet_parts[f.sheet]
             text = edits.setdefault(part, SheetText(parts[part].decode("utf-8")))
-            text.set_cell(f.row, f.col, frozen_cell(text.rows[f.row][1][f.col], text.p))
+            text.set_cell(f.row, f.col, frozen_cell(text.cell(f.row, f.col), text.p))
         for part, text in edits.items():
             parts[part] = text.render().encode("utf-8")
         added += _describe(parts, note(book, digest, time.strftime("%Y-%m-%d %H:%M:%S %z")))

@@ -19,6 +19,8 @@ import re
 import xml.parsers.expat
 import zipfile
 import zlib
+from array import array
+from bisect import bisect_left
 from dataclasses import dataclass, field
 from pathlib import Path
 from xml.etree import ElementTree as ET
@@ -419,6 +421,7 @@ class Workbook:
 
 _SHEET_DATA, _ROW, _CELL, _FORMULA, _VALUE, _INLINE, _MERGE, _TABLE_PART = (
     _q(t) for t in ("sheetData", "row", "c", "f", "v", "is", "mergeCell", "tablePart"))
+_ROW_NUMBER = re.compile(r'\br\s*=\s*["\']([0-9]+)["\']')
 _CELL_REF = re.compile(r'\br\s*=\s*["\']\$?([A-Za-z]{1,3})\$?[0-9]')
 _ATTR = re.compile(r'([\w:]+)\s*=\s*("[^"]*"|\'[^\']*\')')
 
@@ -428,59 +431,86 @@ def _attrs(text: str) -> dict[str, str]:
 
 
 class SheetText:
-    """The XML text of one worksheet with its rows split out for editing.
+    """The XML text of one worksheet, edited row by row.
 
-    Rows and cells are located by regular expressions over <sheetData> only
-    (cells cannot nest and their text is escaped, so this is exact for
-    well-formed XML); untouched rows are written back verbatim.
+    Rows are located once by a scan of <sheetData> (their numbers and where their text starts and ends, in
+    arrays); a row's cells are split out only when the refresh edits or reads that row, so a large sheet
+    costs its text and three numbers per row. Untouched rows are written back verbatim. A row stored twice
+    is refused (an edit could not tell which to change); a comment, processing instruction or CDATA among the
+    cells is refused (row markup inside one would be taken for cells).
     """
 
     def __init__(self, xml: str, name: str = "the sheet"):
         m = re.search(r"<(\w+:)?worksheet\b", xml)
         self.p = (m.group(1) or "") if m else ""
         p = re.escape(self.p)
-        data = re.search(rf"<{p}sheetData\b[^>]*?(?:/>|>(.*?)</{p}sheetData>)", xml, re.S)
-        if data is None:
+        self.xml, self.name = xml, name
+        opening = re.compile(rf"<{p}sheetData\b[^>]*?(/?)>").search(xml)
+        if opening is None:
             raise PackageError(f"part {name} has no sheetData element")
-        self.head = xml[: data.start()]
-        self.tail = xml[data.end():]
-        self.open_tag = re.match(rf"<{p}sheetData\b[^>]*?", data.group(0)).group(0).rstrip("/") + ">"
-        self.rows: dict[int, list] = {}  # row -> [open tag attrs text, {col: cell xml}, changed]
-        self.order: list[int] = []
-        self._cell = re.compile(rf"<{p}c\b([^>]*?)(?:/>|>(.*?)</{p}c>)", re.S)
-        body = data.group(1) or ""
+        self.head = xml[: opening.start()]
+        self.open_tag = opening.group(0).removesuffix("/>").removesuffix(">") + ">"
+        if opening.group(1):
+            self.start = self.end = opening.end()
+            self.tail = xml[opening.end():]
+        else:
+            self.start = opening.end()
+            self.end = xml.find(f"</{self.p}sheetData>", self.start)
+            if self.end < 0:
+                raise PackageError(f"part {name} has no end to its sheetData element")
+            self.tail = xml[self.end + len(f"</{self.p}sheetData>"):]
         for mark, what in (("<!--", "a comment"), ("<?", "a processing instruction"), ("<![CDATA[", "a CDATA section")):
-            if mark in body:  # row markup inside one would be taken for a row of cells
+            if xml.find(mark, self.start, self.end) >= 0:
                 raise PackageError(f"part {name} holds {what} among its cells, which the refresh does not edit; "
                                    "open and save the workbook in the spreadsheet program, then refresh it")
+        self._cell = re.compile(rf"<{p}c\b([^>]*?)(?:/>|>(.*?)</{p}c>)", re.S)
+        self.numbers, self.starts, self.ends = array("q"), array("q"), array("q")
         row_no = 0
-        for rm in re.finditer(rf"<{p}row\b([^>]*?)(?:/>|>(.*?)</{p}row>)", body, re.S):
-            attrs = _attrs(rm.group(1))
-            row_no = int(attrs.get("r", row_no + 1))
-            if row_no in self.rows:
-                raise PackageError(f"part {name} has row {row_no} twice; a refresh would lose one of them: "
+        for rm in re.compile(rf"<{p}row\b([^>]*?)(?:/>|>.*?</{p}row>)", re.S).finditer(xml, self.start, self.end):
+            number = _ROW_NUMBER.search(rm.group(1))
+            row_no = int(number.group(1)) if number else row_no + 1
+            if self.numbers and row_no <= self.numbers[-1]:
+                what = "twice" if row_no in self.numbers else "out of order"
+                raise PackageError(f"part {name} has row {row_no} {what}; a refresh could lose a row: "
                                    "open and save the workbook in the spreadsheet program, then refresh it")
-            cells, col_no = {}, 0
-            for cm in self._cell.finditer(rm.group(2) or ""):
-                ref = _CELL_REF.search(cm.group(1))
-                col_no = column_number(ref.group(1)) if ref else col_no + 1
-                if col_no in cells:
-                    raise PackageError(f"part {name} has the cell {column_letters(col_no)}{row_no} twice; a refresh "
-                                       "would lose one of them: open and save the workbook in the spreadsheet "
-                                       "program, then refresh it")
-                cells[col_no] = cm.group(0)
-            self.rows[row_no] = [rm.group(1), cells, False, rm.group(0)]
-            self.order.append(row_no)
+            self.numbers.append(row_no)
+            self.starts.append(rm.start())
+            self.ends.append(rm.end())
+        self.rows: dict[int, list] = {}  # rows split out: row -> [open tag attrs text, {col: cell xml}, changed]
+
+    def _row(self, row: int) -> list:
+        """A row split into its cells (an empty new row if the sheet has none of that number)."""
+        entry = self.rows.get(row)
+        if entry is not None:
+            return entry
+        i = bisect_left(self.numbers, row)
+        if i == len(self.numbers) or self.numbers[i] != row:
+            entry = self.rows[row] = [f' r="{row}"', {}, True]
+            return entry
+        rm = re.compile(rf"<{re.escape(self.p)}row\b([^>]*?)(?:/>|>(.*?)</{re.escape(self.p)}row>)", re.S).match(
+            self.xml, self.starts[i], self.ends[i])
+        cells, col_no = {}, 0
+        for cm in self._cell.finditer(rm.group(2) or ""):
+            ref = _CELL_REF.search(cm.group(1))
+            col_no = column_number(ref.group(1)) if ref else col_no + 1
+            if col_no in cells:
+                raise PackageError(f"part {self.name} has the cell {column_letters(col_no)}{row} twice; a refresh "
+                                   "would lose one of them: open and save the workbook in the spreadsheet program, "
+                                   "then refresh it")
+            cells[col_no] = cm.group(0)
+        entry = self.rows[row] = [rm.group(1), cells, False]
+        return entry
+
+    def cell(self, row: int, col: int) -> str:
+        """The stored XML of one cell."""
+        return self._row(row)[1][col]
 
     def set_cell(self, row: int, col: int, xml: str | None) -> None:
         self.set_cells(row, {col: xml})
 
     def set_cells(self, row: int, cells: dict) -> None:
         """Replace cells of one row: column -> cell XML, or None to remove the cell."""
-        if row not in self.rows:
-            self.rows[row] = [f' r="{row}"', {}, True, ""]
-            self.order.append(row)
-        entry = self.rows[row]
+        entry = self._row(row)
         for col, xml in cells.items():
             if entry[1].get(col) == xml:  # the cell as it is stored: its row stays verbatim
                 continue
@@ -490,51 +520,49 @@ class SheetText:
                 entry[1][col] = xml
             entry[2] = True
 
-    def _dimension(self, head: str) -> str:
-        """head with the <dimension> widened to cover every cell now in the sheet."""
+    def _dimension(self, head: str, changed: list[int]) -> str:
+        """head with the <dimension> widened to cover every cell written and every stored row."""
         m = re.search(r'(<(?:\w+:)?dimension\b[^>]*?\bref=")([^"]*)(")', head)
-        if m is None:
+        cells = [(r, c) for r in changed for c in self.rows[r][1]]
+        if m is None or not cells:
             return head
-        top, left, bottom, right = None, None, 0, 0
-        for r in self.order:
-            cols = self.rows[r][1]
-            if cols:
-                top = r if top is None else min(top, r)
-                bottom = max(bottom, r)
-                left = min(cols) if left is None else min(left, min(cols))
-                right = max(right, max(cols))
-        if top is None:
-            return head
+        stored = {column_number(m.group(1)) for m in _CELL_REF.finditer(self.xml, self.start, self.end)}
+        cells += [(row, col) for row in (self.numbers[:1] + self.numbers[-1:]) for col in (min(stored), max(stored))] \
+            if stored and self.numbers else []
         start, *end = m.group(2).split(":")
         try:
             r0, c0 = parse_cell(start.replace("$", ""))
             r1, c1 = parse_cell((end[0] if end else start).replace("$", ""))
         except ValueError:
             return head
-        top, left, bottom, right = min(top, r0), min(left, c0), max(bottom, r1), max(right, c1)
+        top, bottom = min(r0, *(r for r, _ in cells)), max(r1, *(r for r, _ in cells))
+        left, right = min(c0, *(c for _, c in cells)), max(c1, *(c for _, c in cells))
         ref = f"{cell_name(top, left)}:{cell_name(bottom, right)}"
         return head[: m.start(2)] + ref + head[m.end(2):]
 
     def render(self) -> str:
-        out = [self._dimension(self.head), self.open_tag]
-        for r in sorted(self.order):
-            attrs, cells, changed, original = self.rows[r]
-            if not changed:
-                out.append(original)
-                continue
+        """The sheet's XML: untouched rows as they were stored, changed rows written anew, in row order."""
+        changed = sorted(r for r, entry in self.rows.items() if entry[2])
+        out, at = [self._dimension(self.head, changed), self.open_tag], self.start
+        for r in changed:
+            attrs, cells, _ = self.rows[r]
+            i = bisect_left(self.numbers, r)
+            stored = i < len(self.numbers) and self.numbers[i] == r
+            out.append(self.xml[at: self.starts[i] if i < len(self.numbers) else self.end])
+            at = self.ends[i] if stored else (self.starts[i] if i < len(self.numbers) else self.end)
             attrs = re.sub(r'\s+spans\s*=\s*"[^"]*"', "", attrs)
             if cells:
                 out.append(f"<{self.p}row{attrs}>" + "".join(cells[c] for c in sorted(cells)) + f"</{self.p}row>")
             elif "s=" in attrs or "ht=" in attrs or "hidden=" in attrs:
                 out.append(f"<{self.p}row{attrs}/>")
+        out.append(self.xml[at: self.end])
         out.append(f"</{self.p}sheetData>")
         return "".join(out) + self.tail
 
     def formula_xml(self, row: int, col: int) -> str:
         """The stored <f> element of a cell, verbatim."""
-        xml = self.rows[row][1][col]
         p = re.escape(self.p)
-        return re.search(rf"<{p}f\b[^>]*?(?:/>|>.*?</{p}f>)", xml, re.S).group(0)
+        return re.search(rf"<{p}f\b[^>]*?(?:/>|>.*?</{p}f>)", self.cell(row, col), re.S).group(0)
 
     def cell_xml(self, row: int, col: int, value, style: str | None, formula: str | None = None,
                  array_ref: str | None = None, cm: str | None = None, f_xml: str | None = None) -> str:
