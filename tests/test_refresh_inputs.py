@@ -26,6 +26,18 @@ def standards(ws, xs=X, ys=Y, top=2):
         ws.cell(i, 2, y)
 
 
+def book(path: Path, cells: dict, title: str = "Sheet") -> Path:
+    """A workbook of the standards in A2:B13 on sheet ``title`` with ``cells`` (address -> value or formula)."""
+    wb = openpyxl.Workbook()
+    ws = wb.active
+    ws.title = title
+    standards(ws)
+    for address, value in cells.items():
+        ws[address] = value
+    wb.save(path)
+    return path
+
+
 def values(path: Path, sheet: str, cells: str):
     ws = openpyxl.load_workbook(path, data_only=True)[sheet]
     return [[c.value for c in row] for row in ws[cells]]
@@ -129,15 +141,10 @@ def test_what_is_not_plain_arithmetic_is_refused(text, why):
 
 def test_a_first_refresh_computes_a_spill_before_the_formulas_that_read_it(tmp_path):
     """L1 reads residuals under C2's spill, which no earlier refresh has stored; L1 comes first in the sheet."""
-    wb = openpyxl.Workbook()
-    ws = wb.active
-    ws.title = "Cal"
-    standards(ws)
-    ws["L1"] = "=CALIB_COEFS(A2:A13,C2:C13,1)"  # C2 is the anchor: this edge was always known
-    ws["L8"] = "=CALIB_COEFS(A3:A13,D3:D13,1)"  # D3:D13 lies under the spill only
-    ws["C2"] = "=CALIB_RESIDUALS(A2:A13,B2:B13,1)"
-    path = tmp_path / "first.xlsx"
-    wb.save(path)
+    path = book(tmp_path / "first.xlsx", {
+        "L1": "=CALIB_COEFS(A2:A13,C2:C13,1)",  # C2 is the anchor: this edge was always known
+        "L8": "=CALIB_COEFS(A3:A13,D3:D13,1)",  # D3:D13 lies under the spill only
+        "C2": "=CALIB_RESIDUALS(A2:A13,B2:B13,1)"}, "Cal")
     assert refresh_file(path, workers=1).ok
     residuals = [r[0] for r in values(path, "Cal", "D3:D13")]
     slope, intercept = np.polyfit(X[1:], residuals, 1)  # numpy's fit of the residuals as they now stand
@@ -148,18 +155,11 @@ def test_a_first_refresh_computes_a_spill_before_the_formulas_that_read_it(tmp_p
 
 
 def test_array_constants_are_read_as_the_spreadsheet_passes_them(tmp_path):
-    wb = openpyxl.Workbook()
-    ws = wb.active
-    standards(ws)
-    for r, v in enumerate((1.0, 25.0, 60.0), start=2):
-        ws.cell(r, 4, v)
-    ws["F2"] = "=CALIB_PREDICT(A2:A13,B2:B13,{1;25;60})"
-    ws["F10"] = "=CALIB_PREDICT(A2:A13,B2:B13,D2:D4)"
-    ws["F20"] = '=CALIB_STATS(A2:A13,B2:B13,{1},{"1/y"})'
-    ws["I20"] = '=CALIB_STATS(A2:A13,B2:B13,1,"1/y")'
-    ws["L2"] = "=CALIB_PREDICT(A2:A13,B2:B13,{1,25})"
-    path = tmp_path / "constants.xlsx"
-    wb.save(path)
+    path = book(tmp_path / "constants.xlsx", {
+        "D2": 1.0, "D3": 25.0, "D4": 60.0,
+        "F2": "=CALIB_PREDICT(A2:A13,B2:B13,{1;25;60})", "F10": "=CALIB_PREDICT(A2:A13,B2:B13,D2:D4)",
+        "F20": '=CALIB_STATS(A2:A13,B2:B13,{1},{"1/y"})', "I20": '=CALIB_STATS(A2:A13,B2:B13,1,"1/y")',
+        "L2": "=CALIB_PREDICT(A2:A13,B2:B13,{1,25})"})
     report = refresh_file(path, workers=1)
     assert report.ok and not report.left_alone, report.lines()
     assert values(path, "Sheet", "F2:J4") == values(path, "Sheet", "F10:J12")
@@ -168,14 +168,8 @@ def test_array_constants_are_read_as_the_spreadsheet_passes_them(tmp_path):
 
 
 def test_a_whole_column_message_does_not_follow_the_sheet_and_a_second_refresh_changes_nothing(tmp_path):
-    wb = openpyxl.Workbook()
-    ws = wb.active
-    ws["A1"], ws["B1"] = "x", "y"  # headers: a message about row 1
-    standards(ws, top=2)
-    ws["D1"] = "=CALIB_RESIDUALS(A:A,B:B)"
-    ws["D40"] = "=CALIB_COEFS(A2:A13,B2:B13)"
-    path = tmp_path / "columns.xlsx"
-    wb.save(path)
+    path = book(tmp_path / "columns.xlsx", {"A1": "x", "B1": "y",  # headers: a message about row 1
+                                            "D1": "=CALIB_RESIDUALS(A:A,B:B)", "D40": "=CALIB_COEFS(A2:A13,B2:B13)"})
     refresh_file(path, workers=1)
     (text,), = values(path, "Sheet", "D1:D1")
     assert text.startswith("x, row 1 of 1048576: ")  # a whole column, as the program hands it over
@@ -248,12 +242,7 @@ def _sheet_with(path: Path, extra_rows: str) -> Path:
      "holds a comment among its cells, which the refresh does not edit"),
 ])
 def test_malformed_rows_are_refused_in_words_and_the_file_kept(tmp_path, extra, why):
-    wb = openpyxl.Workbook()
-    ws = wb.active
-    standards(ws)
-    ws["D2"] = "=CALIB_COEFS(A2:A13,B2:B13,1)"
-    path = tmp_path / "rows.xlsx"
-    wb.save(path)
+    path = book(tmp_path / "rows.xlsx", {"D2": "=CALIB_COEFS(A2:A13,B2:B13,1)"})
     before = _sheet_with(path, extra).read_bytes()
     report = refresh_file(path, workers=1)
     assert report.error == (f"part xl/worksheets/sheet1.xml {why}" + (
@@ -263,12 +252,7 @@ def test_malformed_rows_are_refused_in_words_and_the_file_kept(tmp_path, extra, 
 
 
 def test_a_row_the_refresh_does_not_edit_is_kept_verbatim_even_with_a_cell_twice(tmp_path):
-    wb = openpyxl.Workbook()
-    ws = wb.active
-    standards(ws)
-    ws["D2"] = "=CALIB_COEFS(A2:A13,B2:B13,1)"
-    path = tmp_path / "rows.xlsx"
-    wb.save(path)
+    path = book(tmp_path / "rows.xlsx", {"D2": "=CALIB_COEFS(A2:A13,B2:B13,1)"})
     row = '<row r="30"><c r="A30"><v>7</v></c><c r="A30"><v>8</v></c></row>'
     _sheet_with(path, row)
     assert refresh_file(path, workers=1).written

@@ -279,7 +279,7 @@ class Refresher:
         self.sheets: dict[str, Sheet] = {}  # the sheets in memory
         self.edits: dict[str, SheetText] = {}  # part -> its text being edited
         self.formulas: list[Formula] = []
-        self._unstored_of: tuple = (None, {})
+        self._unstored_of: dict[str, tuple[Sheet, dict]] = {}  # by sheet name, for the sheet in memory
         for name in self.book.sheet_parts:
             sheet = self.book.read_sheet(name)
             masters = {attrs.get("si"): (r, c, text) for (r, c), (text, attrs) in sheet.formulas.items()
@@ -327,7 +327,8 @@ class Refresher:
     def _unstored(self, sheet: Sheet) -> dict:
         """(row, col) -> formula text of the cells of ``sheet`` that hold a formula other than a CALIB_*
         call and no stored value (a filled formula's text shifted from its master), found once per read."""
-        if self._unstored_of[0] is not sheet:
+        known = self._unstored_of.get(sheet.name)
+        if known is None or known[0] is not sheet:
             masters = {a.get("si"): (r, c, t) for (r, c), (t, a) in sheet.formulas.items()
                        if a.get("t") == "shared" and t}
             found = {}
@@ -342,8 +343,8 @@ class Refresher:
                         text = master
                 if text and not MENTION.search(text):
                     found[(r, c)] = text
-            self._unstored_of = (sheet, found)  # the sheet last asked for; one at a time is enough
-        return self._unstored_of[1]
+            known = self._unstored_of[sheet.name] = (sheet, found)
+        return known[1]
 
     def _compute_unstored(self, sheet: Sheet, area: Area, depth: int = 0) -> None:
         """Give every unstored formula cell of ``area`` its value (plain arithmetic, `evaluate_arithmetic`),
@@ -421,7 +422,7 @@ class Refresher:
                 graph[reader].add(anchor)
             self.parts.parts.clear()
             self.parts.parts.update(before)
-            self.sheets, self.edits, self._unstored_of = {}, {}, (None, {})
+            self.sheets, self.edits, self._unstored_of = {}, {}, {}
             for name, n in marks.items():
                 del getattr(report, name)[n:]
             report.changed = False
@@ -488,6 +489,7 @@ class Refresher:
         """Forget the sheets of ``part``; store its XML in ``parts`` (and ``changed``) if its bytes change."""
         for name in [n for n, s in self.sheets.items() if s.part == part]:
             del self.sheets[name]
+            self._unstored_of.pop(name, None)
         text = self.edits.pop(part, None)
         if text is not None:
             data = text.render().encode("utf-8")

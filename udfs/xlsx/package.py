@@ -16,7 +16,6 @@ import html
 import io
 import posixpath
 import re
-import xml.parsers.expat
 import zipfile
 import zlib
 from array import array
@@ -24,6 +23,7 @@ from bisect import bisect_left
 from dataclasses import dataclass, field
 from pathlib import Path
 from xml.etree import ElementTree as ET
+from xml.parsers import expat
 
 from defusedxml import ElementTree as SafeET
 from defusedxml.common import DefusedXmlException
@@ -102,7 +102,7 @@ class _RootReached(Exception):
 def _refuse_dtd(name: str, data: bytes) -> None:
     """Refuse a part with a document type declaration, read by expat up to its root element only (a DTD can
     stand nowhere else, so what follows is parsed without one: no entity can be declared or expanded)."""
-    parser = xml.parsers.expat.ParserCreate()
+    parser = expat.ParserCreate()
 
     def doctype(*_):
         raise PackageError(f"unsafe XML in {name}: DTDForbidden (DTDs and entities are not allowed)")
@@ -117,7 +117,7 @@ def _refuse_dtd(name: str, data: bytes) -> None:
         parser.Parse(b"", True)
     except _RootReached:
         pass
-    except xml.parsers.expat.ExpatError as err:
+    except expat.ExpatError as err:
         raise PackageError(f"broken XML in {name}: {err}") from None
 
 
