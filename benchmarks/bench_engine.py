@@ -14,7 +14,7 @@ sys.path.insert(0, str(Path(__file__).resolve().parent))
 import workloads  # noqa: E402
 
 from degreewise import engine  # noqa: E402
-from conftest_free import load_filip  # noqa: E402
+from degreewise.commands.validate import load as load_strd  # noqa: E402
 
 
 def median_time(func, *args, repeat=200):
@@ -65,7 +65,7 @@ def main():
     print(f"  degreewise engine     {ours * 1e3:8.3f} ms per calibration (median)")
     print(f"  statsmodels pipeline  {ref * 1e3:8.3f} ms per calibration (median)")
     print(f"  ratio                 {ratio_words(ratio)}")
-    x, y = load_filip()
+    x, y, _ = load_strd("filip")
     filip = median_time(lambda: engine.Calibration(x, y, max_order=10).fit(10), repeat=100)
     print(f"Filip (82 points, order 10) fit with refined coefficients and standard errors: {filip * 1e3:.3f} ms")
     print("one million points: python benchmarks/bench_large.py")

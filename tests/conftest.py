@@ -1,22 +1,15 @@
-"""Shared test helpers: the NIST StRD reference data copied into tests/data/strd, and LibreOffice's view of
-a workbook."""
+"""Shared test helpers: the NIST StRD reference data (its one copy, udfs/reference, read as
+``degreewise validate`` reads it), and LibreOffice's view of a workbook."""
 
 from __future__ import annotations
 
-import json
 import subprocess
 from pathlib import Path
 
 import numpy as np
 import pytest
 
-STRD = Path(__file__).parent / "data" / "strd"
-
-
-def load_strd(name: str):
-    data = np.loadtxt(STRD / f"{name}.csv", delimiter=",", skiprows=1)
-    certified = json.loads((STRD / "certified.json").read_text())[name]
-    return data[:, 0], data[:, 1], certified
+from degreewise.commands.validate import load as load_strd  # noqa: F401  (x, y, certified values)
 
 
 @pytest.fixture

@@ -144,6 +144,8 @@ def test_the_wheel_for_in_workbook_python_is_pure_python_and_runs_from_the_archi
     import zipfile
 
     names = zipfile.ZipFile(wheel).namelist()
+    metadata = zipfile.ZipFile(wheel).read(f"degreewise-{VERSION}.dist-info/METADATA").decode()
+    assert f"\nVersion: {VERSION}\n" in metadata  # pyproject reads the version from degreewise.VERSION
     assert {n.split("/")[0] for n in names} == {"degreewise", f"degreewise-{VERSION}.dist-info"}
     assert all(n.endswith((".py", ".csv", ".json")) for n in names if n.startswith("degreewise/"))
     assert "degreewise/engine/calibration.py" in names
@@ -153,3 +155,11 @@ def test_the_wheel_for_in_workbook_python_is_pure_python_and_runs_from_the_archi
             "print(calib_order([[1.0], [2.0], [3.0], [4.0], [5.0]], [[2.1], [3.9], [6.2], [7.8], [10.1]]))")
     out = subprocess.run([sys.executable, "-c", code, str(wheel)], capture_output=True, text=True, check=True)
     assert out.stdout.strip() == "1"
+
+
+def test_the_installed_version_is_the_packages_own():
+    from importlib.metadata import version
+
+    from degreewise import VERSION
+
+    assert version("degreewise") == VERSION

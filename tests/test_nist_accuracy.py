@@ -1,7 +1,7 @@
 """Accuracy against NIST StRD linear least squares regression certified values.
 
 Source: NIST Statistical Reference Datasets, Linear Least Squares Regression
-(norris, pontius, filip, wampler1-3), copied into tests/data/strd. Requirement:
+(norris, pontius, filip, wampler1-3), in udfs/reference. Requirement:
 log relative error >= 12 for every coefficient, standard error, residual SD and
 R^2 with a non-zero certified value; a certified zero must come out at rounding
 level (at most 1e-12 of the RMS of y).

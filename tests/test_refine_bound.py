@@ -2,7 +2,7 @@
 ``refine.rss_bounds``) is above ``refine.TARGET``; both branches meet the target.
 
 References: exact rational least squares (``test_exact_least_squares.exact_fit``, fractions.Fraction) and the
-NIST StRD certified values for Filip (tests/data/strd, copied from NIST's Statistical Reference Datasets).
+NIST StRD certified values for Filip (udfs/reference, copied from NIST's Statistical Reference Datasets).
 """
 
 import math

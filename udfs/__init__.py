@@ -10,7 +10,7 @@ registration metadata (see ``registration``).
 
 from .catalogue import FUNCTIONS
 
-VERSION = "0.1.0"
+VERSION = "0.1.0"  # the one source of the version: pyproject reads it (tool.setuptools.dynamic)
 __all__ = ["VERSION", *FUNCTIONS]
 
 
