@@ -36,17 +36,18 @@ def test_conda_settings_and_an_existing_interpreter_are_kept(tmp_path):
 def test_addin_command_prints_the_numbered_steps_that_the_readme_gives(tmp_path, capsys):
     from pathlib import Path
 
+    from degreewise.catalogue import CAUTION_SENTENCE
     from degreewise.commands.addin import STEPS
 
     conf = tmp_path / "xlwings.conf"
     assert main(["addin", "--config", str(conf)]) == 0
     out = capsys.readouterr().out
     assert conf.read_text().startswith('"UDF MODULES","degreewise"')
-    assert STEPS in out
+    assert f"{STEPS}\n{CAUTION_SENTENCE}\n" in out
     if not sys.platform.startswith("win"):
         assert "This system cannot run the desktop add-in" in out and "INTERPRETER" not in conf.read_text()
     readme = (Path(__file__).resolve().parent.parent / "README.md").read_text()
-    assert STEPS in readme  # the README's desktop set-up is exactly what the command prints
+    assert f"{STEPS}\n{CAUTION_SENTENCE}\n" in readme  # the README's desktop set-up is exactly what the command prints
 
 
 def test_the_worksheet_functions_load_neither_the_file_format_nor_the_command_line():

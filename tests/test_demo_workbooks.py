@@ -10,6 +10,7 @@ import pytest
 from openpyxl.utils import get_column_letter
 
 import degreewise
+from degreewise.catalogue import CAUTION_SENTENCE
 from degreewise.commands import main
 from degreewise.commands.demo import GRID, LAYOUT, P_FORMAT, _runs, _shown, limits_anchors, samples_anchor
 from degreewise.commands.refresh import refresh_file
@@ -174,7 +175,7 @@ def test_demo_command_writes_refreshed_workbooks(tmp_path, capsys):
     assert ("chosen order 2: order 2 given as the order argument (a number, or a cell such as CALIB_ORDER with its "
             "own rule, alpha and max order); the default rule picks the same order: rule stepdown, alpha 0.05, max "
             "order 4: the highest term is tested first") in out
-    assert "chosen order 1:" in out and "does not replace, method validation" in out
+    assert "chosen order 1:" in out and out.endswith(f"\n{CAUTION_SENTENCE}\n")
     # units, points, levels, range, every setting, one way of writing p-values, and the reports written
     assert "  x: tracer Q (ug/L), 21 points at 7 levels, from 0.5 to 40; y: detector counts" in out
     assert "  Weighted!N26: order 'Weighted'!E1 (= 1); weights 1/x^2; exclude none" in out  # the STATS cell's own
@@ -196,6 +197,7 @@ def test_validate_command(capsys):
     assert main(["validate"]) == 0
     out = capsys.readouterr().out
     assert "PASS: every quantity reaches LRE 12" in out
+    assert out.endswith(f"\n{CAUTION_SENTENCE}\n")
     for name in ("norris", "pontius", "filip", "wampler1", "wampler2", "wampler3"):
         assert re.search(rf"^{name}\s+minimum LRE (1[2-5]\.\d)$", out, re.M)
 

@@ -58,8 +58,11 @@ ARGUMENTS = {
 }
 
 LIMITS_CAUTION = "estimates from one calibration: confirm them with samples near the limit, as the methods require"
+# the caution every output carries, its one text: a table's caution cell, and (as CAUTION_SENTENCE, with the
+# tool's name) the report, the demo, `degreewise addin` and `degreewise validate`
 CAUTION = ("Supports, and does not replace, method validation under your quality system and applicable "
            "standards; results must be reviewed by qualified staff.")
+CAUTION_SENTENCE = f"Degreewise {CAUTION[0].lower()}{CAUTION[1:]}"
 
 
 def term(k: int) -> str:

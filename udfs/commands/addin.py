@@ -14,6 +14,7 @@ import sys
 from pathlib import Path
 
 from .. import VERSION
+from ..catalogue import CAUTION_SENTENCE
 
 UDF_MODULE = "degreewise"
 MODULES, INTERPRETER, CONDA = "UDF MODULES", "INTERPRETER_WIN", ("CONDA PATH", "CONDA ENV")
@@ -31,7 +32,7 @@ STEPS = f"""Desktop set-up (Windows; the worksheet functions need the desktop pr
      functions (category "Degreewise" in the function wizard).
   8. Type =CALIB_VERSION() into a cell: it shows the versions in use. Save the workbook.
 A colleague who receives the .xlsm needs steps 1 to 4 on their computer, nothing else: the functions travel
-in the workbook. Degreewise supports, and does not replace, method validation under your quality system."""
+in the workbook."""
 
 
 def settings_path() -> Path:
@@ -86,4 +87,5 @@ def run(config: str | None = None) -> int:
         print("This system cannot run the desktop add-in: classic xlwings worksheet functions need the "
               "spreadsheet program on Windows. Copy the settings there, or use in-workbook Python (see README).")
     print(STEPS)
+    print(CAUTION_SENTENCE)
     return 0

@@ -28,11 +28,9 @@ from openpyxl.styles import Alignment, Font, PatternFill
 from openpyxl.utils import get_column_letter, range_boundaries
 from openpyxl.worksheet.pagebreak import Break
 
-from ..catalogue import CAUTION, HEADERS
+from ..catalogue import CAUTION, CAUTION_SENTENCE, HEADERS
 from .scenarios import Scenario, all_scenarios
 
-CAUTION_LINE = ("Degreewise supports, and does not replace, method validation under your laboratory's quality "
-                "system and applicable standards; results must be reviewed by qualified staff.")
 
 GRID = 41  # points of the fine x grid for the fitted curve
 
@@ -549,5 +547,5 @@ def run(folder) -> int:
         else:
             print(f"  no report: {missing} is not installed (pip install \"degreewise[report]\")")
         print()
-    print(CAUTION_LINE)
+    print(CAUTION_SENTENCE)
     return 0

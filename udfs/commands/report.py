@@ -32,7 +32,7 @@ from reportlab.pdfgen.canvas import Canvas
 from reportlab.platypus import Image, PageBreak, Paragraph, SimpleDocTemplate, Spacer, Table, TableStyle
 
 from .. import VERSION, functions
-from ..catalogue import CAUTION
+from ..catalogue import CAUTION, CAUTION_SENTENCE
 from ..xlsx.package import PackageError
 from .refresh import workbooks
 from . import files
@@ -43,9 +43,6 @@ from .sections import Table as CellTable
 PAPER = {"a4": A4, "letter": LETTER}
 MARGIN = 16 * mm
 FONT, BOLD = "DejaVuSans", "DejaVuSans-Bold"
-CAUTION_TEXT = ("Degreewise supports, and does not replace, method validation under the laboratory's quality "
-                "system and the standards that apply to its work. Every result in this report must be reviewed "
-                "by qualified staff before it is used.")
 SIGN_OFF = ("prepared by", "reviewed by")  # blank lines for names, signatures and dates (common practice)
 HEADER_FILL = colors.HexColor("#dde5ee")
 STANDARD_COLOUR, EXCLUDED_COLOUR, CURVE_COLOUR = "#1f4e79", "#c0392b", "#2e7d32"
@@ -299,7 +296,7 @@ def _front(path: Path, found: list[Section], book, st: _Styles, width: float) ->
     if problems:
         flow.append(Paragraph("Cells the computation could not fill", st.h2))
         flow.append(_table([["cell", "why"]] + [list(p) for p in problems], width, wrap=(1,)))
-    flow.append(Paragraph(escape("Caution. " + CAUTION_TEXT), st.caution))
+    flow.append(Paragraph(escape("Caution. " + CAUTION_SENTENCE), st.caution))
     line = "_" * 34
     sign = [[Paragraph(f"<b>{escape(who)}</b>", st.body), Paragraph(f"name {line}", st.body),
              Paragraph(f"signature {'_' * 22}", st.body), Paragraph(f"date {'_' * 14}", st.body)] for who in SIGN_OFF]

@@ -20,6 +20,7 @@ import numpy as np
 import scipy
 
 from .. import engine
+from ..catalogue import CAUTION_SENTENCE
 
 DATASETS = ("norris", "pontius", "filip", "wampler1", "wampler2", "wampler3")
 REQUIRED_LRE = 12.0
@@ -95,7 +96,7 @@ def report() -> tuple[str, bool]:
     ok = all(s.passed for s in all_scores)
     lines += ["", f"minimum LRE over all datasets and quantities: {overall:.1f}",
               f"{'PASS' if ok else 'FAIL'}: every quantity {'reaches' if ok else 'must reach'} LRE {REQUIRED_LRE:g}",
-              "This report supports, and does not replace, software validation under your quality system."]
+              CAUTION_SENTENCE]
     return "\n".join(lines), ok
 
 
