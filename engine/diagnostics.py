@@ -38,8 +38,9 @@ from .curve import ENDS, Curve
 from .distributions import beta_cdf, log_factorials, normal_two_sided, t_two_sided
 from .prediction import roots_of
 from .results import Check, PointDiagnostics
-from .selection import fmt_p, mandel_test
+from .selection import mandel_test
 from .validation import check_alpha
+from .words import fmt_p
 
 BACK_CALC_EXTEND = 0.25
 # tests in the checks table besides lack of fit (Mandel, runs, Durbin-Watson, Shapiro-Wilk,

@@ -28,16 +28,7 @@ from .calibration import Calibration
 from .errors import OrderError
 from .results import FTest, OrderChoice
 from .validation import DEFAULT_RULE
-
-def term_name(j: int) -> str:
-    return "x" if j == 1 else f"x^{j}"
-
-
-def fmt_p(p: float) -> str:
-    """A p-value in two significant digits."""
-    if p != p:
-        return "n/a"
-    return f"{p:.2g}" if p >= 1e-4 else f"{p:.1e}"
+from .words import fmt_p, term_name
 
 
 def lack_of_fit_words(cal: Calibration, order: int, alpha: float = 0.05) -> str:

@@ -36,8 +36,9 @@ from .diagnostics import point_diagnostics
 from .distributions import chi2_sf, t_quantile
 from .errors import WeightError
 from .results import SchemeResult, SpreadExponent
-from .selection import choose_order, fmt_p
+from .selection import choose_order
 from .validation import check_alpha, check_level, check_scheme_base, check_vector
+from .words import fmt_p
 
 SCHEMES = ("none", "1/x", "1/x^2", "1/y", "1/y^2")
 FROM_REPLICATES = "1/x^2b"

@@ -1,5 +1,5 @@
 """The CALIB_* family in one place: each worksheet function once with its table's header, the description of
-each argument, and the words the tables share (term names, cautions).
+each argument, and the caution the tables and outputs share.
 
 Registration (argument descriptions), ``import degreewise`` (the names), the refresh (which formulas it
 computes), CALIB_LABELS and the README's reference table all read this catalogue: a new worksheet function
@@ -63,7 +63,3 @@ LIMITS_CAUTION = "estimates from one calibration: confirm them with samples near
 CAUTION = ("Supports, and does not replace, method validation under your quality system and applicable "
            "standards; results must be reviewed by qualified staff.")
 CAUTION_SENTENCE = f"Degreewise {CAUTION[0].lower()}{CAUTION[1:]}"
-
-
-def term(k: int) -> str:
-    return "intercept" if k == 0 else ("x" if k == 1 else f"x^{k}")

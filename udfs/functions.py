@@ -24,11 +24,12 @@ import numpy as np
 import scipy
 
 from . import VERSION, engine
-from .catalogue import ARGUMENTS, CAUTION, HEADERS, LIMITS_CAUTION, term
+from .catalogue import ARGUMENTS, CAUTION, HEADERS, LIMITS_CAUTION
 from .coercion import (CellError, cell_numbers, flatten, is_omitted, number_option, numbers_or_blank, scalar,
                        text_option)
 from .engine.validation import (check_alpha, check_count, check_level, check_order, check_replicates, check_rule,
                                 order_limit)
+from .engine.words import term_name
 from .prepared import RESULTS, SCHEMES, calibration, prepare, prepare_named
 from .registration import declared
 
@@ -205,7 +206,7 @@ def calib_seqf(x, y, max_order=None, weights=None, exclude=None):
         table = cal.sequential_table()
         rows = [list(HEADERS["seqf"])]
         for r in table.terms:
-            rows.append([term(r.term), 1, _cell(r.ss), _cell(r.ss), _cell(r.test.statistic), _cell(r.test.p_value)])
+            rows.append([term_name(r.term), 1, _cell(r.ss), _cell(r.ss), _cell(r.test.statistic), _cell(r.test.p_value)])
         rows.append(["residual", table.df_resid, _cell(table.ss_resid), _cell(table.ss_resid / table.df_resid),
                      None, None])
         lof = table.lack_of_fit
@@ -239,7 +240,7 @@ def calib_coefs(x, y, order=None, level=None, weights=None, exclude=None):
         rows = [list(HEADERS["coefs"])]
         for j, (b, se, t, p, (lo, hi)) in enumerate(zip(fit.coefficients, fit.std_errors, fit.t_values,
                                                         fit.p_values, fit.interval(lev))):
-            rows.append([term(j), _cell(b), _cell(se), _cell(t), _cell(p), _cell(lo), _cell(hi)])
+            rows.append([term_name(j), _cell(b), _cell(se), _cell(t), _cell(p), _cell(lo), _cell(hi)])
         return rows
 
     return _cached("coefs", prep, (k, lev), compute)
@@ -472,7 +473,7 @@ def calib_compare(x, y, ref_x, ref_y, at=None, order=None, level=None, weights=N
         sd[1:3] = [_cell(c.reference_sd), _cell(c.today_sd)]
         rows.append(sd)
         for r in c.coefficients:
-            rows.append([term(r.item), _cell(r.reference), _cell(r.today), _cell(r.difference), _cell(r.lower),
+            rows.append([term_name(r.item), _cell(r.reference), _cell(r.today), _cell(r.difference), _cell(r.lower),
                          _cell(r.upper), _cell(r.p_value), None, _percent(r.difference, r.reference)])
         for r, back in zip(c.levels, c.read_back):
             reads = (f"the reference curve reads today's response as x = {back:.6g}" if math.isfinite(back)

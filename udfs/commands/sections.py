@@ -16,6 +16,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from ..catalogue import FUNCTIONS as CATALOGUE
+from ..engine.words import fmt_p
 from ..xlsx.cells import column_letters
 from ..xlsx.package import read_package
 from . import files
@@ -56,13 +57,6 @@ def number(v, digits: int = 6) -> str:
     if float(v).is_integer() and abs(v) < 1e9:
         return str(int(v))
     return f"{v:.{digits}g}"
-
-
-def p_text(p) -> str:
-    """A p-value in prose, always the same way: three decimals, or two significant digits below 0.001."""
-    if p is None:
-        return "n/a"
-    return f"{p:.3f}" if p >= 0.001 else f"{p:.1e}"
 
 
 @dataclass
@@ -263,7 +257,7 @@ def summary(s: Section) -> list[str]:
     if stats:
         lof = s.stat("lack-of-fit p")
         lines.append(f"  residual SD {number(s.stat('residual SD'))}, R² {number(s.stat('R²'), 8)}, "
-                     f"lack-of-fit p {p_text(lof) if lof is not None else 'n/a (no replicates)'}")
+                     f"lack-of-fit p {fmt_p(lof) if lof is not None else 'n/a (no replicates)'}")
     limits = s.first("CALIB_LIMITS")
     if limits:
         lines.append(f"  limits in x ({limits.where}; estimates from one calibration, to be confirmed with "
@@ -278,7 +272,7 @@ def summary(s: Section) -> list[str]:
         if t.name == "CALIB_COMPARE" and t.rows and len(t.rows) > 3 and t.message is None:
             lines.append(f"  compared with an earlier calibration ({t.where}):")
             for item, *_, p, verdict, detail in t.rows[1:4]:
-                lines.append(f"    {item:<17} {verdict} (p {p_text(p)}): {detail.split('; ')[0]}")
+                lines.append(f"    {item:<17} {verdict} (p {fmt_p(p)}): {detail.split('; ')[0]}")
     weighting = s.first("CALIB_WEIGHTING")
     if weighting:
         for scheme, order, *_, picked, note in weighting.rows[1:]:
