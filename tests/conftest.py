@@ -1,5 +1,7 @@
-"""Shared test helpers: the NIST StRD reference data (its one copy, udfs/reference, read as
-``degreewise validate`` reads it), and LibreOffice's view of a workbook."""
+"""Shared test helpers, one of each: the NIST StRD reference data (its one copy, udfs/reference, read as
+``degreewise validate`` reads it), ranges as the desktop runtime hands them over (``column``), fresh
+worksheet caches (``fresh_caches``), invented workbooks (``workbook``), and LibreOffice's view of a
+workbook."""
 
 from __future__ import annotations
 
@@ -7,9 +9,43 @@ import subprocess
 from pathlib import Path
 
 import numpy as np
+import openpyxl
 import pytest
 
 from degreewise.commands.validate import load as load_strd  # noqa: F401  (x, y, certified values)
+from degreewise.prepared import clear_caches
+
+
+def column(values) -> list[list]:
+    """A column as the desktop runtime hands it over: one-cell rows (a numpy array's values as Python
+    numbers)."""
+    if isinstance(values, np.ndarray):
+        values = values.tolist()
+    return [[v] for v in values]
+
+
+@pytest.fixture
+def fresh_caches():
+    """Empties the worksheet layer's caches, so that each test computes its own tables (a module uses it with
+    ``pytestmark = pytest.mark.usefixtures("fresh_caches")``)."""
+    clear_caches()
+
+
+def workbook(path: Path, columns: dict, cells: dict = {}, title: str | None = None, first_row: int = 1) -> Path:
+    """An invented workbook saved at ``path``, one sheet (named ``title``): each of ``columns`` (column number ->
+    values; None leaves a cell blank) from ``first_row`` down, and ``cells`` (address -> value or formula)."""
+    wb = openpyxl.Workbook()
+    ws = wb.active
+    if title:
+        ws.title = title
+    for col, values in columns.items():
+        for row, v in enumerate(values, start=first_row):
+            if v is not None:
+                ws.cell(row, col, v)
+    for address, value in cells.items():
+        ws[address] = value
+    wb.save(path)
+    return path
 
 
 @pytest.fixture

@@ -20,6 +20,7 @@ from degreewise import engine
 from degreewise.commands.freeze import freeze
 from degreewise.commands.refresh import refresh_file
 from degreewise.prepared import clear_caches
+from conftest import column, workbook
 
 # an invented calibration: six levels, nearly straight, the third standard excluded for a bubble
 X = [1.0, 2.0, 3.0, 4.0, 5.0, 6.0]
@@ -27,10 +28,6 @@ Y = [1.1, 2.0, 3.2, 3.9, 5.1, 6.0]
 BUBBLE = [None, None, "air bubble", None, None, None]
 ALPHA_MIN = 1e-4  # engine.validation.ALPHA_MIN
 ALPHA_RULE = "alpha must be from 0.0001 to below 0.5 (for example 0.05), not "
-
-
-def column(values):
-    return [[v] for v in values]
 
 
 def with_y3(value):
@@ -168,15 +165,8 @@ def test_a_range_of_bad_cells_only_gives_their_notes():
 
 def test_a_template_without_samples_is_refreshed_and_frozen(tmp_path):
     path = tmp_path / "template.xlsx"
-    wb = openpyxl.Workbook()
-    ws = wb.active
-    for i, (a, b) in enumerate(zip(X, Y), start=1):
-        ws.cell(i, 1, a)
-        ws.cell(i, 2, b)
-    ws["D1"] = "=CALIB_PREDICT(A1:A6,B1:B6,C1:C4)"
-    ws["D10"] = "=CALIB_INVERSE(A1:A6,B1:B6,C10:C14)"
-    ws["D20"] = "=CALIB_ORDER(A1:A6,B1:B6)"
-    wb.save(path)
+    workbook(path, {1: X, 2: Y}, {"D1": "=CALIB_PREDICT(A1:A6,B1:B6,C1:C4)", "D10": "=CALIB_INVERSE(A1:A6,B1:B6,C10:C14)",
+                                  "D20": "=CALIB_ORDER(A1:A6,B1:B6)"})
     report = refresh_file(path)
     assert report.error is None and sorted(report.refreshed) == ["Sheet!D1", "Sheet!D10", "Sheet!D20"]
     sheet = openpyxl.load_workbook(path, data_only=True).active

@@ -11,8 +11,10 @@ import pytest
 
 import degreewise
 from degreewise import engine
-from degreewise.prepared import clear_caches
 from degreewise.commands.refresh import refresh_file
+from conftest import column
+
+pytestmark = pytest.mark.usefixtures("fresh_caches")
 
 # invented: a probe calibrated at six levels in duplicate; row 6 (x = 25) had an air bubble
 X = [0.0, 0.0, 10.0, 10.0, 25.0, 25.0, 50.0, 50.0, 75.0, 75.0, 100.0, 100.0]
@@ -21,20 +23,11 @@ BAD = 5
 REASON = "air bubble, inj. 3"
 
 
-def column(values):
-    return [[v] for v in values]
-
-
 def without(values, i=BAD):
     return column([v for j, v in enumerate(values) if j != i])
 
 
 EXCLUDE = column([REASON if i == BAD else None for i in range(len(X))])
-
-
-@pytest.fixture(autouse=True)
-def fresh_caches():
-    clear_caches()
 
 
 @pytest.mark.parametrize("call", [

@@ -8,10 +8,10 @@ import sys
 import zipfile
 from pathlib import Path
 
-import openpyxl
 import pytest
 
 from degreewise.commands.refresh import AGREE, refresh_file
+from conftest import workbook
 
 WORKBOOKS = Path(__file__).parent.parent / "workbooks"
 # the kernels of an older CPU: SSE only in numpy and OpenBLAS (each variable documented by its project)
@@ -57,14 +57,8 @@ def _restore(path: Path, cell: str, text: str) -> None:
 @pytest.mark.parametrize("factor, listed", [(1 + AGREE / 3, False), (1 - AGREE / 3, False),
                                             (1 + 3 * AGREE, True), (1 - 3 * AGREE, True)])
 def test_a_difference_within_the_bound_is_kept_and_a_larger_one_listed(tmp_path, factor, listed):
-    wb = openpyxl.Workbook()
-    ws = wb.active
-    for i, (x, y) in enumerate([(1, 2.1), (2, 3.9), (4, 8.2), (8, 15.8), (16, 32.3), (32, 63.9)], start=1):
-        ws.cell(i, 1, x)
-        ws.cell(i, 2, y)
-    ws["D1"] = "=CALIB_COEFS(A1:A6,B1:B6,1)"
-    path = tmp_path / "book.xlsx"
-    wb.save(path)
+    path = workbook(tmp_path / "book.xlsx", {1: [1, 2, 4, 8, 16, 32], 2: [2.1, 3.9, 8.2, 15.8, 32.3, 63.9]},
+                    {"D1": "=CALIB_COEFS(A1:A6,B1:B6,1)"})
     refresh_file(path, workers=1)
     slope = float(_stored(path, "E3"))
     _restore(path, "E3", repr(slope * factor))

@@ -15,10 +15,7 @@ import degreewise
 from degreewise import engine
 from degreewise.engine.calibration import default_max_order
 from test_order_choice_words import X as CURVED_X, Y as CURVED_Y
-
-
-def column(values):
-    return [[float(v)] for v in values]
+from conftest import column
 
 
 EXACT_X = np.arange(1.0, 7.0)

@@ -7,6 +7,7 @@ from pathlib import Path
 import openpyxl
 
 from degreewise.commands.refresh import refresh_file
+from conftest import workbook
 
 README = (Path(__file__).parent.parent / "README.md").read_text(encoding="utf-8")
 SECTION = README[README.index("### Excluding a standard and comparing with last month"):]
@@ -25,18 +26,14 @@ def _numbers(where: str) -> list[float]:
 
 def test_the_readme_compare_example_refreshes_to_the_printed_numbers(tmp_path):
     x, today, last = _numbers("x in A2:A13"), _numbers("today's signal in B2:B13"), _numbers("last month's in D2:D13")
-    wb = openpyxl.Workbook()
-    ws = wb.active
-    for row, values in enumerate(zip(x, today, last), start=2):
-        ws.cell(row, 1, values[0]), ws.cell(row, 2, values[1]), ws.cell(row, 4, values[2])
-    ws["C7"] = "air bubble, inj. 3"
-    ws["F1"] = "=CALIB_COMPARE(A2:A13,B2:B13,A2:A13,D2:D13,{10;80},,,,C2:C13)"
-    ws["F20"] = "=CALIB_STATS(A2:A13,B2:B13,,,C2:C13)"
-    ws["F50"] = "=CALIB_RESIDUALS(A2:A13,B2:B13,,,C2:C13)"
-    ws["F70"] = "=CALIB_COEFS(A2:A13,B2:B13)"
-    ws["F80"] = "=CALIB_COEFS(A2:A13,B2:B13,,,,C2:C13)"
-    path = tmp_path / "example.xlsx"
-    wb.save(path)
+    path = workbook(tmp_path / "example.xlsx", {1: x, 2: today, 4: last}, {
+        "C7": "air bubble, inj. 3",
+        "F1": "=CALIB_COMPARE(A2:A13,B2:B13,A2:A13,D2:D13,{10;80},,,,C2:C13)",
+        "F20": "=CALIB_STATS(A2:A13,B2:B13,,,C2:C13)",
+        "F50": "=CALIB_RESIDUALS(A2:A13,B2:B13,,,C2:C13)",
+        "F70": "=CALIB_COEFS(A2:A13,B2:B13)",
+        "F80": "=CALIB_COEFS(A2:A13,B2:B13,,,,C2:C13)",
+    }, first_row=2)
     report = refresh_file(path)
     assert (report.left_alone, report.failed, report.error) == ([], [], None)
     ws = openpyxl.load_workbook(path, data_only=True).active

@@ -16,15 +16,11 @@ from openpyxl.workbook.defined_name import DefinedName
 import degreewise
 from degreewise.xlsx.package import MAX_PART
 from degreewise.commands.refresh import lock_file, refresh_file, run
-from conftest import libreoffice_rows
+from conftest import column, libreoffice_rows
 
 RNG = np.random.default_rng(31)
 X = np.repeat([1.0, 2.0, 5.0, 10.0, 20.0, 40.0], 2)
 Y = 5.0 + 12.0 * X - 0.08 * X**2 + RNG.normal(0, 0.6, X.size)
-
-
-def column(values):
-    return [[float(v)] for v in values]
 
 
 def build(path: Path, vba: bool = False) -> Path:

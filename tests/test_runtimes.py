@@ -16,6 +16,7 @@ from xlwings_runtimes import MISSING, ComRange, JsError
 import degreewise
 from degreewise.catalogue import ARGUMENTS
 from degreewise.commands.refresh import refresh_file
+from conftest import column
 
 # an invented calibration: six levels in duplicate, slightly curved; the last standard reads high (an outlier)
 X = [0.5, 0.5, 1.0, 1.0, 2.0, 2.0, 4.0, 4.0, 6.0, 6.0, 8.0, 8.0]
@@ -25,10 +26,6 @@ SHEET_ROWS = 1_048_576  # a whole-column reference
 NA = "y, row 3 of 12: the cell holds the error #N/A; enter a number or clear the cell"
 DIV0 = "y, column 3 of 12: the cell holds the error #DIV/0!; enter a number or clear the cell"
 TEXT_READING = "reading, row 2 of 3: the text 'n.d.' is not a number; enter a number or clear the cell"
-
-
-def column(values):
-    return [[v] for v in values]
 
 
 def with_error(values, i, error):

@@ -16,16 +16,9 @@ from statsmodels.stats.anova import anova_lm
 from degreewise import engine
 import degreewise
 from degreewise.catalogue import HEADERS
-from degreewise.prepared import clear_caches
+from conftest import column
 
-
-def column(values):
-    return [[v] for v in values]
-
-
-@pytest.fixture(autouse=True)
-def fresh_caches():
-    clear_caches()
+pytestmark = pytest.mark.usefixtures("fresh_caches")
 
 
 @pytest.fixture

@@ -17,17 +17,13 @@ import degreewise
 from degreewise import catalogue, engine, functions
 from degreewise.catalogue import HEADERS
 from degreewise.commands import refresh
-from degreewise.prepared import clear_caches
+
+pytestmark = pytest.mark.usefixtures("fresh_caches")
 
 # Miller & Miller's fluorescence standards (recalled from memory; see test_limits.py)
 X = [[0.0], [2.0], [4.0], [6.0], [8.0], [10.0], [12.0]]
 Y = [[2.1], [5.0], [9.0], [12.6], [17.3], [21.0], [24.7]]
 METHODS = ["prediction band", "ISO 11843-2", "ICH residual SD", "ICH intercept SE"]
-
-
-@pytest.fixture(autouse=True)
-def fresh_caches():
-    clear_caches()
 
 
 def flat(v):
