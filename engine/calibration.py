@@ -27,7 +27,7 @@ from .distributions import f_sf, t_two_sided
 from .errors import DataError, OrderError
 from .refine import TARGET, PlainBounds, conversion_matrix, plain_bounds, refine, rss_bounds
 from .results import FTest, Influence, LackOfFit, OrderChoice, OrderFit, OrderStats, SequentialRow, SequentialTable
-from .validation import check_alpha, check_order, check_rule, check_vector, check_whole
+from .validation import check_alpha, check_order, check_pair, check_rule, check_whole
 from .weighting import Weighting, weight_order
 
 DEFAULT_MAX_ORDER = 4
@@ -86,12 +86,7 @@ class Calibration:
     """
 
     def __init__(self, x, y, max_order=None, weights=None):
-        x = check_vector(x, "x")
-        y = check_vector(y, "y")
-        if x.size != y.size:
-            raise DataError(
-                f"x has {x.size} values and y has {y.size}: give one y for every x", argument="y"
-            )
+        x, y = check_pair(x, y)
         n = x.size
         if n < 3:
             raise DataError(

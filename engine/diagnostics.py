@@ -49,7 +49,7 @@ FAMILY = 7
 _LEVERAGE_ONE = 1 - 1e-10
 
 
-def check_level(alpha: float) -> float:
+def warning_alpha(alpha: float) -> float:
     """The level at which each test of the checks table but lack of fit (and each standard's note) warns."""
     return check_alpha(alpha) / FAMILY
 
@@ -63,7 +63,7 @@ def cook_tail(d: float, h: np.ndarray, p: int, df: int) -> np.ndarray:
     return np.where(inside, t_two_sided(np.sqrt(t2), df - 1), 0.0)
 
 
-def _influence(cook: np.ndarray, h: np.ndarray, t: np.ndarray, p: int, df: int, level: float):
+def _influence(cook: np.ndarray, h: np.ndarray, t: np.ndarray, p: int, df: int, warn_below: float):
     """The p-value S(max D) of the largest Cook's distance, and the standards whose S(D_i) < level.
 
     S(D_i) holds the standard's own term P(D_i >= D_i) = P(|T_(df-1)| >= |t_i|) (t_i externally
@@ -78,14 +78,14 @@ def _influence(cook: np.ndarray, h: np.ndarray, t: np.ndarray, p: int, df: int, 
         return float(cook_tail(d, hu, p, df).sum())
 
     p_max = min(1.0, tail_sum(float(cook[usable].max())))
-    if not p_max < level:  # not even the largest distance
+    if not p_max < warn_below:  # not even the largest distance
         return p_max, []
-    candidates = np.flatnonzero(usable & (t_two_sided(t, df - 1) < level))
+    candidates = np.flatnonzero(usable & (t_two_sided(t, df - 1) < warn_below))
     by_size = candidates[np.argsort(-cook[candidates], kind="stable")]
     lo, hi = 0, by_size.size  # S(D) < level holds for the first `lo` of by_size
     while lo < hi:
         mid = (lo + hi) // 2
-        if tail_sum(float(cook[by_size[mid]])) < level:
+        if tail_sum(float(cook[by_size[mid]])) < warn_below:
             lo = mid + 1
         else:
             hi = mid
@@ -114,13 +114,13 @@ def _back_calculate(cal: Calibration, curve: Curve):
 
 def point_diagnostics(cal: Calibration, order: int, alpha: float = 0.05) -> PointDiagnostics:
     """Fitted, residual, studentized residuals, leverage, Cook's D, back-calculated x per standard;
-    notes flag outliers and influential points at ``check_level(alpha)``, as the checks table does."""
-    level = check_level(alpha)
+    notes flag outliers and influential points at ``warning_alpha(alpha)``, as the checks table does."""
+    warn_below = warning_alpha(alpha)
     results = cal.order(order)
     curve = results.curve
     h, r, t, cook, bonf = results.influence
     exact = _fits_exactly(cal, curve)  # then the residuals are rounding, and no standard stands out
-    influential = set() if exact else set(_influence(cook, h, t, curve.order + 1, curve.df, level)[1])
+    influential = set() if exact else set(_influence(cook, h, t, curve.order + 1, curve.df, warn_below)[1])
     if exact:
         bonf = np.ones_like(bonf)
     fitted = cal.y - cal.weighted_residuals(curve.order) / cal.sqrt_w
@@ -128,7 +128,7 @@ def point_diagnostics(cal: Calibration, order: int, alpha: float = 0.05) -> Poin
     back, count = _back_calculate(cal, curve)
     x = cal.x
     notes = [""] * cal.n_points
-    flagged = (count != 1) | (bonf < level) | (h > _LEVERAGE_ONE) | (x == 0)
+    flagged = (count != 1) | (bonf < warn_below) | (h > _LEVERAGE_ONE) | (x == 0)
     flagged[list(influential)] = True
     for i in flagged.nonzero()[0].tolist():
         words = []
@@ -136,7 +136,7 @@ def point_diagnostics(cal: Calibration, order: int, alpha: float = 0.05) -> Poin
             words.append("several x give this response; the one nearest the standard is shown")
         elif count[i] == 0:
             words.append("no x near the calibrated range gives this response")
-        if bonf[i] < level:
+        if bonf[i] < warn_below:
             words.append(f"outlier (externally studentized {t[i]:.3g}, Bonferroni p = {fmt_p(float(bonf[i]))})")
         if i in influential:
             words.append(f"influential (Cook's distance {cook[i]:.3g})")
@@ -270,8 +270,8 @@ def breusch_pagan(residuals: np.ndarray, z: np.ndarray, order: int, q=None) -> t
     return lm, float(special.chdtrc(order, lm))
 
 
-def _verdict(p: float, level: float) -> str:
-    return "n/a" if p != p else ("warning" if p < level else "ok")
+def _verdict(p: float, warn_below: float) -> str:
+    return "n/a" if p != p else ("warning" if p < warn_below else "ok")
 
 
 def _inadequate_words(cal: Calibration) -> str:
@@ -282,18 +282,18 @@ def _inadequate_words(cal: Calibration) -> str:
 def curve_checks(cal: Calibration, order: int, alpha: float = 0.05, point_labels=None) -> tuple[Check, ...]:
     """Lack of fit, Mandel, runs, Durbin-Watson, Shapiro-Wilk, Breusch-Pagan, monotonicity, outliers, influence.
 
-    Each test warns below ``check_level(alpha)`` (module docstring). ``point_labels`` (a function of
+    Each test warns below ``warning_alpha(alpha)`` (module docstring). ``point_labels`` (a function of
     a point's index) gives a point's position (default "standard 3 of 18"); details add its x and y.
     """
     alpha = check_alpha(alpha)
-    level = check_level(alpha)
+    warn_below = warning_alpha(alpha)
     results = cal.order(order)
     curve = results.curve
     k, big_k = curve.order, cal.max_order
     h, _, t, cook, bonf = results.influence
     n, p = cal.n_points, k + 1
     position = point_labels or (lambda i: f"standard {i + 1} of {n}")
-    at = f"warning below p = {level:.3g}"
+    at = f"warning below p = {warn_below:.3g}"
 
     def named(points) -> str:
         return "; ".join(f"{position(i)}, x = {cal.x[i]:.6g}, y = {cal.y[i]:.6g}" for i in points) or "none"
@@ -328,7 +328,7 @@ def curve_checks(cal: Calibration, order: int, alpha: float = 0.05, point_labels
         if mt.p_value != mt.p_value:
             v, words = "n/a", "the quadratic fits exactly: nothing to test"
         elif k == 1:
-            v = _verdict(mt.p_value, level)
+            v = _verdict(mt.p_value, warn_below)
             misfit |= v == "warning"
             words = ("the quadratic term is significant: a straight line is not adequate" if v == "warning"
                      else "a straight line is adequate against a quadratic") + f"; {at}"
@@ -346,7 +346,7 @@ def curve_checks(cal: Calibration, order: int, alpha: float = 0.05, point_labels
     per = "level means (one per distinct x)" if u.size < n else "residuals"
     z_runs, _, runs = runs_test(u)
     p_runs = runs_exact_p(u)
-    v = _verdict(p_runs, level)
+    v = _verdict(p_runs, warn_below)
     if v == "n/a":
         words = "all residuals have the same sign"
     elif v == "ok":
@@ -366,7 +366,7 @@ def curve_checks(cal: Calibration, order: int, alpha: float = 0.05, point_labels
     else:
         dw = durbin_watson(u)
         p_dw = durbin_watson_p(dw, q)
-        v = _verdict(p_dw, level)
+        v = _verdict(p_dw, warn_below)
         misfit |= v == "warning"
         words = ("the residuals are positively correlated along x: the curve shape may be wrong" if v == "warning"
                  else "no evidence of positive correlation along x")
@@ -380,7 +380,7 @@ def curve_checks(cal: Calibration, order: int, alpha: float = 0.05, point_labels
         # undecorated: scipy's axis/NaN-policy wrapper adds 11 % to a sheet's family after an edit
         # (benchmarks/bench_family.py); tests compare against the public scipy.stats.shapiro
         w_stat, w_p = getattr(shapiro, "__wrapped__", shapiro)(np.ldexp(e, -math.frexp(float(np.abs(e).max()))[1]))
-        v = _verdict(float(w_p), level)
+        v = _verdict(float(w_p), warn_below)
         words = ("residuals depart from a normal distribution" if v == "warning"
                  else "no evidence against normal residuals")
         rows["SW"] = Check("Shapiro-Wilk", float(w_stat), float(w_p), v, f"{words}; {at}")
@@ -404,20 +404,20 @@ def curve_checks(cal: Calibration, order: int, alpha: float = 0.05, point_labels
     if k >= 1:
         basis = cal.orthonormal_basis(k) if cal.weighting.values is None else None
         lm, p_bp = breusch_pagan(e, cal.z, k, basis)
-        v = _verdict(p_bp, level)
+        v = _verdict(p_bp, warn_below)
         rows["BP"] = Check("Breusch-Pagan", lm, p_bp, v,
                            f"chi2({k}) on the {'weighted ' if cal.weighting.values is not None else ''}residuals; "
                            f"{_spread_words(cal, e, v, misfit)}; {at}")
 
-    flagged = (bonf < level).nonzero()[0].tolist()
+    flagged = (bonf < warn_below).nonzero()[0].tolist()
     defined = bonf[bonf == bonf]
     smallest = float(defined.min()) if defined.size else math.nan
-    rows["outliers"] = Check("outliers", float(len(flagged)), smallest, _verdict(smallest, level),
+    rows["outliers"] = Check("outliers", float(len(flagged)), smallest, _verdict(smallest, warn_below),
                              named(flagged) + " (externally studentized residual, Bonferroni over the "
                              f"standards; p-value is the smallest; {at})")
 
-    p_infl, infl = _influence(cook, h, t, p, curve.df, level)
-    rows["influence"] = Check("influential points", float(len(infl)), p_infl, _verdict(p_infl, level),
+    p_infl, infl = _influence(cook, h, t, p, curve.df, warn_below)
+    rows["influence"] = Check("influential points", float(len(infl)), p_infl, _verdict(p_infl, warn_below),
                               named(infl) + " (Cook's distance against its distribution under the model, "
                               f"Bonferroni over the standards; p-value is the largest distance's; {at})")
     if _fits_exactly(cal, curve):  # residuals are rounding: nothing to test in them

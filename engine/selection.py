@@ -69,13 +69,13 @@ def _stepdown(cal: Calibration, alpha: float):
     big_k = cal.max_order
     if big_k == 1:
         return 1, lambda: _ONLY_LINE
-    level = alpha / (big_k - 1)
+    per_test = alpha / (big_k - 1)
     steps = cal.step_tests()
-    order = next((k for k in range(big_k, 1, -1) if steps[k - 1].p_value < level), 1)
+    order = next((k for k in range(big_k, 1, -1) if steps[k - 1].p_value < per_test), 1)
 
     def words() -> str:
         dropped = [(k, steps[k - 1].p_value) for k in range(big_k, order, -1)]
-        text = (f"the highest term is tested first, in its own fit, each at {alpha:g}/{big_k - 1} = {level:.3g}"
+        text = (f"the highest term is tested first, in its own fit, each at {alpha:g}/{big_k - 1} = {per_test:.3g}"
                 if big_k > 2 else f"x^2 is tested in the quadratic fit at {alpha:g}")
         text += " (Anderson's top-down procedure)"
         if dropped:

@@ -35,6 +35,14 @@ def check_vector(values, name: str, *, flat: bool = False) -> np.ndarray:
     return a
 
 
+def check_pair(x, y) -> tuple[np.ndarray, np.ndarray]:
+    """The standards: x and y as ``check_vector`` takes them, one y for every x."""
+    x, y = check_vector(x, "x"), check_vector(y, "y")
+    if x.size != y.size:
+        raise DataError(f"x has {x.size} values and y has {y.size}: give one y for every x", argument="y")
+    return x, y
+
+
 def check_whole(value, name: str) -> int:
     """An int, or a float with a whole value."""
     try:

@@ -37,7 +37,7 @@ from .distributions import chi2_sf, t_quantile
 from .errors import WeightError
 from .results import SchemeResult, SpreadExponent
 from .selection import choose_order
-from .validation import check_alpha, check_level, check_scheme_base, check_vector
+from .validation import check_alpha, check_level, check_pair, check_scheme_base
 from .words import fmt_p
 
 SCHEMES = ("none", "1/x", "1/x^2", "1/y", "1/y^2")
@@ -46,7 +46,7 @@ FROM_REPLICATES = "1/x^2b"
 
 def spread_exponent(x, y, level: float = 0.95) -> SpreadExponent | str:
     """b in SD = c x^b from the replicate SDs (module docstring), or the reason in words why not."""
-    x, y, level = check_vector(x, "x"), check_vector(y, "y"), check_level(level)
+    (x, y), level = check_pair(x, y), check_level(level)
     if y.any():  # an exact power-of-two scaling (it moves only log c) keeps squares in range
         y = np.ldexp(y, -math.frexp(float(np.abs(y).max()))[1])
     levels, inverse, counts = np.unique(x, return_inverse=True, return_counts=True)
@@ -135,7 +135,7 @@ def _pick(rows: list[SchemeResult], alpha: float) -> list[SchemeResult]:
 def compare_weightings(x, y, order=None, alpha: float = 0.05) -> tuple[SchemeResult, ...]:
     """One row per scheme (``SCHEMES``, then ``FROM_REPLICATES`` when x repeats), the picked one marked."""
     alpha = check_alpha(alpha)
-    x, y = check_vector(x, "x"), check_vector(y, "y")
+    x, y = check_pair(x, y)
     rows = [_judge(x, y, s, None if s == "none" else s, order) for s in SCHEMES]
     if np.unique(x).size < x.size:
         fit = spread_exponent(x, y, 1.0 - alpha)

@@ -212,7 +212,7 @@ def test_the_compare_sheet_holds_last_months_standards_and_their_comparison():
     ys = [[today.cell(r, 2).value] for r in range(2, n + 2)]
     e = [[today.cell(r, 3).value] for r in range(2, n + 2)]
     ref = [[ws.cell(r, c).value] for r in range(2, len(sc.reference_y) + 2) for c in (1, 2)]
-    at = block(ws, "D2", len(sc.check_levels), 1)
+    at = block(ws, "D2", len(sc.compare_at), 1)
     want = degreewise.calib_compare(xs, ys, ref[0::2], ref[1::2], at, None, None, None, e)
     assert [r[0] for r in want[1:4]] == ["same curve", "same shape", "same residual SD"]
     assert same_numbers(block(ws, "F1", len(want), 9), want)

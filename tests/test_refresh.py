@@ -16,7 +16,7 @@ from openpyxl.workbook.defined_name import DefinedName
 import degreewise
 from degreewise.xlsx.package import MAX_PART
 from degreewise.commands.refresh import lock_file, refresh_file, run
-from conftest import column, libreoffice_rows
+from conftest import libreoffice_rows
 
 RNG = np.random.default_rng(31)
 X = np.repeat([1.0, 2.0, 5.0, 10.0, 20.0, 40.0], 2)

@@ -336,13 +336,13 @@ def compare_sheet(wb: Workbook, sc: Scenario) -> None:
         ws.cell(i, 1, a)
         ws.cell(i, 2, b)
     ws["D1"] = "check level"
-    for i, v in enumerate(sc.check_levels, start=2):
+    for i, v in enumerate(sc.compare_at, start=2):
         ws.cell(i, 4, v)
     x, y, _, e = (f"'{today.title}'!{a}" if a else "" for a in _args(sc, n))
     ref_x, ref_y = f"$A$2:$A${len(sc.reference_y) + 1}", f"$B$2:$B${len(sc.reference_y) + 1}"
-    at = f"$D$2:$D${len(sc.check_levels) + 1}"
+    at = f"$D$2:$D${len(sc.compare_at) + 1}"
     ws["F1"] = _formula("CALIB_COMPARE", x, y, ref_x, ref_y, at, "", "", "", e)
-    rows = 5 + 2 + len(sc.check_levels)
+    rows = 5 + 2 + len(sc.compare_at)
     for h in (_span("A1", 1, 2), _span("D1", 1, 1), _span("F1", 1, 9)):
         _header(ws, h)
     _wrap(ws, _span("F2", rows, 9))

@@ -26,7 +26,7 @@ class Scenario:
     blanks: tuple[float, ...] = ()  # readings of blank samples, for the blank method of CALIB_LIMITS
     excluded: tuple[tuple[int, str], ...] = ()  # (position in x, reason): standards kept on the record only
     reference_y: tuple[float, ...] = ()  # the same standards' responses in an earlier calibration
-    check_levels: tuple[float, ...] = ()  # x where today's curve is compared with the earlier one
+    compare_at: tuple[float, ...] = ()  # x where today's curve is compared with the earlier one
 
 
 def _round(values, digits):
@@ -64,7 +64,7 @@ def straight_probe() -> Scenario:
         samples=_round([0.25, 0.9, 1.65], 4),
         blanks=_round(0.0042 + np.random.default_rng(7352).normal(0.0, 0.0035, 6), 5),
         excluded=((12, "air bubble, inj. 3"),),
-        reference_y=_round(earlier, 5), check_levels=(10.0, 50.0, 90.0),
+        reference_y=_round(earlier, 5), compare_at=(10.0, 50.0, 90.0),
     )
 
 
