@@ -271,7 +271,7 @@ class Calibration:
     def _powers(self, order: int):
         """Weighted raw powers u^0 .. u^order in double-double (n, order + 1)."""
         hi, lo = dd.powers(self._u, order)
-        if self.weighting.values is None:
+        if not self.weighting.weighted:
             return hi, lo
         return dd.mul_double(hi, lo, self.sqrt_w[:, None])
 
@@ -280,7 +280,7 @@ class Calibration:
         are kept for ``raw_coefficients``. One call: each order is the right-hand side y with a mask that keeps
         its solution to its own powers; the leading blocks of Q, R^-1 and T are those of the lower order."""
         p, m = max(orders) + 1, len(orders)
-        if self.weighting.values is None:
+        if not self.weighting.weighted:
             rhs_hi, rhs_lo = np.tile(self._ys, (m, 1)), None
         else:
             rhs_hi, rhs_lo = (np.tile(a, (m, 1)) for a in dd.two_prod(self._ys, self.sqrt_w))
@@ -440,7 +440,7 @@ class Calibration:
         tests = self._f_tests
         lack = self._lack_of_fit_tests(tests)
         ey2 = 2 * self._ey
-        log_w = 0.0 if self.weighting.values is None else float(np.log(self.weighting.values).sum())
+        log_w = float(np.log(self.weighting.values).sum()) if self.weighting.weighted else 0.0
         made = {}  # kept only when every order succeeds, so that an overflow leaves no half-filled cache
         for k, (r, d, pr, overall) in enumerate(zip(rss.tolist(), df.tolist(), press.tolist(), tests["overall"])):
             npar = k + 2

@@ -142,7 +142,7 @@ class Curve:
     def grid_variance_factor(self) -> np.ndarray:
         """1/w0 of a new reading at every grid node (one 1 when unweighted)."""
         weighting = self.cal.weighting
-        if weighting.values is None:
+        if not weighting.weighted:
             return np.ones(1)
         z, f, _ = self.weight_curve.grid
         return weighting.variance_factor(self.cal.raw_x(z), self.to_y(f))

@@ -402,11 +402,11 @@ def curve_checks(cal: Calibration, order: int, alpha: float = 0.05, point_labels
                                   f"to {curve.x_max:.6g}")
 
     if k >= 1:
-        basis = cal.orthonormal_basis(k) if cal.weighting.values is None else None
+        basis = None if cal.weighting.weighted else cal.orthonormal_basis(k)
         lm, p_bp = breusch_pagan(e, cal.z, k, basis)
         v = _verdict(p_bp, warn_below)
         rows["BP"] = Check("Breusch-Pagan", lm, p_bp, v,
-                           f"chi2({k}) on the {'weighted ' if cal.weighting.values is not None else ''}residuals; "
+                           f"chi2({k}) on the {'weighted ' if cal.weighting.weighted else ''}residuals; "
                            f"{_spread_words(cal, e, v, misfit)}; {at}")
 
     flagged = (bonf < warn_below).nonzero()[0].tolist()

@@ -68,7 +68,7 @@ class _Band:
 
     def variance_factor(self, x, f) -> np.ndarray:
         w = self.cal.weighting
-        return np.ones_like(x) if w.values is None else w.variance_factor(x, self.curve.to_y(f))
+        return w.variance_factor(x, self.curve.to_y(f)) if w.weighted else np.ones_like(x)
 
     def __call__(self, x):
         x = np.atleast_1d(np.asarray(x, dtype=float))
@@ -114,7 +114,7 @@ def _range_words(named, x_min: float, x_max: float) -> str:
 def _weight_words(cal: Calibration, band: _Band, zero: _AtZero, t1: float) -> str:
     """Why the weights leave a new reading at x = 0 without scatter of its own (empty when they do not)."""
     w = cal.weighting
-    if w.values is None or w.scheme is None:
+    if not w.weighted or w.scheme is None:
         return ""
     vf0 = float(band.variance_factor(np.zeros(1), np.array([zero.f]))[0])
     tail = ("so the prediction band has no reading scatter at the blank and no band-based limit exists; use a "
@@ -187,7 +187,7 @@ def _iso_row(cal: Calibration, curve: Curve, zero: _AtZero, m: int, alpha: float
     if order != 1:
         return Limit(ISO, *none, "does not apply: ISO 11843-2 covers a straight line with constant SD; this curve "
                                  f"is of order {order} (see the prediction band row)")
-    if cal.weighting.values is not None:
+    if cal.weighting.weighted:
         return Limit(ISO, *none, "does not apply: ISO 11843-2 covers a straight line with constant SD; this "
                                  f"calibration is weighted ('{cal.weighting.label}') (see the prediction band row)")
     z, n, df = cal.z, cal.n_points, curve.df
@@ -206,7 +206,7 @@ def _ich_rows(cal: Calibration, curve: Curve, zero: _AtZero, band: _Band, degene
               ) -> list[Limit]:
     where = f"S = {_g(zero.slope)}, the slope at x = 0" + (f" of the order-{curve.order} curve"
                                                             if curve.order > 1 else "")
-    if cal.weighting.values is not None:
+    if cal.weighting.weighted:
         factor = float(band.variance_factor(np.zeros(1), np.array([zero.f]))[0])
         sd = curve.s * math.sqrt(factor) if factor > 0 else math.nan
         sd_words = f"sigma = {_g(float(curve.to_y(sd)))}, the SD of a reading at x = 0 under the weights (s sqrt(1/w0))"

@@ -43,7 +43,7 @@ def predict(cal: Calibration, new_x, order: int, level: float = 0.95) -> tuple[P
     x0 = check_vector(new_x, "new_x", flat=True)
     curve = cal.order(order).curve
     t = curve.t_value(level)
-    weighted = cal.weighting.values is not None
+    weighted = cal.weighting.weighted
     # an x far beyond the calibration's scale overflows to inf and its cells come out empty, without warnings
     with np.errstate(over="ignore", invalid="ignore"):
         z0 = cal.scaled_x(x0)
@@ -94,7 +94,7 @@ def _variance_factor_and_slope(curve: Curve, zz: np.ndarray, fz: np.ndarray, dfz
     in curve units."""
     cal = curve.cal
     weighting = cal.weighting
-    if weighting.values is None:
+    if not weighting.weighted:
         return 1.0, 0.0
     base = curve.weight_curve
     if base is not curve:
@@ -135,7 +135,7 @@ def _solve_on_monotonic_band(curve: Curve, cal: Calibration, y0: np.ndarray, m: 
     edge = _EDGES[kind]
     moving = edge != 0
     mm, target = m[which], ys[which]
-    spread, weighted = t2s2 / mm, cal.weighting.values is not None
+    spread, weighted = t2s2 / mm, cal.weighting.weighted
 
     local_rows = local.T.copy()
     open_edges = weighted or t2s2 == 0  # where the band's half-width can be zero, or undefined

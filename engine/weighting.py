@@ -109,15 +109,20 @@ class Weighting:
         )
 
     @property
+    def weighted(self) -> bool:
+        """Whether the fit is weighted (weights given as values or by a scheme); the one test of it."""
+        return self.values is not None
+
+    @property
     def label(self) -> str:
-        if self.values is None:
+        if not self.weighted:
             return "none"
         return self.scheme if self.scheme else "values"
 
     def variance_factor(self, x_new, y_new):
         """1/w0 of a new reading at x_new with response y_new (nan where undefined)."""
         x_new = np.asarray(x_new, dtype=float)
-        if self.values is None:
+        if not self.weighted:
             return np.ones_like(x_new)
         if self.scheme is None:
             return np.interp(x_new, self._grid, self._var)
@@ -129,7 +134,7 @@ class Weighting:
     def variance_factor_slope(self, x_new, y_new, dy_dx):
         """d(1/w0)/dx at x_new, where the response y_new = f(x_new) has slope dy_dx."""
         x_new = np.asarray(x_new, dtype=float)
-        if self.values is None:
+        if not self.weighted:
             return np.zeros_like(x_new)
         if self.scheme is None:
             cell = np.clip(np.searchsorted(self._grid, x_new) - 1, 0, self._slopes.size - 1)
