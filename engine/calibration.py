@@ -23,10 +23,12 @@ import numpy as np
 from numpy.polynomial import polynomial as P
 
 from . import doubledouble as dd
-from .distributions import f_sf, t_two_sided
+from . import selection
+from .distributions import f_sf
 from .errors import DataError, OrderError
+from .orders import OrderResults
 from .refine import TARGET, PlainBounds, conversion_matrix, plain_bounds, refine, rss_bounds
-from .results import FTest, Influence, LackOfFit, OrderChoice, OrderFit, OrderStats, SequentialRow, SequentialTable
+from .results import FTest, LackOfFit, OrderChoice, OrderFit, OrderStats, SequentialRow, SequentialTable
 from .validation import check_alpha, check_order, check_pair, check_rule, check_whole
 from .weighting import Weighting, weight_order
 
@@ -38,14 +40,6 @@ ROUNDING = 2.0**-42
 # smallest |R_jj| / max |R_jj| of the scaled basis accepted as full rank (far below any real calibration)
 _RANK_TOLERANCE = 1e-12
 _LN2, _LN_2PI = math.log(2.0), math.log(2.0 * math.pi)
-
-
-def _ldexp(value: float, e: int) -> float:
-    """value * 2**e; inf (with the sign of value) where that is beyond the double range."""
-    try:
-        return math.ldexp(value, e)
-    except OverflowError:
-        return math.copysign(math.inf, value)
 
 
 def householder_qr(a: np.ndarray):
@@ -210,8 +204,6 @@ class Calibration:
     def choice(self, rule: str, alpha: float) -> OrderChoice:
         """The order ``rule`` picks at ``alpha``, with the reason in words (``selection``), made once per
         rule and alpha."""
-        from . import selection  # the rules read this calibration's statistics
-
         key = check_rule(rule), check_alpha(alpha)
         if key not in self._choices:
             self._choices[key] = selection.choose(self, *key)
@@ -348,10 +340,10 @@ class Calibration:
         if "lack of fit" not in tests:
             return [None] * (self.max_order + 1)
         ey2 = 2 * self._ey
-        pure, df_pe = _ldexp(self._ss_pure, ey2), self.n_points - self.n_distinct
+        pure, df_pe = dd.ldexp(self._ss_pure, ey2), self.n_points - self.n_distinct
         exact = self.exact_order
         identical = "not testable: replicates are identical" if self._ss_pure <= self._ss_rounding else ""
-        return [LackOfFit(_ldexp(ss, ey2), test.df_num, pure, df_pe, test,
+        return [LackOfFit(dd.ldexp(ss, ey2), test.df_num, pure, df_pe, test,
                           f"the data fit exactly at order {exact}" if exact is not None and k >= exact else identical)
                 if test.df_num >= 1 else None
                 for k, (ss, test) in enumerate(zip(self._ss_lack_of_fit.tolist(), tests["lack of fit"]))]
@@ -449,10 +441,10 @@ class Calibration:
             aicc = -2 * llf + 2 * npar + (2 * npar * (npar + 1) / (n - npar - 1) if n - npar - 1 > 0 else math.nan)
             r2 = 1.0 - r / self._tss if self._tss else math.nan  # 0 only where weights near 1e-322 underflow
             made[k] = OrderStats(
-                order=k, n_points=n, df_resid=d, rss=_ldexp(r, ey2),
+                order=k, n_points=n, df_resid=d, rss=dd.ldexp(r, ey2),
                 residual_sd=math.ldexp(math.sqrt(r / d), self._ey),
                 r_squared=r2, adj_r_squared=1.0 - (1.0 - r2) * (n - 1) / d,
-                press=_ldexp(pr, ey2), predicted_r_squared=1.0 - pr / self._tss if self._tss else math.nan,
+                press=dd.ldexp(pr, ey2), predicted_r_squared=1.0 - pr / self._tss if self._tss else math.nan,
                 aicc=aicc, bic=-2 * llf + npar * math.log(n),
                 overall=overall if k >= 1 else None,
                 lack_of_fit=lack[k],
@@ -472,9 +464,9 @@ class Calibration:
         k = self.max_order
         st = self.stats(k)
         ey2 = 2 * self._ey
-        rows = tuple(SequentialRow(j, _ldexp(ss, ey2), test)
+        rows = tuple(SequentialRow(j, dd.ldexp(ss, ey2), test)
                      for j, (ss, test) in enumerate(zip((self._qty[1:] ** 2).tolist(), self._f_tests["sequential"]), 1))
-        return SequentialTable(k, rows, st.rss, st.df_resid, st.lack_of_fit, _ldexp(self._tss, ey2),
+        return SequentialTable(k, rows, st.rss, st.df_resid, st.lack_of_fit, dd.ldexp(self._tss, ey2),
                                self.n_points - 1)
 
     def step_test(self, order: int) -> FTest:
@@ -488,62 +480,3 @@ class Calibration:
         """``step_test`` of every order 1 .. max_order."""
         return self._f_tests["step"]
 
-
-class OrderResults:
-    """One order of a calibration; every figure is computed from the calibration's one factorisation on
-    first use and then kept (as statsmodels' regression results compute derived statistics).
-
-    ``stats`` (goodness of fit), ``fit`` (raw power coefficients with standard errors, t and p),
-    ``curve`` (values, band and roots in the scaled variable: ``curve.Curve``) and ``influence``
-    (leverages, studentized residuals, Cook's distances and the outliers' Bonferroni p-values).
-    """
-
-    def __init__(self, cal: Calibration, order: int):
-        self.cal, self.order = cal, order
-
-    @property
-    def stats(self) -> OrderStats:
-        return self.cal.stats(self.order)
-
-    @cached_property
-    def fit(self) -> OrderFit:
-        cal, k = self.cal, self.order
-        stats = self.stats
-        coef, diag = cal.raw_coefficients(k), cal.covariance_diagonal(k)
-        sd = cal.scaled_residual_sd(k)
-        coefs, ses, ts = [], [], []
-        exact = cal.exact_order is not None and k >= cal.exact_order  # no t test on rounding error
-        for j, (b, d) in enumerate(zip(coef.tolist(), diag.tolist())):
-            se = sd * math.sqrt(d)
-            ts.append(math.nan if exact else
-                      b / se if se > 0 else (math.nan if b == 0 else math.copysign(math.inf, b)))
-            # back to the units of x and y; t (a ratio) is taken before, so it survives over- or underflow
-            e = cal.y_exponent - cal.x_exponent * j
-            coefs.append(_ldexp(b, e))
-            ses.append(_ldexp(se, e))
-        p_values = t_two_sided(np.array(ts), stats.df_resid).tolist()
-        return OrderFit(k, tuple(coefs), tuple(ses), tuple(ts), tuple(p_values), stats)
-
-    @cached_property
-    def curve(self):
-        from .curve import Curve  # the curve builds on the calibration
-
-        return Curve(self.cal, self.order)
-
-    @cached_property
-    def influence(self) -> Influence:
-        """Weighted residuals e_i, leverages h_i, p = order + 1, df = n - p: r_i = e_i / (s sqrt(1 - h_i)),
-        t_i = r_i sqrt((df - 1) / (df - r_i^2)), D_i = r_i^2 h_i / (p (1 - h_i)) (Cook & Weisberg, Residuals
-        and Influence in Regression, Chapman & Hall 1982, ch. 2 and 3), and n P(|T_(df-1)| > |t_i|) capped at 1."""
-        cal, k = self.cal, self.order
-        e = cal.scaled_residuals(k)  # in curve units, as s
-        h = cal.leverage(k)
-        df, n = cal.n_points - k - 1, cal.n_points
-        with np.errstate(divide="ignore", invalid="ignore"):
-            one_minus_h = 1.0 - h
-            r = e / (cal.scaled_residual_sd(k) * np.sqrt(one_minus_h))
-            r2 = r * r
-            t = r * np.sqrt((df - 1) / (df - r2)) if df > 1 else np.full_like(r, np.nan)
-            cook = r2 * h / ((k + 1) * one_minus_h)
-        bonferroni = np.minimum(1.0, n * t_two_sided(t, df - 1)) if df >= 2 else np.full(t.shape, np.nan)
-        return Influence(h, r, t, cook, bonferroni)

@@ -11,13 +11,16 @@ from __future__ import annotations
 
 import math
 from functools import cached_property
+from typing import TYPE_CHECKING
 
 import numpy as np
 from numpy.polynomial import polynomial as P
 
-from .calibration import Calibration
 from .distributions import t_quantile
 from .weighting import weight_order
+
+if TYPE_CHECKING:  # the calibration builds on this module
+    from .calibration import Calibration
 
 # grid over z for locating roots and band edges: 400 cells across the calibrated
 # range [-1, 1] (its ends are nodes), and the curve is used up to EXTEND (in units

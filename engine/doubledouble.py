@@ -11,9 +11,19 @@ so the results are the same on every platform. Splitting assumes
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 
 _SPLITTER = 134217729.0  # 2**27 + 1
+
+
+def ldexp(value: float, e: int) -> float:
+    """value * 2**e (exact unless it under- or overflows); inf with the sign of value beyond the double range."""
+    try:
+        return math.ldexp(value, e)
+    except OverflowError:
+        return math.copysign(math.inf, value)
 
 
 def two_sum(a, b):

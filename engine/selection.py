@@ -23,12 +23,15 @@ The lowest order offered is 1: a calibration needs a slope. When the data fit ex
 from __future__ import annotations
 
 import math
+from typing import TYPE_CHECKING
 
-from .calibration import Calibration
 from .errors import OrderError
 from .results import FTest, OrderChoice
 from .validation import DEFAULT_RULE
 from .words import fmt_p, term_name
+
+if TYPE_CHECKING:  # the calibration builds on this module
+    from .calibration import Calibration
 
 
 def lack_of_fit_words(cal: Calibration, order: int, alpha: float = 0.05) -> str:

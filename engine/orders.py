@@ -1,0 +1,75 @@
+"""One order of a calibration: every figure of that order, read from the calibration's one factorisation."""
+
+from __future__ import annotations
+
+import math
+from functools import cached_property
+from typing import TYPE_CHECKING
+
+import numpy as np
+
+from .curve import Curve
+from .doubledouble import ldexp
+from .distributions import t_two_sided
+from .results import Influence, OrderFit, OrderStats
+
+if TYPE_CHECKING:  # a Calibration makes its OrderResults
+    from .calibration import Calibration
+
+
+class OrderResults:
+    """One order of a calibration; every figure is computed from the calibration's one factorisation on
+    first use and then kept (as statsmodels' regression results compute derived statistics).
+
+    ``stats`` (goodness of fit), ``fit`` (raw power coefficients with standard errors, t and p),
+    ``curve`` (values, band and roots in the scaled variable: ``curve.Curve``) and ``influence``
+    (leverages, studentized residuals, Cook's distances and the outliers' Bonferroni p-values).
+    """
+
+    def __init__(self, cal: Calibration, order: int):
+        self.cal, self.order = cal, order
+
+    @property
+    def stats(self) -> OrderStats:
+        return self.cal.stats(self.order)
+
+    @cached_property
+    def fit(self) -> OrderFit:
+        cal, k = self.cal, self.order
+        stats = self.stats
+        coef, diag = cal.raw_coefficients(k), cal.covariance_diagonal(k)
+        sd = cal.scaled_residual_sd(k)
+        coefs, ses, ts = [], [], []
+        exact = cal.exact_order is not None and k >= cal.exact_order  # no t test on rounding error
+        for j, (b, d) in enumerate(zip(coef.tolist(), diag.tolist())):
+            se = sd * math.sqrt(d)
+            ts.append(math.nan if exact else
+                      b / se if se > 0 else (math.nan if b == 0 else math.copysign(math.inf, b)))
+            # back to the units of x and y; t (a ratio) is taken before, so it survives over- or underflow
+            e = cal.y_exponent - cal.x_exponent * j
+            coefs.append(ldexp(b, e))
+            ses.append(ldexp(se, e))
+        p_values = t_two_sided(np.array(ts), stats.df_resid).tolist()
+        return OrderFit(k, tuple(coefs), tuple(ses), tuple(ts), tuple(p_values), stats)
+
+    @cached_property
+    def curve(self) -> Curve:
+        return Curve(self.cal, self.order)
+
+    @cached_property
+    def influence(self) -> Influence:
+        """Weighted residuals e_i, leverages h_i, p = order + 1, df = n - p: r_i = e_i / (s sqrt(1 - h_i)),
+        t_i = r_i sqrt((df - 1) / (df - r_i^2)), D_i = r_i^2 h_i / (p (1 - h_i)) (Cook & Weisberg, Residuals
+        and Influence in Regression, Chapman & Hall 1982, ch. 2 and 3), and n P(|T_(df-1)| > |t_i|) capped at 1."""
+        cal, k = self.cal, self.order
+        e = cal.scaled_residuals(k)  # in curve units, as s
+        h = cal.leverage(k)
+        df, n = cal.n_points - k - 1, cal.n_points
+        with np.errstate(divide="ignore", invalid="ignore"):
+            one_minus_h = 1.0 - h
+            r = e / (cal.scaled_residual_sd(k) * np.sqrt(one_minus_h))
+            r2 = r * r
+            t = r * np.sqrt((df - 1) / (df - r2)) if df > 1 else np.full_like(r, np.nan)
+            cook = r2 * h / ((k + 1) * one_minus_h)
+        bonferroni = np.minimum(1.0, n * t_two_sided(t, df - 1)) if df >= 2 else np.full(t.shape, np.nan)
+        return Influence(h, r, t, cook, bonferroni)
