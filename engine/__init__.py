@@ -12,9 +12,10 @@ from .diagnostics import curve_checks, point_diagnostics
 from .errors import CalibrationError, DataError, OptionError, OrderError, WeightError
 from .limits import detection_limits
 from .prediction import inverse, predict
-from .selection import choose_order, forward_steps, lack_of_fit_words, mandel_test
+from .selection import choose_order, forward_steps, mandel_test
 from .validation import DEFAULT_RULE, RULES
 from .weight_choice import compare_weightings, spread_exponent
+from .words import lack_of_fit_words
 
 __all__ = [
     "Calibration", "CalibrationError", "DataError", "DEFAULT_RULE", "OptionError", "OrderError", "RULES",

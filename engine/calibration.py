@@ -23,7 +23,7 @@ import numpy as np
 from numpy.polynomial import polynomial as P
 
 from . import doubledouble as dd
-from . import selection
+from . import selection, words
 from .distributions import f_sf
 from .errors import DataError, OrderError
 from .orders import OrderResults
@@ -202,11 +202,12 @@ class Calibration:
         return self._orders[k]
 
     def choice(self, rule: str, alpha: float) -> OrderChoice:
-        """The order ``rule`` picks at ``alpha``, with the reason in words (``selection``), made once per
-        rule and alpha."""
+        """The order ``rule`` picks at ``alpha`` (``selection.pick``), with the reason in words
+        (``words.order_reason``), made once per rule and alpha."""
         key = check_rule(rule), check_alpha(alpha)
         if key not in self._choices:
-            self._choices[key] = selection.choose(self, *key)
+            order = selection.pick(self, *key)
+            self._choices[key] = OrderChoice(order, *key, self.max_order, words.order_reason(self, order, *key))
         return self._choices[key]
 
     # -- scaled-basis pieces used by the other modules --------------------------------------

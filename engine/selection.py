@@ -28,66 +28,20 @@ from typing import TYPE_CHECKING
 from .errors import OrderError
 from .results import FTest, OrderChoice
 from .validation import DEFAULT_RULE
-from .words import fmt_p, term_name
 
 if TYPE_CHECKING:  # the calibration builds on this module
     from .calibration import Calibration
 
 
-def lack_of_fit_words(cal: Calibration, order: int, alpha: float = 0.05) -> str:
-    """The lack-of-fit verdict of ``order`` in words; when it is significant, the lowest order up to the
-    max order whose lack of fit is not, or else that no polynomial of order <= max order describes the data."""
-    return _lack_of_fit(cal, order, alpha)[0]
-
-
-def _lack_of_fit(cal: Calibration, order: int, alpha: float) -> tuple[str, bool]:
-    """``lack_of_fit_words`` and whether they say that no order up to the max order describes the data."""
-    lof = cal.stats(order).lack_of_fit
-    if lof is None:
-        return f"Lack of fit at order {order} cannot be tested (no replicated x or no spare distinct x).", False
-    if lof.note:
-        return f"Lack of fit at order {order}: {lof.note}.", False
-    p = lof.test.p_value
-    if p >= alpha:
-        return f"Lack of fit at order {order}: not significant (p = {fmt_p(p)}).", False
-    text = f"Lack of fit at order {order}: significant (p = {fmt_p(p)})"
-    for k in range(order + 1, cal.max_order + 1):
-        higher = cal.stats(k).lack_of_fit
-        if higher is not None and not higher.test.p_value < alpha:  # nan (exact fit) counts as adequate
-            found = f"p = {fmt_p(higher.test.p_value)}" if not higher.note else higher.note
-            return (text + f": the curve misses the level means; order {k} is the lowest whose lack of fit is "
-                    f"not significant ({found})."), False
-    return (text + f": a polynomial of order <= {cal.max_order} does not describe these data; consider a "
-            "narrower range or another model."), True
-
-
-_ONLY_LINE = "only order 1 is considered, so no term was tested (give max_order to test a curve)."
-
-
-def _p_values(p_values) -> str:
-    return ", ".join(f"{term_name(k)} p = {fmt_p(p)}" for k, p in p_values)
-
-
-def _stepdown(cal: Calibration, alpha: float):
+def stepdown_order(cal: Calibration, alpha: float) -> int:
+    """Anderson's top-down procedure (module docstring): the highest k >= 2 whose step test is significant at
+    alpha / (K - 1), else 1."""
     big_k = cal.max_order
     if big_k == 1:
-        return 1, lambda: _ONLY_LINE
+        return 1
     per_test = alpha / (big_k - 1)
     steps = cal.step_tests()
-    order = next((k for k in range(big_k, 1, -1) if steps[k - 1].p_value < per_test), 1)
-
-    def words() -> str:
-        dropped = [(k, steps[k - 1].p_value) for k in range(big_k, order, -1)]
-        text = (f"the highest term is tested first, in its own fit, each at {alpha:g}/{big_k - 1} = {per_test:.3g}"
-                if big_k > 2 else f"x^2 is tested in the quadratic fit at {alpha:g}")
-        text += " (Anderson's top-down procedure)"
-        if dropped:
-            text += "; not significant: " + _p_values(dropped)
-        if order > 1:
-            text += f"; significant: {term_name(order)} p = {fmt_p(steps[order - 1].p_value)}"
-        return text + "."
-
-    return order, words
+    return next((k for k in range(big_k, 1, -1) if steps[k - 1].p_value < per_test), 1)
 
 
 def forward_steps(cal: Calibration) -> list[FTest]:
@@ -95,46 +49,25 @@ def forward_steps(cal: Calibration) -> list[FTest]:
     return list(cal.step_tests())
 
 
-def _forward(cal: Calibration, alpha: float):
+def forward_order(cal: Calibration, alpha: float) -> int:
+    """The order reached by adding terms while each step test is significant at alpha."""
     steps = forward_steps(cal)
     order = 1
     while order < cal.max_order and steps[order].p_value < alpha:
         order += 1
-
-    def words() -> str:
-        if cal.max_order == 1:
-            return _ONLY_LINE
-        if order < cal.max_order:
-            stop = steps[order]
-            text = (f"adding {term_name(order + 1)} to order {order} is not significant "
-                    f"(F = {stop.statistic:.3g}, p = {fmt_p(stop.p_value)} >= {alpha:g})")
-        else:
-            text = f"every step up to the max order {cal.max_order} is significant"
-        if order > 1:
-            text = f"{term_name(order)} added significantly (p = {fmt_p(steps[order - 1].p_value)}); " + text
-        return text + "."
-
-    return order, words
+    return order
 
 
-_CRITERION_NAMES = {"aicc": "AICc", "bic": "BIC", "press": "PRESS"}
+def criterion_values(cal: Calibration, rule: str) -> list[tuple[int, float]]:
+    """(order, value) of the criterion ``rule`` (aicc, bic, press) for orders 1..max, where it is usable."""
+    return [(k, v) for k, st in cal.all_stats().items()
+            if k >= 1 and (v := getattr(st, rule)) == v and not math.isinf(v)]
 
 
-def _criterion(cal: Calibration, rule: str):
-    name = _CRITERION_NAMES[rule]
-    values = [(k, getattr(st, rule)) for k, st in cal.all_stats().items() if k >= 1]
-    order, best = 1, None
-    for k, v in values:  # the smallest usable value; the lowest order on a tie
-        if v == v and not math.isinf(v) and (best is None or v < best):
-            order, best = k, v
-    if best is None:
-        return 1, lambda: f"{name} is not available for any order; order 1 is the lowest offered."
-
-    def words() -> str:
-        others = ", ".join(f"order {k}: {v:.6g}" for k, v in values if k != order and v == v and not math.isinf(v))
-        return f"smallest {name} at order {order} ({best:.6g}; {others})."
-
-    return order, words
+def criterion_order(cal: Calibration, rule: str) -> int:
+    """The order with the smallest usable criterion (the lowest on a tie), or 1 where none is usable."""
+    values = criterion_values(cal, rule)
+    return min(values, key=lambda kv: kv[1])[0] if values else 1
 
 
 def choose_order(cal: Calibration, rule: str = DEFAULT_RULE, alpha: float = 0.05) -> OrderChoice:
@@ -142,33 +75,15 @@ def choose_order(cal: Calibration, rule: str = DEFAULT_RULE, alpha: float = 0.05
     return cal.choice(rule, alpha)
 
 
-def choose(cal: Calibration, rule: str, alpha: float) -> OrderChoice:
-    exact = cal.exact_order
-    if exact is not None:
-        order = max(exact, 1)
-
-        def words() -> str:
-            return (f"the data fit exactly at order {exact} (the residual is at the rounding level of the "
-                    "responses), so no F test applies" + ("; order 1 is the lowest offered." if exact < 1 else "."))
-    elif rule == "stepdown":
-        order, words = _stepdown(cal, alpha)
-    elif rule == "forward":
-        order, words = _forward(cal, alpha)
-    else:
-        order, words = _criterion(cal, rule)
-
-    def reason() -> str:
-        text = f"rule {rule}, alpha {alpha:g}, max order {cal.max_order}: {words()}"
-        if exact is not None:
-            return text
-        lack, inadequate = _lack_of_fit(cal, order, alpha)
-        if order == cal.max_order > 1 and not inadequate:
-            lack += (f" The rule stopped at the max order {order}, so no higher order was tried; if a "
-                     f"polynomial of order <= {order} does not describe these data, consider a narrower range "
-                     "or another model.")
-        return text + " " + lack
-
-    return OrderChoice(order, rule, alpha, cal.max_order, reason())
+def pick(cal: Calibration, rule: str, alpha: float) -> int:
+    """The order ``rule`` picks at ``alpha``; where the data fit exactly, that order (at least 1)."""
+    if cal.exact_order is not None:
+        return max(cal.exact_order, 1)
+    if rule == "stepdown":
+        return stepdown_order(cal, alpha)
+    if rule == "forward":
+        return forward_order(cal, alpha)
+    return criterion_order(cal, rule)
 
 
 def mandel_test(cal: Calibration) -> FTest:
