@@ -35,7 +35,7 @@ from scipy import special
 
 from .calibration import Calibration, householder_qr
 from .curve import ENDS, Curve
-from .distributions import beta_cdf, log_factorials, normal_two_sided, t_two_sided
+from .distributions import beta_cdf, log_factorials, t_two_sided
 from .prediction import roots_of
 from .results import Check, PointDiagnostics
 from .selection import mandel_test
@@ -43,9 +43,6 @@ from .validation import check_alpha
 from .words import fmt_p
 
 BACK_CALC_EXTEND = 0.25
-# tests in the checks table besides lack of fit (Mandel, runs, Durbin-Watson, Shapiro-Wilk,
-# Breusch-Pagan, outliers, influential points): each warns below alpha / FAMILY
-FAMILY = 7
 _LEVERAGE_ONE = 1 - 1e-10
 
 
@@ -186,14 +183,14 @@ def runs_distribution(n1: int, n2: int) -> tuple[np.ndarray, np.ndarray]:
     return r, np.exp(np.where(r % 2 == 0, even, odd) - total)
 
 
-def runs_test(residuals_by_x: np.ndarray) -> tuple[float, float, int]:
-    """Wald-Wolfowitz runs test of residual signs (zero counts as positive), normal approximation.
+def runs_test(residuals_by_x: np.ndarray) -> tuple[float, int]:
+    """Wald-Wolfowitz runs test of residual signs (zero counts as positive): the normal score of the runs.
 
     z = (R - mu) / sigma with mu = 2 n1 n2 / N + 1 and
     sigma^2 = 2 n1 n2 (2 n1 n2 - N) / (N^2 (N - 1)), without continuity correction
     (Wald & Wolfowitz, Ann. Math. Stat. 11 (1940) 147-162). Returns z (negative: fewer runs than
-    expected, the signs cluster; positive: more, they alternate), its two-sided normal p and the
-    number of runs. The checks take p from the exact distribution (``runs_exact_p``).
+    expected, the signs cluster; positive: more, they alternate) and the number of runs. Its p-value comes
+    from the exact distribution (``runs_exact_p``), not the normal approximation.
     """
     pos = residuals_by_x >= 0
     runs = int(1 + np.count_nonzero(pos[1:] != pos[:-1]))
@@ -201,13 +198,12 @@ def runs_test(residuals_by_x: np.ndarray) -> tuple[float, float, int]:
     n2 = pos.size - n1
     big_n = pos.size
     if n1 == 0 or n2 == 0:
-        return math.nan, math.nan, runs
+        return math.nan, runs
     mu = 2.0 * n1 * n2 / big_n + 1
     var = 2.0 * n1 * n2 * (2.0 * n1 * n2 - big_n) / (big_n**2 * (big_n - 1))
     if var <= 0:
-        return math.nan, math.nan, runs
-    z = (runs - mu) / math.sqrt(var)
-    return z, float(normal_two_sided(z)), runs
+        return math.nan, runs
+    return (runs - mu) / math.sqrt(var), runs
 
 
 def runs_exact_p(residuals_by_x: np.ndarray) -> float:
@@ -279,156 +275,199 @@ def _inadequate_words(cal: Calibration) -> str:
             "consider a narrower range or another model")
 
 
+class _Context:
+    """What the checks of one order share: the calibration, the order's results, the warning level and its
+    words, and the residuals (scaled: the tests do not depend on their scale, and huge or tiny magnitudes then
+    neither over- nor underflow in squares), also one per level in x order."""
+
+    def __init__(self, cal: Calibration, order: int, alpha: float, point_labels):
+        self.cal, self.alpha, self.warn_below = cal, alpha, warning_alpha(alpha)
+        self.results = cal.order(order)
+        self.curve = self.results.curve
+        self.k, self.n = self.curve.order, cal.n_points
+        self.at = f"warning below p = {self.warn_below:.3g}"
+        self.position = point_labels or (lambda i: f"standard {i + 1} of {self.n}")
+        self.e = cal.scaled_residuals(self.k)
+        self.u, self.q = level_residuals(cal, self.k)
+        self.per = "level means (one per distinct x)" if self.u.size < self.n else "residuals"
+
+    def named(self, points) -> str:
+        cal = self.cal
+        return "; ".join(f"{self.position(i)}, x = {cal.x[i]:.6g}, y = {cal.y[i]:.6g}" for i in points) or "none"
+
+
+def _lack_of_fit_check(c: _Context) -> Check:
+    """Lack of fit, at alpha (the level of the order rules)."""
+    cal, k, alpha = c.cal, c.k, c.alpha
+    lof = c.curve.stats.lack_of_fit
+    if lof is None:
+        return Check("lack of fit", math.nan, math.nan, "n/a",
+                     "needs replicated x and more distinct x values than coefficients")
+    if lof.note or lof.test.p_value != lof.test.p_value:
+        return Check("lack of fit", math.nan, math.nan, "n/a", lof.note or "not testable")
+    test = lof.test
+    v = _verdict(test.p_value, alpha)
+    if v == "warning":
+        higher = [cal.stats(j).lack_of_fit for j in range(k + 1, cal.max_order + 1)]
+        fits = [j for j, lof_j in enumerate(higher, k + 1) if lof_j is not None and not lof_j.test.p_value < alpha]
+        words = "the curve misses the level means by more than replicate scatter; " + (
+            f"order {fits[0]} agrees with them" if fits else _inadequate_words(cal))
+    else:
+        words = "the curve agrees with the level means within replicate scatter"
+    return Check("lack of fit", test.statistic, test.p_value, v,
+                 f"F({test.df_num}, {test.df_den}); {words}; warning below p = {alpha:.3g}")
+
+
+def _mandel_check(c: _Context) -> Check:
+    k, alpha = c.k, c.alpha
+    if c.cal.max_order < 2:
+        return Check("Mandel linear vs quadratic", math.nan, math.nan, "n/a", "needs a max order of 2 or more")
+    mt = mandel_test(c.cal)
+    if mt.p_value != mt.p_value:
+        v, words = "n/a", "the quadratic fits exactly: nothing to test"
+    elif k == 1:
+        v = _verdict(mt.p_value, c.warn_below)
+        words = ("the quadratic term is significant: a straight line is not adequate" if v == "warning"
+                 else "a straight line is adequate against a quadratic") + f"; {c.at}"
+    else:  # the chosen curve already holds the quadratic term: the test says whether it is needed
+        v = "ok"
+        words = (f"the quadratic term is justified (order {k} chosen; p < {alpha:g})" if mt.p_value < alpha
+                 else f"the quadratic term alone is not significant against a straight line (p >= {alpha:g}); "
+                      f"order {k} rests on its higher terms or was given")
+    return Check("Mandel linear vs quadratic", mt.statistic, mt.p_value, v, f"F(1, {mt.df_den}); {words}")
+
+
+def _runs_check(c: _Context) -> Check:
+    z_runs, runs = runs_test(c.u)
+    p_runs = runs_exact_p(c.u)
+    v = _verdict(p_runs, c.warn_below)
+    if v == "n/a":
+        words = "all residuals have the same sign"
+    elif v == "ok":
+        words = f"{runs} runs of signs of the {c.per} in x order; no pattern along x; {c.at}"
+    elif z_runs > 0:
+        words = (f"{runs} runs of signs of the {c.per} in x order: the signs alternate more often than chance; "
+                 f"look for a pattern in how the standards were prepared or run; {c.at}")
+    else:
+        words = (f"{runs} runs of signs of the {c.per} in x order: the signs cluster along x; "
+                 f"the curve shape may be wrong; {c.at}")
+    return Check("runs of residual signs", z_runs, p_runs, v, words)
+
+
+def _durbin_watson_check(c: _Context) -> Check:
+    p = c.k + 1
+    if c.u.size - p < 2 or not c.u.any():
+        return Check("Durbin-Watson", math.nan, math.nan, "n/a",
+                     f"needs {p + 2} or more distinct x values and residuals that are not all zero")
+    dw = durbin_watson(c.u)
+    p_dw = durbin_watson_p(dw, c.q)
+    v = _verdict(p_dw, c.warn_below)
+    words = ("the residuals are positively correlated along x: the curve shape may be wrong" if v == "warning"
+             else "no evidence of positive correlation along x")
+    return Check("Durbin-Watson", dw, p_dw, v, f"{c.per} in x order, one-sided; {words}; {c.at}")
+
+
+def _shapiro_wilk_check(c: _Context) -> Check:
+    e = c.e
+    if not (c.n >= 3 and e.max() > e.min()):
+        return Check("Shapiro-Wilk", math.nan, math.nan, "n/a", "needs 3 or more distinct residuals")
+    # scaled by a power of two to a largest |e| in [0.5, 1): the statistic is scale-free, and the
+    # algorithm takes a range below 1e-19 as zero
+    from scipy.stats import shapiro  # imported on first use: scipy.stats takes half a second to import
+
+    # undecorated: scipy's axis/NaN-policy wrapper adds 11 % to a sheet's family after an edit
+    # (benchmarks/bench_family.py); tests compare against the public scipy.stats.shapiro
+    w_stat, w_p = getattr(shapiro, "__wrapped__", shapiro)(np.ldexp(e, -math.frexp(float(np.abs(e).max()))[1]))
+    v = _verdict(float(w_p), c.warn_below)
+    words = "residuals depart from a normal distribution" if v == "warning" else "no evidence against normal residuals"
+    return Check("Shapiro-Wilk", float(w_stat), float(w_p), v, f"{words}; {c.at}")
+
+
+def _monotonic_check(c: _Context) -> Check:
+    curve = c.curve
+    turns = curve.turning_points()
+    if turns.size:
+        xs = ", ".join(f"{v:.6g}" for v in c.cal.raw_x(turns))
+        return Check("monotonic over the range", float(turns.size), math.nan, "warning",
+                     f"the curve turns at x = {xs}: a reading may map to more than one x; "
+                     f"the order {c.k} curve does not describe these data over this range; "
+                     "consider a narrower range or another model")
+    start, end = curve.value(ENDS).tolist()
+    return Check("monotonic over the range", 0.0, math.nan, "ok",
+                 f"{'increasing' if end > start else 'decreasing'} from x = {curve.x_min:.6g} to {curve.x_max:.6g}")
+
+
+def _breusch_pagan_check(c: _Context, misfit: bool) -> Check:
+    """Breusch-Pagan; ``misfit``: whether a check of the curve's shape warned (its words then say so)."""
+    cal, k = c.cal, c.k
+    basis = None if cal.weighting.weighted else cal.orthonormal_basis(k)
+    lm, p_bp = breusch_pagan(c.e, cal.z, k, basis)
+    v = _verdict(p_bp, c.warn_below)
+    return Check("Breusch-Pagan", lm, p_bp, v, f"chi2({k}) on the {'weighted ' if cal.weighting.weighted else ''}"
+                 f"residuals; {_spread_words(cal, c.e, v, misfit)}; {c.at}")
+
+
+def _outliers_check(c: _Context) -> Check:
+    bonf = c.results.influence.bonferroni_p
+    flagged = (bonf < c.warn_below).nonzero()[0].tolist()
+    defined = bonf[bonf == bonf]
+    smallest = float(defined.min()) if defined.size else math.nan
+    return Check("outliers", float(len(flagged)), smallest, _verdict(smallest, c.warn_below),
+                 c.named(flagged) + " (externally studentized residual, Bonferroni over the "
+                 f"standards; p-value is the smallest; {c.at})")
+
+
+def _influence_check(c: _Context) -> Check:
+    h, _, t, cook, _ = c.results.influence
+    p_infl, infl = _influence(cook, h, t, c.k + 1, c.curve.df, c.warn_below)
+    return Check("influential points", float(len(infl)), p_infl, _verdict(p_infl, c.warn_below),
+                 c.named(infl) + " (Cook's distance against its distribution under the model, "
+                 f"Bonferroni over the standards; p-value is the largest distance's; {c.at})")
+
+
+# the checks of the shape of the curve: a warning from any of them makes the spread check's words say that a
+# misfit can cause a trend in spread
+_SHAPE = ("lack of fit", "Mandel", "runs", "DW", "monotonic")
+# the rows of the checks table in order; BP comes after the shape checks, whose verdicts its words read
+_CHECKS = {"lack of fit": _lack_of_fit_check, "Mandel": _mandel_check, "runs": _runs_check,
+           "DW": _durbin_watson_check, "SW": _shapiro_wilk_check, "monotonic": _monotonic_check,
+           "BP": _breusch_pagan_check, "outliers": _outliers_check, "influence": _influence_check}
+_TABLE = ("lack of fit", "Mandel", "runs", "DW", "SW", "BP", "monotonic", "outliers", "influence")
+# the tests that warn below alpha / FAMILY: every check but lack of fit (at alpha) and monotonicity (no test)
+FAMILY = len(_CHECKS.keys() - {"lack of fit", "monotonic"})
+
+
 def curve_checks(cal: Calibration, order: int, alpha: float = 0.05, point_labels=None) -> tuple[Check, ...]:
     """Lack of fit, Mandel, runs, Durbin-Watson, Shapiro-Wilk, Breusch-Pagan, monotonicity, outliers, influence.
 
     Each test warns below ``warning_alpha(alpha)`` (module docstring). ``point_labels`` (a function of
     a point's index) gives a point's position (default "standard 3 of 18"); details add its x and y.
     """
-    alpha = check_alpha(alpha)
-    warn_below = warning_alpha(alpha)
-    results = cal.order(order)
-    curve = results.curve
-    k, big_k = curve.order, cal.max_order
-    h, _, t, cook, bonf = results.influence
-    n, p = cal.n_points, k + 1
-    position = point_labels or (lambda i: f"standard {i + 1} of {n}")
-    at = f"warning below p = {warn_below:.3g}"
-
-    def named(points) -> str:
-        return "; ".join(f"{position(i)}, x = {cal.x[i]:.6g}, y = {cal.y[i]:.6g}" for i in points) or "none"
-
+    c = _Context(cal, order, check_alpha(alpha), point_labels)
+    k = c.k
     rows = {}
-    misfit = False
-    lof = curve.stats.lack_of_fit
-    if lof is None:
-        rows["lack of fit"] = Check("lack of fit", math.nan, math.nan, "n/a",
-                                    "needs replicated x and more distinct x values than coefficients")
-    elif lof.note or lof.test.p_value != lof.test.p_value:
-        rows["lack of fit"] = Check("lack of fit", math.nan, math.nan, "n/a", lof.note or "not testable")
-    else:
-        test = lof.test
-        v = _verdict(test.p_value, alpha)
-        if v == "warning":
-            misfit = True
-            higher = [cal.stats(j).lack_of_fit for j in range(k + 1, big_k + 1)]
-            fits = [j for j, lof_j in enumerate(higher, k + 1) if lof_j is not None and not lof_j.test.p_value < alpha]
-            words = "the curve misses the level means by more than replicate scatter; " + (
-                f"order {fits[0]} agrees with them" if fits else _inadequate_words(cal))
+    for key, check in _CHECKS.items():
+        if key == "BP":
+            if k >= 1:
+                rows[key] = check(c, misfit=any(_misfit(key_, rows[key_]) for key_ in _SHAPE))
         else:
-            words = "the curve agrees with the level means within replicate scatter"
-        rows["lack of fit"] = Check("lack of fit", test.statistic, test.p_value, v,
-                                    f"F({test.df_num}, {test.df_den}); {words}; warning below p = {alpha:.3g}")
-
-    if big_k < 2:
-        rows["Mandel"] = Check("Mandel linear vs quadratic", math.nan, math.nan, "n/a",
-                               "needs a max order of 2 or more")
-    else:
-        mt = mandel_test(cal)
-        if mt.p_value != mt.p_value:
-            v, words = "n/a", "the quadratic fits exactly: nothing to test"
-        elif k == 1:
-            v = _verdict(mt.p_value, warn_below)
-            misfit |= v == "warning"
-            words = ("the quadratic term is significant: a straight line is not adequate" if v == "warning"
-                     else "a straight line is adequate against a quadratic") + f"; {at}"
-        else:  # the chosen curve already holds the quadratic term: the test says whether it is needed
-            v = "ok"
-            words = (f"the quadratic term is justified (order {k} chosen; p < {alpha:g})" if mt.p_value < alpha
-                     else f"the quadratic term alone is not significant against a straight line (p >= {alpha:g}); "
-                          f"order {k} rests on its higher terms or was given")
-        rows["Mandel"] = Check("Mandel linear vs quadratic", mt.statistic, mt.p_value, v, f"F(1, {mt.df_den}); {words}")
-
-    # the tests below do not depend on the residuals' scale: use them scaled, so that huge or tiny
-    # magnitudes do not over- or underflow in squares
-    e = cal.scaled_residuals(k)
-    u, q = level_residuals(cal, k)
-    per = "level means (one per distinct x)" if u.size < n else "residuals"
-    z_runs, _, runs = runs_test(u)
-    p_runs = runs_exact_p(u)
-    v = _verdict(p_runs, warn_below)
-    if v == "n/a":
-        words = "all residuals have the same sign"
-    elif v == "ok":
-        words = f"{runs} runs of signs of the {per} in x order; no pattern along x; {at}"
-    elif z_runs > 0:
-        words = (f"{runs} runs of signs of the {per} in x order: the signs alternate more often than chance; "
-                 f"look for a pattern in how the standards were prepared or run; {at}")
-    else:
-        misfit = True
-        words = (f"{runs} runs of signs of the {per} in x order: the signs cluster along x; "
-                 f"the curve shape may be wrong; {at}")
-    rows["runs"] = Check("runs of residual signs", z_runs, p_runs, v, words)
-
-    if u.size - p < 2 or not u.any():
-        rows["DW"] = Check("Durbin-Watson", math.nan, math.nan, "n/a",
-                           f"needs {p + 2} or more distinct x values and residuals that are not all zero")
-    else:
-        dw = durbin_watson(u)
-        p_dw = durbin_watson_p(dw, q)
-        v = _verdict(p_dw, warn_below)
-        misfit |= v == "warning"
-        words = ("the residuals are positively correlated along x: the curve shape may be wrong" if v == "warning"
-                 else "no evidence of positive correlation along x")
-        rows["DW"] = Check("Durbin-Watson", dw, p_dw, v, f"{per} in x order, one-sided; {words}; {at}")
-
-    if n >= 3 and e.max() > e.min():
-        # scaled by a power of two to a largest |e| in [0.5, 1): the statistic is scale-free, and the
-        # algorithm takes a range below 1e-19 as zero
-        from scipy.stats import shapiro  # imported on first use: scipy.stats takes half a second to import
-
-        # undecorated: scipy's axis/NaN-policy wrapper adds 11 % to a sheet's family after an edit
-        # (benchmarks/bench_family.py); tests compare against the public scipy.stats.shapiro
-        w_stat, w_p = getattr(shapiro, "__wrapped__", shapiro)(np.ldexp(e, -math.frexp(float(np.abs(e).max()))[1]))
-        v = _verdict(float(w_p), warn_below)
-        words = ("residuals depart from a normal distribution" if v == "warning"
-                 else "no evidence against normal residuals")
-        rows["SW"] = Check("Shapiro-Wilk", float(w_stat), float(w_p), v, f"{words}; {at}")
-    else:
-        rows["SW"] = Check("Shapiro-Wilk", math.nan, math.nan, "n/a", "needs 3 or more distinct residuals")
-
-    turns = curve.turning_points()
-    if turns.size:
-        misfit = True
-        xs = ", ".join(f"{v:.6g}" for v in cal.raw_x(turns))
-        rows["monotonic"] = Check("monotonic over the range", float(turns.size), math.nan, "warning",
-                                  f"the curve turns at x = {xs}: a reading may map to more than one x; "
-                                  f"the order {k} curve does not describe these data over this range; "
-                                  "consider a narrower range or another model")
-    else:
-        start, end = curve.value(ENDS).tolist()
-        rows["monotonic"] = Check("monotonic over the range", 0.0, math.nan, "ok",
-                                  f"{'increasing' if end > start else 'decreasing'} from x = {curve.x_min:.6g} "
-                                  f"to {curve.x_max:.6g}")
-
-    if k >= 1:
-        basis = None if cal.weighting.weighted else cal.orthonormal_basis(k)
-        lm, p_bp = breusch_pagan(e, cal.z, k, basis)
-        v = _verdict(p_bp, warn_below)
-        rows["BP"] = Check("Breusch-Pagan", lm, p_bp, v,
-                           f"chi2({k}) on the {'weighted ' if cal.weighting.weighted else ''}residuals; "
-                           f"{_spread_words(cal, e, v, misfit)}; {at}")
-
-    flagged = (bonf < warn_below).nonzero()[0].tolist()
-    defined = bonf[bonf == bonf]
-    smallest = float(defined.min()) if defined.size else math.nan
-    rows["outliers"] = Check("outliers", float(len(flagged)), smallest, _verdict(smallest, warn_below),
-                             named(flagged) + " (externally studentized residual, Bonferroni over the "
-                             f"standards; p-value is the smallest; {at})")
-
-    p_infl, infl = _influence(cook, h, t, p, curve.df, warn_below)
-    rows["influence"] = Check("influential points", float(len(infl)), p_infl, _verdict(p_infl, warn_below),
-                              named(infl) + " (Cook's distance against its distribution under the model, "
-                              f"Bonferroni over the standards; p-value is the largest distance's; {at})")
-    if _fits_exactly(cal, curve):  # residuals are rounding: nothing to test in them
+            rows[key] = check(c)
+    if _fits_exactly(cal, c.curve):  # residuals are rounding: nothing to test in them
         exact = f"the data fit exactly at order {k} (residuals at rounding level): nothing to test"
         for key in ("lack of fit", "runs", "DW", "BP", "outliers", "influence") + (("Mandel",) if k == 1 else ()):
             if key in rows:
                 rows[key] = Check(rows[key].name, math.nan, math.nan, "n/a", exact)
         # W is scale-free and describes the rounding residuals as they are; it is not a verdict on the curve
         rows["SW"] = rows["SW"]._replace(verdict="n/a", detail=exact)
-    keys = ("lack of fit", "Mandel", "runs", "DW", "SW", "BP", "monotonic", "outliers", "influence")
-    return tuple(rows[key] for key in keys if key in rows)
+    return tuple(rows[key] for key in _TABLE if key in rows)
+
+
+def _misfit(key: str, row: Check) -> bool:
+    """Whether a shape check's row says the curve misses the data (runs: only signs that cluster, not ones
+    that alternate; Mandel warns only as the test of a straight line chosen)."""
+    if row.verdict != "warning":
+        return False
+    return not row.statistic > 0 if key == "runs" else True
 
 
 def _spread_words(cal: Calibration, e: np.ndarray, verdict: str, misfit: bool) -> str:

@@ -21,16 +21,6 @@ def t_quantile(p, df):
     return special.stdtrit(df, p)
 
 
-def f_quantile(p, df_num, df_den):
-    """Quantile of F: P(F <= q) = p."""
-    return special.fdtri(df_num, df_den, p)
-
-
-def normal_two_sided(z):
-    """P(|Z| > |z|) for the standard normal."""
-    return special.erfc(np.abs(z) / np.sqrt(2.0))
-
-
 def beta_cdf(x, a, b):
     """P(X <= x) for the beta distribution with shapes a and b."""
     return special.betainc(a, b, np.clip(x, 0.0, 1.0))
