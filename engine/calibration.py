@@ -71,6 +71,46 @@ def default_max_order(n_points: int, n_distinct: int) -> int:
     return max(min(DEFAULT_MAX_ORDER, n_distinct - 2, n_points - 5), min(2, n_distinct - 2, n_points - 3))
 
 
+def _distinct(x: np.ndarray) -> tuple[np.ndarray, np.ndarray, int]:
+    """A stable sort of x, the index of each point's distinct x value, and the number of distinct values."""
+    by_x = np.argsort(x, kind="stable")
+    sorted_x = x[by_x]
+    starts = np.empty(x.size, dtype=bool)
+    starts[0] = True
+    np.not_equal(sorted_x[1:], sorted_x[:-1], out=starts[1:])
+    inverse = np.empty(x.size, dtype=np.intp)
+    inverse[by_x] = np.cumsum(starts) - 1
+    return by_x, inverse, int(inverse[by_x[-1]]) + 1
+
+
+def _standards(x: np.ndarray, y: np.ndarray) -> tuple[np.ndarray, np.ndarray, int]:
+    """``_distinct(x)`` of at least 3 points at 2 or more distinct x values, with a response that changes."""
+    n = x.size
+    if n < 3:
+        raise DataError(f"only {n} point{'s' if n != 1 else ''}: a calibration curve needs at least 3", argument="x")
+    by_x, inverse, m = _distinct(x)
+    if m == 1:
+        raise DataError(f"all {n} x values are equal ({float(x[0])!r}): a curve needs at least 2 distinct x values",
+                        argument="x")
+    if y.min() == y.max():
+        raise DataError(f"all {n} y values are equal ({float(y[0])!r}): the response does not change with x, "
+                        "so there is no curve to fit", argument="y")
+    return by_x, inverse, m
+
+
+def _max_order(max_order, n: int, m: int) -> int:
+    """``max_order`` checked against n points at m distinct x, or the default (``default_max_order``)."""
+    if max_order is not None:
+        k = check_whole(max_order, "max_order")
+        check_order(k, "max_order", n, m)
+        return k
+    k = default_max_order(n, m)
+    if k < 1:
+        raise OrderError(f"{n} points at {m} distinct x values are too few to choose an order: "
+                         "it takes at least 3 distinct x values and 4 points", argument="max_order")
+    return k
+
+
 class Calibration:
     """Points (x, y), optional weights, factorised once up to ``max_order``.
 
@@ -81,98 +121,70 @@ class Calibration:
 
     def __init__(self, x, y, max_order=None, weights=None):
         x, y = check_pair(x, y)
+        by_x, inverse, m = _standards(x, y)
         n = x.size
-        if n < 3:
-            raise DataError(
-                f"only {n} point{'s' if n != 1 else ''}: a calibration curve needs at least 3",
-                argument="x",
-            )
-        by_x = np.argsort(x, kind="stable")
-        sorted_x = x[by_x]
-        starts = np.empty(n, dtype=bool)
-        starts[0] = True
-        np.not_equal(sorted_x[1:], sorted_x[:-1], out=starts[1:])
-        inverse = np.empty(n, dtype=np.intp)  # index of each point's distinct x
-        inverse[by_x] = np.cumsum(starts) - 1
-        m = int(inverse[by_x[-1]]) + 1
-        if m == 1:
-            raise DataError(
-                f"all {n} x values are equal ({float(x[0])!r}): a curve needs at least 2 distinct x values",
-                argument="x",
-            )
-        y_min, y_max = float(y.min()), float(y.max())
-        if y_min == y_max:
-            raise DataError(
-                f"all {n} y values are equal ({float(y[0])!r}): the response does not change with x, "
-                "so there is no curve to fit",
-                argument="y",
-            )
         self.weighting = Weighting(weights, x, y)
-        if max_order is None:
-            k = default_max_order(n, m)
-            if k < 1:
-                raise OrderError(
-                    f"{n} points at {m} distinct x values are too few to choose an order: "
-                    "it takes at least 3 distinct x values and 4 points",
-                    argument="max_order",
-                )
-        else:
-            k = check_whole(max_order, "max_order")
-            check_order(k, "max_order", n, m)
+        k = _max_order(max_order, n, m)
         self.x, self.y = x, y
         self.by_x = by_x  # a stable sort of the points by x
         self.n_points, self.n_distinct, self.max_order = n, m, k
-
-        w = self.weighting.values
-        self.sqrt_w = np.ones(n) if w is None else np.sqrt(w)
-        self._ex = math.frexp(max(-float(sorted_x[0]), float(sorted_x[-1])))[1]
-        ymax = max(-y_min, y_max)
+        # exact power-of-two scalings: |x 2^-ex| < 1, |y 2^-ey| < 1
+        self._ex = math.frexp(max(-float(x[by_x[0]]), float(x[by_x[-1]])))[1]
+        ymax = float(np.abs(y).max())
         self._ey = math.frexp(ymax)[1] if ymax > 0 else 0
-        u = np.ldexp(x, -self._ex)
+        self._u = u = np.ldexp(x, -self._ex)
         self._ys = np.ldexp(y, -self._ey)
         umin, umax = float(u[by_x[0]]), float(u[by_x[-1]])
         self.centre = (umin + umax) / 2
         self.half_width = (umax - umin) / 2
         self.dx_dz = math.ldexp(self.half_width, self._ex)  # x per unit of z
-        self._u = u
-        self.z = z = (u - self.centre) / self.half_width  # the standards' x in the scaled variable
-        basis = P.polyvander(z, k)
+        self.z = (u - self.centre) / self.half_width  # the standards' x in the scaled variable
+        basis = P.polyvander(self.z, k)
         if self.weighting.iterative:
             self.weighting.settle(x, y, functools.partial(self._fitted_under, basis[:, : weight_order(k) + 1]))
-            w = self.weighting.values
-            self.sqrt_w = np.sqrt(w)
-        zw = basis.copy()
-        if w is not None:
-            zw *= self.sqrt_w[:, None]
-        self._q, self._r = householder_qr(zw)
+        self.sqrt_w = np.sqrt(self.weighting.values) if self.weighting.weighted else np.ones(n)
+        self._factorise(basis)
+        self._sums_of_squares(inverse)
+        self._t = conversion_matrix(self.centre, self.half_width, k)
+        self._stats: dict[int, OrderStats] = {}
+        self._orders: dict[int, OrderResults] = {}
+        self._choices: dict[tuple[str, float], OrderChoice] = {}
+        self._refined_coefficients: dict[int, np.ndarray] = {}
+
+    def _factorise(self, basis: np.ndarray) -> None:
+        """Q and R of the weighted basis (refused where R is numerically singular), Q'y, R^-1 and every
+        order's leverages."""
+        weighted = self.weighting.weighted
+        self._q, self._r = householder_qr(basis * self.sqrt_w[:, None] if weighted else basis)
         size = np.abs(self._r.diagonal())
         if not size.min() > _RANK_TOLERANCE * size.max():
+            k, x = self.max_order, self.x
             raise DataError(
                 f"the x values are too close together, compared with their range ({float(x.min())!r} to "
                 f"{float(x.max())!r}), for order {k}: in double precision they do not give {k + 1} distinct "
                 "positions; remove the outlying x or choose a lower max_order",
                 argument="x",
             )
-        self._yw = self._ys if w is None else self._ys * self.sqrt_w
+        self._yw = self._ys * self.sqrt_w if weighted else self._ys
         self._qty = self._q.T @ self._yw
         self._r_inv = _triangular_inverse(self._r)
         self._leverage = np.cumsum(self._q.T ** 2, axis=0)  # row k: the leverages of order k
-        if w is None:
-            gmean = np.bincount(inverse, self._ys) / np.bincount(inverse)
-            d_mean, d_level = self._ys - self._ys.sum() / n, self._ys - gmean[inverse]
+
+    def _sums_of_squares(self, inverse: np.ndarray) -> None:
+        """The (weighted) total and pure-error sums of squares of the scaled y (``inverse``: each point's
+        distinct x), and the size of a sum of squares that is rounding error (``ROUNDING``)."""
+        ys = self._ys
+        if not self.weighting.weighted:
+            gmean = np.bincount(inverse, ys) / np.bincount(inverse)
+            d_mean, d_level = ys - ys.sum() / self.n_points, ys - gmean[inverse]
             self._tss, self._ss_pure = float((d_mean * d_mean).sum()), float((d_level * d_level).sum())
         else:
             sw2 = self.sqrt_w**2
-            wy = sw2 * self._ys
+            wy = sw2 * ys
             gmean = np.bincount(inverse, wy) / np.bincount(inverse, sw2)
-            self._tss = float((sw2 * (self._ys - wy.sum() / sw2.sum()) ** 2).sum())
-            self._ss_pure = float((sw2 * (self._ys - gmean[inverse]) ** 2).sum())
-        self._ss_rounding = n * (ROUNDING * float(np.abs(self._yw).max())) ** 2
-        self._t = conversion_matrix(self.centre, self.half_width, k)
-        self._stats: dict[int, OrderStats] = {}
-        self._orders: dict[int, OrderResults] = {}
-        self._choices: dict[tuple[str, float], OrderChoice] = {}
-        self._refined_coefficients: dict[int, np.ndarray] = {}
+            self._tss = float((sw2 * (ys - wy.sum() / sw2.sum()) ** 2).sum())
+            self._ss_pure = float((sw2 * (ys - gmean[inverse]) ** 2).sum())
+        self._ss_rounding = self.n_points * (ROUNDING * float(np.abs(self._yw).max())) ** 2
 
     def _fitted_under(self, basis: np.ndarray, w: np.ndarray) -> np.ndarray:
         """Fitted y of the standards on ``basis`` under weights w (one QR; for ``Weighting.settle``)."""
