@@ -167,6 +167,56 @@ def _sigma(top: np.ndarray, count: int) -> np.ndarray:
     return np.ldexp(1.0, np.frexp(top)[1] + (count + 1).bit_length())
 
 
+def _row_blocks(v_hi, v_lo, m: int) -> list:
+    """The rows of V in blocks that keep the temporaries (m, p, rows) small: each block's rows, its
+    transposed pieces (``_pieces``), its largest |V_ik| per column and overall, and a vector of ones."""
+    n, p = v_hi.shape
+    rows = max(1024, _BLOCK // (m * p))
+    blocks = []
+    for i in range(0, n, rows):
+        j = min(i + rows, n)
+        v_max = np.abs(v_hi[i:j]).max(axis=0)
+        vt_hi, vt_lo = np.ascontiguousarray(v_hi[i:j].T), np.ascontiguousarray(v_lo[i:j].T)
+        blocks.append((slice(i, j), _pieces(vt_hi, vt_lo), v_max, float(v_max.max()), np.ones(j - i)))
+    return blocks
+
+
+def _residuals(blocks, y_hi, y_lo, c, b, e):
+    """The residuals f = y - e - V b and g = c - V'e of the augmented system, each rounded once to double
+    (``refine``); b and e as (hi, lo) with lo None for zeros (the first step), y_lo None for zeros."""
+    (b_hi, b_lo), (e_hi, e_lo) = b, e
+    p = b_hi.shape[1]
+    ones_p = np.ones(p)
+    y_top, e_top = np.abs(y_hi).max(axis=1), np.abs(e_hi).max(axis=1)
+    f = np.empty_like(e_hi)
+    nb = _pieces(-b_hi[:, :, None], None if b_lo is None else -b_lo[:, :, None])
+    g_sum = None  # -V'e, summed over the blocks
+    for s, v, v_max, v_top, ones_n in blocks:
+        # f = y - e - V b: the p terms of each row plus y and -e; sigma bounds every term
+        big, small = _products(v, nb)
+        sigma = _sigma(np.maximum(np.maximum(y_top, e_top), np.abs(b_hi) @ v_max), p + 2)[:, None]
+        high = _high_parts(big, sigma[:, :, None])
+        big += small
+        y_part, e_part = y_hi[:, s], e_hi[:, s]
+        q_y = (sigma + y_part) - sigma
+        q_e = (sigma - e_part) - sigma
+        rest = ones_p @ big + (y_part - q_y) - (e_part + q_e)
+        if y_lo is not None:
+            rest += y_lo[:, s] if e_lo is None else y_lo[:, s] - e_lo[:, s]
+        elif e_lo is not None:
+            rest -= e_lo[:, s]
+        # the high parts sum exactly; adding the small rest rounds once (the correction needs f in double)
+        f[:, s] = (ones_p @ high + q_y + q_e) + rest
+        # -V'e over the rows of the block
+        big, small = _products(v, _pieces(-e_hi[:, None, s], None if e_lo is None else -e_lo[:, None, s]))
+        high = _high_parts(big, _sigma(e_top * v_top, s.stop - s.start)[:, None, None])
+        big += small
+        part = (high @ ones_n, big @ ones_n)  # the exact sum of the high parts, the rest
+        g_sum = part if g_sum is None else dd.add(*dd.two_sum(*g_sum), *dd.two_sum(*part))
+    # g = c - V'e in double: c and the high part of -V'e cancel exactly where they nearly cancel
+    return f, (g_sum[0] + c) + g_sum[1]
+
+
 def refine(v_hi, v_lo, q, r_inv, t, y_hi, y_lo, c, mask=None):
     """Solve the augmented system for each of m right-hand sides.
 
@@ -201,50 +251,12 @@ def refine(v_hi, v_lo, q, r_inv, t, y_hi, y_lo, c, mask=None):
     u = (y @ q - c @ from_raw) * keep
     b_hi, b_lo = u @ to_raw, np.zeros((y_hi.shape[0], v_hi.shape[1]))
     e_hi, e_lo = y - u @ q.T, np.zeros_like(y_hi)
-    n, p = v_hi.shape
-    m = y_hi.shape[0]
-    rows = max(1024, _BLOCK // (m * p))  # rows per block keep the temporaries (m, p, rows) small
-    blocks = []
-    for i in range(0, n, rows):
-        j = min(i + rows, n)
-        v_max = np.abs(v_hi[i:j]).max(axis=0)
-        vt_hi, vt_lo = np.ascontiguousarray(v_hi[i:j].T), np.ascontiguousarray(v_lo[i:j].T)
-        blocks.append((slice(i, j), _pieces(vt_hi, vt_lo), v_max, float(v_max.max()), np.ones(j - i)))
-    ones_p = np.ones(p)
-    y_top = np.abs(y_hi).max(axis=1)
+    blocks = _row_blocks(v_hi, v_lo, y_hi.shape[0])
     plain = b_hi, 0.0, e_hi, 0.0  # b and e of the plain solution (hi, lo)
     previous = None  # each right-hand side's last step, once one is taken
     for step_count in range(_MAX_STEPS):
         first = step_count == 0  # b_lo and e_lo still hold zeros
-        f = np.empty_like(e_hi)
-        e_top = np.abs(e_hi).max(axis=1)
-        nb_hi, nb_lo = -b_hi[:, :, None], None if first else -b_lo[:, :, None]
-        g_sum = None  # -V'e, summed over the blocks
-        for s, v, v_max, v_top, ones_n in blocks:
-            # f = y - e - V b: the p terms of each row plus y and -e; sigma bounds every term
-            big, small = _products(v, _pieces(nb_hi, nb_lo))
-            sigma = _sigma(np.maximum(np.maximum(y_top, e_top), np.abs(b_hi) @ v_max), p + 2)[:, None]
-            high = _high_parts(big, sigma[:, :, None])
-            big += small
-            y_part, e_part = y_hi[:, s], e_hi[:, s]
-            q_y = (sigma + y_part) - sigma
-            q_e = (sigma - e_part) - sigma
-            rest = ones_p @ big + (y_part - q_y) - (e_part + q_e)
-            if y_lo is not None:
-                rest += y_lo[:, s] if first else y_lo[:, s] - e_lo[:, s]
-            elif not first:
-                rest -= e_lo[:, s]
-            # the high parts sum exactly; adding the small rest rounds once (the correction needs f in double)
-            f[:, s] = (ones_p @ high + q_y + q_e) + rest
-            # -V'e over the rows of the block
-            ne_lo = None if first else -e_lo[:, None, s]
-            big, small = _products(v, _pieces(-e_hi[:, None, s], ne_lo))
-            high = _high_parts(big, _sigma(e_top * v_top, s.stop - s.start)[:, None, None])
-            big += small
-            part = (high @ ones_n, big @ ones_n)  # the exact sum of the high parts, the rest
-            g_sum = part if g_sum is None else dd.add(*dd.two_sum(*g_sum), *dd.two_sum(*part))
-        # g = c - V'e in double: c and the high part of -V'e cancel exactly where they nearly cancel
-        g = (g_sum[0] + c) + g_sum[1]
+        f, g = _residuals(blocks, y_hi, y_lo, c, (b_hi, None if first else b_lo), (e_hi, None if first else e_lo))
         u = (f @ q - (g * keep) @ from_raw) * keep
         db, de = u @ to_raw, f - u @ q.T
         scale = np.abs(b_hi).max(axis=1)
