@@ -3,6 +3,8 @@
 import subprocess
 import sys
 
+import pytest
+
 from degreewise.commands.addin import write_settings
 from degreewise.commands import main
 
@@ -128,6 +130,7 @@ def test_numpy_modules_deferred_by_the_command_line_still_work():
     assert out == reference + ["False"]
 
 
+@pytest.mark.slow
 def test_the_wheel_for_in_workbook_python_is_pure_python_and_runs_from_the_archive(tmp_path):
     # what the README tells a user without a package index to build and put into requirements.txt
     from pathlib import Path

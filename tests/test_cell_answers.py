@@ -131,6 +131,7 @@ def _call(f, spec, case):
     return f(cells(case["x"]), cells(case["y"]), *args)
 
 
+@pytest.mark.slow
 @settings(max_examples=80, deadline=None, derandomize=True, suppress_health_check=[HealthCheck.too_slow])
 @given(inputs_and_change())
 def test_any_changed_input_gives_the_fresh_result(case_and_change):
@@ -296,6 +297,7 @@ def test_random_calls_are_answered_in_words():
     assert bad == []
 
 
+@pytest.mark.slow
 def test_random_calls_through_the_runtimes_are_answered_in_words():
     calls = random_calls(200, seed=7)
     results = rt.desktop(as_com(calls))["results"] + rt.browser(as_js(calls))["results"]

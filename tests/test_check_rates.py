@@ -15,6 +15,8 @@ import pytest
 from degreewise import engine
 from degreewise.engine.diagnostics import FAMILY
 
+pytestmark = pytest.mark.slow  # simulations of thousands of calibrations
+
 ALPHA = 0.05
 RUNS = 1000  # calibrations per design
 DESIGNS = {"6 x 3": (6, 3), "8 x 2": (8, 2), "10 x 1": (10, 1)}

@@ -167,6 +167,7 @@ def test_committed_workbooks_are_up_to_date(tmp_path):
         assert same_numbers(cached_values(copy), cached_values(book(name))), name
 
 
+@pytest.mark.slow
 def test_demo_command_writes_refreshed_workbooks(tmp_path, capsys):
     assert main(["demo", str(tmp_path / "out")]) == 0
     out = capsys.readouterr().out

@@ -125,6 +125,7 @@ def test_huge_and_tiny_magnitudes_keep_their_digits():
         assert other.coefficients[2] == pytest.approx(base.coefficients[2] * sy / sx**2, rel=1e-13)
 
 
+@pytest.mark.slow
 def test_a_million_points():
     x = np.tile(np.linspace(0.0, 100.0, 10), 100_000)
     y = 0.5 + 0.25 * x + np.tile(np.linspace(-1, 1, 7), 142858)[: x.size] * 0.01

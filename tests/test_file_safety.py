@@ -122,6 +122,7 @@ def test_a_closed_pipe_ends_quietly(tmp_path):
     assert out.stderr == "" and len(out.stdout) == 10
 
 
+@pytest.mark.slow
 @pytest.mark.parametrize("sig, code", [(signal.SIGTERM, 143), (signal.SIGINT, 130)])
 def test_a_signal_ends_in_one_line_and_leaves_nothing_behind(tmp_path, sig, code):
     path = workbook(tmp_path / "book.xlsx", sheets=400)

@@ -45,6 +45,7 @@ def test_order_one_is_fiellers_interval(slope, m):
         assert est.note == ""
 
 
+@pytest.mark.slow
 @pytest.mark.parametrize("order,weights", [(1, None), (2, None), (2, "1/x^2")])
 def test_coverage_by_simulation(order, weights):
     """Nominal 95 % intervals must cover the true x between 93 % and 97 % of 2000 calibrations."""

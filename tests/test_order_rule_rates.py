@@ -25,6 +25,8 @@ from scipy import stats
 
 from degreewise import engine
 
+pytestmark = pytest.mark.slow  # simulations of thousands of calibrations
+
 ALPHA = 0.05
 N_LINE, N_QUAD, BEND = 2000, 500, 2.0
 DESIGNS = {"6 x 3": (6, 3), "8 x 2": (8, 2), "10 x 1": (10, 1), "8 x 1": (8, 1)}

@@ -553,6 +553,7 @@ def test_cells_the_program_saved_stay_as_they_were(tmp_path):
 
 
 
+@pytest.mark.slow
 @pytest.mark.skipif(shutil.which("soffice") is None, reason="LibreOffice (soffice) is not installed")
 def test_libreoffice_opens_a_refreshed_workbook_with_merged_cells_and_a_table(tmp_path):
     """table02 (three tables) with a merged block written into Sheet2 and a blocked spill across Table1:

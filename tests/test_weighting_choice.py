@@ -62,6 +62,7 @@ def test_exponent_interval_covers_the_truth_at_its_nominal_rate():
     assert all(0.935 <= r <= 0.965 for r in rates.values()), rates
 
 
+@pytest.mark.slow
 def test_picked_scheme_matches_the_variance_structure_in_most_calibrations():
     """A pick matches when its variance power (0 none; 1 for 1/x, 1/y; 2 for 1/x^2, 1/y^2; 2b for 1/x^2b) is
     within 0.5 of the truth; no pick is a miss. 100 seeded calibrations per structure; measured here:
