@@ -4,6 +4,10 @@
 its methods and the functions below hand out per-order results (named
 tuples, and ``OrderChoice``, from ``degreewise.engine.results``). ``fit(x, y, order, weights=None)`` is the
 shortest way to one order's coefficients.
+
+Import name: this folder, ``engine/``, installs as ``degreewise.engine`` (pyproject ``package-dir``); the
+worksheet layer in ``udfs/`` (the package ``degreewise``) imports it as ``from . import engine``. It imports
+numpy and scipy only, never the worksheet layer.
 """
 
 from .calibration import Calibration, default_max_order

@@ -6,6 +6,11 @@ and the command line (``commands``) are subpackages it never loads. The function
 of them (``degreewise.calib_order``, ``from degreewise import *``, or the spreadsheet
 listing the package's names), so that the command line can load them without
 registration metadata (see ``registration``).
+
+Import names: this folder, ``udfs/``, installs as the package ``degreewise``, and the sibling folder
+``engine/`` as ``degreewise.engine`` (pyproject ``package-dir``), so ``from . import engine`` here reads
+``engine/``. An editor follows that mapping after ``pip install -e . --config-settings editable_mode=strict``
+(a tree of links under build/; run it again after adding a module).
 """
 
 from .catalogue import FUNCTIONS
