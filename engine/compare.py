@@ -50,7 +50,8 @@ def _f_test(extra: float, df_extra: int, rss: float, df: int) -> FTest:
 def compare(today: Calibration, reference: Calibration, order: int, level: float = 0.95, at=()) -> Comparison:
     """Tests that the curves coincide, that they are parallel and that their residual SDs agree; the
     difference of each raw coefficient (today - reference) and of the fitted responses at ``at``, each
-    with its two-sided interval at ``level``; and the x today's curve reads for the reference's response."""
+    with its two-sided interval at ``level``; and the x the reference curve reads for today's response at
+    each x of ``at``."""
     level, at, order = check_level(level), check_vector(at, "at", flat=True), check_count(order, "order")
     for cal, which in ((today, "today's"), (reference, "reference")):
         _check_order(order, cal, which)

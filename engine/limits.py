@@ -36,6 +36,7 @@ from .curve import Curve
 from .distributions import t_quantile
 from .results import Limit
 from .validation import check_alpha, check_replicates, check_vector
+from .words import fmt_value
 
 K_QUANTITATION = 3.0  # DIN 32645: 1/k = 33 % relative uncertainty at the quantitation limit
 ICH_DETECTION, ICH_QUANTITATION = 3.3, 10.0
@@ -54,10 +55,6 @@ def iso_delta(df, alpha: float, beta: float) -> float:
     z = float(special.ndtri(1.0 - beta))
     # P(T <= t1) falls from 1/2 at delta = t1 towards 0; delta = t1 + z (1 + t1) already passes beta
     return brentq(lambda d: special.nctdtr(df, d, t1) - beta, t1, t1 + z * (1.0 + t1) + 10.0, xtol=1e-14)
-
-
-def _g(v: float) -> str:
-    return f"{v:.6g}"
 
 
 class _Band:
@@ -96,8 +93,8 @@ def _turn_words(cal: Calibration, curve: Curve, hi: float) -> str:
     turns = curve.turning_points(float(cal.scaled_x(0.0)), float(cal.scaled_x(hi)))
     if not turns.size:
         return ""
-    xs = ", ".join(_g(v) for v in cal.raw_x(turns))
-    return (f"the curve is not monotonic between x = 0 and x = {_g(hi)} (it turns at x = {xs}): a response near "
+    xs = ", ".join(fmt_value(v) for v in cal.raw_x(turns))
+    return (f"the curve is not monotonic between x = 0 and x = {fmt_value(hi)} (it turns at x = {xs}): a response near "
             "the blank maps to more than one x, so no limit is given; check the low standards and the order")
 
 
@@ -106,7 +103,7 @@ def _range_words(named, x_min: float, x_max: float) -> str:
     if not out:
         return ""
     names = out[0] if len(out) == 1 else ", ".join(out[:-1]) + " and " + out[-1]
-    return (f"{names} limit{'s' if len(out) > 1 else ''} outside the calibrated range [{_g(x_min)}, {_g(x_max)}]: "
+    return (f"{names} limit{'s' if len(out) > 1 else ''} outside the calibrated range [{fmt_value(x_min)}, {fmt_value(x_max)}]: "
             "a limit depends on where the standards lie (through the xbar^2/Qx term), so confirm it with standards "
             "near the limit")
 
@@ -123,7 +120,7 @@ def _weight_words(cal: Calibration, band: _Band, zero: _AtZero, t1: float) -> st
         return f"weights '{w.scheme}' give a new reading at x = 0 zero variance (1/w0 = 0), {tail}"
     if not (vf0 > 0 and abs(zero.f) > t1 * zero.se_mean):
         return (f"weights '{w.scheme}' take a reading's variance from the fitted response, which at x = 0 "
-                f"({_g(float(band.curve.to_y(zero.f)))}) does not differ significantly from zero, {tail}")
+                f"({fmt_value(float(band.curve.to_y(zero.f)))}) does not differ significantly from zero, {tail}")
     return ""
 
 
@@ -154,7 +151,7 @@ def _band_row(cal, curve, band: _Band, t1: float, t2: float, sign: float, degene
         return Limit(BAND, *none, turns)
     notes = [f"Hubaux-Vos; quantitation in the DIN 32645 form, k = {K_QUANTITATION:g}"]
     if len(reached) < 3:
-        notes.append(f"a limit left empty is not reached within twice the highest standard (x = {_g(x_end)})")
+        notes.append(f"a limit left empty is not reached within twice the highest standard (x = {fmt_value(x_end)})")
     if x_min > 0:
         notes.append("the blank (x = 0) lies below the lowest standard: the band there is extrapolated")
     notes.append(_range_words(zip(("decision", "detection", "quantitation"), found), x_min, x_max))
@@ -204,16 +201,16 @@ def _iso_row(cal: Calibration, curve: Curve, zero: _AtZero, m: int, alpha: float
 
 def _ich_rows(cal: Calibration, curve: Curve, zero: _AtZero, band: _Band, degenerate: str, flat: str
               ) -> list[Limit]:
-    where = f"S = {_g(zero.slope)}, the slope at x = 0" + (f" of the order-{curve.order} curve"
+    where = f"S = {fmt_value(zero.slope)}, the slope at x = 0" + (f" of the order-{curve.order} curve"
                                                             if curve.order > 1 else "")
     if cal.weighting.weighted:
         factor = float(band.variance_factor(np.zeros(1), np.array([zero.f]))[0])
         sd = curve.s * math.sqrt(factor) if factor > 0 else math.nan
-        sd_words = f"sigma = {_g(float(curve.to_y(sd)))}, the SD of a reading at x = 0 under the weights (s sqrt(1/w0))"
+        sd_words = f"sigma = {fmt_value(float(curve.to_y(sd)))}, the SD of a reading at x = 0 under the weights (s sqrt(1/w0))"
     else:
         sd = curve.s
-        sd_words = f"sigma = {_g(float(curve.to_y(sd)))}, the residual SD"
-    se_words = f"sigma = {_g(float(curve.to_y(zero.se_mean)))}, the standard error of the intercept"
+        sd_words = f"sigma = {fmt_value(float(curve.to_y(sd)))}, the residual SD"
+    se_words = f"sigma = {fmt_value(float(curve.to_y(zero.se_mean)))}, the standard error of the intercept"
     rows = []
     for name, sigma, words, bad in ((ICH_SD, sd, sd_words, flat or degenerate),
                                     (ICH_SE, zero.se_mean, se_words, flat)):
@@ -240,15 +237,15 @@ def _blank_row(cal: Calibration, curve: Curve, zero: _AtZero, readings: np.ndarr
     scaled = curve.from_y(readings)  # curve units keep the squares in range
     mean, sd = float(scaled.mean()), float(scaled.std(ddof=1))
     if not sd > 0:
-        return Limit(BLANK, *none, f"blank: all {n_b} readings are equal ({_g(float(curve.to_y(mean)))}), so "
+        return Limit(BLANK, *none, f"blank: all {n_b} readings are equal ({fmt_value(float(curve.to_y(mean)))}), so "
                                    "their SD is 0 and gives no limit; enter the readings at full resolution")
     root = math.sqrt(1.0 / m + 1.0 / n_b)
     t1, t2 = float(t_quantile(1.0 - alpha, n_b - 1)), float(t_quantile(1.0 - alpha / 2, n_b - 1))
     per = sd * zero.x_per_response  # sb / |S|
     x_c, x_q = t1 * per * root, K_QUANTITATION * t2 * per * root
-    notes = [f"DIN 32645 blank method; {n_b} readings, mean {_g(float(curve.to_y(mean)))}, SD "
-             f"{_g(float(curve.to_y(sd)))}; S = {_g(zero.slope)}, the slope at x = 0; ICH with sigma the blank SD: "
-             f"3.3 sigma/S = {_g(ICH_DETECTION * per)}, 10 sigma/S = {_g(ICH_QUANTITATION * per)}",
+    notes = [f"DIN 32645 blank method; {n_b} readings, mean {fmt_value(float(curve.to_y(mean)))}, SD "
+             f"{fmt_value(float(curve.to_y(sd)))}; S = {fmt_value(zero.slope)}, the slope at x = 0; ICH with sigma the blank SD: "
+             f"3.3 sigma/S = {fmt_value(ICH_DETECTION * per)}, 10 sigma/S = {fmt_value(ICH_QUANTITATION * per)}",
              _turn_words(cal, curve, x_q),
              _range_words((("decision", x_c), ("detection", 2 * x_c), ("quantitation", x_q)), curve.x_min,
                           curve.x_max)]
@@ -270,7 +267,7 @@ def detection_limits(cal: Calibration, order: int, blank=None, replicates=1, alp
     zero = _at_zero(cal, curve)
     flat = ""
     if curve.x_max <= 0:
-        flat = f"every standard lies at x <= 0 (the highest is {_g(curve.x_max)}): limits above the blank need x > 0"
+        flat = f"every standard lies at x <= 0 (the highest is {fmt_value(curve.x_max)}): limits above the blank need x > 0"
     elif math.isinf(zero.x_per_response):
         flat = "the curve is flat at x = 0 (slope 0), so no limit follows from it; check the low standards"
     elif curve.s <= _EXACT:

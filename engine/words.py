@@ -22,6 +22,11 @@ def term_name(k: int) -> str:
     return "intercept" if k == 0 else ("x" if k == 1 else f"x^{k}")
 
 
+def fmt_value(v: float) -> str:
+    """A number in a sentence: six significant digits."""
+    return f"{v:.6g}"
+
+
 def fmt_p(p: float | None) -> str:
     """A p-value in two significant digits (scientific below 1e-4); "n/a" where there is none."""
     if p is None or p != p:
