@@ -40,7 +40,7 @@ from .prediction import roots_of
 from .results import Check, PointDiagnostics
 from .selection import mandel_test
 from .validation import check_alpha
-from .words import fmt_p
+from .words import fmt_p, inadequate_words
 
 BACK_CALC_EXTEND = 0.25
 _LEVERAGE_ONE = 1 - 1e-10
@@ -270,11 +270,6 @@ def _verdict(p: float, warn_below: float) -> str:
     return "n/a" if p != p else ("warning" if p < warn_below else "ok")
 
 
-def _inadequate_words(cal: Calibration) -> str:
-    return (f"a polynomial of order <= {cal.max_order} does not describe these data; "
-            "consider a narrower range or another model")
-
-
 class _Context:
     """What the checks of one order share: the calibration, the order's results, the warning level and its
     words, and the residuals (scaled: the tests do not depend on their scale, and huge or tiny magnitudes then
@@ -311,7 +306,7 @@ def _lack_of_fit_check(c: _Context) -> Check:
         higher = [cal.stats(j).lack_of_fit for j in range(k + 1, cal.max_order + 1)]
         fits = [j for j, lof_j in enumerate(higher, k + 1) if lof_j is not None and not lof_j.test.p_value < alpha]
         words = "the curve misses the level means by more than replicate scatter; " + (
-            f"order {fits[0]} agrees with them" if fits else _inadequate_words(cal))
+            f"order {fits[0]} agrees with them" if fits else inadequate_words(cal.max_order))
     else:
         words = "the curve agrees with the level means within replicate scatter"
     return Check("lack of fit", test.statistic, test.p_value, v,

@@ -34,6 +34,12 @@ def fmt_p(p: float | None) -> str:
     return f"{p:.2g}" if p >= 1e-4 else f"{p:.1e}"
 
 
+def inadequate_words(max_order: int) -> str:
+    """That no polynomial up to ``max_order`` describes the data, and what to do."""
+    return (f"a polynomial of order <= {max_order} does not describe these data; consider a narrower range or "
+            "another model")
+
+
 def lack_of_fit_words(cal: Calibration, order: int, alpha: float = 0.05) -> str:
     """The lack-of-fit verdict of ``order`` in words; when it is significant, the lowest order up to the
     max order whose lack of fit is not, or else that no polynomial of order <= max order describes the data."""
@@ -57,8 +63,7 @@ def _lack_of_fit(cal: Calibration, order: int, alpha: float) -> tuple[str, bool]
             found = f"p = {fmt_p(higher.test.p_value)}" if not higher.note else higher.note
             return (text + f": the curve misses the level means; order {k} is the lowest whose lack of fit is "
                     f"not significant ({found})."), False
-    return (text + f": a polynomial of order <= {cal.max_order} does not describe these data; consider a "
-            "narrower range or another model."), True
+    return f"{text}: {inadequate_words(cal.max_order)}.", True
 
 
 def order_reason(cal: Calibration, order: int, rule: str, alpha: float) -> str:
