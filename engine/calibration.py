@@ -26,6 +26,7 @@ from . import doubledouble as dd
 from . import selection, words
 from .distributions import f_sf
 from .errors import DataError, OrderError
+from .linalg import householder_qr, triangular_inverse
 from .orders import OrderResults
 from .refine import TARGET, PlainBounds, conversion_matrix, plain_bounds, refine, rss_bounds
 from .results import FTest, LackOfFit, OrderChoice, OrderFit, OrderStats, SequentialRow, SequentialTable
@@ -40,18 +41,6 @@ ROUNDING = 2.0**-42
 # smallest |R_jj| / max |R_jj| of the scaled basis accepted as full rank (far below any real calibration)
 _RANK_TOLERANCE = 1e-12
 _LN2, _LN_2PI = math.log(2.0), math.log(2.0 * math.pi)
-
-
-def householder_qr(a: np.ndarray):
-    """Reduced Householder QR (numpy.linalg.qr: LAPACK dgeqrf and dorgqr)."""
-    return np.linalg.qr(a, mode="reduced")
-
-
-def _triangular_inverse(r: np.ndarray) -> np.ndarray:
-    """R^-1 of an upper triangular R with a non-zero diagonal (LAPACK dgesv on the identity). Exactly
-    upper triangular: below the diagonal R holds zeros only, so partial pivoting swaps no rows, L = I,
-    and back substitution leaves those zeros as they are."""
-    return np.linalg.inv(r)
 
 
 def _frozen(a: np.ndarray) -> np.ndarray:
@@ -167,7 +156,7 @@ class Calibration:
             )
         self._yw = self._ys * self.sqrt_w if weighted else self._ys
         self._qty = self._q.T @ self._yw
-        self._r_inv = _triangular_inverse(self._r)
+        self._r_inv = triangular_inverse(self._r)
         self._leverage = np.cumsum(self._q.T ** 2, axis=0)  # row k: the leverages of order k
 
     def _sums_of_squares(self, inverse: np.ndarray) -> None:

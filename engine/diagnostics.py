@@ -28,19 +28,23 @@ at most 2 alpha. The standards' notes flag outliers and influential points at al
 from __future__ import annotations
 
 import math
+from typing import TYPE_CHECKING
 
 import numpy as np
 from numpy.polynomial import polynomial as P
 from scipy import special
 
-from .calibration import Calibration, householder_qr
 from .curve import ENDS, Curve
 from .distributions import beta_cdf, log_factorials, t_two_sided
+from .linalg import householder_qr
 from .prediction import roots_of
 from .results import Check, PointDiagnostics
 from .selection import mandel_test
 from .validation import check_alpha
 from .words import fmt_p, inadequate_words
+
+if TYPE_CHECKING:  # the calibration builds on this module (through its orders)
+    from .calibration import Calibration
 
 BACK_CALC_EXTEND = 0.25
 _LEVERAGE_ONE = 1 - 1e-10
@@ -111,7 +115,8 @@ def _back_calculate(cal: Calibration, curve: Curve):
 
 def point_diagnostics(cal: Calibration, order: int, alpha: float = 0.05) -> PointDiagnostics:
     """Fitted, residual, studentized residuals, leverage, Cook's D, back-calculated x per standard;
-    notes flag outliers and influential points at ``warning_alpha(alpha)``, as the checks table does."""
+    notes flag outliers and influential points at ``warning_alpha(alpha)``, as the checks table does.
+    Read it as ``cal.order(order).diagnostics(alpha)``, which keeps it."""
     warn_below = warning_alpha(alpha)
     results = cal.order(order)
     curve = results.curve

@@ -9,9 +9,10 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from .curve import Curve
+from .diagnostics import point_diagnostics
 from .doubledouble import ldexp
 from .distributions import t_two_sided
-from .results import Influence, OrderFit, OrderStats
+from .results import Influence, OrderFit, OrderStats, PointDiagnostics
 
 if TYPE_CHECKING:  # a Calibration makes its OrderResults
     from .calibration import Calibration
@@ -22,12 +23,14 @@ class OrderResults:
     first use and then kept (as statsmodels' regression results compute derived statistics).
 
     ``stats`` (goodness of fit), ``fit`` (raw power coefficients with standard errors, t and p),
-    ``curve`` (values, band and roots in the scaled variable: ``curve.Curve``) and ``influence``
-    (leverages, studentized residuals, Cook's distances and the outliers' Bonferroni p-values).
+    ``curve`` (values, band and roots in the scaled variable: ``curve.Curve``), ``leverage``, ``influence``
+    (leverages, studentized residuals, Cook's distances and the outliers' Bonferroni p-values) and
+    ``diagnostics(alpha)`` (each standard's figures and notes, ``diagnostics.point_diagnostics``).
     """
 
     def __init__(self, cal: Calibration, order: int):
         self.cal, self.order = cal, order
+        self._diagnostics: dict[float, PointDiagnostics] = {}
 
     @property
     def stats(self) -> OrderStats:
@@ -56,6 +59,18 @@ class OrderResults:
     def curve(self) -> Curve:
         return Curve(self.cal, self.order)
 
+    @property
+    def leverage(self) -> np.ndarray:
+        """h_i: the diagonal of the hat matrix, the running sums of squared Q entries up to this order."""
+        return self.cal.leverage(self.order)
+
+    def diagnostics(self, alpha: float = 0.05) -> PointDiagnostics:
+        """Each standard's fitted value, residuals, leverage, Cook's distance, back-calculated x and note
+        (``diagnostics.point_diagnostics``), made once per alpha."""
+        if alpha not in self._diagnostics:
+            self._diagnostics[alpha] = point_diagnostics(self.cal, self.order, alpha)
+        return self._diagnostics[alpha]
+
     @cached_property
     def influence(self) -> Influence:
         """Weighted residuals e_i, leverages h_i, p = order + 1, df = n - p: r_i = e_i / (s sqrt(1 - h_i)),
@@ -63,7 +78,7 @@ class OrderResults:
         and Influence in Regression, Chapman & Hall 1982, ch. 2 and 3), and n P(|T_(df-1)| > |t_i|) capped at 1."""
         cal, k = self.cal, self.order
         e = cal.scaled_residuals(k)  # in curve units, as s
-        h = cal.leverage(k)
+        h = self.leverage
         df, n = cal.n_points - k - 1, cal.n_points
         with np.errstate(divide="ignore", invalid="ignore"):
             one_minus_h = 1.0 - h

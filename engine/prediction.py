@@ -17,14 +17,17 @@ end; a band that does not close there leaves that bound open.
 from __future__ import annotations
 
 import math
+from typing import TYPE_CHECKING
 
 import numpy as np
 from numpy.polynomial import polynomial as P
 
-from .calibration import Calibration
 from .curve import ENDS, EXTEND, RANGE_NODES, Curve, newton_in_cells, sign_changes
 from .results import InverseEstimate, Prediction
 from .validation import check_level, check_replicates, check_vector
+
+if TYPE_CHECKING:  # the calibration builds on this module (through its orders' checks)
+    from .calibration import Calibration
 
 
 _KINDS = np.array([0, 1, 2])  # inverse prediction's roots: the estimate, the lower end, the upper end

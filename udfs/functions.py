@@ -370,7 +370,7 @@ def calib_residuals(x, y, order=None, weights=None, exclude=None):
 
     def compute():
         cal, chosen, _ = _fitted(prep, k)
-        d = engine.point_diagnostics(cal, chosen)
+        d = cal.order(chosen).diagnostics()
         columns = [_column(c) for c in (d.fitted, d.residual, d.studentized, d.leverage, d.cooks_distance,
                                         d.back_calculated, d.deviation_percent)]
         filled = [list(row) for row in zip(*columns, [note or None for note in d.notes])]
