@@ -344,9 +344,9 @@ class Calibration:
         ey2 = 2 * self._ey
         pure, df_pe = dd.ldexp(self._ss_pure, ey2), self.n_points - self.n_distinct
         exact = self.exact_order
-        identical = "not testable: replicates are identical" if self._ss_pure <= self._ss_rounding else ""
+        identical = self._ss_pure <= self._ss_rounding
         return [LackOfFit(dd.ldexp(ss, ey2), test.df_num, pure, df_pe, test,
-                          f"the data fit exactly at order {exact}" if exact is not None and k >= exact else identical)
+                          exact if exact is not None and k >= exact else None, identical)
                 if test.df_num >= 1 else None
                 for k, (ss, test) in enumerate(zip(self._ss_lack_of_fit.tolist(), tests["lack of fit"]))]
 

@@ -41,7 +41,7 @@ from .prediction import roots_of
 from .results import Check, PointDiagnostics
 from .selection import mandel_test
 from .validation import check_alpha
-from .words import fmt_p, inadequate_words
+from .words import fmt_p, inadequate_words, lack_of_fit_note
 
 if TYPE_CHECKING:  # the calibration builds on this module (through its orders)
     from .calibration import Calibration
@@ -303,8 +303,8 @@ def _lack_of_fit_check(c: _Context) -> Check:
     if lof is None:
         return Check("lack of fit", math.nan, math.nan, "n/a",
                      "needs replicated x and more distinct x values than coefficients")
-    if lof.note or lof.test.p_value != lof.test.p_value:
-        return Check("lack of fit", math.nan, math.nan, "n/a", lof.note or "not testable")
+    if (note := lack_of_fit_note(lof)) or lof.test.p_value != lof.test.p_value:
+        return Check("lack of fit", math.nan, math.nan, "n/a", note or "not testable")
     test = lof.test
     v = _verdict(test.p_value, alpha)
     if v == "warning":

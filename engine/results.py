@@ -23,16 +23,17 @@ class FTest(NamedTuple):
 
 
 class LackOfFit(NamedTuple):
-    """Residual split into lack of fit and pure error (replicated x). ``note`` says why the test does not
-    apply ("the data fit exactly at order k", "not testable: replicates are identical"; its F and p are then
-    nan), else it is empty."""
+    """Residual split into lack of fit and pure error (replicated x). The test does not apply (its F and p
+    are nan) where the data fit exactly at ``exact_order`` (at or below this order) or the replicates are
+    identical (``identical_replicates``); ``words.lack_of_fit_note`` says so in words."""
 
     ss_lack_of_fit: float
     df_lack_of_fit: int
     ss_pure_error: float
     df_pure_error: int
     test: FTest
-    note: str = ""
+    exact_order: int | None = None
+    identical_replicates: bool = False
 
 
 class OrderStats(NamedTuple):

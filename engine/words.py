@@ -12,6 +12,7 @@ from .selection import criterion_values
 
 if TYPE_CHECKING:  # the calibration builds on this module
     from .calibration import Calibration
+    from .results import LackOfFit
 
 _CRITERION_NAMES = {"aicc": "AICc", "bic": "BIC", "press": "PRESS"}
 _ONLY_LINE = "only order 1 is considered, so no term was tested (give max_order to test a curve)."
@@ -40,6 +41,13 @@ def inadequate_words(max_order: int) -> str:
             "another model")
 
 
+def lack_of_fit_note(lof: LackOfFit) -> str:
+    """Why the lack-of-fit test does not apply, or "" where it does."""
+    if lof.exact_order is not None:
+        return f"the data fit exactly at order {lof.exact_order}"
+    return "not testable: replicates are identical" if lof.identical_replicates else ""
+
+
 def lack_of_fit_words(cal: Calibration, order: int, alpha: float = 0.05) -> str:
     """The lack-of-fit verdict of ``order`` in words; when it is significant, the lowest order up to the
     max order whose lack of fit is not, or else that no polynomial of order <= max order describes the data."""
@@ -51,8 +59,8 @@ def _lack_of_fit(cal: Calibration, order: int, alpha: float) -> tuple[str, bool]
     lof = cal.stats(order).lack_of_fit
     if lof is None:
         return f"Lack of fit at order {order} cannot be tested (no replicated x or no spare distinct x).", False
-    if lof.note:
-        return f"Lack of fit at order {order}: {lof.note}.", False
+    if note := lack_of_fit_note(lof):
+        return f"Lack of fit at order {order}: {note}.", False
     p = lof.test.p_value
     if p >= alpha:
         return f"Lack of fit at order {order}: not significant (p = {fmt_p(p)}).", False
@@ -60,7 +68,7 @@ def _lack_of_fit(cal: Calibration, order: int, alpha: float) -> tuple[str, bool]
     for k in range(order + 1, cal.max_order + 1):
         higher = cal.stats(k).lack_of_fit
         if higher is not None and not higher.test.p_value < alpha:  # nan (exact fit) counts as adequate
-            found = f"p = {fmt_p(higher.test.p_value)}" if not higher.note else higher.note
+            found = lack_of_fit_note(higher) or f"p = {fmt_p(higher.test.p_value)}"
             return (text + f": the curve misses the level means; order {k} is the lowest whose lack of fit is "
                     f"not significant ({found})."), False
     return f"{text}: {inadequate_words(cal.max_order)}.", True

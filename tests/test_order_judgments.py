@@ -14,6 +14,7 @@ from hypothesis import strategies as st
 import degreewise
 from degreewise import engine
 from degreewise.engine.calibration import default_max_order
+from degreewise.engine.words import lack_of_fit_note
 from test_order_choice_words import X as CURVED_X, Y as CURVED_Y
 from conftest import column
 
@@ -50,6 +51,15 @@ def test_an_exact_fit_reports_no_test():
     assert [r[3:5] for r in coefs[1:]] == [[None, None]] * 2  # no t test on rounding error
 
 
+def test_an_exact_fit_with_replicates_says_why_lack_of_fit_does_not_apply():
+    x = np.repeat([1.0, 2.0, 3.0, 4.0, 5.0], 2)
+    cal = engine.Calibration(x, 2 * x, 2)
+    lof = cal.stats(1).lack_of_fit
+    assert (lof.exact_order, lof.identical_replicates) == (1, True) and math.isnan(lof.test.p_value)
+    assert lack_of_fit_note(lof) == "the data fit exactly at order 1"  # the exact fit comes first
+    assert engine.lack_of_fit_words(cal, 1) == "Lack of fit at order 1: the data fit exactly at order 1."
+
+
 def test_an_exact_quadratic_is_order_2_with_every_rule():
     y = 1 + 0.5 * EXACT_X**2
     for rule in engine.RULES:
@@ -64,7 +74,8 @@ def test_identical_replicates_make_lack_of_fit_untestable_not_significant():
     cal = engine.Calibration(IDENTICAL_X, IDENTICAL_Y)
     lof = cal.stats(1).lack_of_fit
     assert (lof.df_lack_of_fit, lof.ss_pure_error, lof.df_pure_error) == (3, 0.0, 5)
-    assert lof.note == "not testable: replicates are identical"
+    assert (lof.identical_replicates, lof.exact_order) == (True, None)
+    assert lack_of_fit_note(lof) == "not testable: replicates are identical"
     assert math.isnan(lof.test.statistic) and math.isnan(lof.test.p_value)
     assert engine.choose_order(cal).reason.endswith(
         "Lack of fit at order 1: not testable: replicates are identical.")

@@ -29,7 +29,7 @@ from .coercion import (CellError, cell_numbers, flatten, is_omitted, number_opti
                        text_option)
 from .engine.validation import (check_alpha, check_count, check_level, check_order, check_replicates, check_rule,
                                 order_limit)
-from .engine.words import term_name
+from .engine.words import lack_of_fit_note, term_name
 from .prepared import RESULTS, SCHEMES, calibration, prepare, prepare_named
 from .registration import declared
 
@@ -220,8 +220,8 @@ def calib_seqf(x, y, max_order=None, weights=None, exclude=None):
         if cal.exact_order is not None:
             rows.append([f"the data fit exactly at order {cal.exact_order}: the residual is rounding error, "
                          "so no F test applies", None, None, None, None, None])
-        elif lof is not None and lof.note:
-            rows.append([f"lack of fit: {lof.note}", None, None, None, None, None])
+        elif lof is not None and (note := lack_of_fit_note(lof)):
+            rows.append([f"lack of fit: {note}", None, None, None, None, None])
         return rows
 
     return _cached("seqf", prep, (k,), compute)
