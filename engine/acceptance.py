@@ -167,7 +167,8 @@ def judge(cal: Calibration, order: int, criteria: Criteria, excluded: int = 0) -
         extra = f", {excluded} excluded counted as not passing" if excluded else ""
         rows.append(CriterionResult("standards passing %", share, criteria.min_passing,
                                     share >= criteria.min_passing,
-                                    f"{int(passed.sum())} of {counted} standards pass{extra}"))
+                                    f"{int(passed.sum())} of {counted} standards pass{extra}; at least "
+                                    f"{criteria.min_passing:g} % needed"))
     level_of = {v: np.flatnonzero((x == v) & judged) for v in levels}
     share_needed = criteria.per_level if criteria.per_level == criteria.per_level else NAN
 
@@ -181,7 +182,8 @@ def judge(cal: Calibration, order: int, criteria: Criteria, excluded: int = 0) -
     if criteria.min_levels:
         good = int(sum(level_passes(idx) for idx in level_of.values()))
         rows.append(CriterionResult("levels passing", good, criteria.min_levels, good >= criteria.min_levels,
-                                    f"{good} of {levels.size} levels pass"))
+                                    f"{good} of {levels.size} levels pass; at least {criteria.min_levels} "
+                                    "needed"))
     if share_needed == share_needed:
         replicated = {v: idx for v, idx in level_of.items() if idx.size > 1}
         short = [v for v, idx in replicated.items() if not level_passes(idx)]
