@@ -198,7 +198,7 @@ def judge(cal: Calibration, order: int, criteria: Criteria, excluded: int = 0) -
             ok = bool(passed[idx].any()) if idx.size else False
             rows.append(CriterionResult(f"{name} level passes", int(passed[idx].sum()) if idx.size else 0, 1, ok,
                                         f"x = {_g(v)}: {int(passed[idx].sum()) if idx.size else 0} of {idx.size} "
-                                        "standards pass" + ("" if ok else
+                                        f"standard{'s' if idx.size != 1 else ''} pass" + ("" if ok else
                                                             f"; every standard of the {name} level fails")))
     if criteria.max_rse == criteria.max_rse:
         rse = relative_standard_error(x, back, order + 1)
