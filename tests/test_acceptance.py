@@ -11,6 +11,8 @@ import math
 
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 import degreewise
 from degreewise import engine
@@ -266,3 +268,25 @@ def test_the_worksheet_criteria_messages_name_the_cell():
     rse = degreewise.calib_acceptance(x, y, "relative standard error")
     assert rse[-2] == ["could exclude", None, None, None, None, None,
                        "none: the set has no rule for rejecting single standards"]
+
+
+def test_a_run_with_no_failing_standard_lists_none_to_exclude():
+    x, y = column(LEVELS), column(LEVELS)
+    rows = degreewise.calib_acceptance(x, [[v * 1.001] for v in LEVELS], "ICH M10 ligand binding")
+    assert rows[-2] == ["could exclude", None, None, None, None, None, "none: no standard fails"]
+    assert [r[5] for r in rows if r[0] == "verdict"] == ["acceptable"]
+    assert degreewise.calib_acceptance(x, y, "ICH M10 ligand binding")[-3][5] == "acceptable"
+
+
+@settings(max_examples=40, deadline=None, derandomize=True)
+@given(st.lists(st.floats(-0.4, 0.4), min_size=8, max_size=8), st.floats(1.0, 30.0), st.floats(0.0, 20.0))
+def test_a_wider_tolerance_never_turns_an_acceptable_run_down(deviations, tolerance, wider):
+    # invariant: with the same curve, every standard within a tolerance is within a wider one, so the passing
+    # share and the levels can only grow; and the verdict's rows count what the standards' rows say
+    x, y, w = run({(i, 0): d for i, d in enumerate(deviations)}, replicates=2)
+    cal = engine.Calibration(x, y, 1, w)
+    narrow = A.judge(cal, 1, A.custom([tolerance, math.nan, 75, 6]))
+    broad = A.judge(cal, 1, A.custom([tolerance + wider, math.nan, 75, 6]))
+    assert broad.acceptable or not narrow.acceptable
+    passing = sum(s.passed is True for s in narrow.standards)
+    assert rows_of(narrow)["standards passing %"].value == pytest.approx(100 * passing / len(narrow.standards))

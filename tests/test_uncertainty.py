@@ -11,6 +11,8 @@ import math
 
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 import statsmodels.api as sm
 from scipy import stats
 
@@ -140,3 +142,22 @@ def test_the_estimate_is_the_inverse_predictions_and_a_flat_curve_says_so():
     ys = 10 * xs - xs**2 + np.tile([0.05, -0.05], 6)
     turned = engine.uncertainty(engine.Calibration(xs, ys, 2), [24.0], 2)[0]
     assert math.isnan(turned.x) and turned.note.startswith("several x in the calibrated range give this reading")
+
+
+def test_a_reading_near_the_end_of_the_range_says_that_its_uncertainty_is_itself_uncertain():
+    top = engine.uncertainty(engine.Calibration(A5_X, A5_Y, 1), [0.224], 1)[0]
+    assert math.isfinite(top.u)
+    assert top.note == ("first-order uncertainty, uncertain itself here: upper bound lies beyond the calibrated "
+                        "range")
+
+
+@settings(max_examples=30, deadline=None, derandomize=True)
+@given(st.floats(0.04, 0.22), st.integers(1, 5), st.sampled_from([0.5, 3.0, 1024.0]))
+def test_uncertainty_falls_with_replicates_and_scales_with_x(reading, p, c):
+    # invariants of u^2 = [s^2/(w0 p) + g'Vg] / f'^2: more replicates never raise u; x in other units (x c)
+    # scales x and u by c (c a power of two here, so exactly up to the root finder's rounding)
+    cal = engine.Calibration(A5_X, A5_Y, 1)
+    one, more = (engine.uncertainty(cal, [reading], 1, m)[0] for m in (p, p + 1))
+    assert more.u <= one.u
+    scaled = engine.uncertainty(engine.Calibration(A5_X * c, A5_Y, 1), [reading], 1, p)[0]
+    assert scaled.x == pytest.approx(c * one.x, rel=1e-9) and scaled.u == pytest.approx(c * one.u, rel=1e-9)
