@@ -290,3 +290,40 @@ def test_a_wider_tolerance_never_turns_an_acceptable_run_down(deviations, tolera
     assert broad.acceptable or not narrow.acceptable
     passing = sum(s.passed is True for s in narrow.standards)
     assert rows_of(narrow)["standards passing %"].value == pytest.approx(100 * passing / len(narrow.standards))
+
+
+def test_every_set_states_its_numbers_in_words():
+    assert [c.numbers() for c in A.SETS.values()] == [
+        "each standard within ±15 % (±20 % at the lowest level); at least 75 % of the standards pass; at least 6 "
+        "levels pass; with replicates at least 50 % pass at each level; not every standard of the lowest or of the "
+        "highest level fails; no blank or zero sample in the regression",
+        "each standard within ±20 % (±25 % at the lowest level and ±25 % at the highest); at least 75 % of the "
+        "standards pass; at least 6 levels pass",
+        "RSE at most 20 %",
+        "at least 5 levels for order 1, 6 levels for order 2, 7 levels for order 3"]
+    assert A.custom([15]).numbers() == "each standard within ±15 %"
+    assert A.custom([15, 20, 80, 5]).numbers() == ("each standard within ±15 % (±20 % at the lowest level); at least "
+                                                   "80 % of the standards pass; at least 5 levels pass")
+
+
+def test_the_remaining_words_of_the_criteria():
+    v = judged({})
+    assert rows_of(v)["no blank or zero sample in the regression"].detail == "no standard at x = 0 in the fit"
+    assert rows_of(v)["highest level passes"].detail == "x = 200: 3 of 3 standards pass"
+    x, y, w = run({}, 2, [0.0] + LEVELS)
+    zero = A.judge(engine.Calibration(x, y + 0.01, 1, w), 1, A.M10_CHROMATOGRAPHIC)
+    assert rows_of(zero)["no blank or zero sample in the regression"].detail == (
+        "2 standards at x = 0 in the fit; the set leaves blank and zero samples out of the regression")
+    x, y, _ = run({(2, 0): 0.05}, 1, [0.0] + LEVELS[:5])
+    rse = rows_of(A.judge(engine.Calibration(x, y + 0.01, 1), 1, A.RSE))["relative standard error %"]
+    assert rse.detail == "p = 2 coefficients, n = 5; 1 standard at x = 0 left out"
+    x, y, _ = run({(1, 0): 0.05}, 1, [0.0] + LEVELS[:2])
+    few = rows_of(A.judge(engine.Calibration(x, y + 0.01, 1), 1, A.RSE))["relative standard error %"]
+    assert math.isnan(few.value) and not few.met and few.detail == "too few standards for the RSE (n - p < 1)"
+    # a response no x near the calibrated range gives (weight 1e-9: it does not move the line)
+    x, y, w = run({(4, 0): 30.0})  # reads 620 on a line whose standards reach 200
+    lost = [s for s in A.judge(engine.Calibration(x, y, 1, w), 1, A.M10_CHROMATOGRAPHIC).standards
+            if s.x == 20.0][0]
+    assert (lost.passed, lost.limit, lost.reason) == (False, 15.0, "no x near the calibrated range gives this "
+                                                                    "response")
+    assert math.isnan(lost.back_calculated)
