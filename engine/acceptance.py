@@ -122,38 +122,51 @@ def _g(v: float) -> str:
     return f"{v:.6g}"
 
 
-def judge(cal: Calibration, order: int, criteria: Criteria, excluded: int = 0) -> Verdict:
-    """The criteria applied to order ``order`` of ``cal``; ``excluded`` standards taken out before (by the
-    analyst, or as candidates) count as not passing where the set counts standards."""
+def _standards(cal: Calibration, order: int, criteria: Criteria) -> tuple[StandardVerdict, ...]:
+    """Each standard read back through the curve and judged by its level's limit (module docstring)."""
     x = cal.x
     back = np.array(point_diagnostics(cal, order).back_calculated)
     with np.errstate(divide="ignore", invalid="ignore"):
         dev = np.where(x != 0, 100.0 * (back - x) / np.abs(x), NAN)
     levels = np.unique(x[x != 0])
-    lowest, highest = (levels[0], levels[-1]) if levels.size else (NAN, NAN)
+    ends = {levels[0]: (criteria.lowest, " (lowest level)")} if levels.size else {}
+    if levels.size:
+        ends.setdefault(levels[-1], (criteria.highest, " (highest level)"))
     per_standard = criteria.tolerance == criteria.tolerance
-    standards, passed = [], np.zeros(x.size, dtype=bool)
-    for i in range(x.size):
-        limit = NAN
-        if x[i] == 0:
-            ok = None
+    out = []
+    for i, (xi, bi, di) in enumerate(zip(x.tolist(), back.tolist(), dev.tolist())):
+        limit, where = ends.get(xi, (criteria.tolerance, ""))
+        if xi == 0:
+            ok, limit = None, NAN
             reason = ("x = 0: a blank or zero sample, which the set leaves out of the regression; mark it in "
                       "exclude" if criteria.no_zero else "x = 0: no deviation % (not judged)")
-        elif not math.isfinite(back[i]):
-            ok, reason = (False if per_standard else None), "no x near the calibrated range gives this response"
-            if per_standard:
-                limit = criteria.tolerance
-        elif per_standard:
-            limit = (criteria.lowest if x[i] == lowest else criteria.highest if x[i] == highest
-                     else criteria.tolerance)
-            where = " (lowest level)" if x[i] == lowest else " (highest level)" if x[i] == highest else ""
-            ok = bool(abs(dev[i]) <= limit)
-            reason = f"{'within' if ok else 'outside'} ±{limit:g} %{where}"
-        else:
+        elif not per_standard:
             ok, reason = None, "the set has no limit for single standards"
-        passed[i] = bool(ok)
-        standards.append(StandardVerdict(i, float(x[i]), float(back[i]), float(dev[i]), limit, ok, reason))
-    judged = np.array([s.passed is not None for s in standards], dtype=bool)
+        elif not math.isfinite(bi):
+            ok, reason = False, "no x near the calibrated range gives this response"
+        else:
+            ok = abs(di) <= limit
+            reason = f"{'within' if ok else 'outside'} ±{limit:g} %{where}"
+        out.append(StandardVerdict(i, xi, bi, di, limit, ok, reason))
+    return tuple(out)
+
+
+def judge(cal: Calibration, order: int, criteria: Criteria, excluded: int = 0) -> Verdict:
+    """The criteria applied to order ``order`` of ``cal``; ``excluded`` standards taken out before (by the
+    analyst, or as candidates) count as not passing where the set counts standards."""
+    standards = _standards(cal, order, criteria)
+    x = cal.x
+    passed = np.array([s.passed is True for s in standards])
+    judged = np.array([s.passed is not None for s in standards])
+    levels = np.unique(x[x != 0])
+    level_of = {v: np.flatnonzero((x == v) & judged) for v in levels.tolist()}
+    per_level = criteria.per_level
+
+    def level_passes(idx) -> bool:
+        if per_level == per_level:
+            return bool(idx.size) and 100.0 * passed[idx].sum() / idx.size >= per_level
+        return bool(passed[idx].any())
+
     rows: list[CriterionResult] = []
     if criteria.no_zero:
         zeros = int((x == 0).sum())
@@ -162,46 +175,34 @@ def judge(cal: Calibration, order: int, criteria: Criteria, excluded: int = 0) -
                                     "leaves blank and zero samples out of the regression" if zeros else
                                     "no standard at x = 0 in the fit"))
     if criteria.min_passing == criteria.min_passing:
-        counted = int(judged.sum()) + excluded
-        share = 100.0 * int(passed.sum()) / counted if counted else NAN
+        good, counted = int(passed.sum()), int(judged.sum()) + excluded
+        share = 100.0 * good / counted if counted else NAN
         extra = f", {excluded} excluded counted as not passing" if excluded else ""
         rows.append(CriterionResult("standards passing %", share, criteria.min_passing,
                                     share >= criteria.min_passing,
-                                    f"{int(passed.sum())} of {counted} standards pass{extra}; at least "
+                                    f"{good} of {counted} standards pass{extra}; at least "
                                     f"{criteria.min_passing:g} % needed"))
-    level_of = {v: np.flatnonzero((x == v) & judged) for v in levels}
-    share_needed = criteria.per_level if criteria.per_level == criteria.per_level else NAN
-
-    def level_passes(idx) -> bool:
-        if not idx.size:
-            return False
-        if share_needed == share_needed:
-            return bool(100.0 * passed[idx].sum() / idx.size >= share_needed)
-        return bool(passed[idx].any())
-
     if criteria.min_levels:
-        good = int(sum(level_passes(idx) for idx in level_of.values()))
+        good = sum(map(level_passes, level_of.values()))
         rows.append(CriterionResult("levels passing", good, criteria.min_levels, good >= criteria.min_levels,
                                     f"{good} of {levels.size} levels pass; at least {criteria.min_levels} "
                                     "needed"))
-    if share_needed == share_needed:
+    if per_level == per_level:
         replicated = {v: idx for v, idx in level_of.items() if idx.size > 1}
         short = [v for v, idx in replicated.items() if not level_passes(idx)]
-        words = (f"below {share_needed:g} % at x = " + ", ".join(_g(v) for v in short) if short else
+        words = (f"below {per_level:g} % at x = " + ", ".join(_g(v) for v in short) if short else
                  f"{len(replicated)} level{'s' if len(replicated) != 1 else ''} with replicates, each met"
                  if replicated else "no level has replicates")
-        rows.append(CriterionResult(f"each level: at least {share_needed:g} % pass", len(short), 0, not short,
-                                    words))
-    if criteria.ends:
-        for name, v in (("lowest", lowest), ("highest", highest)):
-            idx = level_of.get(v, np.empty(0, dtype=int))
-            ok = bool(passed[idx].any()) if idx.size else False
-            rows.append(CriterionResult(f"{name} level passes", int(passed[idx].sum()) if idx.size else 0, 1, ok,
-                                        f"x = {_g(v)}: {int(passed[idx].sum()) if idx.size else 0} of {idx.size} "
-                                        f"standard{'s' if idx.size != 1 else ''} pass" + ("" if ok else
-                                                            f"; every standard of the {name} level fails")))
+        rows.append(CriterionResult(f"each level: at least {per_level:g} % pass", len(short), 0, not short, words))
+    if criteria.ends and levels.size:
+        for name, v in (("lowest", levels[0]), ("highest", levels[-1])):
+            idx = level_of[float(v)]
+            good = int(passed[idx].sum())
+            rows.append(CriterionResult(f"{name} level passes", good, 1, good > 0,
+                                        f"x = {_g(v)}: {good} of {idx.size} standard{'s' if idx.size != 1 else ''} "
+                                        "pass" + ("" if good else f"; every standard of the {name} level fails")))
     if criteria.max_rse == criteria.max_rse:
-        rse = relative_standard_error(x, back, order + 1)
+        rse = relative_standard_error(x, [s.back_calculated for s in standards], order + 1)
         ok = bool(rse <= criteria.max_rse)
         zeros = int((x == 0).sum())
         note = f"; {zeros} standard{'s' if zeros != 1 else ''} at x = 0 left out" if zeros else ""
@@ -219,7 +220,7 @@ def judge(cal: Calibration, order: int, criteria: Criteria, excluded: int = 0) -
                                         f"the set gives minimums for orders 1 to {len(criteria.levels_by_order)} "
                                         f"only; a curve of order {order} is outside it"))
     reasons = tuple(f"{r.name}: not met ({r.detail})" for r in rows if not r.met)
-    return Verdict(tuple(standards), tuple(rows), not reasons, reasons or ("every criterion of the set is met",))
+    return Verdict(standards, tuple(rows), not reasons, reasons or ("every criterion of the set is met",))
 
 
 def _subset(cal: Calibration, keep: np.ndarray, order: int) -> Calibration:

@@ -74,7 +74,8 @@ def test_direct_calls_hold_what_the_runtimes_must_show():
     assert [r[5] for r in acceptance if r[0] == "verdict"] == ["not acceptable"]
     assert [r[5] for r in acceptance if r[0].startswith("could exclude ")] == [
         "then not acceptable", "then not acceptable", "then acceptable"]
-    assert EXPECTED[3][1][-1] == "reading, row 2 of 3: the text 'n.d.' is not a number; enter a number or clear the cell"
+    assert EXPECTED[3][1][-1] == ("reading, row 2 of 3: the text 'n.d.' is not a number; enter a number or clear "
+                                  "the cell")
 
 
 @pytest.mark.parametrize("case", range(len(EXPECTED)))

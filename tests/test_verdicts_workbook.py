@@ -72,7 +72,8 @@ def test_the_probe_workbook_shows_a_verdict_with_a_failing_standard_and_the_samp
     assert same(block(ws, at + 1, 4, len(sc.samples), 7), want_u)
     assert block(ws, at + 1, 1, len(sc.samples), 1) == [[v] for v in sc.samples]
     formulas = openpyxl.load_workbook(BOOK)["Acceptance"]
-    assert formulas["D1"].value.text.startswith("=CALIB_ACCEPTANCE('Straight'!$A$2:$A$14,'Straight'!$B$2:$B$14,$B$2:$B$5")
+    assert formulas["D1"].value.text.startswith(
+        "=CALIB_ACCEPTANCE('Straight'!$A$2:$A$14,'Straight'!$B$2:$B$14,$B$2:$B$5")
 
 
 def test_the_printout_and_the_report_carry_the_verdict(tmp_path):

@@ -32,8 +32,9 @@ SETTINGS = {"max_order": ("max order", "default"), "alpha": ("alpha", "0.05 (def
             "new_x": ("new x", None), "reading": ("readings", None), "ref_x": ("reference x", None),
             "ref_y": ("reference y", None), "at": ("compared at", "none"), "criteria": ("criteria", None)}
 GRID = 161  # points of the curve and band in the report's chart
+# tables whose settings say which curve they describe
 CHARTED = ("CALIB_COEFS", "CALIB_STATS", "CALIB_PREDICT", "CALIB_INVERSE", "CALIB_RESIDUALS", "CALIB_CHECKS",
-           "CALIB_LIMITS", "CALIB_ACCEPTANCE", "CALIB_UNCERTAINTY")  # tables whose settings say which curve they describe
+           "CALIB_LIMITS", "CALIB_ACCEPTANCE", "CALIB_UNCERTAINTY")
 
 
 def where(area: Area) -> str:
