@@ -608,7 +608,7 @@ def calib_acceptance(x, y, criteria, order=None, weights=None, exclude=None):
         rows.append(["caution", None, None, None, None, None, CAUTION])
         return rows
 
-    return _cached("acceptance", prep, (crit, k), compute)
+    return _cached("acceptance", prep, (repr(crit), k), compute)  # repr: a nan (a number left empty) equals itself
 
 
 def _exclusion_rows(prep, cal, order: int, crit, excluded: int) -> list[list]:
