@@ -18,6 +18,7 @@ import degreewise
 from degreewise import engine
 from degreewise.catalogue import CAUTION
 from degreewise.engine import acceptance as A
+from conftest import column
 
 LEVELS = [1.0, 2.0, 5.0, 10.0, 20.0, 50.0, 100.0, 200.0]
 
@@ -212,10 +213,6 @@ def test_custom_numbers_are_checked_with_their_position():
 
 
 # ---- the worksheet function
-
-
-def column(values):
-    return [[float(v)] for v in values]
 
 
 def test_the_worksheet_table_lists_standards_criteria_verdict_candidates_and_the_caution():

@@ -7,16 +7,13 @@ import xlwings_runtimes as rt
 from xlwings_runtimes import MISSING, ComRange
 
 import degreewise
+from conftest import column
 
 # invented: seven levels in duplicate, one standard at 20 reads 21 % high
 X = [1.0, 1.0, 2.0, 2.0, 5.0, 5.0, 10.0, 10.0, 20.0, 20.0, 50.0, 50.0, 100.0, 100.0]
 Y = [0.051, 0.049, 0.102, 0.099, 0.251, 0.248, 0.502, 0.497, 1.21, 0.996, 2.51, 2.49, 4.98, 5.03]
 READINGS = [0.3, "n.d.", 2.2]
 BAD_LEVELS = ("criteria, row 4 of 4: the minimum levels 5.5 must be a whole number of at least 2, or empty")
-
-
-def column(values):
-    return [[v] for v in values]
 
 
 def com_column(values):

@@ -18,16 +18,13 @@ from scipy import stats
 
 import degreewise
 from degreewise import engine
+from conftest import column
 
 # EURACHEM/CITAC CG4 example A5 (recalled from memory, confirmed against its stored summary)
 A5_X = np.repeat([0.1, 0.3, 0.5, 0.7, 0.9], 3)
 A5_Y = np.array([0.028, 0.029, 0.029, 0.084, 0.083, 0.081, 0.135, 0.131, 0.133, 0.180, 0.181, 0.183,
                  0.215, 0.230, 0.216])
 A5_C0, A5_P = 0.26, 2
-
-
-def column(values):
-    return [[float(v)] for v in values]
 
 
 def a5_reading():
