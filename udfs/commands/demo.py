@@ -145,10 +145,19 @@ def calibration_sheet(wb: Workbook, sc: Scenario):
     grid_range = f"${first.column_letter}${first.row}:${first.column_letter}${first.row + GRID - 1}"
     ws[_cell(predict, -1)] = '=CALIB_LABELS("predict")'
     ws[predict] = _formula("CALIB_PREDICT", x, y, grid_range, order, "", w, e)
-    last = _cell(residuals, n - 1)
     headers = [_span("A1", 1, 3 if sc.excluded else 2), _span("D1", 1, 1), _span(LAYOUT["orders"], 1, 12), _span(LAYOUT["seqf"], 1, 6),
                _span(LAYOUT["coefs"], 1, 7), _span(LAYOUT["stats"], 1, 2), _span(LAYOUT["checks"], 1, 5),
                _span(_cell(residuals, -1), 1, 8), _span(_cell(grid_at, -1), 1, 1), _span(_cell(predict, -1), 1, 6)]
+    last = _samples_limits_weighting(ws, sc, (x, y, w, e), order, headers)
+    _lay_out(ws, sc, headers, first, last)
+    return ws
+
+
+def _samples_limits_weighting(ws, sc: Scenario, args: tuple, order: str, headers: list) -> str:
+    """The blocks below the residuals: sample readings and CALIB_INVERSE, blank readings, CALIB_LIMITS and
+    (weighted scenarios) CALIB_WEIGHTING; their header spans go into ``headers``; the last cell they fill."""
+    x, y, w, e = args
+    n = len(sc.x)
     if sc.samples:
         at = samples_anchor(n)
         ws[_cell(at, -1)] = "sample reading"
@@ -159,7 +168,6 @@ def calibration_sheet(wb: Workbook, sc: Scenario):
         readings = f"${at[0]}${ws[at].row}:${at[0]}${ws[at].row + len(sc.samples) - 1}"
         ws[inverse] = _formula("CALIB_INVERSE", x, y, readings, "", order, "", w, e)
         headers.append(_span(_cell(at, -1), 1, 5))
-        last = _cell(inverse, len(sc.samples) - 1, 3)
     blank_at, limits_at, weighting_at = limits_anchors(sc)
     blank = ""
     if sc.blanks:
@@ -178,6 +186,15 @@ def calibration_sheet(wb: Workbook, sc: Scenario):
         headers.append(_span(weighting_at, 1, 7))
         _wrap(ws, _span(_cell(weighting_at, 1), 6, 7))
         last = _cell(weighting_at, 6, 6)
+    return last
+
+
+def _lay_out(ws, sc: Scenario, headers: list, first, last: str) -> None:
+    """Header styles, wrapping, column widths, number formats, row heights, page set-up and charts of a
+    calibration sheet whose last filled cell is ``last`` (``first``: the x grid's first cell)."""
+    n = len(sc.x)
+    residuals = LAYOUT["residuals"]
+    limits_at = limits_anchors(sc)[1]
     for h in headers:
         _header(ws, h)
     _wrap(ws, _span(_cell(LAYOUT["orders"], 1, 11), 4, 1))   # picked by
@@ -196,7 +213,6 @@ def calibration_sheet(wb: Workbook, sc: Scenario):
     _page_setup(ws, f"A1:O{ws[last].row}",
                 (ws[LAYOUT["checks"]].row - 1, ws[residuals].row - 2, ws[limits_at].row - 2))
     _charts(ws, sc, n)
-    return ws
 
 
 def _lines(text, width: float) -> int:
