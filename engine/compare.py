@@ -94,7 +94,7 @@ def compare(today: Calibration, reference: Calibration, order: int, level: float
                                                         fit_t.std_errors, fit_r.std_errors))
     )
     at = np.atleast_1d(np.asarray(at, dtype=float))
-    levels, read_back = (), ()
+    responses, read_back = (), ()
     if at.size:
         fitted, unscaled = [], []
         for cal in (today, reference):
@@ -102,7 +102,7 @@ def compare(today: Calibration, reference: Calibration, order: int, level: float
             zz = cal.scaled_x(at)
             fitted.append(curve.to_y(curve.value(zz)))
             unscaled.append(curve.mean_variance(zz) / curve.s**2)  # Var(fitted mean) / sigma^2
-        levels = tuple(row(float(x0), float(r), float(t), float(vt + vr))
+        responses = tuple(row(float(x0), float(r), float(t), float(vt + vr))
                        for x0, t, r, vt, vr in zip(at, *fitted, *unscaled))
         read_back = tuple(e.x for e in inverse(reference, fitted[0], k, 1, level))
-    return Comparison(k, level, same_curve, same_shape, same_sd, s_r, s_t, coefficients, levels, read_back)
+    return Comparison(k, level, same_curve, same_shape, same_sd, s_r, s_t, coefficients, responses, read_back)

@@ -193,8 +193,9 @@ class DifferenceRow(NamedTuple):
 class Comparison(NamedTuple):
     """Today's calibration against a reference at one order: the tests that the curves coincide, that
     they have the same shape (all but the intercept) and the same residual SD (today^2 / reference^2);
-    coefficient and response differences; the x the reference curve reads for today's response at each
-    x of ``levels`` (nan outside the reference's calibrated range)."""
+    coefficient differences; response differences (``responses``, one per x of ``at``) and the x the
+    reference curve reads for today's response there (``read_back``, nan outside the reference's calibrated
+    range)."""
 
     order: int
     level: float
@@ -204,7 +205,7 @@ class Comparison(NamedTuple):
     reference_sd: float
     today_sd: float
     coefficients: tuple[DifferenceRow, ...]
-    levels: tuple[DifferenceRow, ...]
+    responses: tuple[DifferenceRow, ...]
     read_back: tuple[float, ...]
 
 

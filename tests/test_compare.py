@@ -56,7 +56,7 @@ def test_tests_and_differences_match_statsmodels_indicator_model(weights):
         assert (row.lower, row.upper) == pytest.approx(tuple(ci[3 + j]), rel=1e-8, abs=1e-12)
         assert row.p_value == pytest.approx(full.pvalues[3 + j], rel=1e-7)
     # responses at x0: contrast [x0^j] on the interaction block
-    for x0, row in zip(at, c.levels):
+    for x0, row in zip(at, c.responses):
         contrast = np.concatenate([np.zeros(3), x0 ** np.arange(3)])
         t = full.t_test(contrast)
         assert row.difference == pytest.approx(float(t.effect[0]), rel=1e-9)
@@ -68,7 +68,7 @@ def test_tests_and_differences_match_statsmodels_indicator_model(weights):
     assert c.same_sd.statistic == pytest.approx(f, rel=1e-12)
     assert c.same_sd.p_value == pytest.approx(2 * min(stats.f.sf(f, 11, 9), stats.f.cdf(f, 11, 9)), rel=1e-9)
     # read-back: today's fitted response through the reference curve
-    fitted_today = [r.today for r in c.levels]
+    fitted_today = [r.today for r in c.responses]
     assert c.read_back == tuple(e.x for e in inverse(ref, fitted_today, 2))
 
 

@@ -165,7 +165,7 @@ def test_compare_rows_carry_the_engine_comparison_in_words():
     for row, diff in zip(rows[4:6], c.coefficients):
         assert row[1:7] == [diff.reference, diff.today, diff.difference, diff.lower, diff.upper, diff.p_value]
         assert row[8] == f"{100 * diff.difference / diff.reference:+.3g} % of the reference"
-    for row, diff, back in zip(rows[6:8], c.levels, c.read_back):
+    for row, diff, back in zip(rows[6:8], c.responses, c.read_back):
         assert row[1:7] == [diff.reference, diff.today, diff.difference, diff.lower, diff.upper, diff.p_value]
         assert row[8].endswith(f"the reference curve reads today's response as x = {back:.6g}")
 

@@ -476,7 +476,7 @@ def calib_compare(x, y, ref_x, ref_y, at=None, order=None, level=None, weights=N
         for r in c.coefficients:
             rows.append([term_name(r.item), _cell(r.reference), _cell(r.today), _cell(r.difference), _cell(r.lower),
                          _cell(r.upper), _cell(r.p_value), None, _percent(r.difference, r.reference)])
-        for r, back in zip(c.levels, c.read_back):
+        for r, back in zip(c.responses, c.read_back):
             reads = (f"the reference curve reads today's response as x = {back:.6g}" if math.isfinite(back)
                      else "today's response lies outside the reference's calibrated range")
             rows.append([f"at x = {r.item:g}", _cell(r.reference), _cell(r.today), _cell(r.difference),
