@@ -19,12 +19,12 @@ from .prediction import inverse, predict, uncertainty
 from .selection import choose_order, forward_steps, mandel_test
 from .validation import DEFAULT_RULE, RULES
 from .weight_choice import compare_weightings, spread_exponent
-from .words import lack_of_fit_words
+from .words import lack_of_fit_words, order_reason
 
 __all__ = [
     "Calibration", "CalibrationError", "DataError", "DEFAULT_RULE", "OptionError", "OrderError", "RULES",
     "WeightError", "choose_order", "compare", "compare_weightings", "curve_checks", "default_max_order",
-    "detection_limits", "fit", "forward_steps", "inverse", "lack_of_fit_words", "mandel_test",
+    "detection_limits", "fit", "forward_steps", "inverse", "lack_of_fit_words", "mandel_test", "order_reason",
     "point_diagnostics", "predict", "spread_exponent", "uncertainty",
 ]
 

@@ -23,7 +23,7 @@ import numpy as np
 from numpy.polynomial import polynomial as P
 
 from . import doubledouble as dd
-from . import selection, words
+from . import selection
 from .distributions import f_sf
 from .errors import DataError, OrderError
 from .linalg import householder_qr, triangular_inverse
@@ -203,12 +203,11 @@ class Calibration:
         return self._orders[k]
 
     def choice(self, rule: str, alpha: float) -> OrderChoice:
-        """The order ``rule`` picks at ``alpha`` (``selection.pick``), with the reason in words
-        (``words.order_reason``), made once per rule and alpha."""
+        """The order ``rule`` picks at ``alpha`` (``selection.pick``), made once per rule and alpha; the reason
+        in words is ``words.order_reason(cal, choice)``, written only where it is read."""
         key = check_rule(rule), check_alpha(alpha)
         if key not in self._choices:
-            order = selection.pick(self, *key)
-            self._choices[key] = OrderChoice(order, *key, self.max_order, words.order_reason(self, order, *key))
+            self._choices[key] = OrderChoice(selection.pick(self, *key), *key, self.max_order)
         return self._choices[key]
 
     # -- scaled-basis pieces used by the other modules --------------------------------------

@@ -107,14 +107,13 @@ class SequentialTable(NamedTuple):
 
 
 class OrderChoice(NamedTuple):
-    """The order a rule picks, and why, in words; ``settings`` names the rule, alpha and max order that
-    decided it."""
+    """The order a rule picks; ``settings`` names the rule, alpha and max order that decided it, and
+    ``words.order_reason(cal, choice)`` says why in words."""
 
     order: int
     rule: str
     alpha: float
     max_order: int
-    reason: str
 
     @property
     def settings(self) -> str:

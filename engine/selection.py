@@ -71,7 +71,7 @@ def criterion_order(cal: Calibration, rule: str) -> int:
 
 
 def choose_order(cal: Calibration, rule: str = DEFAULT_RULE, alpha: float = 0.05) -> OrderChoice:
-    """The order ``rule`` picks for ``cal``, with the reason in words."""
+    """The order ``rule`` picks for ``cal`` (its reason in words: ``words.order_reason``)."""
     return cal.choice(rule, alpha)
 
 

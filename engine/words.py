@@ -12,7 +12,7 @@ from .selection import criterion_values
 
 if TYPE_CHECKING:  # the calibration builds on this module
     from .calibration import Calibration
-    from .results import LackOfFit
+    from .results import LackOfFit, OrderChoice
 
 _CRITERION_NAMES = {"aicc": "AICc", "bic": "BIC", "press": "PRESS"}
 _ONLY_LINE = "only order 1 is considered, so no term was tested (give max_order to test a curve)."
@@ -74,9 +74,10 @@ def _lack_of_fit(cal: Calibration, order: int, alpha: float) -> tuple[str, bool]
     return f"{text}: {inadequate_words(cal.max_order)}.", True
 
 
-def order_reason(cal: Calibration, order: int, rule: str, alpha: float) -> str:
-    """Why ``rule`` picks ``order`` at ``alpha``: the settings, the tests or criteria that decided, and the
+def order_reason(cal: Calibration, choice: OrderChoice) -> str:
+    """Why ``choice`` (``cal.choice(rule, alpha)``): the settings, the tests or criteria that decided, and the
     lack of fit of the order picked."""
+    order, rule, alpha = choice.order, choice.rule, choice.alpha
     exact = cal.exact_order
     if exact is not None:
         return (f"rule {rule}, alpha {alpha:g}, max order {cal.max_order}: the data fit exactly at order {exact} "

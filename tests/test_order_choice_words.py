@@ -36,9 +36,10 @@ def reason(rule: str) -> str:
 
 @pytest.mark.parametrize("rule", engine.RULES)
 def test_each_rule_gives_its_order_and_reason(rule):
-    choice = engine.choose_order(engine.Calibration(X, Y), rule)
+    cal = engine.Calibration(X, Y)
+    choice = engine.choose_order(cal, rule)
     assert (choice.order, choice.rule, choice.alpha, choice.max_order) == (2, rule, 0.05, 4)
-    assert choice.reason == reason(rule)
+    assert engine.order_reason(cal, choice) == reason(rule)
     assert choice.settings == f"rule {rule}, alpha 0.05, max order 4"
     assert engine.choose_order(engine.Calibration(X, Y), rule) == choice  # compared field by field
 

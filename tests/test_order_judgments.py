@@ -30,7 +30,7 @@ def test_an_exact_straight_line_is_order_1(max_order, rule):
     cal = engine.Calibration(EXACT_X, 2 * EXACT_X, max_order)
     choice = engine.choose_order(cal, rule)
     assert cal.exact_order == choice.order == 1
-    assert choice.reason == f"rule {rule}, alpha 0.05, max order {cal.max_order}: " + EXACT_WORDS
+    assert engine.order_reason(cal, choice) == f"rule {rule}, alpha 0.05, max order {cal.max_order}: " + EXACT_WORDS
     assert degreewise.calib_order(column(EXACT_X), column(2 * EXACT_X), max_order, None, rule) == 1
 
 
@@ -77,7 +77,7 @@ def test_identical_replicates_make_lack_of_fit_untestable_not_significant():
     assert (lof.identical_replicates, lof.exact_order) == (True, None)
     assert lack_of_fit_note(lof) == "not testable: replicates are identical"
     assert math.isnan(lof.test.statistic) and math.isnan(lof.test.p_value)
-    assert engine.choose_order(cal).reason.endswith(
+    assert engine.order_reason(cal, engine.choose_order(cal)).endswith(
         "Lack of fit at order 1: not testable: replicates are identical.")
     seqf = degreewise.calib_seqf(column(IDENTICAL_X), column(IDENTICAL_Y))
     assert seqf[5][:2] == ["lack of fit (order 3)", 1] and seqf[5][4:] == [None, None]
@@ -94,9 +94,10 @@ NOT_DESCRIBED = ("a polynomial of order <= 4 does not describe these data; consi
 
 
 def test_forward_on_an_s_shaped_curve_says_no_polynomial_describes_it():
-    choice = engine.choose_order(engine.Calibration(S_X, S_Y), "forward")
+    cal = engine.Calibration(S_X, S_Y)
+    choice = engine.choose_order(cal, "forward")
     assert choice.order == 1
-    assert choice.reason == ("rule forward, alpha 0.05, max order 4: adding x^2 to order 1 is not significant "
+    assert engine.order_reason(cal, choice) == ("rule forward, alpha 0.05, max order 4: adding x^2 to order 1 is not significant "
                              "(F = 0.00474, p = 0.95 >= 0.05). Lack of fit at order 1: significant (p = 1.9e-16): "
                              + NOT_DESCRIBED)
     order = degreewise.calib_order(column(S_X), column(S_Y), None, None, "forward")
@@ -113,21 +114,24 @@ SAT_Y = [4.987, 5.003, 5.002, 7.998, 7.975, 7.995, 11.428, 11.43, 11.413, 13.329
 
 
 def test_a_saturating_curve_at_the_max_order_is_reported_as_not_described():
-    choice = engine.choose_order(engine.Calibration(SAT_X, SAT_Y))
+    cal = engine.Calibration(SAT_X, SAT_Y)
+    choice = engine.choose_order(cal)
     assert choice.order == 4
-    assert choice.reason.endswith("Lack of fit at order 4: significant (p = 2.4e-07): " + NOT_DESCRIBED)
+    assert engine.order_reason(cal, choice).endswith("Lack of fit at order 4: significant (p = 2.4e-07): " + NOT_DESCRIBED)
     stats = dict(degreewise.calib_stats(column(SAT_X), column(SAT_Y)))
-    assert stats["why this order"] == choice.reason and stats["settings"] == "rule stepdown, alpha 0.05, max order 4"
+    assert stats["why this order"] == engine.order_reason(cal, choice) and stats["settings"] == "rule stepdown, alpha 0.05, max order 4"
 
 
 def test_stopping_at_the_max_order_is_said_even_without_lack_of_fit():
-    choice = engine.choose_order(engine.Calibration(SAT_X, SAT_Y, 2))
+    cal = engine.Calibration(SAT_X, SAT_Y, 2)
+    choice = engine.choose_order(cal)
     assert choice.order == 2
-    assert choice.reason.endswith(
+    assert engine.order_reason(cal, choice).endswith(
         "Lack of fit at order 2: significant (p = 3.5e-20): a polynomial of order <= 2 does not describe these "
         "data; consider a narrower range or another model.")
-    choice = engine.choose_order(engine.Calibration(CURVED_X, CURVED_Y, 2), "forward")
-    assert choice.reason == (
+    cal = engine.Calibration(CURVED_X, CURVED_Y, 2)
+    choice = engine.choose_order(cal, "forward")
+    assert engine.order_reason(cal, choice) == (
         "rule forward, alpha 0.05, max order 2: x^2 added significantly (p = 4.8e-22); every step up to the max "
         "order 2 is significant. Lack of fit at order 2: not significant (p = 0.45). The rule stopped at the max "
         "order 2, so no higher order was tried; if a polynomial of order <= 2 does not describe these data, "

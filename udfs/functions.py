@@ -137,7 +137,7 @@ def _fitted(prep, order):
         default = None
     choice = None if default is None else engine.choose_order(default)
     if order is None:
-        return default, choice.order, lambda: (choice.reason, choice.settings)
+        return default, choice.order, lambda: (engine.order_reason(default, choice), choice.settings)
     if default is not None and order <= default.max_order:
         cal = default
     else:
@@ -152,9 +152,9 @@ def _fitted(prep, order):
             return f"{given}. {engine.lack_of_fit_words(cal, order)}", "order argument"
         settings = f"order argument; for comparison {choice.settings}"
         if choice.order == order:
-            return f"{given}; the default rule picks the same order: {choice.reason}", settings
+            return f"{given}; the default rule picks the same order: {engine.order_reason(default, choice)}", settings
         return (f"{given}. {engine.lack_of_fit_words(cal, order)} For comparison, the default rule picks order "
-                f"{choice.order}: {choice.reason}", settings)
+                f"{choice.order}: {engine.order_reason(default, choice)}", settings)
 
     return cal, order, why
 
