@@ -3,10 +3,12 @@
 import subprocess
 import sys
 
+import openpyxl
 import pytest
 
 from degreewise.commands.addin import write_settings
 from degreewise.commands import main
+from conftest import workbook
 
 
 def test_settings_file_is_written_and_other_keys_kept(tmp_path):
@@ -102,15 +104,8 @@ def test_the_command_line_loads_the_functions_without_registration():
 
 
 def test_the_refresh_command_imports_neither_xlwings_nor_pandas(tmp_path):
-    import openpyxl
-
-    wb = openpyxl.Workbook()
-    ws = wb.active
-    for i, (a, b) in enumerate([(1, 2.1), (2, 3.9), (3, 6.2), (4, 7.8), (5, 10.1), (6, 12.2)], start=1):
-        ws.cell(i, 1, float(a))
-        ws.cell(i, 2, float(b))
-    ws["D1"] = "=CALIB_ORDER(A1:A6,B1:B6)"
-    wb.save(tmp_path / "book.xlsx")
+    workbook(tmp_path / "book.xlsx", {1: [1.0, 2.0, 3.0, 4.0, 5.0, 6.0], 2: [2.1, 3.9, 6.2, 7.8, 10.1, 12.2]},
+             {"D1": "=CALIB_ORDER(A1:A6,B1:B6)"})
     code = ("import sys; from degreewise.commands import main; code = main(['refresh', sys.argv[1]]);"
             "print(code, 'xlwings' in sys.modules, 'pandas' in sys.modules, 'numpy.f2py.crackfortran' in sys.modules,"
             " 'numpy.testing._private.utils' in sys.modules)")

@@ -13,6 +13,7 @@ from hypothesis import strategies as st
 import degreewise
 from degreewise.commands.formula import Area, Unsupported, parse_call, quote_sheet, shift_references
 from degreewise.commands.refresh import refresh_file
+from conftest import workbook
 
 RNG = np.random.default_rng(1311)
 X = np.repeat([1.0, 3.0, 6.0, 12.0, 25.0, 50.0], 2)  # invented standards
@@ -72,16 +73,10 @@ FORMS = ["CALIB_ORDER", "calib_order", "Calib_Order", "_xludf.CALIB_ORDER", "_xl
 @pytest.mark.parametrize("form", FORMS)
 def test_every_stored_form_of_the_family_is_computed_and_kept_as_typed(tmp_path, form):
     path = tmp_path / "forms.xlsx"
-    wb = openpyxl.Workbook()
-    ws = wb.active
-    ws.title = "Data"
-    for i, (a, b) in enumerate(zip(X, Y), start=2):
-        ws.cell(i, 1, float(a))
-        ws.cell(i, 2, float(b))
-    ws["D1"] = f"={form}(A2:A13,B2:B13)"
-    ws["D3"] = f"={form.replace('ORDER', 'COEFS').replace('order', 'coefs').replace('Order', 'Coefs')}" \
-               f"(A2:A13,B2:B13,{form}(A2:A13,B2:B13))"
-    wb.save(path)
+    coefs = form.replace('ORDER', 'COEFS').replace('order', 'coefs').replace('Order', 'Coefs')
+    workbook(path, {1: X.tolist(), 2: Y.tolist()}, {"D1": f"={form}(A2:A13,B2:B13)",
+                                                   "D3": f"={coefs}(A2:A13,B2:B13,{form}(A2:A13,B2:B13))"},
+             title="Data", first_row=2)
     report = refresh_file(path)
     assert report.ok and report.refreshed == ["Data!D1", "Data!D3"], report.lines()
     stored = openpyxl.load_workbook(path, data_only=True)["Data"]

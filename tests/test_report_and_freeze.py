@@ -28,6 +28,7 @@ from degreewise.commands.refresh import refresh_file
 from degreewise.commands.report import write_report
 from degreewise.commands.scenarios import all_scenarios
 from degreewise.commands.sections import number
+from conftest import workbook
 
 FOLDER = Path(__file__).resolve().parent.parent / "workbooks"
 SCENARIOS = {sc.name: sc for sc in all_scenarios()}
@@ -205,13 +206,8 @@ def test_freeze_refuses_to_overwrite_the_workbook(tmp_path, capsys):
 
 
 def test_freeze_refuses_when_a_formula_cannot_be_computed(tmp_path, capsys):
-    wb = openpyxl.Workbook()
-    ws = wb.active
-    for i, (x, y) in enumerate([(1, 2.1), (2, 3.9), (3, 6.2), (4, 7.8), (5, 10.1)], start=1):
-        ws.cell(i, 1, x), ws.cell(i, 2, y)
-    ws["D1"] = "=ROUND(CALIB_ORDER(A1:A5,B1:B5),0)"
-    book = tmp_path / "mixed.xlsx"
-    wb.save(book)
+    book = workbook(tmp_path / "mixed.xlsx", {1: [1, 2, 3, 4, 5], 2: [2.1, 3.9, 6.2, 7.8, 10.1]},
+                    {"D1": "=ROUND(CALIB_ORDER(A1:A5,B1:B5),0)"})
     assert main(["freeze", str(book), str(tmp_path / "out.xlsx")]) == 1
     out = capsys.readouterr().out
     assert "not frozen: not every CALIB_* cell could be computed (listed below); nothing was written" in out

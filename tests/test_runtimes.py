@@ -16,7 +16,7 @@ from xlwings_runtimes import MISSING, ComRange, JsError
 import degreewise
 from degreewise.catalogue import ARGUMENTS
 from degreewise.commands.refresh import refresh_file
-from conftest import column
+from conftest import column, workbook
 
 # an invented calibration: six levels in duplicate, slightly curved; the last standard reads high (an outlier)
 X = [0.5, 0.5, 1.0, 1.0, 2.0, 2.0, 4.0, 4.0, 6.0, 6.0, 8.0, 8.0]
@@ -207,14 +207,9 @@ def test_whole_columns_as_the_runtimes_deliver_them_give_the_rows_up_to_the_last
 
 
 def test_the_refresh_gives_the_same_message_for_an_error_among_the_standards(tmp_path):
-    wb = openpyxl.Workbook()
-    ws = wb.active
-    for i, (a, b) in enumerate(zip(X, with_error(Y, 2, "#N/A")), start=1):
-        ws.cell(i, 1, a)
-        ws.cell(i, 2, b)
-    assert ws["B3"].data_type == "e"  # stored as an error cell, as the spreadsheet stores #N/A
-    ws["D1"] = f"=CALIB_COEFS(A1:A{N},B1:B{N})"
-    wb.save(tmp_path / "book.xlsx")
+    workbook(tmp_path / "book.xlsx", {1: X, 2: with_error(Y, 2, "#N/A")}, {"D1": f"=CALIB_COEFS(A1:A{N},B1:B{N})"})
+    assert openpyxl.load_workbook(tmp_path / "book.xlsx").active["B3"].data_type == "e"  # an error cell, as the
+    # spreadsheet stores #N/A
     assert refresh_file(tmp_path / "book.xlsx").error is None
     assert openpyxl.load_workbook(tmp_path / "book.xlsx", data_only=True).active["D1"].value == NA
 
