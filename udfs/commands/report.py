@@ -375,15 +375,15 @@ def report_path(book: Path, folder: Path | None) -> Path:
 
 def run(paths, out: str | None = None, paper: str = "a4") -> int:
     """The command: one report per workbook; exit 0 only when every report was written."""
-    files = workbooks(paths)
-    if not files:
+    books = workbooks(paths)
+    if not books:
         print("no workbooks (.xlsx, .xlsm) found in " + ", ".join(map(str, paths)))
         return 2
     folder = Path(out) if out else None
     if folder:
         folder.mkdir(parents=True, exist_ok=True)
     status = 0
-    for book in files:
+    for book in books:
         try:
             written, count = write_report(book, report_path(book, folder), paper)
             print(f"{book}: report with {count} calibration{'s' if count != 1 else ''} written to {written}")
