@@ -7,7 +7,7 @@ shortest way to one order's coefficients.
 """
 
 from .calibration import Calibration, default_max_order
-from .compare import compare
+from .compare import compare, shared_order
 from .diagnostics import curve_checks, point_diagnostics
 from .errors import CalibrationError, DataError, OptionError, OrderError, WeightError
 from .limits import detection_limits
@@ -20,7 +20,7 @@ __all__ = [
     "Calibration", "CalibrationError", "DataError", "DEFAULT_RULE", "OptionError", "OrderError", "RULES",
     "WeightError", "choose_order", "compare", "compare_weightings", "curve_checks", "default_max_order",
     "detection_limits", "fit", "forward_steps", "inverse", "lack_of_fit_words", "mandel_test",
-    "point_diagnostics", "predict", "spread_exponent",
+    "point_diagnostics", "predict", "shared_order", "spread_exponent",
 ]
 
 

@@ -20,11 +20,12 @@ from __future__ import annotations
 import numpy as np
 from numpy.polynomial import polynomial as P
 
-from .calibration import Calibration
+from .calibration import Calibration, default_max_order
 from .distributions import f_sf, t_quantile, t_two_sided
 from .errors import OrderError
 from .prediction import inverse
-from .results import Comparison, DifferenceRow, FTest
+from .results import Comparison, DifferenceRow, FTest, OrderChoice
+from .selection import choose_order
 from .validation import check_count, check_level, check_order, check_vector
 
 
@@ -45,6 +46,26 @@ def _check_order(order: int, cal: Calibration, which: str) -> None:
 def _f_test(extra: float, df_extra: int, rss: float, df: int) -> FTest:
     f = (extra / df_extra) / (rss / df) if rss > 0 else float("nan")
     return FTest(f, df_extra, df, float(f_sf(f, df_extra, df)))
+
+
+def shared_order(today: Calibration, reference: Calibration, alpha: float = 0.05) -> OrderChoice:
+    """The order the default rule picks for both sets' standards together (one curve through all of them),
+    up to the highest order each set offers on its own (``default_max_order``).
+
+    One order for both sets, chosen from data whose sum does not carry their difference: with the order
+    chosen from today's standards alone, the order follows today's noise and the comparison at that order
+    rejects identical curves too often (7.5 % at 5 % in an audit; benchmarks/error_rates.py)."""
+    limit = min(default_max_order(c.n_points, c.n_distinct) for c in (today, reference))
+    if limit < 1:
+        raise OrderError("too few standards to choose one order for both sets: give the order argument",
+                         argument="order")
+    sets = (today, reference)
+    weights = today.weighting.scheme or (
+        None if all(c.weighting.values is None for c in sets) else
+        np.concatenate([np.ones(c.n_points) if c.weighting.values is None else c.weighting.values for c in sets]))
+    both = Calibration(np.concatenate([today.x, reference.x]), np.concatenate([today.y, reference.y]),
+                       max_order=limit, weights=weights)
+    return choose_order(both, alpha=alpha)
 
 
 def compare(today: Calibration, reference: Calibration, order: int, level: float = 0.95, at=()) -> Comparison:

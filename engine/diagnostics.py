@@ -351,7 +351,8 @@ def curve_checks(cal: Calibration, order: int, alpha: float = 0.05, point_labels
         misfit = True
         words = (f"{runs} runs of signs of the {per} in x order: the signs cluster along x; "
                  f"the curve shape may be wrong; {at}")
-    rows["runs"] = Check("runs of residual signs", z_runs, p_runs, v, words)
+    # the statistic is the number of runs, whose exact distribution gives p (z only tells the side)
+    rows["runs"] = Check("runs of residual signs", float(runs) if v != "n/a" else math.nan, p_runs, v, words)
 
     if u.size - p < 2 or not u.any():
         rows["DW"] = Check("Durbin-Watson", math.nan, math.nan, "n/a",

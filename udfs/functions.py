@@ -424,7 +424,8 @@ def _scheme_only(weights):
 def _test_row(item: str, test, alpha: float, differ: str, agree: str, extra: str = "") -> list:
     verdict, words = ("warning", differ) if test.p_value < alpha else ("ok", agree)
     detail = f"F = {test.statistic:.4g} on {test.df_num} and {test.df_den} df: {words}{extra}"
-    return [item, None, None, None, None, None, _cell(test.p_value), verdict, detail]
+    return [item, None, None, None, None, None, _cell(test.statistic), test.df_num, test.df_den, _cell(test.p_value),
+            verdict, detail]
 
 
 def _percent(difference: float, reference: float) -> str:
@@ -447,13 +448,22 @@ def calib_compare(x, y, ref_x, ref_y, at=None, order=None, level=None, weights=N
     values = values[~blank]
 
     def compute():
-        today, chosen, _ = _fitted(prep, k)
-        how = "given as the order argument" if k is not None else "the order the default rule picks for today's standards"
-        limit = order_limit(ref.x.size, np.unique(ref.x).size)
-        try:
-            reference = calibration(ref, max_order=max(1, min(chosen, limit)))
-        except CellError as err:
-            raise CellError(f"reference calibration (ref_x, ref_y): {err}") from None
+        if k is None:  # one order for both sets, chosen from all their standards together
+            today = calibration(prep)
+            try:
+                reference = calibration(ref)
+            except CellError as err:
+                raise CellError(f"reference calibration (ref_x, ref_y): {err}") from None
+            chosen = engine.shared_order(today, reference).order
+            how = "the order the default rule picks for both sets' standards together"
+        else:
+            today, chosen, _ = _fitted(prep, k)
+            how = "given as the order argument"
+            limit = order_limit(ref.x.size, np.unique(ref.x).size)
+            try:
+                reference = calibration(ref, max_order=max(1, min(chosen, limit)))
+            except CellError as err:
+                raise CellError(f"reference calibration (ref_x, ref_y): {err}") from None
         c = engine.compare(today, reference, chosen, lev, values)
         alpha = 1.0 - lev
         shared = f"; both curves of order {chosen} ({how}); tested at {alpha:.3g}"
@@ -473,14 +483,15 @@ def calib_compare(x, y, ref_x, ref_y, at=None, order=None, level=None, weights=N
         rows.append(sd)
         for r in c.coefficients:
             rows.append([term(r.item), _cell(r.reference), _cell(r.today), _cell(r.difference), _cell(r.lower),
-                         _cell(r.upper), _cell(r.p_value), None, _percent(r.difference, r.reference)])
+                         _cell(r.upper), None, None, None, _cell(r.p_value), None,
+                         _percent(r.difference, r.reference)])
         for r, back in zip(c.levels, c.read_back):
             reads = (f"the reference curve reads today's response as x = {back:.6g}" if math.isfinite(back)
                      else "today's response lies outside the reference's calibrated range")
             rows.append([f"at x = {r.item:g}", _cell(r.reference), _cell(r.today), _cell(r.difference),
-                         _cell(r.lower), _cell(r.upper), _cell(r.p_value), None,
+                         _cell(r.lower), _cell(r.upper), None, None, None, _cell(r.p_value), None,
                          f"{_percent(r.difference, r.reference)} response; {reads}"])
-        rows.append(["caution", None, None, None, None, None, None, None, CAUTION])
+        rows.append(["caution", *[None] * 10, CAUTION])
         return rows
 
     return _cached("compare", prep, (ref.key, k, lev, values.tobytes()), compute)
