@@ -1,6 +1,7 @@
 """Error rates of the judgments that follow a choice made from the same data, by simulation with fixed seeds.
 
-    python benchmarks/error_rates.py [N]     # N calibrations per design (default 2000; 1000 for the weighting)
+    python benchmarks/error_rates.py [N [PART ...]]  # N calibrations per design (default 2000; half for the
+                                                     # weighting); PART: inverse, compare, limits, weighting
 
 Every design is invented: straight lines with normal errors, so the true order is 1 and the truth is known.
 
@@ -59,18 +60,20 @@ def inverse_coverage() -> None:
 
 
 def compare_rejections() -> None:
-    designs = {"6 x 2 (10..100)": LINE, "10 x 1 (1..10)": np.arange(1.0, 11.0) * 10}
+    designs = {"6 x 2 (10..100)": LINE, "10 x 1 (10..100)": np.arange(1.0, 11.0) * 10}
     for name, x in designs.items():
         rng = np.random.default_rng(2401)
-        curve = shape = 0
+        counts = np.zeros((2, 2), int)  # default order, true order; same curve, same shape
         for _ in range(N):
             today, ref = (1.0 + 0.5 * x + rng.normal(0, 0.3, x.size) for _ in range(2))
-            rows = degreewise.calib_compare(x.tolist(), today.tolist(), x.tolist(), ref.tolist())
-            verdicts = {r[0]: r[7] for r in rows[1:]}
-            curve += verdicts["same curve"] == "warning"
-            shape += verdicts["same shape"] == "warning"
-        print(f"compare on identical curves, {name}, default order: same curve {rate(curve, N)}, "
-              f"same shape {rate(shape, N)}")
+            for i, order in enumerate((None, 1)):
+                rows = degreewise.calib_compare(x.tolist(), today.tolist(), x.tolist(), ref.tolist(), None, order)
+                verdict = rows[0].index("verdict")
+                verdicts = {r[0]: r[verdict] for r in rows[1:]}
+                counts[i] += (verdicts["same curve"] == "warning", verdicts["same shape"] == "warning")
+        (curve, shape), (curve_1, shape_1) = counts
+        print(f"compare on identical curves, {name}: default order: same curve {rate(curve, N)}, same shape "
+              f"{rate(shape, N)}; true order: {rate(curve_1, N)}, {rate(shape_1, N)}")
 
 
 def limit_false_positives() -> None:
@@ -120,6 +123,8 @@ def weighting_picks() -> None:
 
 if __name__ == "__main__":
     print(f"degreewise at {degreewise.__file__}, {N} calibrations per design")
-    for part in (inverse_coverage, compare_rejections, limit_false_positives, weighting_picks):
-        part()
+    parts = {"inverse": inverse_coverage, "compare": compare_rejections, "limits": limit_false_positives,
+             "weighting": weighting_picks}
+    for name in sys.argv[2:] or parts:
+        parts[name]()
         sys.stdout.flush()

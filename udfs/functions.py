@@ -24,7 +24,7 @@ import numpy as np
 import scipy
 
 from . import VERSION, engine
-from .catalogue import ARGUMENTS, CAUTION, HEADERS, LIMITS_CAUTION, term
+from .catalogue import ARGUMENTS, CAUTION, HEADERS, LIMITS_AFTER_CHOICE, LIMITS_CAUTION, WEIGHTING_AFTER_CHOICE, term
 from .coercion import (CellError, cell_numbers, flatten, is_omitted, number_option, numbers_or_blank, scalar,
                        text_option)
 from .engine.validation import (check_alpha, check_count, check_level, check_order, check_replicates, check_rule,
@@ -528,7 +528,8 @@ def calib_limits(x, y, blank=None, replicates=None, order=None, alpha=None, weig
                                              r.quantitation_limit)), r.note or None])
         if problem:
             rows.append(["blank readings", None, None, None, None, problem])
-        rows.append(["caution", None, None, None, None, f"{LIMITS_CAUTION}. {CAUTION}"])
+        chosen_here = f"; {LIMITS_AFTER_CHOICE}" if k is None else ""
+        rows.append(["caution", None, None, None, None, f"{LIMITS_CAUTION}{chosen_here}. {CAUTION}"])
         return rows
 
     key = (reps, k, a, None if readings is None else readings.tobytes(), problem)
@@ -547,8 +548,9 @@ def calib_weighting(x, y, order=None, alpha=None, exclude=None):
         _fitted(prep, k)  # the standards' own problems, in the family's words
         rows = [list(HEADERS["weighting"])]
         for r in engine.compare_weightings(prep.x, prep.y, k, a):
+            note = f"{r.note}; {WEIGHTING_AFTER_CHOICE}" if r.picked else r.note
             rows.append([r.scheme, r.order, *_column((r.sum_abs_deviation, r.max_abs_deviation, r.spread_p)),
-                         "picked" if r.picked else None, prep.located(r.note) or None])
+                         "picked" if r.picked else None, prep.located(note) or None])
         return rows
 
     return _cached("weighting", prep, (k, a), compute)
