@@ -164,7 +164,7 @@ def _band_row(cal, curve, band: _Band, t1: float, t2: float, sign: float, degene
 
     found = [_first_root(g, x_end) for g in (decision, detection, quantitation)]
     reached = [v for v in found if math.isfinite(v)]
-    turns = branch_words(cal, curve, max(reached) if len(reached) == 3 else x_end)
+    turns = branch_words(cal, curve, max(reached, default=x_min))  # a limit not reached is left empty
     if turns:
         return Limit(BAND, *none, turns)
     notes = [f"Hubaux-Vos; quantitation in the DIN 32645 form, k = {K_QUANTITATION:g}"]
