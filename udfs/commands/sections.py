@@ -150,8 +150,8 @@ class Book:
     def block(self, area: Area) -> list:
         """The stored values of ``area``, row by row."""
         sheet = self.refresher.sheet(area.sheet)
-        top, bottom = (area.top, area.bottom) if area.top is not None else (1, max(sheet.max_row, 1))
-        return [[sheet.values.get((r, c)) for c in range(area.left, area.right + 1)] for r in range(top, bottom + 1)]
+        top, bottom = (area.top, area.bottom) if area.top is not None else (1, max(sheet.last_row(), 1))
+        return sheet.block(top, bottom, area.left, area.right)
 
     def cells(self, area: Area) -> list:
         """The values of a one-row or one-column range, in order."""
@@ -161,7 +161,7 @@ class Book:
         """The text above a column of standards (its header), if there is one."""
         if area.top is None or area.top < 2:
             return None
-        value = self.refresher.sheet(area.sheet).values.get((area.top - 1, area.left))
+        value = self.refresher.sheet(area.sheet).value(area.top - 1, area.left)
         return value if isinstance(value, str) else None
 
     def _words(self, value) -> str:
