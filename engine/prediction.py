@@ -162,6 +162,18 @@ def _solve_on_monotonic_band(curve: Curve, cal: Calibration, y0: np.ndarray, m: 
     return out, held
 
 
+def _grid_gap(curve: Curve, y0: np.ndarray, m: np.ndarray, t: float):
+    """gap(z) = (f(z) - y0)^2 - t^2 (s^2 / (m w(z)) + Var f(z)) at every grid node for every reading (negative
+    where the band holds the reading), inf where the weights are not defined; and where they are not."""
+    _, f, vm = curve.grid
+    with np.errstate(invalid="ignore"):
+        g = (f[None, :] - y0[:, None]) ** 2 - t**2 * curve.s**2 * curve.grid_variance_factor[None, :] / m[:, None] \
+            - t**2 * vm[None, :]
+    undefined = ~np.isfinite(g)
+    g[undefined] = np.inf  # no weight for a reading there: outside the band
+    return g, undefined
+
+
 def _band_edges(curve: Curve, cal: Calibration, y0: np.ndarray, m: np.ndarray, z_hat: np.ndarray, t: float):
     """Lower and upper z of the band component holding z_hat (nan where it stays open), and whether
     each stays open because the band reaches the edge of the weights' domain (x <= 0 under 1/x
@@ -173,7 +185,7 @@ def _band_edges(curve: Curve, cal: Calibration, y0: np.ndarray, m: np.ndarray, z
     are refined together by Newton's method on gap. A node where the weights
     are not defined counts as outside; a bound in the cell next to it is open.
     """
-    z, f, vm = curve.grid
+    z = curve.grid[0]
     t2, t2s2 = t**2, t**2 * curve.s**2
 
     def gap_and_slope(zz, y, mm):
@@ -182,11 +194,7 @@ def _band_edges(curve: Curve, cal: Calibration, y0: np.ndarray, m: np.ndarray, z
         vf, dvf = _variance_factor_and_slope(curve, zz, fz, dfz)
         return d * d - t2s2 * vf / mm - t2 * vz, 2 * d * dfz - t2s2 * dvf / mm - t2 * dvz
 
-    vf = curve.grid_variance_factor
-    with np.errstate(invalid="ignore"):
-        g = (f[None, :] - y0[:, None]) ** 2 - t2s2 * vf[None, :] / m[:, None] - t2 * vm[None, :]
-    undefined = ~np.isfinite(g)
-    g[undefined] = np.inf  # no weight for a reading there: outside the band
+    g, undefined = _grid_gap(curve, y0, m, t)
     outside = g > 0
     below = outside & (z[None, :] < z_hat[:, None])
     above = outside & (z[None, :] > z_hat[:, None])
@@ -219,17 +227,14 @@ def _domain_edge(cal: Calibration) -> str:
     return "x <= 0" if not cal.weighting.iterative else "a fitted y <= 0"
 
 
-def _outside_anchor(curve: Curve, cal: Calibration, y0: np.ndarray, m: np.ndarray, t: float):
+def _outside_anchor(curve: Curve, y0: np.ndarray, m: np.ndarray, t: float):
     """For readings beyond the response at one end of a calibrated range the curve does not turn in: the
     grid node at or beyond that end (z = -1 or 1) where the prediction band holds the reading best (the
-    smallest gap of ``_band_edges``), nan where the band holds it at no such node."""
-    z, f, vm = curve.grid
+    smallest gap, ``_grid_gap``), nan where the band holds it at no such node."""
+    z, f, _ = curve.grid
     first, last = RANGE_NODES
     below_end = np.abs(y0 - f[first]) <= np.abs(y0 - f[last])  # the end whose response is nearer
-    vf = curve.grid_variance_factor
-    with np.errstate(invalid="ignore"):
-        g = (f[None, :] - y0[:, None]) ** 2 - t**2 * curve.s**2 * vf[None, :] / m[:, None] - t**2 * vm[None, :]
-    g[~np.isfinite(g)] = np.inf
+    g, _ = _grid_gap(curve, y0, m, t)
     side = np.where(below_end[:, None], np.arange(z.size)[None, :] > first, np.arange(z.size)[None, :] < last)
     g[side] = np.inf
     best = np.argmin(g, axis=1)
@@ -262,7 +267,7 @@ def inverse(cal: Calibration, readings, order: int, replicates=1, level: float =
         anchor = z_hat.copy()  # where the band holds each reading: its estimate, or a node beyond the range
         beyond = np.flatnonzero((count == 0) & monotonic & np.isfinite(y0_curve))
         if beyond.size:
-            anchor[beyond] = _outside_anchor(curve, cal, y0_curve[beyond], m[beyond], t)
+            anchor[beyond] = _outside_anchor(curve, y0_curve[beyond], m[beyond], t)
         ok = np.flatnonzero(np.isfinite(anchor))
         held = np.isfinite(anchor)
         lower_z, upper_z = np.full(y0.size, np.nan), np.full(y0.size, np.nan)
