@@ -356,6 +356,11 @@ def compare_sheet(wb: Workbook, sc: Scenario) -> None:
         ws.column_dimensions[get_column_letter(col)].width = NUMBER_WIDTH
     for r in range(2, rows + 2):
         ws.row_dimensions[r].height = LINE * 3
+    from .. import functions
+
+    cells = [[[v] for v in values] for values in (sc.x, sc.y, sc.x[: len(sc.reference_y)], sc.reference_y,
+                                                 sc.check_levels)]
+    _number_formats(ws, [("F1", functions.calib_compare(*cells, None, None, None, _exclude_cells(sc)))])
     _page_setup(ws, f"A1:{detail}{max(rows, len(sc.x), len(sc.reference_y)) + 1}", ())  # every standard of both runs
 
 
