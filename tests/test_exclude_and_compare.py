@@ -193,3 +193,11 @@ def test_compare_takes_a_scheme_only_and_names_the_reference_in_messages():
         "the cell"]]
     assert degreewise.calib_compare(column(X), column(Y), column(REF_X[:4]), column(REF_Y[:4]), None, 3) == [[
         "reference calibration: order 3 needs at least 4 distinct x values and 5 points; there are 2 and 4"]]
+
+
+def test_an_excluded_standard_beyond_the_responses_says_why_it_has_no_back_calculated_x():
+    x, y = column([1, 2, 3, 4, 5, 6, 7]), column([2.1, 4.0, 6.1, 7.9, 10.2, 11.9, 30.0])
+    rows = degreewise.calib_residuals(x, y, 1, None, [[None]] * 6 + [["spike"]])
+    assert rows[6][2:7] == [None] * 5
+    assert rows[6][7] == ("excluded: spike; reading above the calibrated response range [2.07619, 11.9905], above "
+                          "the highest standard: no estimate outside the calibrated range")

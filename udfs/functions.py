@@ -352,8 +352,8 @@ def _excluded_rows(cal, order: int, excluded) -> list[list]:
         fitted = engine.predict(cal, [e.x], order)[0].fitted
         read = engine.inverse(cal, [e.y], order)[0]
         back = read.x
-        if not math.isfinite(back) and read.note:
-            note = f"{note}; {read.note}"
+        if not math.isfinite(back) and read.note:  # why there is none (the interval it goes on to is not shown)
+            note = f"{note}; {read.note.split('; ')[0]}"
         deviation = 100.0 * (back - e.x) / abs(e.x) if e.x != 0 else math.nan
         rows.append([_cell(fitted), _cell(e.y - fitted), None, None, None, _cell(back), _cell(deviation), note])
     return rows
