@@ -339,3 +339,23 @@ def test_din_32645_example_values():
     assert iso.decision_limit == pytest.approx(0.0698, abs=5e-5)
     assert band.quantitation_limit == pytest.approx(0.212, abs=5e-4)  # quantitation limit 0.212 (k = 3)
     assert engine.inverse(cal, [3500.0], 1)[0].x == pytest.approx(0.10548, abs=5e-6)  # x(3500) = 0.10548
+
+
+@settings(max_examples=30, deadline=None)
+@given(vertex=st.floats(-60.0, 160.0), seed=st.integers(0, 50))
+def test_every_row_gives_the_same_answer_about_a_turn(vertex, seed):
+    """Invariant (one rule for a turn): for a quadratic turning anywhere, either no row speaks of a turn, or
+    every row gives the same words and no number; the words appear exactly when the fitted curve turns
+    between the blank and the highest standard (a published formula for the turn: x = -b / 2c)."""
+    x = np.repeat([10.0, 20.0, 40.0, 60.0, 80.0, 100.0], 2)
+    y = 2.0 + (x - vertex) ** 2 / 50 + np.random.default_rng(seed).normal(0, 0.02, x.size)
+    cal = engine.Calibration(x, y, max_order=2)
+    rows = engine.detection_limits(cal, 2, [2.0, 2.1, 2.05])
+    _, b, c = cal.fit(2).coefficients
+    turn = -b / (2 * c)
+    turned = [r for r in rows if r.note.startswith("the curve is not monotonic from the blank")]
+    if 1e-6 < turn < 100.0 - 1e-6:
+        assert len(turned) == len(rows) and len({r.note for r in rows}) == 1
+        assert all(math.isnan(v) for r in rows for v in r[1:5])
+    elif turn < -1e-6 or turn > 100.0 + 1e-6:  # the limits here lie far below the highest standard
+        assert not turned
