@@ -26,7 +26,7 @@ from .errors import OrderError
 from .prediction import inverse
 from .results import Comparison, DifferenceRow, FTest, OrderChoice
 from .selection import choose_order
-from .validation import check_count, check_level, check_order, check_vector
+from .validation import check_count, check_level, check_order, check_vector, order_limit
 
 
 def _rss(columns: np.ndarray, yw: np.ndarray) -> float:
@@ -50,21 +50,20 @@ def _f_test(extra: float, df_extra: int, rss: float, df: int) -> FTest:
 
 def shared_order(today: Calibration, reference: Calibration, alpha: float = 0.05) -> OrderChoice:
     """The order the default rule picks for both sets' standards together (one curve through all of them),
-    up to the highest order each set offers on its own (``default_max_order``).
+    up to the default max order of all of them (``default_max_order``) and an order each set can fit on its
+    own (``order_limit``).
 
     One order for both sets, chosen from data whose sum does not carry their difference: with the order
     chosen from today's standards alone, the order follows today's noise and the comparison at that order
     rejects identical curves too often (same shape 6.7 % at 5 %, 6 levels x 2; benchmarks/error_rates.py)."""
-    limit = min(default_max_order(c.n_points, c.n_distinct) for c in (today, reference))
-    if limit < 1:
-        raise OrderError("too few standards to choose one order for both sets: give the order argument",
-                         argument="order")
     sets = (today, reference)
+    x = np.concatenate([today.x, reference.x])
+    limit = max(1, min(default_max_order(x.size, np.unique(x).size),
+                       *(order_limit(c.n_points, c.n_distinct) for c in sets)))
     weights = today.weighting.scheme or (
         None if all(c.weighting.values is None for c in sets) else
         np.concatenate([np.ones(c.n_points) if c.weighting.values is None else c.weighting.values for c in sets]))
-    both = Calibration(np.concatenate([today.x, reference.x]), np.concatenate([today.y, reference.y]),
-                       max_order=limit, weights=weights)
+    both = Calibration(x, np.concatenate([today.y, reference.y]), max_order=limit, weights=weights)
     return choose_order(both, alpha=alpha)
 
 

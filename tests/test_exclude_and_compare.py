@@ -164,7 +164,7 @@ def test_compare_rows_carry_the_engine_comparison_in_words():
     today = engine.Calibration(np.delete(X, BAD), np.delete(Y, BAD))
     reference = engine.Calibration(REF_X, REF_Y)
     assert engine.shared_order(today, reference).order == 1
-    c = engine.compare(today, reference, 1, 0.95, [10.0, 80.0])
+    c = engine.compare(today, engine.Calibration(REF_X, REF_Y, 1), 1, 0.95, [10.0, 80.0])
     for row, test in zip(rows[1:4], (c.same_curve, c.same_shape, c.same_sd)):
         assert row[6:10] == [test.statistic, test.df_num, test.df_den, test.p_value]  # F and its df in cells
     assert rows[1][6:9] == [c.same_curve.statistic, 2, 19]
@@ -201,3 +201,13 @@ def test_an_excluded_standard_beyond_the_responses_says_why_it_has_no_back_calcu
     assert rows[6][2:7] == [None] * 5
     assert rows[6][7] == ("excluded: spike; reading above the calibrated response range [2.07619, 11.9905], above "
                           "the highest standard: no estimate outside the calibrated range")
+
+
+def test_a_reference_too_small_to_choose_an_order_on_its_own_is_compared_at_the_shared_order():
+    """Three reference standards cannot choose an order by themselves; with today's six they share order 1
+    (each set fits it with a residual degree of freedom)."""
+    today_x, today_y = column([0, 1, 2, 3, 4, 5]), column([0.1, 1.1, 2.0, 3.1, 4.0, 5.1])
+    rows = degreewise.calib_compare(today_x, today_y, column([0, 1, 2]), column([0.0, 1.0, 2.1]))
+    assert rows[1][6:9] == [pytest.approx(1.2781903190318789, rel=1e-12), 2, 5]
+    assert rows[1][11].endswith("both curves of order 1 (the order the default rule picks for both sets' standards "
+                                "together); tested at 0.05")

@@ -447,23 +447,23 @@ def calib_compare(x, y, ref_x, ref_y, at=None, order=None, level=None, weights=N
     values, blank = numbers_or_blank(flatten(at, "at"))
     values = values[~blank]
 
+    def reference_fitted(max_order: int):
+        try:
+            return calibration(ref, max_order=max_order)
+        except CellError as err:
+            raise CellError(f"reference calibration (ref_x, ref_y): {err}") from None
+
     def compute():
         if k is None:  # one order for both sets, chosen from all their standards together
             today = calibration(prep)
-            try:
-                reference = calibration(ref)
-            except CellError as err:
-                raise CellError(f"reference calibration (ref_x, ref_y): {err}") from None
-            chosen = engine.shared_order(today, reference).order
+            chosen = engine.shared_order(today, reference_fitted(1)).order
             how = "the order the default rule picks for both sets' standards together"
+            if chosen > today.max_order:
+                today = calibration(prep, max_order=chosen)
         else:
             today, chosen, _ = _fitted(prep, k)
             how = "given as the order argument"
-            limit = order_limit(ref.x.size, np.unique(ref.x).size)
-            try:
-                reference = calibration(ref, max_order=max(1, min(chosen, limit)))
-            except CellError as err:
-                raise CellError(f"reference calibration (ref_x, ref_y): {err}") from None
+        reference = reference_fitted(max(1, min(chosen, order_limit(ref.x.size, np.unique(ref.x).size))))
         c = engine.compare(today, reference, chosen, lev, values)
         alpha = 1.0 - lev
         shared = f"; both curves of order {chosen} ({how}); tested at {alpha:.3g}"
