@@ -92,6 +92,8 @@ FAMILY = [  # (function, its arguments after x and y: a range of the case, an op
     (degreewise.calib_limits, ("cells", "opt", "opt", "opt", "w", "ex")),
     (degreewise.calib_weighting, ("opt", "opt", "ex")),
     (degreewise.calib_compare, ("ref_x", "ref_y", "cells", "opt", "opt", None, "ex")),
+    (degreewise.calib_acceptance, ("cells", "opt", "w", "ex")),  # the cells as the analyst's own criteria
+    (degreewise.calib_uncertainty, ("cells", "opt", "opt", "opt", "w", "ex")),
 ]
 NUMBER = st.one_of(st.sampled_from([1.0, 2.0, 3.0, 4.0, 5.0, 6.0]), st.floats(0.5, 9, allow_nan=False))
 REASON = st.one_of(st.none(), st.none(), st.sampled_from([True, "reason", "bubble"]))

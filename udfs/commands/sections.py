@@ -30,10 +30,11 @@ SETTINGS = {"max_order": ("max order", "default"), "alpha": ("alpha", "0.05 (def
             "level": ("level", "0.95 (default)"), "replicates": ("replicates", "1 (default)"),
             "weights": ("weights", "none"), "exclude": ("exclude", "none"), "blank": ("blank readings", "none"),
             "new_x": ("new x", None), "reading": ("readings", None), "ref_x": ("reference x", None),
-            "ref_y": ("reference y", None), "at": ("compared at", "none")}
+            "ref_y": ("reference y", None), "at": ("compared at", "none"), "criteria": ("criteria", None)}
 GRID = 161  # points of the curve and band in the report's chart
+# tables whose settings say which curve they describe
 CHARTED = ("CALIB_COEFS", "CALIB_STATS", "CALIB_PREDICT", "CALIB_INVERSE", "CALIB_RESIDUALS", "CALIB_CHECKS",
-           "CALIB_LIMITS")  # tables whose settings say which curve they describe
+           "CALIB_LIMITS", "CALIB_ACCEPTANCE", "CALIB_UNCERTAINTY")
 
 
 def where(area: Area) -> str:
@@ -91,7 +92,7 @@ class Table:
         return None
 
 
-HEADERLESS = ("CALIB_PREDICT", "CALIB_INVERSE", "CALIB_RESIDUALS")
+HEADERLESS = ("CALIB_PREDICT", "CALIB_INVERSE", "CALIB_RESIDUALS", "CALIB_UNCERTAINTY")
 
 
 @dataclass
@@ -279,6 +280,20 @@ def summary(s: Section) -> list[str]:
             lines.append(f"  compared with an earlier calibration ({t.where}):")
             for item, *_, p, verdict, detail in t.rows[1:4]:
                 lines.append(f"    {item:<17} {verdict} (p {p_text(p)}): {detail.split('; ')[0]}")
+    for t in s.tables:
+        if t.name == "CALIB_ACCEPTANCE" and t.rows and t.message is None:
+            criteria = next(r[5] for r in t.rows if r[0] == "criteria")
+            failing = [r[0] for r in t.rows if r[5] == "fail"]
+            lines.append(f"  acceptance under {criteria} ({t.where}): " + "; ".join(
+                f"{r[5]}: {r[6]}" for r in t.rows if r[0] == "verdict"))
+            if failing:
+                lines.append(f"    failing: {', '.join(failing)}; could exclude: " + "; ".join(
+                    f"{r[6].split(':')[0]} ({r[5]})" for r in t.rows if r[0].startswith("could exclude ")))
+        if t.name == "CALIB_UNCERTAINTY" and t.rows and t.message is None:
+            lines.append(f"  standard uncertainties of the samples ({t.where}; x estimate, u, U = k u):")
+            for x, u, _, k, big, _, note in t.rows:
+                lines.append(f"    {number(x, 5):>10}  u {number(u, 3)}, U {number(big, 3)} (k = {number(k, 4)})"
+                             if x is not None else f"    {note}")
     weighting = s.first("CALIB_WEIGHTING")
     if weighting:
         for scheme, order, *_, picked, note in weighting.rows[1:]:
