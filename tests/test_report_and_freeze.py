@@ -255,9 +255,10 @@ def test_limits_and_weighting_appear_with_the_workbooks_blank_readings(tmp_path)
 def test_report_shows_the_comparison_with_an_earlier_calibration(reports):
     text = words(pdf_text(reports["straight", "a4"]))
     wb = openpyxl.load_workbook(FOLDER / "degreewise-demo-straight.xlsx", data_only=True)
-    same_curve = [c.value for c in wb["Compare"][2]][5:13]  # F2:M2, as the refresh stored them
+    same_curve = [c.value for c in wb["Compare"][2]][5:16]  # F2:P2, as the refresh stored them
     assert "Compared with an earlier calibration: Compare!F1" in text
-    assert f"same curve {number(same_curve[6], 3)} {same_curve[7]} F = " in text  # p to 3 digits
+    f, df_num, df_den, p, verdict = same_curve[6:11]  # F to 4 digits, its df, p to 3 digits
+    assert f"same curve {number(f, 4)} {df_num} {df_den} {number(p, 3)} {verdict} F = " in text
 
 
 @needs_poppler

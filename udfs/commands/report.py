@@ -133,7 +133,7 @@ TITLES = {
     "CALIB_INVERSE": ("Samples read back", (4,), {}),
     "CALIB_RESIDUALS": ("Back-calculated standards", (9,), {}),
     "CALIB_CHECKS": ("Checks of the curve", (4,), {}),
-    "CALIB_COMPARE": ("Compared with an earlier calibration", (8,), {1: 5, 2: 5, 3: 4, 4: 4, 5: 4, 6: 3}),
+    "CALIB_COMPARE": ("Compared with an earlier calibration", (11,), {1: 5, 2: 5, 3: 4, 4: 4, 5: 4, 6: 4, 9: 3}),
     "CALIB_LIMITS": ("Detection and quantitation limits", (5,), {}),
     "CALIB_WEIGHTING": ("Weighting schemes compared", (6,), {}),
     "CALIB_ACCEPTANCE": ("Acceptance of the run under a criteria set", (6,), {}),
