@@ -26,7 +26,7 @@ from . import doubledouble as dd
 from . import selection
 from .distributions import f_sf
 from .errors import DataError, OrderError
-from .linalg import householder_qr, triangular_inverse
+from .linalg import LEVERAGE_ONE, householder_qr, triangular_inverse
 from .orders import OrderResults
 from .refine import TARGET, PlainBounds, conversion_matrix, plain_bounds, refine, rss_bounds
 from .results import FTest, LackOfFit, OrderChoice, OrderFit, OrderStats, SequentialRow, SequentialTable
@@ -47,6 +47,11 @@ def _frozen(a: np.ndarray) -> np.ndarray:
     """``a``, made read-only: the figures a calibration hands out stay as computed."""
     a.flags.writeable = False
     return a
+
+
+def _own(a: np.ndarray, given) -> np.ndarray:
+    """``a``, copied where it shares memory with the caller's ``given`` (which the caller may change later)."""
+    return a.copy() if isinstance(given, np.ndarray) and np.may_share_memory(a, given) else a
 
 
 def default_max_order(n_points: int, n_distinct: int) -> int:
@@ -109,12 +114,13 @@ class Calibration:
     """
 
     def __init__(self, x, y, max_order=None, weights=None):
-        x, y = check_pair(x, y)
+        checked_x, checked_y = check_pair(x, y)
+        x, y = _own(checked_x, x), _own(checked_y, y)
         by_x, inverse, m = _standards(x, y)
         n = x.size
         self.weighting = Weighting(weights, x, y)
         k = _max_order(max_order, n, m)
-        self.x, self.y = x, y
+        self.x, self.y = _frozen(x), _frozen(y)
         self.by_x = by_x  # a stable sort of the points by x
         self.n_points, self.n_distinct, self.max_order = n, m, k
         # exact power-of-two scalings: |x 2^-ex| < 1, |y 2^-ey| < 1
@@ -357,6 +363,10 @@ class Calibration:
         exact = (self._all_rss <= self._ss_rounding).nonzero()[0]
         return int(exact[0]) if exact.size else None
 
+    def fits_exactly(self, order: int) -> bool:
+        """The residuals of ``order`` are rounding error (``exact_order``): no statistic rests on their scatter."""
+        return self.exact_order is not None and order >= self.exact_order
+
     @cached_property
     def _ss_lack_of_fit(self) -> np.ndarray:
         return np.maximum(self._all_rss - self._ss_pure, 0.0)
@@ -424,7 +434,7 @@ class Calibration:
         rss, e, h = self._all_rss, self._residual_rows, self._leverage
         orders = np.arange(big_k + 1)
         df = n - orders - 1
-        defined = (h < 1 - 1e-12).all(axis=1)  # PRESS needs every leverage below 1
+        defined = (h <= LEVERAGE_ONE).all(axis=1)  # PRESS needs every leverage below 1
         if defined.all():
             press = ((e / (1.0 - h)) ** 2).sum(axis=1)
         else:

@@ -36,7 +36,7 @@ from scipy import special
 
 from .curve import ENDS, Curve
 from .distributions import beta_cdf, log_factorials, t_two_sided
-from .linalg import householder_qr
+from .linalg import LEVERAGE_ONE, householder_qr
 from .prediction import roots_of
 from .results import Check, PointDiagnostics
 from .selection import mandel_test
@@ -47,7 +47,6 @@ if TYPE_CHECKING:  # the calibration builds on this module (through its orders)
     from .calibration import Calibration
 
 BACK_CALC_EXTEND = 0.25
-_LEVERAGE_ONE = 1 - 1e-10
 
 
 def warning_alpha(alpha: float) -> float:
@@ -70,7 +69,7 @@ def _influence(cook: np.ndarray, h: np.ndarray, t: np.ndarray, p: int, df: int, 
     S(D_i) holds the standard's own term P(D_i >= D_i) = P(|T_(df-1)| >= |t_i|) (t_i externally
     studentized), so only standards whose own term is below the level can be flagged; among them, by
     falling D, the flagged ones are a prefix (S falls as d grows), found by binary search."""
-    usable = (h < _LEVERAGE_ONE) & np.isfinite(cook)
+    usable = (h <= LEVERAGE_ONE) & np.isfinite(cook)
     if df < 2 or not usable.any():
         return math.nan, []
     hu = h[usable]
@@ -91,11 +90,6 @@ def _influence(cook: np.ndarray, h: np.ndarray, t: np.ndarray, p: int, df: int, 
         else:
             hi = mid
     return p_max, sorted(by_size[:lo].tolist())
-
-
-def _fits_exactly(cal: Calibration, curve: Curve) -> bool:
-    """The residuals of ``curve`` are rounding error (``Calibration.exact_order``)."""
-    return cal.exact_order is not None and curve.order >= cal.exact_order
 
 
 def _back_calculate(cal: Calibration, curve: Curve):
@@ -121,7 +115,7 @@ def point_diagnostics(cal: Calibration, order: int, alpha: float = 0.05) -> Poin
     results = cal.order(order)
     curve = results.curve
     h, r, t, cook, bonf = results.influence
-    exact = _fits_exactly(cal, curve)  # then the residuals are rounding, and no standard stands out
+    exact = cal.fits_exactly(curve.order)  # then the residuals are rounding, and no standard stands out
     influential = set() if exact else set(_influence(cook, h, t, curve.order + 1, curve.df, warn_below)[1])
     if exact:
         bonf = np.ones_like(bonf)
@@ -130,7 +124,7 @@ def point_diagnostics(cal: Calibration, order: int, alpha: float = 0.05) -> Poin
     back, count = _back_calculate(cal, curve)
     x = cal.x
     notes = [""] * cal.n_points
-    flagged = (count != 1) | (bonf < warn_below) | (h > _LEVERAGE_ONE) | (x == 0)
+    flagged = (count != 1) | (bonf < warn_below) | (h > LEVERAGE_ONE) | (x == 0)
     flagged[list(influential)] = True
     for i in flagged.nonzero()[0].tolist():
         words = []
@@ -142,7 +136,7 @@ def point_diagnostics(cal: Calibration, order: int, alpha: float = 0.05) -> Poin
             words.append(f"outlier (externally studentized {t[i]:.3g}, Bonferroni p = {fmt_p(float(bonf[i]))})")
         if i in influential:
             words.append(f"influential (Cook's distance {cook[i]:.3g})")
-        if h[i] > _LEVERAGE_ONE:
+        if h[i] > LEVERAGE_ONE:
             words.append("leverage 1: this standard alone fixes the curve here")
         if x[i] == 0:
             words.append("deviation % not defined at x = 0")
@@ -290,6 +284,7 @@ class _Context:
         self.e = cal.scaled_residuals(self.k)
         self.u, self.q = level_residuals(cal, self.k)
         self.per = "level means (one per distinct x)" if self.u.size < self.n else "residuals"
+        self.misfit = False  # set by a check of the curve's shape that warns; the spread check's words read it
 
     def named(self, points) -> str:
         cal = self.cal
@@ -308,6 +303,7 @@ def _lack_of_fit_check(c: _Context) -> Check:
     test = lof.test
     v = _verdict(test.p_value, alpha)
     if v == "warning":
+        c.misfit = True
         higher = [cal.stats(j).lack_of_fit for j in range(k + 1, cal.max_order + 1)]
         fits = [j for j, lof_j in enumerate(higher, k + 1) if lof_j is not None and not lof_j.test.p_value < alpha]
         words = "the curve misses the level means by more than replicate scatter; " + (
@@ -327,6 +323,7 @@ def _mandel_check(c: _Context) -> Check:
         v, words = "n/a", "the quadratic fits exactly: nothing to test"
     elif k == 1:
         v = _verdict(mt.p_value, c.warn_below)
+        c.misfit |= v == "warning"
         words = ("the quadratic term is significant: a straight line is not adequate" if v == "warning"
                  else "a straight line is adequate against a quadratic") + f"; {c.at}"
     else:  # the chosen curve already holds the quadratic term: the test says whether it is needed
@@ -349,9 +346,11 @@ def _runs_check(c: _Context) -> Check:
         words = (f"{runs} runs of signs of the {c.per} in x order: the signs alternate more often than chance; "
                  f"look for a pattern in how the standards were prepared or run; {c.at}")
     else:
+        c.misfit = True
         words = (f"{runs} runs of signs of the {c.per} in x order: the signs cluster along x; "
                  f"the curve shape may be wrong; {c.at}")
-    return Check("runs of residual signs", z_runs, p_runs, v, words)
+    # the statistic is the number of runs, whose exact distribution gives p (z only tells the side)
+    return Check("runs of residual signs", float(runs) if v != "n/a" else math.nan, p_runs, v, words)
 
 
 def _durbin_watson_check(c: _Context) -> Check:
@@ -362,6 +361,7 @@ def _durbin_watson_check(c: _Context) -> Check:
     dw = durbin_watson(c.u)
     p_dw = durbin_watson_p(dw, c.q)
     v = _verdict(p_dw, c.warn_below)
+    c.misfit |= v == "warning"
     words = ("the residuals are positively correlated along x: the curve shape may be wrong" if v == "warning"
              else "no evidence of positive correlation along x")
     return Check("Durbin-Watson", dw, p_dw, v, f"{c.per} in x order, one-sided; {words}; {c.at}")
@@ -387,6 +387,7 @@ def _monotonic_check(c: _Context) -> Check:
     curve = c.curve
     turns = curve.turning_points()
     if turns.size:
+        c.misfit = True
         xs = ", ".join(f"{v:.6g}" for v in c.cal.raw_x(turns))
         return Check("monotonic over the range", float(turns.size), math.nan, "warning",
                      f"the curve turns at x = {xs}: a reading may map to more than one x; "
@@ -397,14 +398,15 @@ def _monotonic_check(c: _Context) -> Check:
                  f"{'increasing' if end > start else 'decreasing'} from x = {curve.x_min:.6g} to {curve.x_max:.6g}")
 
 
-def _breusch_pagan_check(c: _Context, misfit: bool) -> Check:
-    """Breusch-Pagan; ``misfit``: whether a check of the curve's shape warned (its words then say so)."""
+def _breusch_pagan_check(c: _Context) -> Check:
+    """Breusch-Pagan, after the checks of the curve's shape: where one warned (``c.misfit``), its words say
+    that a misfit can cause a trend in spread."""
     cal, k = c.cal, c.k
     basis = None if cal.weighting.weighted else cal.orthonormal_basis(k)
     lm, p_bp = breusch_pagan(c.e, cal.z, k, basis)
     v = _verdict(p_bp, c.warn_below)
     return Check("Breusch-Pagan", lm, p_bp, v, f"chi2({k}) on the {'weighted ' if cal.weighting.weighted else ''}"
-                 f"residuals; {_spread_words(cal, c.e, v, misfit)}; {c.at}")
+                 f"residuals; {_spread_words(cal, c.e, v, c.misfit)}; {c.at}")
 
 
 def _outliers_check(c: _Context) -> Check:
@@ -425,10 +427,7 @@ def _influence_check(c: _Context) -> Check:
                  f"Bonferroni over the standards; p-value is the largest distance's; {c.at})")
 
 
-# the checks of the shape of the curve: a warning from any of them makes the spread check's words say that a
-# misfit can cause a trend in spread
-_SHAPE = ("lack of fit", "Mandel", "runs", "DW", "monotonic")
-# the rows of the checks table in order; BP comes after the shape checks, whose verdicts its words read
+# computed in this order: Breusch-Pagan after the checks of the curve's shape, whose warnings its words read
 _CHECKS = {"lack of fit": _lack_of_fit_check, "Mandel": _mandel_check, "runs": _runs_check,
            "DW": _durbin_watson_check, "SW": _shapiro_wilk_check, "monotonic": _monotonic_check,
            "BP": _breusch_pagan_check, "outliers": _outliers_check, "influence": _influence_check}
@@ -445,14 +444,8 @@ def curve_checks(cal: Calibration, order: int, alpha: float = 0.05, point_labels
     """
     c = _Context(cal, order, check_alpha(alpha), point_labels)
     k = c.k
-    rows = {}
-    for key, check in _CHECKS.items():
-        if key == "BP":
-            if k >= 1:
-                rows[key] = check(c, misfit=any(_misfit(key_, rows[key_]) for key_ in _SHAPE))
-        else:
-            rows[key] = check(c)
-    if _fits_exactly(cal, c.curve):  # residuals are rounding: nothing to test in them
+    rows = {key: check(c) for key, check in _CHECKS.items() if key != "BP" or k >= 1}
+    if cal.fits_exactly(c.k):  # residuals are rounding: nothing to test in them
         exact = f"the data fit exactly at order {k} (residuals at rounding level): nothing to test"
         for key in ("lack of fit", "runs", "DW", "BP", "outliers", "influence") + (("Mandel",) if k == 1 else ()):
             if key in rows:
@@ -460,14 +453,6 @@ def curve_checks(cal: Calibration, order: int, alpha: float = 0.05, point_labels
         # W is scale-free and describes the rounding residuals as they are; it is not a verdict on the curve
         rows["SW"] = rows["SW"]._replace(verdict="n/a", detail=exact)
     return tuple(rows[key] for key in _TABLE if key in rows)
-
-
-def _misfit(key: str, row: Check) -> bool:
-    """Whether a shape check's row says the curve misses the data (runs: only signs that cluster, not ones
-    that alternate; Mandel warns only as the test of a straight line chosen)."""
-    if row.verdict != "warning":
-        return False
-    return not row.statistic > 0 if key == "runs" else True
 
 
 def _spread_words(cal: Calibration, e: np.ndarray, verdict: str, misfit: bool) -> str:

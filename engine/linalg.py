@@ -1,8 +1,11 @@
-"""The factorisations the engine uses, each through numpy.linalg (LAPACK)."""
+"""The factorisations the engine uses, each through numpy.linalg (LAPACK), and the leverage that counts as 1."""
 
 from __future__ import annotations
 
 import numpy as np
+
+# a leverage above this is 1 in double precision: that standard alone fixes the curve at its x
+LEVERAGE_ONE = 1 - 1e-10
 
 
 def householder_qr(a: np.ndarray):

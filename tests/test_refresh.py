@@ -472,3 +472,28 @@ def test_a_progress_bar_shows_on_a_terminal_for_several_workbooks(tmp_path, monk
     run([str(tmp_path)], jobs=1)
     assert "| 2/2 [" in sys.stderr.getvalue()
     assert "one.xlsx" in capsys.readouterr().out
+
+
+@pytest.mark.parametrize("merged,blocked", [("J6:K8", True), ("N4:O5", True), ("J1:K3", True), ("F4:H5", True),
+                                            ("J7:K8", False), ("O4:P5", False), ("J1:K2", False), ("F4:G5", False)])
+def test_a_merged_block_touching_any_edge_of_the_result_blocks_it(tmp_path, merged, blocked):
+    """The result H3:N6 (4 x 7) meets a merged block on its bottom, right, top or left edge by one row or
+    column: the spreadsheet program refuses the spill (#SPILL!); one row or column further off it spills."""
+    path = tmp_path / "merged.xlsx"
+    wb = openpyxl.Workbook()
+    ws = wb.active
+    for i, (a, b) in enumerate(zip(X, Y), start=2):
+        ws.cell(i, 1, float(a)), ws.cell(i, 2, float(b))
+    ws["H3"] = "=CALIB_COEFS(A2:A13,B2:B13,2)"
+    ws.merge_cells(merged)
+    wb.save(path)
+    report = refresh_file(path)
+    if blocked:
+        assert report.blocked == [("Sheet!H3", f"the result (4 x 7) would spill into the merged cells {merged}, "
+                                               "where the spreadsheet program does not allow a spilled result; "
+                                               "nothing was written")]
+        assert values(path, "Sheet", "H3", 1, 1) == [["#SPILL!"]]
+    else:
+        assert report.blocked == [] and report.refreshed == ["Sheet!H3"]
+        assert values(path, "Sheet", "H3", 1, 7) == [["term", "coefficient", "std error", "t", "p-value", "lower",
+                                                       "upper"]]
