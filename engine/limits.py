@@ -118,7 +118,8 @@ def _range_words(named, x_min: float, x_max: float) -> str:
     if not out:
         return ""
     names = out[0] if len(out) == 1 else ", ".join(out[:-1]) + " and " + out[-1]
-    return (f"{names} limit{'s' if len(out) > 1 else ''} outside the calibrated range [{fmt_value(x_min)}, {fmt_value(x_max)}]: "
+    return (f"{names} limit{'s' if len(out) > 1 else ''} outside the calibrated range "
+            f"[{fmt_value(x_min)}, {fmt_value(x_max)}]: "
             "a limit depends on where the standards lie (through the xbar^2/Qx term), so confirm it with standards "
             "near the limit")
 
@@ -221,7 +222,8 @@ def _ich_rows(cal: Calibration, curve: Curve, zero: _AtZero, band: _Band, degene
     if cal.weighting.weighted:
         factor = float(band.variance_factor(np.zeros(1), np.array([zero.f]))[0])
         sd = curve.s * math.sqrt(factor) if factor > 0 else math.nan
-        sd_words = f"sigma = {fmt_value(float(curve.to_y(sd)))}, the SD of a reading at x = 0 under the weights (s sqrt(1/w0))"
+        sd_words = (f"sigma = {fmt_value(float(curve.to_y(sd)))}, the SD of a reading at x = 0 under the weights "
+                    "(s sqrt(1/w0))")
     else:
         sd = curve.s
         sd_words = f"sigma = {fmt_value(float(curve.to_y(sd)))}, the residual SD"
@@ -265,7 +267,8 @@ def _blank_row(cal: Calibration, curve: Curve, zero: _AtZero, readings: np.ndarr
     if turns:
         return Limit(BLANK, *none, turns)
     notes = [f"DIN 32645 blank method; {n_b} readings, mean {fmt_value(float(curve.to_y(mean)))}, SD "
-             f"{fmt_value(float(curve.to_y(sd)))}; S = {fmt_value(zero.slope)}, the slope at x = 0; ICH with sigma the blank SD: "
+             f"{fmt_value(float(curve.to_y(sd)))}; S = {fmt_value(zero.slope)}, the slope at x = 0; "
+             "ICH with sigma the blank SD: "
              f"3.3 sigma/S = {fmt_value(ICH_DETECTION * per)}, 10 sigma/S = {fmt_value(ICH_QUANTITATION * per)}",
              _range_words((("decision", x_c), ("detection", 2 * x_c), ("quantitation", x_q)), curve.x_min,
                           curve.x_max)]

@@ -97,9 +97,9 @@ def test_forward_on_an_s_shaped_curve_says_no_polynomial_describes_it():
     cal = engine.Calibration(S_X, S_Y)
     choice = engine.choose_order(cal, "forward")
     assert choice.order == 1
-    assert engine.order_reason(cal, choice) == ("rule forward, alpha 0.05, max order 4: adding x^2 to order 1 is not significant "
-                             "(F = 0.00474, p = 0.95 >= 0.05). Lack of fit at order 1: significant (p = 1.9e-16): "
-                             + NOT_DESCRIBED)
+    assert engine.order_reason(cal, choice) == (
+        "rule forward, alpha 0.05, max order 4: adding x^2 to order 1 is not significant "
+        "(F = 0.00474, p = 0.95 >= 0.05). Lack of fit at order 1: significant (p = 1.9e-16): " + NOT_DESCRIBED)
     order = degreewise.calib_order(column(S_X), column(S_Y), None, None, "forward")
     why = dict(degreewise.calib_stats(column(S_X), column(S_Y), order))["why this order"]
     assert why.startswith("order 1 given as the order argument (a number, or a cell such as CALIB_ORDER with its "
@@ -117,9 +117,10 @@ def test_a_saturating_curve_at_the_max_order_is_reported_as_not_described():
     cal = engine.Calibration(SAT_X, SAT_Y)
     choice = engine.choose_order(cal)
     assert choice.order == 4
-    assert engine.order_reason(cal, choice).endswith("Lack of fit at order 4: significant (p = 2.4e-07): " + NOT_DESCRIBED)
+    reason = engine.order_reason(cal, choice)
+    assert reason.endswith("Lack of fit at order 4: significant (p = 2.4e-07): " + NOT_DESCRIBED)
     stats = dict(degreewise.calib_stats(column(SAT_X), column(SAT_Y)))
-    assert stats["why this order"] == engine.order_reason(cal, choice) and stats["settings"] == "rule stepdown, alpha 0.05, max order 4"
+    assert stats["why this order"] == reason and stats["settings"] == "rule stepdown, alpha 0.05, max order 4"
 
 
 def test_stopping_at_the_max_order_is_said_even_without_lack_of_fit():

@@ -207,7 +207,8 @@ def calib_seqf(x, y, max_order=None, weights=None, exclude=None):
         table = cal.sequential_table()
         rows = [list(HEADERS["seqf"])]
         for r in table.terms:
-            rows.append([term_name(r.term), 1, _cell(r.ss), _cell(r.ss), _cell(r.test.statistic), _cell(r.test.p_value)])
+            rows.append([term_name(r.term), 1, _cell(r.ss), _cell(r.ss), _cell(r.test.statistic),
+                         _cell(r.test.p_value)])
         rows.append(["residual", table.df_resid, _cell(table.ss_resid), _cell(table.ss_resid / table.df_resid),
                      None, None])
         lof = table.lack_of_fit
