@@ -6,7 +6,8 @@ Models (each set keeps its own weights, the same scheme applied to its own data)
 - one curve for both sets: RSS_c on n - (k + 1);
 - same shape: one curve but a separate intercept for each set, RSS_p on n - (k + 2).
 
-Coincidence: F = ((RSS_c - RSS_s) / (k + 1)) / (RSS_s / df_s); parallelism (same shape):
+Where both sets fit exactly at the order (``Calibration.fits_exactly``), RSS_s is rounding error and the
+three tests are nan. Coincidence: F = ((RSS_c - RSS_s) / (k + 1)) / (RSS_s / df_s); parallelism (same shape):
 F = ((RSS_p - RSS_s) / k) / (RSS_s / df_s): the extra-sum-of-squares tests of coincident and
 parallel regressions (Draper & Smith, Applied Regression Analysis, 3rd ed., Wiley 1998, ch. 14 on
 indicator variables; Weisberg, Applied Linear Regression, 4th ed., Wiley 2014, sec. 5.1). Both assume
@@ -17,8 +18,9 @@ with t on df_s, which is what the separate-curves model with set indicators give
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
-from numpy.polynomial import polynomial as P
 
 from .calibration import Calibration, default_max_order
 from .distributions import f_sf, t_quantile, t_two_sided
@@ -29,11 +31,33 @@ from .selection import choose_order
 from .validation import check_count, check_level, check_order, check_vector, order_limit
 
 
-def _rss(columns: np.ndarray, yw: np.ndarray) -> float:
-    """Residual sum of squares of yw on the (already weighted) columns, by QR with explicit residuals."""
-    q, _ = np.linalg.qr(columns, mode="reduced")
-    e = yw - q @ (q.T @ yw)
-    return float(e @ e)
+def _scaled_rss(cal: Calibration, order: int, e: int) -> float:
+    """``cal``'s residual sum of squares at ``order`` times 2^-2e (its own refined residuals)."""
+    r = cal.scaled_residuals(order)
+    return math.ldexp(float(r @ r), 2 * (cal.y_exponent - e))
+
+
+def _model_rss(today: Calibration, reference: Calibration, k: int) -> tuple[float, float, float, int]:
+    """RSS_s, RSS_c and RSS_p (module docstring) times 2^-2e, and e. The separate curves are each set's own
+    fit; one curve is the engine's fit of both sets (each point keeping its own weight); the separate
+    intercept is one more column, d (1 for today's points), added to that fit: RSS_p = RSS_c - (d_r'e)^2 /
+    (d_r'd_r) with e the one curve's weighted residuals and d_r = sqrt(w) d less its projection on the
+    curve's basis (the update of a least-squares fit by one column, e.g. Seber & Lee, Linear Regression
+    Analysis, 2nd ed., Wiley 2003, sec. 3.7; from memory)."""
+    sets = (today, reference)
+    weights = (np.concatenate([c.weighting.values if c.weighting.weighted else np.ones(c.n_points) for c in sets])
+               if any(c.weighting.weighted for c in sets) else None)
+    both = Calibration(np.concatenate([today.x, reference.x]), np.concatenate([today.y, reference.y]),
+                       max_order=k, weights=weights)
+    e = both.y_exponent
+    rss_s = _scaled_rss(today, k, e) + _scaled_rss(reference, k, e)
+    if today.fits_exactly(k) and reference.fits_exactly(k):
+        rss_s = 0.0  # rounding error: no test rests on it
+    residuals, q = both.scaled_residuals(k), both.orthonormal_basis(k)
+    d = both.sqrt_w * np.concatenate([np.ones(today.n_points), np.zeros(reference.n_points)])
+    d -= q @ (q.T @ d)
+    rss_c = _scaled_rss(both, k, e)
+    return rss_s, rss_c, rss_c - float(d @ residuals) ** 2 / float(d @ d), e
 
 
 def _check_order(order: int, cal: Calibration, which: str) -> None:
@@ -76,19 +100,8 @@ def compare(today: Calibration, reference: Calibration, order: int, level: float
     for cal, which in ((today, "today's"), (reference, "reference")):
         _check_order(order, cal, which)
     k = order
-    x = np.concatenate([today.x, reference.x])
-    y = np.concatenate([today.y, reference.y])
-    sw = np.concatenate([today.sqrt_w, reference.sqrt_w])
-    d = np.concatenate([np.ones(today.n_points), np.zeros(reference.n_points)])
-    lo, hi = float(x.min()), float(x.max())
-    z = (x - (lo + hi) / 2) / ((hi - lo) / 2)
-    scale = float(np.abs(y).max())
-    yw = sw * y / scale
-    common = P.polyvander(z, k) * sw[:, None]
-    rss_c = _rss(common, yw)
-    rss_p = _rss(np.column_stack([common, d * sw]), yw)
-    rss_s = _rss(np.column_stack([common, common * d[:, None]]), yw)
-    df_s = x.size - 2 * (k + 1)
+    rss_s, rss_c, rss_p, e = _model_rss(today, reference, k)
+    df_s = today.n_points + reference.n_points - 2 * (k + 1)
     same_curve = _f_test(rss_c - rss_s, k + 1, rss_s, df_s)
     same_shape = _f_test(rss_p - rss_s, k, rss_s, df_s)
 
@@ -98,8 +111,10 @@ def compare(today: Calibration, reference: Calibration, order: int, level: float
     ratio = (s_t / s_r) ** 2
     one_tail = float(f_sf(ratio, df_t, df_r))
     same_sd = FTest(ratio, df_t, df_r, min(1.0, 2 * min(one_tail, 1 - one_tail)))
+    if today.fits_exactly(k) and reference.fits_exactly(k):  # two rounding errors compared: no test
+        same_sd = FTest(math.nan, df_t, df_r, math.nan)
 
-    s_pool = scale * float(np.sqrt(rss_s / df_s))
+    s_pool = math.ldexp(math.sqrt(rss_s / df_s), e)
     q = float(t_quantile(0.5 + level / 2, df_s))
 
     def row(item, ref, now, unscaled_var):

@@ -137,3 +137,21 @@ def test_identical_curves_are_rejected_near_the_level_with_the_default_order():
             counts += (c.same_curve.p_value < 0.05, c.same_shape.p_value < 0.05)
     assert np.abs(shared - true).max() <= 0.005 * trials, (shared, true)
     assert (shared <= 0.065 * trials).all(), shared  # 5 % plus two binomial standard errors
+
+
+def test_two_exact_fits_test_nothing():
+    """Both sets on exact straight lines: the residuals are rounding error, so no F test applies (before, the
+    tests read rounding noise: same curve F = 1.1e29, same shape F = 1.28, p = 0.27)."""
+    x = np.repeat([1.0, 2.0, 3.0, 4.0, 5.0], 2)
+    today, ref = Calibration(x, 2 * x + 1, 2), Calibration(x, 2 * x + 1.5, 2)
+    c = compare(today, ref, 1)
+    for test in (c.same_curve, c.same_shape, c.same_sd):
+        assert np.isnan(test.statistic) and np.isnan(test.p_value)
+    assert c.coefficients[0].difference == pytest.approx(-0.5, rel=1e-14)
+    col = [[v] for v in x]
+    rows = degreewise.calib_compare(col, [[2 * v + 1] for v in x], col, [[2 * v + 1.5] for v in x])
+    assert [r[:1] + r[6:11] for r in rows[1:4]] == [
+        ["same curve", None, 2, 16, None, "n/a"], ["same shape", None, 1, 16, None, "n/a"],
+        ["same residual SD", None, 8, 8, None, "n/a"]]
+    assert rows[2][11] == ("not testable: both sets fit exactly at this order (residuals at the rounding level of "
+                           "the responses)")
