@@ -26,7 +26,7 @@ from degreewise.commands.freeze import freeze
 from degreewise.commands.refresh import refresh_file
 from degreewise.commands.report import write_report
 from degreewise.commands.scenarios import all_scenarios
-from degreewise.commands.sections import number
+from degreewise.workbook.sections import number
 
 FOLDER = Path(__file__).resolve().parent.parent / "workbooks"
 SCENARIOS = {sc.name: sc for sc in all_scenarios()}
