@@ -10,7 +10,8 @@ from pathlib import Path
 
 import pytest
 
-from degreewise.commands.refresh import AGREE, refresh_file
+from degreewise.commands.refresh import refresh_file
+from degreewise.workbook.audit import AGREE
 from conftest import workbook
 
 WORKBOOKS = Path(__file__).parent.parent / "workbooks"

@@ -27,7 +27,7 @@ from degreewise.commands.freeze import freeze
 from degreewise.commands.refresh import refresh_file
 from degreewise.commands.report import write_report
 from degreewise.commands.scenarios import all_scenarios
-from degreewise.commands.sections import number
+from degreewise.workbook.sections import number
 from conftest import workbook
 
 FOLDER = Path(__file__).resolve().parent.parent / "workbooks"

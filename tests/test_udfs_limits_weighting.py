@@ -16,7 +16,7 @@ import pytest
 import degreewise
 from degreewise import catalogue, engine, functions
 from degreewise.catalogue import HEADERS, LIMITS_AFTER_CHOICE, WEIGHTING_AFTER_CHOICE
-from degreewise.commands import refresh
+from degreewise.workbook import compute
 
 pytestmark = pytest.mark.usefixtures("fresh_caches")
 
@@ -109,7 +109,7 @@ def test_the_catalogue_is_the_one_list_of_the_family():
     names = list(catalogue.FUNCTIONS)
     defined = [n for n, f in vars(functions).items() if n.startswith("calib_") and inspect.isfunction(f)]
     assert sorted(defined) == sorted(names) and degreewise.FUNCTIONS is catalogue.FUNCTIONS
-    assert {n: f.__name__ for n, f in refresh.CALLABLE.items()} == {n.upper(): n for n in names}
+    assert {n: f.__name__ for n, f in compute.CALLABLE.items()} == {n.upper(): n for n in names}
     assert set(catalogue.TEXT_ANSWERS) <= set(names)
     for n in names:
         assert set(inspect.signature(getattr(functions, n)).parameters) <= set(catalogue.ARGUMENTS), n

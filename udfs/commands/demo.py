@@ -595,7 +595,7 @@ def write_demo(folder: Path) -> list[Path]:
 def run(folder) -> int:
     """degreewise demo: write and refresh the demo workbooks, and print each calibration (and its report
     when the report extra is installed)."""
-    from .sections import sections, summary
+    from ..workbook.sections import sections, summary
 
     folder = Path(folder)
     if folder.exists() and not folder.is_dir():

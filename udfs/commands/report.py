@@ -34,11 +34,11 @@ from reportlab.platypus import Image, PageBreak, Paragraph, SimpleDocTemplate, S
 from .. import VERSION, functions
 from ..catalogue import CAUTION, CAUTION_SENTENCE
 from ..xlsx.package import PackageError
+from ..workbook import files
+from ..workbook.formula import Area, Constant
+from ..workbook.sections import Section, number, sections
+from ..workbook.sections import Table as CellTable
 from .refresh import workbooks
-from . import files
-from .formula import Area, Constant
-from .sections import Section, number, sections
-from .sections import Table as CellTable
 
 PAPER = {"a4": A4, "letter": LETTER}
 MARGIN = 16 * mm

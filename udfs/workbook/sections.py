@@ -21,7 +21,8 @@ from ..xlsx.cells import column_letters
 from ..xlsx.package import read_package
 from . import files
 from .formula import Area, Call, Constant
-from .refresh import Refresher, Report, parameters
+from .audit import Report
+from .compute import Refresher, parameters
 
 STANDARDS = ("x", "y", "weights", "exclude")
 DATA = ("x", "y")  # shown once, in the section's heading
