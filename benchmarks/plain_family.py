@@ -169,8 +169,6 @@ def family(xs, ys, new_x, readings):
     pos = by_level >= 0
     runs = 1 + int((pos[1:] != pos[:-1]).sum())
     n1, n2 = int(pos.sum()), int((~pos).sum())
-    mu = 2 * n1 * n2 / m + 1
-    z_runs = (runs - mu) / np.sqrt(2 * n1 * n2 * (2 * n1 * n2 - m) / (m**2 * (m - 1)))
     r_all = np.arange(2, m + 1)
     half = r_all // 2
     comb = special.comb
@@ -199,7 +197,7 @@ def family(xs, ys, new_x, readings):
     inside = q_mat < dfk
     t2 = np.where(inside, q_mat * (dfk - 1) / np.where(inside, dfk - q_mat, 1.0), 0.0)
     tail = np.where(inside, 2 * special.stdtr(dfk - 1, -np.sqrt(t2)), 0.0).sum(axis=1)
-    checks = [[lof_f[k], lof_p[k]], [step_f[1], step_p[1]], [z_runs, p_runs], [dw, p_dw],
+    checks = [[lof_f[k], lof_p[k]], [step_f[1], step_p[1]], [float(runs), p_runs], [dw, p_dw],
               [sw.statistic, sw.pvalue], [lm, special.chdtrc(k, lm)], [float(turns), None],
               [float((bonf < check_at).sum()), bonf.min()],
               [float((tail < check_at).sum()), min(1.0, tail[np.argmax(cook)])]]
