@@ -25,6 +25,15 @@ def test_settings_file_is_written_and_other_keys_kept(tmp_path):
     assert conf.read_text().count("degreewise") == 1 and "Other" not in conf.read_text()  # nothing doubled or lost
 
 
+def test_the_settings_file_keeps_its_mode_and_leaves_no_temporary_file(tmp_path):
+    conf = tmp_path / "xlwings.conf"
+    conf.write_text('"UDF MODULES","lab_tools"\n')
+    conf.chmod(0o600)  # a user's private settings stay private
+    write_settings(conf, None)
+    assert conf.stat().st_mode & 0o777 == 0o600
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["xlwings.conf"]
+
+
 def test_conda_settings_and_an_existing_interpreter_are_kept(tmp_path):
     conf = tmp_path / "xlwings.conf"
     conda = '"CONDA PATH","C:\\\\Users\\\\me\\\\miniconda3"\n"CONDA ENV","lab"\n'

@@ -9,12 +9,12 @@ path would bypass).
 
 from __future__ import annotations
 
-import os
 import sys
 from pathlib import Path
 
 from .. import VERSION
 from ..catalogue import CAUTION_SENTENCE
+from ..workbook import files
 
 UDF_MODULE = "degreewise"
 MODULES, INTERPRETER, CONDA = "UDF MODULES", "INTERPRETER_WIN", ("CONDA PATH", "CONDA ENV")
@@ -72,9 +72,8 @@ def write_settings(path: Path, interpreter: str | None) -> list[str]:
         lines.append(f'"{INTERPRETER}","{interpreter}"')
         done.append(f"{INTERPRETER} = {interpreter}")
     path.parent.mkdir(parents=True, exist_ok=True)
-    tmp = path.with_name(path.name + ".tmp")
-    tmp.write_text("\n".join(lines) + "\n")
-    os.replace(tmp, path)
+    text = "\n".join(lines) + "\n"
+    files.write(path, lambda tmp: Path(tmp).write_text(text), like=path if path.exists() else None)
     return done
 
 
