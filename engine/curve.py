@@ -180,17 +180,6 @@ def _derivative(c: np.ndarray) -> np.ndarray:
     return c[1:] * np.arange(1.0, c.size) if c.size > 1 else np.zeros(1)
 
 
-def sign_changes(values: np.ndarray, z: np.ndarray, lo: float, hi: float):
-    """Cells [z_j, z_j+1] inside [lo, hi] where a row of ``values`` (on the grid z) changes sign.
-
-    A zero counts as positive, so a root on a node is found once. Returns row and
-    cell indices.
-    """
-    up = values >= 0
-    inside = (z[:-1] >= lo) & (z[1:] <= hi)
-    return np.nonzero((up[:, :-1] != up[:, 1:]) & inside[None, :])
-
-
 def newton_in_cells(func, lo, hi, f_lo, f_hi, steps: int = 8):
     """Vectorised Newton iteration kept inside each small bracketing cell [lo, hi].
 

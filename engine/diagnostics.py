@@ -96,7 +96,7 @@ def _fits_exactly(cal: Calibration, curve: Curve) -> bool:
     return cal.exact_order is not None and curve.order >= cal.exact_order
 
 
-def _back_calculate(cal: Calibration, curve: Curve):
+def back_calculate(cal: Calibration, curve: Curve):
     """x solving f(x) = y_i for each standard, nearest its own x, and how many solutions there are."""
     rows, zs = roots_of(curve, curve.from_y(cal.y), -1 - 2 * BACK_CALC_EXTEND, 1 + 2 * BACK_CALC_EXTEND)
     count = np.bincount(rows, minlength=cal.n_points)
@@ -109,6 +109,14 @@ def _back_calculate(cal: Calibration, curve: Curve):
         rows, zs = rows[first], zs[first]
     back[rows] = cal.raw_x(zs)
     return back, count
+
+
+def deviation_percent(back: np.ndarray, x: np.ndarray) -> np.ndarray:
+    """100 (back-calculated x - x) / |x| per standard; nan at x = 0."""
+    dev = np.full(x.size, np.nan)
+    with np.errstate(over="ignore"):  # a back-calculated x near the double range: an empty cell
+        np.divide(100.0 * (back - x), np.abs(x), out=dev, where=x != 0)
+    return dev
 
 
 def point_diagnostics(cal: Calibration, order: int, alpha: float = 0.05) -> PointDiagnostics:
@@ -124,7 +132,7 @@ def point_diagnostics(cal: Calibration, order: int, alpha: float = 0.05) -> Poin
         bonf = np.ones_like(bonf)
     fitted = cal.y - cal.weighted_residuals(curve.order) / cal.sqrt_w
     resid = cal.y - fitted
-    back, count = _back_calculate(cal, curve)
+    back, count = back_calculate(cal, curve)
     x = cal.x
     notes = [""] * cal.n_points
     flagged = (count != 1) | (bonf < level) | (h > _LEVERAGE_ONE) | (x == 0)
@@ -144,10 +152,7 @@ def point_diagnostics(cal: Calibration, order: int, alpha: float = 0.05) -> Poin
         if x[i] == 0:
             words.append("deviation % not defined at x = 0")
         notes[i] = "; ".join(words)
-    dev = np.full(cal.n_points, np.nan)
-    with np.errstate(over="ignore"):  # a back-calculated x near the double range: an empty cell
-        np.divide(100.0 * (back - x), np.abs(x), out=dev, where=x != 0)
-    columns = (fitted, resid, r, t, h, cook, back, dev)
+    columns = (fitted, resid, r, t, h, cook, back, deviation_percent(back, x))
     return PointDiagnostics(*map(tuple, np.array(columns).tolist()), tuple(notes))
 
 
