@@ -152,10 +152,9 @@ class Calibration:
             self.weighting.settle(x, y, functools.partial(self._fitted_under, basis[:, : weight_order(k) + 1]))
             w = self.weighting.values
             self.sqrt_w = np.sqrt(w)
-        zw = basis.copy()
         if w is not None:
-            zw *= self.sqrt_w[:, None]
-        self._q, self._r = householder_qr(zw)
+            basis *= self.sqrt_w[:, None]
+        self._q, self._r = householder_qr(basis)
         size = np.abs(self._r.diagonal())
         if not size.min() > _RANK_TOLERANCE * size.max():
             raise DataError(
@@ -167,7 +166,6 @@ class Calibration:
         self._yw = self._ys if w is None else self._ys * self.sqrt_w
         self._qty = self._q.T @ self._yw
         self._r_inv = _triangular_inverse(self._r)
-        self._leverage = np.cumsum(self._q.T ** 2, axis=0)  # row k: the leverages of order k
         if w is None:
             gmean = np.bincount(inverse, self._ys) / np.bincount(inverse)
             d_mean, d_level = self._ys - self._ys.sum() / n, self._ys - gmean[inverse]
@@ -261,6 +259,11 @@ class Calibration:
 
     def leverage(self, order: int) -> np.ndarray:
         return self._leverage[order]
+
+    @cached_property
+    def _leverage(self) -> np.ndarray:
+        """Row k: the leverages of order k (cumulative row sums of squares of Q)."""
+        return np.cumsum(self._q.T ** 2, axis=0)
 
     def scaled_residuals(self, order: int) -> np.ndarray:
         """sqrt(w) (y - fitted) times 2^-e (e fixed per calibration, y scaled into [-1, 1]): for statistics

@@ -63,14 +63,18 @@ class Curve:
         for column, c in enumerate((self.a, self._da, self._var_poly, self._dvar)):
             self.local_polynomials[: c.size, column] = c
         self._turns_in: dict[tuple[float, float], np.ndarray] = {}
-        self.stats = cal.stats(self.order)
         self.s = cal.scaled_residual_sd(self.order)  # in curve units
         self._s_var = math.ldexp(self.s, g)  # Var(mean f(z)) = _s_var^2 times the variance polynomial
-        self.df = self.stats.df_resid
+        self.df = cal.n_points - order - 1
         self.x_min = float(cal.x[cal.by_x[0]])
         self.x_max = float(cal.x[cal.by_x[-1]])
         self._t: dict[float, float] = {}
         self._bands: dict[tuple[float, float], tuple | None] = {}
+
+    @cached_property
+    def stats(self):
+        """``cal.stats(order)``: made on first use (back-calculation and bands need only s and df)."""
+        return self.cal.stats(self.order)
 
     def to_y(self, values) -> np.ndarray:
         """Curve units to the units of y."""
