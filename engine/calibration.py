@@ -263,7 +263,11 @@ class Calibration:
     @cached_property
     def _leverage(self) -> np.ndarray:
         """Row k: the leverages of order k (cumulative row sums of squares of Q)."""
-        return np.cumsum(self._q.T ** 2, axis=0)
+        h = np.empty((self.max_order + 1, self.n_points))
+        np.square(self._q[:, 0], out=h[0])
+        for k in range(1, self.max_order + 1):
+            np.add(h[k - 1], self._q[:, k] ** 2, out=h[k])
+        return h
 
     def scaled_residuals(self, order: int) -> np.ndarray:
         """sqrt(w) (y - fitted) times 2^-e (e fixed per calibration, y scaled into [-1, 1]): for statistics
@@ -439,12 +443,7 @@ class Calibration:
         rss, e, h = self._all_rss, self._residual_rows, self._leverage
         orders = np.arange(big_k + 1)
         df = n - orders - 1
-        defined = (h < 1 - 1e-12).all(axis=1)  # PRESS needs every leverage below 1
-        if defined.all():
-            press = ((e / (1.0 - h)) ** 2).sum(axis=1)
-        else:
-            with np.errstate(divide="ignore", invalid="ignore"):
-                press = np.where(defined, ((e / (1.0 - h)) ** 2).sum(axis=1), math.nan)
+        press = np.array([_press(ek, hk) for ek, hk in zip(e, h)])
         tests = self._f_tests
         lack = self._lack_of_fit_tests(tests)
         ey2 = 2 * self._ey
@@ -495,6 +494,15 @@ class Calibration:
     def step_tests(self) -> tuple[FTest, ...]:
         """``step_test`` of every order 1 .. max_order."""
         return self._f_tests["step"]
+
+
+def _press(e: np.ndarray, h: np.ndarray) -> float:
+    """sum (e_i / (1 - h_i))^2, or nan unless every leverage is below 1 (PRESS)."""
+    if not (h < 1 - 1e-12).all():
+        return math.nan
+    d = 1.0 - h
+    np.divide(e, d, out=d)
+    return float(np.square(d, out=d).sum())
 
 
 class OrderResults:
