@@ -23,7 +23,7 @@ from numpy.polynomial import polynomial as P
 
 from .calibration import Calibration
 from .curve import ENDS, EXTEND, RANGE_NODES, Curve, newton_in_cells
-from .results import InverseEstimate, Prediction
+from .results import InverseEstimate, Prediction, Uncertainty
 from .validation import check_level, check_replicates, check_vector
 
 
@@ -296,3 +296,32 @@ def inverse(cal: Calibration, readings, order: int, replicates=1, level: float =
                 parts.append(f"{name} bound lies beyond the calibrated range")
         notes[i] = "; ".join(parts)
     return tuple(map(InverseEstimate._make, zip(y0.tolist(), *cal.raw_x(zz).tolist(), notes)))
+
+
+def uncertainty(cal: Calibration, readings, order: int, replicates=1, level: float = 0.95) -> tuple[Uncertainty, ...]:
+    """Standard uncertainty of the x estimate of each reading (the mean of ``replicates`` readings), from the
+    calibration and the readings' own scatter (module docstring); the estimate is ``inverse``'s."""
+    found = inverse(cal, readings, order, replicates, level)
+    m = check_replicates(replicates, len(found))
+    curve = cal.order(order).curve
+    k = curve.t_value(level)
+    x = np.array([e.x for e in found])
+    ok = np.isfinite(x)
+    u = np.full(x.size, np.nan)
+    if ok.any():
+        z = cal.scaled_x(x[ok])
+        f, dfz, var_mean, _ = curve.local(z)
+        vf, _ = _variance_factor_and_slope(curve, z, f, dfz)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            u[ok] = np.sqrt(curve.s**2 * vf / m[ok] + var_mean) / np.abs(dfz / cal.dx_dz)
+    rows = []
+    for e, ui in zip(found, u.tolist()):
+        note = e.note
+        if math.isfinite(e.x) and not math.isfinite(ui):
+            note = "the curve is flat at this x (or the weights give no weight there): no first-order uncertainty"
+            ui = math.nan
+        elif note and math.isfinite(e.x):
+            note = f"first-order uncertainty, uncertain itself here: {note}"
+        relative = 100.0 * ui / abs(e.x) if math.isfinite(ui) and e.x != 0 else math.nan
+        rows.append(Uncertainty(e.reading, e.x, ui, curve.df, k, k * ui, relative, note))
+    return tuple(rows)

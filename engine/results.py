@@ -241,3 +241,68 @@ class SchemeResult(NamedTuple):
     spread_p: float
     picked: bool
     note: str
+
+
+class Uncertainty(NamedTuple):
+    """The standard uncertainty of one x read back from the calibration (``prediction.uncertainty``): the x
+    estimate, u, its degrees of freedom, the coverage factor k (Student t at the level), U = k u, 100 u / |x|,
+    and a note."""
+
+    reading: float
+    x: float
+    u: float
+    df: int
+    k: float
+    expanded: float
+    relative_percent: float
+    note: str
+
+
+class StandardVerdict(NamedTuple):
+    """One standard judged by a criteria set: its point index (None for a standard the analyst excluded), x,
+    back-calculated x, deviation %, its limit % (nan where the set has none), passed (None: not judged)
+    and the reason in words."""
+
+    point: int | None
+    x: float
+    back_calculated: float
+    deviation: float
+    limit: float
+    passed: bool | None
+    reason: str
+
+
+class CriterionResult(NamedTuple):
+    """One criterion of a set: its value, its limit (nan where it has none), met, and the words."""
+
+    name: str
+    value: float
+    limit: float
+    met: bool
+    detail: str
+
+
+class Verdict(NamedTuple):
+    """A criteria set applied to one curve: the standards, the criteria, whether the run is acceptable, and
+    the reasons in words (what failed, or that every criterion is met)."""
+
+    standards: tuple[StandardVerdict, ...]
+    criteria: tuple[CriterionResult, ...]
+    acceptable: bool
+    reasons: tuple[str, ...]
+
+
+class ExclusionStep(NamedTuple):
+    """A standard the set would let the analyst exclude next (``point`` of the original calibration), as it
+    stood in the fit before (back-calculated x, deviation %, limit %), whether the calibrated range shrinks
+    (its new ends in words, else empty) and the verdict of the curve refitted without it (None: the curve
+    cannot be refitted; ``problem`` says why)."""
+
+    point: int
+    x: float
+    back_calculated: float
+    deviation: float
+    limit: float
+    shrinks: str
+    then: Verdict | None
+    problem: str

@@ -156,3 +156,29 @@ def first_failing(ok: np.ndarray) -> int | None:
     """The position of the first value that fails a check (``ok`` False there), or None."""
     bad = np.flatnonzero(~ok)
     return int(bad[0]) if bad.size else None
+
+
+CRITERIA_NUMBERS = ("tolerance %", "tolerance at the lowest level %", "minimum % passing", "minimum levels")
+
+
+def check_criteria_numbers(values) -> tuple[float, float, float, int]:
+    """An acceptance set's own numbers, in ``CRITERIA_NUMBERS``' order (nan: not given): a tolerance % above 0
+    (required), a lowest-level tolerance % above 0 (default: the tolerance), a minimum % passing from 1 to 100
+    (percent, not a fraction: 75 for 75 %), a minimum number of levels of at least 2."""
+    v = [float(a) for a in values] + [math.nan] * (len(CRITERIA_NUMBERS) - len(values))
+    if len(v) > len(CRITERIA_NUMBERS):
+        raise OptionError(f"criteria has {len(v)} numbers; give at most {len(CRITERIA_NUMBERS)}: "
+                          + ", ".join(CRITERIA_NUMBERS), argument="criteria", index=len(CRITERIA_NUMBERS))
+    tolerance, lowest, passing, levels = v
+    for i, (ok, what) in enumerate((
+            (tolerance > 0, "must be a number above 0 (15 for ±15 %)"),
+            (lowest != lowest or lowest > 0, "must be above 0 (20 for ±20 %), or empty for the tolerance"),
+            (passing != passing or 1 <= passing <= 100,
+             "is in percent, from 1 to 100 (75 for 75 %; a cell formatted as % holds 0.75, which would read as "
+             "0.75 %)"),
+            (levels != levels or (levels >= 2 and levels == int(levels)),
+             "must be a whole number of at least 2, or empty"))):
+        if not ok:
+            raise OptionError(f"criteria[{i}]: the {CRITERIA_NUMBERS[i]} {_shown(v[i])} {what}", argument="criteria",
+                              index=i)
+    return tolerance, lowest if lowest == lowest else tolerance, passing, 0 if levels != levels else int(levels)

@@ -43,6 +43,9 @@ def _usable(rng: random.Random, name: str, n: int, xs: list):
         return rng.choice(["1/x", "1/x^2", "1/y", "1/y^2", [[rng.uniform(0.5, 2)] for _ in range(n)]])
     if name == "exclude" and rng.random() < 0.3:
         return [["bubble" if rng.random() < 0.2 else None] for _ in range(n)]
+    if name == "criteria":
+        return rng.choice(["ICH M10 chromatographic", "ICH M10 ligand binding", "relative standard error",
+                           "levels per order", [[15.0], [20.0], [75.0], [4.0]]])
     if name == "name":
         return rng.choice(["predict", "checks", "inverse"])
     return None

@@ -92,6 +92,8 @@ FAMILY = [  # (function, its arguments after x and y: a range of the case, an op
     (degreewise.calib_limits, ("cells", "opt", "opt", "opt", "w", "ex")),
     (degreewise.calib_weighting, ("opt", "opt", "ex")),
     (degreewise.calib_compare, ("ref_x", "ref_y", "cells", "opt", "opt", None, "ex")),
+    (degreewise.calib_acceptance, ("cells", "opt", "w", "ex")),  # the cells as the analyst's own criteria
+    (degreewise.calib_uncertainty, ("cells", "opt", "opt", "opt", "w", "ex")),
 ]
 NUMBER = st.one_of(st.sampled_from([1.0, 2.0, 3.0, 4.0, 5.0, 6.0]), st.floats(0.5, 9, allow_nan=False))
 REASON = st.one_of(st.none(), st.none(), st.sampled_from([True, "reason", "bubble"]))
@@ -306,3 +308,13 @@ def test_random_calls_through_the_runtimes_are_answered_in_words():
     calls = random_calls(200, seed=7)
     results = rt.desktop(as_com(calls))["results"] + rt.browser(as_js(calls))["results"]
     assert [r for r in results if internal(r)] == []
+
+
+def test_a_message_quoting_a_message_stays_short():
+    """A cell's text is quoted to 40 characters, so a chain of cells each reading the message of the one
+    before does not grow its messages (8,000 such cells took 12 GB when every message quoted the last)."""
+    from degreewise.coercion import describe
+
+    long = "alpha must be from 0.0001 to below 0.5 (for example 0.05), not 1"
+    assert describe(long) == "the text 'alpha must be from 0.0001 to below 0....' is not a number"
+    assert describe("n.d.") == "the text 'n.d.' is not a number"

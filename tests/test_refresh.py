@@ -291,8 +291,9 @@ def test_a_spreadsheet_program_reads_the_cached_numbers(tmp_path):
 def test_full_recalculation_flag_is_set_in_place(before, after):
     from degreewise.xlsx.package import set_full_calc_on_load
 
-    assert set_full_calc_on_load(before) == after
-    assert set_full_calc_on_load(after) == after
+    declared = b"<?xml version='1.0' encoding='UTF-8' standalone='yes'?>\n"
+    assert set_full_calc_on_load("workbook.xml", before.encode()) == declared + after.encode()
+    assert set_full_calc_on_load("workbook.xml", after.encode()) == after.encode()  # already set: as it was
 
 
 def test_filled_formulas_are_computed_with_their_references_moved(tmp_path):

@@ -376,10 +376,6 @@ def _broken(tmp_path, edit):
         'encoding="UTF-8"', 'encoding="UTF-16"').encode("utf-16")},
      "part xl/worksheets/sheet1.xml is not UTF-8 text; the refresh edits only UTF-8 parts (save the workbook "
      "again in a spreadsheet program)"),
-    (lambda p: {"xl/workbook.xml": p["xl/workbook.xml"].decode().replace(
-        'encoding="UTF-8"', 'encoding="UTF-16"').encode("utf-16")},
-     "part xl/workbook.xml is not UTF-8 text; the refresh edits only UTF-8 parts (save the workbook "
-     "again in a spreadsheet program)"),
     (lambda p: {"xl/worksheets/sheet1.xml": p["xl/worksheets/sheet1.xml"].replace(
         b'<c r="A1" t="s"><v>0</v>', b'<c r="A1" t="s"><v>99</v>')},
      "part xl/worksheets/sheet1.xml has a cell (A1) that refers to shared text '99', but the workbook has 14"),
@@ -392,6 +388,17 @@ def test_broken_parts_get_a_one_line_refusal(tmp_path, edit, message):
     report = refresh_file(path)
     assert report.error == message
     assert path.read_bytes() == original
+
+
+def test_a_utf16_workbook_part_is_edited_as_a_tree_and_written_as_utf8(tmp_path):
+    """workbook.xml is edited with lxml, which reads any declared encoding; sheets are edited in place and
+    must be UTF-8 (above)."""
+    path = _broken(tmp_path, lambda p: {"xl/workbook.xml": p["xl/workbook.xml"].decode().replace(
+        'encoding="UTF-8"', 'encoding="UTF-16"').encode("utf-16")})
+    report = refresh_file(path)
+    assert report.error is None and not report.failed
+    assert entries(path)["xl/workbook.xml"].startswith(b"<?xml version='1.0' encoding='UTF-8' standalone='yes'?>")
+    assert openpyxl.load_workbook(path).sheetnames == ["Sheet1"]
 
 
 def test_two_parts_of_one_name_are_refused(tmp_path):

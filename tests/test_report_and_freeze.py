@@ -97,7 +97,7 @@ def test_report_shows_what_the_functions_return(reports, name, paper):
 def test_report_pages_render_none_blank_nothing_beyond_the_margins(reports, name, paper, tmp_path):
     pdf = reports[name, paper]
     pages = page_count(pdf)
-    assert pages == {"weighted": 6}.get(name, 5)  # every CALIB_* cell, the 41-point prediction table too
+    assert pages == {"weighted": 6, "straight": 6}.get(name, 5)  # every CALIB_* cell, the 41-point prediction table too
     subprocess.run(["pdftoppm", "-r", "30", "-png", str(pdf), str(tmp_path / "p")], check=True)
     assert len(list(tmp_path.glob("p-*.png"))) == pages
     for page in range(1, pages + 1):
@@ -162,8 +162,11 @@ def test_freeze_keeps_values_and_every_other_part(name, tmp_path):
     formula_parts = sheet_parts_with_calib(book)
     out = tmp_path / "frozen.xlsx"
     report = freeze(book, out)
-    # the tables, labels, limits and, on the weighted sheet, the weighting comparison
-    assert report.error is None and len(report.refreshed) == 13 + bool(SCENARIOS[name].weights) + bool(SCENARIOS[name].reference_y)
+    # the tables, labels, limits and, on the weighted sheet, the weighting comparison; on the probe's the
+    # comparison and the acceptance sheet (acceptance, the uncertainty table and its labels)
+    sc = SCENARIOS[name]
+    assert report.error is None
+    assert len(report.refreshed) == 13 + bool(sc.weights) + bool(sc.reference_y) + 3 * bool(sc.criteria)
     with zipfile.ZipFile(book) as a, zipfile.ZipFile(out) as b:
         assert a.namelist() == b.namelist()
         for n in a.namelist():

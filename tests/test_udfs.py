@@ -266,7 +266,7 @@ def test_bad_cell_in_a_row_range(data):
                                                          "or column"),
     (lambda x, y: degreewise.calib_labels("chart"), "name: 'chart' is not known; use one of 'orders', 'seqf', 'coefs', "
                                               "'stats', 'predict', 'inverse', 'residuals', 'checks', 'compare', "
-                                              "'limits', 'weighting'"),
+                                              "'limits', 'weighting', 'acceptance', 'uncertainty'"),
 ])
 def test_bad_arguments(data, call, message):
     x, y = data

@@ -24,6 +24,9 @@ FUNCTIONS = {
                      "note"),
     "calib_weighting": ("scheme", "order", "sum abs deviation %", "largest abs deviation %", "spread p-value",
                         "picked", "note"),
+    "calib_acceptance": ("item", "x", "back-calculated x", "value", "limit", "result", "detail"),
+    "calib_uncertainty": ("x estimate", "standard uncertainty", "df", "coverage factor", "expanded uncertainty",
+                          "relative uncertainty %", "note"),
     "calib_labels": None,
     "calib_version": None,
 }
@@ -53,8 +56,11 @@ ARGUMENTS = {
     "ref_y": "responses of the reference calibration's standards, same size as ref_x",
     "at": "x values at which to compare the two curves' responses (optional)",
     "blank": "responses of blank samples (x = 0) for the blank method (optional)",
-    "name": "which table: predict, inverse or residuals (or orders, seqf, coefs, stats, checks, compare, limits, "
-            "weighting)",
+    "criteria": "the criteria set: ICH M10 chromatographic, ICH M10 ligand binding, relative standard error or "
+                "levels per order; or your own numbers in cells: tolerance %, lowest-level tolerance %, minimum % "
+                "passing, minimum levels",
+    "name": "which table: predict, inverse, residuals or uncertainty (or orders, seqf, coefs, stats, checks, "
+            "compare, limits, weighting, acceptance)",
 }
 
 LIMITS_CAUTION = "estimates from one calibration: confirm them with samples near the limit, as the methods require"

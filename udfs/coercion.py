@@ -70,6 +70,14 @@ def number(v) -> float:
     return float(v)
 
 
+QUOTED = 40  # characters of a cell's text repeated in a message: a message read by a message stays short
+
+
+def quoted(text: str) -> str:
+    """A cell's text in quotes, cut to QUOTED characters ("..." marks the cut)."""
+    return f"'{text}'" if len(text) <= QUOTED else f"'{text[:QUOTED - 3]}...'"
+
+
 def describe(v) -> str | None:
     """Why v is not a usable number, or None when it is one."""
     if isinstance(v, bool):
@@ -101,8 +109,8 @@ def describe(v) -> str | None:
         try:
             float(text)
         except ValueError:
-            return f"the text '{text}' is not a number"
-        return f"the text '{text}' is a number stored as text"
+            return f"the text {quoted(text)} is not a number"
+        return f"the text {quoted(text)} is a number stored as text"
     return f"a value of type {type(v).__name__} is not a number"
 
 

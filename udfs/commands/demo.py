@@ -307,6 +307,11 @@ def _row_heights(ws, sc: Scenario, blocks) -> None:
         blocks.append((_cell(samples_anchor(len(sc.x)), -1), [("sample reading",) + HEADERS["inverse"]]))
     if sc.excluded:
         blocks.append(("C2", _exclude_cells(sc)))
+    _fit_rows(ws, blocks)
+
+
+def _fit_rows(ws, blocks) -> None:
+    """Row heights for the wrapped texts of ``blocks`` ((anchor, rows) as the cells will hold them)."""
     need: dict[int, int] = {}
     for anchor, rows in blocks:
         col0, row0, _, _ = range_boundaries(anchor)
@@ -355,6 +360,50 @@ def compare_sheet(wb: Workbook, sc: Scenario) -> None:
     for r in range(2, rows + 2):
         ws.row_dimensions[r].height = LINE * 3
     _page_setup(ws, f"A1:N{max(rows, len(sc.x), len(sc.reference_y)) + 1}", ())  # every standard of both runs
+
+
+def acceptance_sheet(wb: Workbook, sc: Scenario) -> None:
+    """The method's own acceptance criteria in cells, CALIB_ACCEPTANCE of today's standards under them, and the
+    samples' standard uncertainties (CALIB_UNCERTAINTY) below."""
+    from .. import functions
+    from ..engine.validation import CRITERIA_NUMBERS
+
+    ws = wb.create_sheet("Acceptance")
+    today = wb[sc.name.capitalize()]
+    n = len(sc.x)
+    ws["A1"] = "method criteria"
+    for i, (label, v) in enumerate(zip(CRITERIA_NUMBERS, sc.criteria), start=2):
+        ws.cell(i, 1, label).alignment = WRAP
+        ws.cell(i, 2, v).alignment = WRAP
+    criteria = f"$B$2:$B${len(sc.criteria) + 1}"
+    x, y, w, e = (f"'{today.title}'!{a}" if a else "" for a in _args(sc, n))
+    ws["D1"] = _formula("CALIB_ACCEPTANCE", x, y, criteria, "", w, e)
+    xs, ys, ex = [[v] for v in sc.x], [[v] for v in sc.y], _exclude_cells(sc)
+    table = functions.calib_acceptance(xs, ys, [[v] for v in sc.criteria], None, sc.weights, ex)
+    at = len(table) + 3  # the uncertainty table's header row
+    ws[f"A{at}"] = "sample reading"
+    for i, v in enumerate(sc.samples, start=at + 1):
+        ws.cell(i, 1, v)
+    ws[f"D{at}"] = '=CALIB_LABELS("uncertainty")'
+    readings = f"$A${at + 1}:$A${at + len(sc.samples)}"
+    ws[f"D{at + 1}"] = _formula("CALIB_UNCERTAINTY", x, y, readings, "", "", "", w, e)
+    uncertainty = [HEADERS["uncertainty"]] + functions.calib_uncertainty(xs, ys, [[v] for v in sc.samples], None,
+                                                                          None, None, sc.weights, ex)
+    for h in (_span("A1", 1, 2), _span("D1", 1, 7), _span(f"A{at}", 1, 1), _span(f"D{at}", 1, 7)):
+        _header(ws, h)
+    _wrap(ws, _span("D2", len(table) - 1, 7))
+    _wrap(ws, _span(f"D{at + 1}", len(sc.samples), 7))
+    for letter, width in {"A": 20, "B": 9, "C": 2, "D": 19, "I": 17, "J": 66}.items():
+        ws.column_dimensions[letter].width = width
+    for col in range(5, 9):
+        ws.column_dimensions[get_column_letter(col)].width = NUMBER_WIDTH
+    blocks = [("D1", table), (f"D{at}", uncertainty)]
+    _number_formats(ws, blocks)
+    for r in range(2, len(table) + 1):  # deviations % and the criteria's values: two decimals
+        ws[f"G{r}"].number_format = "0.00"
+        ws[f"I{r}"].alignment = Alignment(wrap_text=True, vertical="top", horizontal="center")
+    _fit_rows(ws, blocks + [("A2", [[label] for label in CRITERIA_NUMBERS])])
+    _page_setup(ws, f"A1:J{at + len(sc.samples)}", ())
 
 
 def _page_setup(ws, area: str, breaks: tuple[int, ...]) -> None:
@@ -501,6 +550,8 @@ def build(sc: Scenario, path: Path) -> Path:
     calibration_sheet(wb, sc)
     if sc.reference_y:
         compare_sheet(wb, sc)
+    if sc.criteria:
+        acceptance_sheet(wb, sc)
     wb.save(path)
     return path
 

@@ -15,8 +15,7 @@ import re
 from dataclasses import dataclass
 
 from ..catalogue import FUNCTIONS
-from ..xlsx.cells import CELL, column_letters, column_number
-from ..xlsx.package import MAX_COL, MAX_ROW
+from ..xlsx.cells import CELL, MAX_COL, MAX_ROW, column_letters, column_number
 
 NAMES = frozenset(name.upper() for name in FUNCTIONS)  # the family, as the spreadsheet shows it
 MENTION = re.compile(r"CALIB_[A-Z]+\s*\(", re.IGNORECASE)

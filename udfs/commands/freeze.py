@@ -20,7 +20,8 @@ from pathlib import Path
 from lxml import etree
 
 from .. import VERSION
-from ..xlsx.package import MAIN, PackageError, SheetText, add_part, edit_xml, read_package, write_package, xml_bytes
+from ..xlsx.package import (MAIN, PackageError, Workbook, add_part, edit_xml, read_package, write_package,
+                            xml_bytes)
 from . import files
 from .refresh import Refresher, Report
 
@@ -96,13 +97,12 @@ def freeze(book: Path, out: Path) -> Report:
         if report.blocked or report.left_alone or report.failed:
             raise PackageError("not every CALIB_* cell could be computed (listed below); nothing was written")
         parts.update(changed)
-        edits: dict[str, SheetText] = {}
+        book_now, sheets = Workbook(parts), {}
         for f in refresher.formulas:
-            part = refresher.book.sheet_parts[f.sheet]
-            text = edits.setdefault(part, SheetText(parts[part].decode("utf-8")))
-            text.set_cell(f.row, f.col, frozen_cell(text.cell(f.row, f.col), text.p))
-        for part, text in edits.items():
-            parts[part] = text.render().encode("utf-8")
+            sheet = sheets.get(f.sheet) or sheets.setdefault(f.sheet, book_now.read_sheet(f.sheet))
+            sheet.set_cells(f.row, {f.col: frozen_cell(sheet.cell_markup(f.row, f.col), sheet.prefix)})
+        for sheet in sheets.values():
+            parts[sheet.part] = sheet.render()
         added += _describe(parts, note(book, digest, time.strftime("%Y-%m-%d %H:%M:%S %z")))
         files.write(out, lambda tmp: write_package(tmp, infos, parts, added))  # a new file's usual mode
     except PackageError as err:

@@ -31,9 +31,10 @@ from typing import NamedTuple
 
 from .. import FUNCTIONS, functions
 from ..catalogue import TEXT_ANSWERS
-from ..xlsx.cells import cell_name, column_letters
-from ..xlsx.package import (MAX_COL, MAX_ROW, PackageError, Sheet, SheetText, Workbook, dynamic_array_metadata,
-                            read_package, set_full_calc_on_load, text_of, write_package)
+from ..xlsx.cells import MAX_COL, MAX_ROW, cell_name, column_letters
+from ..xlsx.package import (PackageError, Workbook, dynamic_array_metadata, read_package, set_full_calc_on_load,
+                            write_package)
+from ..xlsx.sheet import Sheet
 from . import files
 from .dependencies import graph_of
 from .formula import (MENTION, Area, Call, Constant, Unsupported, areas_of, parse_call, quote_sheet, reference,
@@ -253,35 +254,25 @@ def _block(sheet: Sheet, area: Area):
     """Cell values of ``area`` as the spreadsheet passes them: a scalar for one cell, else rows (a whole
     column down to the sheet's last row, as the program hands it). Rows past the last stored cell are one
     shared blank row, as xlwings' converter puts them back, so a huge range costs a pointer per row."""
-    values, width = sheet.values, area.right - area.left + 1
     top, bottom = (1, MAX_ROW) if area.top is None else (area.top, area.bottom)
-    filled = bottom
-    if (bottom - top + 1) * width > len(values) + len(sheet.formulas):  # larger than the stored cells
-        filled = max((r for (r, c) in (*values, *sheet.formulas) if top <= r <= bottom
-                      and area.left <= c <= area.right), default=top - 1)
-    if width == 1:  # the usual case, one column
-        rows = [[values.get((r, area.left))] for r in range(top, filled + 1)]
-    else:
-        rows = [[values.get((r, c)) for c in range(area.left, area.right + 1)] for r in range(top, filled + 1)]
-    rows += [[None] * width] * (bottom - filled)
+    rows = sheet.block(top, bottom, area.left, area.right)
     return rows[0][0] if len(rows) == 1 and len(rows[0]) == 1 else rows
 
 
 class Refresher:
     """One workbook's CALIB_* formulas, computed in dependency order, sheet by sheet: after the last
     formula that reads or writes a sheet, its changed XML replaces its part (``parts`` is updated in
-    place) and the sheet is forgotten. Every sheet is read once for its formulas and again when a formula
-    first needs it (after the refresh, as refreshed), so that no more than the sheets in use are in memory."""
+    place) and the sheet is forgotten. Every sheet is read once (``xlsx.sheet.Sheet``: where its rows are
+    stored and its formulas, not its cells), and a row's cells only when a formula reads or writes them."""
 
     def __init__(self, parts: dict[str, bytes] | Spooled):
         self.parts = parts if isinstance(parts, Spooled) else Spooled(parts)
         self.book = Workbook(self.parts)
         self.sheets: dict[str, Sheet] = {}  # the sheets in memory
-        self.edits: dict[str, SheetText] = {}  # part -> its text being edited
         self.formulas: list[Formula] = []
         self._unstored_of: dict[str, tuple[Sheet, dict]] = {}  # by sheet name, for the sheet in memory
         for name in self.book.sheet_parts:
-            sheet = self.book.read_sheet(name)
+            sheet = self.sheets[name] = self.book.read_sheet(name)  # kept until its last formula is done
             masters = {attrs.get("si"): (r, c, text) for (r, c), (text, attrs) in sheet.formulas.items()
                        if attrs.get("t") == "shared" and text}
             for (r, c), (text, attrs) in sheet.formulas.items():
@@ -333,7 +324,7 @@ class Refresher:
                        if a.get("t") == "shared" and t}
             found = {}
             for (r, c), (text, attrs) in sheet.formulas.items():
-                if (r, c) in sheet.values:
+                if (r, c) in sheet.stored:
                     continue
                 if not text and attrs.get("si") in masters:
                     r0, c0, master = masters[attrs["si"]]
@@ -371,13 +362,13 @@ class Refresher:
                     raise refused(f"the sheet '{target.sheet}' does not exist")
                 other = self.sheet(target.sheet)
                 self._compute_unstored(other, target, depth + 1)
-                return other.values.get((target.top, target.left))
+                return other.value(target.top, target.left)
 
             from .arithmetic import evaluate_arithmetic  # openpyxl's tokenizer, for such workbooks only
 
             value = evaluate_arithmetic(text, cell, refused)
             if value is not None:
-                sheet.values[key] = value
+                sheet.write(*key, value)
 
     def run(self, report: Report, workers: int = 1) -> tuple[dict[str, bytes], list[str]]:
         """Compute every CALIB_* cell; return the changed parts and the names of new parts.
@@ -422,7 +413,7 @@ class Refresher:
                 graph[reader].add(anchor)
             self.parts.parts.clear()
             self.parts.parts.update(before)
-            self.sheets, self.edits, self._unstored_of = {}, {}, {}
+            self.sheets, self._unstored_of = {}, {}
             for name, n in marks.items():
                 del getattr(report, name)[n:]
             report.changed = False
@@ -430,8 +421,8 @@ class Refresher:
         if arrays:
             added = dynamic_array_metadata(self.parts, self.book.workbook_part, self.book.workbook_rels)[1]
         if changed:
-            wb = text_of(self.book.workbook_part, self.parts[self.book.workbook_part])
-            changed[self.book.workbook_part] = set_full_calc_on_load(wb).encode("utf-8")
+            part = self.book.workbook_part
+            changed[part] = set_full_calc_on_load(part, self.parts[part])
         return changed, added
 
     def _compute(self, keys, plan, report: Report) -> tuple[dict[str, bytes], bool]:
@@ -488,13 +479,12 @@ class Refresher:
     def _finish(self, part: str, changed: dict) -> None:
         """Forget the sheets of ``part``; store its XML in ``parts`` (and ``changed``) if its bytes change."""
         for name in [n for n, s in self.sheets.items() if s.part == part]:
-            del self.sheets[name]
+            sheet = self.sheets.pop(name)
             self._unstored_of.pop(name, None)
-        text = self.edits.pop(part, None)
-        if text is not None:
-            data = text.render().encode("utf-8")
-            if data != self.parts[part]:
-                self.parts[part] = changed[part] = self.parts.keep(data)
+            if sheet.edited:
+                data = sheet.render()
+                if data != self.parts[part]:
+                    self.parts[part] = changed[part] = self.parts.keep(data)
 
     def _compute_in_processes(self, shares, plan, report: Report, order):
         """``_compute`` of each share, the first here and each other in a forked process (the shares
@@ -567,10 +557,10 @@ class Refresher:
         if height == width == 1:
             return None
         sheet, anchor = self.sheet(f.sheet), (f.row, f.col)
-        values, formulas = sheet.values, sheet.formulas
-        covered = ((f.row + i, f.col + j) for i in range(height) for j in range(width))
-        in_the_way = next((k for k in covered if k != anchor and k not in old_cells
-                           and (k in values or k in formulas)), None)
+        covered = sheet.block(f.row, bottom, f.col, right)
+        in_the_way = next((k for i, row in enumerate(covered) for j, value in enumerate(row)
+                           for k in [(f.row + i, f.col + j)] if k != anchor and k not in old_cells
+                           and (value is not None or k in sheet.formulas)), None)
         if in_the_way is not None:
             return f"{size} would cover {cell_name(*in_the_way)}, which is not empty; nothing was overwritten"
         boxes = [("the merged cells", box) for box in sheet.merged] + [(f"the table {name}", box)
@@ -584,9 +574,6 @@ class Refresher:
     def _write(self, f: Formula, rows, cm, report: Report) -> bool:
         """Store one result; True when a cell was given the dynamic-array record ``cm``."""
         sheet = self.sheet(f.sheet)
-        text = self.edits.get(sheet.part)
-        if text is None:
-            text = self.edits[sheet.part] = SheetText(text_of(sheet.part, self.parts[sheet.part]), sheet.part)
         height, width = len(rows), max(len(r) for r in rows)
         anchor = (f.row, f.col)
         old_cells = set()
@@ -609,15 +596,20 @@ class Refresher:
         changed = f.previous != (new if array else None)
         if height > 1 or width > 1:
             report.spills.append((f.where, new))
-        values, styles, listed, cleared = sheet.values, sheet.styles, [], []  # the audit trail, as text
+        listed, cleared = [], []  # the audit trail, as text
         bottom, right = f.row + height - 1, f.col + width - 1
+        sheet.parse_rows(f.row, bottom)
+        if f.previous is not None and f.previous.top is not None:
+            sheet.parse_rows(f.previous.top, f.previous.bottom)
         for key in sorted(old_cells):
             if f.row <= key[0] <= bottom and f.col <= key[1] <= right:
                 continue
-            style = styles.get(key)
-            text.set_cell(*key, text.cell_xml(*key, None, style) if style is not None else None)
-            if key in values:
-                cleared.append(f"{cell_name(*key)} {_change(values.pop(key), None)}")
+            style = sheet.style(*key)
+            sheet.set_cells(key[0], {key[1]: sheet.cell_xml(*key, None, style) if style is not None else None})
+            old = sheet.value(*key)
+            if old is not None:
+                sheet.write(*key, None)
+                cleared.append(f"{cell_name(*key)} {_change(old, None)}")
         ref = None if not array else (cell_name(f.row, f.col) if height == width == 1 else
                                       f"{cell_name(f.row, f.col)}:{cell_name(new.bottom, new.right)}")
         letters = [column_letters(f.col + j) for j in range(width)]
@@ -629,26 +621,23 @@ class Refresher:
             for j, value in enumerate(row):
                 c = f.col + j
                 key = (r, c)
-                style = styles.get(key)
-                old = values.get(key)
+                style = sheet.style(r, c)
+                old = sheet.value(r, c)
                 if _agrees(old, value):  # another machine's last digits: the stored value stays
                     value = old
                 if i == 0 and j == 0:
                     if f.shift is not None:  # a filled formula keeps its stored <f> element as it is
-                        cells[c] = text.cell_xml(r, c, value, style, f_xml=text.formula_xml(r, c))
+                        cells[c] = sheet.cell_xml(r, c, value, style, stored_f=sheet.formulas[key])
                     else:
-                        cells[c] = text.cell_xml(r, c, value, style, f.text, ref, cell_cm)
+                        cells[c] = sheet.cell_xml(r, c, value, style, f.text, ref, cell_cm)
                 elif value is None and style is None:
                     cells[c] = None
                 else:
-                    cells[c] = text.cell_xml(r, c, value, style)
+                    cells[c] = sheet.cell_xml(r, c, value, style)
                 if old != value or isinstance(old, bool) != isinstance(value, bool):
                     listed.append(f"{letters[j]}{r} {_change(old, value)}")
-                    if value is None:
-                        del values[key]
-                    else:
-                        values[key] = value
-            text.set_cells(r, cells)
+                    sheet.write(r, c, value)
+            sheet.set_cells(r, cells)
         listed += cleared
         if listed:  # one line of text per formula, however large its table (no object per cell is kept)
             trail = listed[0].split(" ", 1)[1] if height == width == len(listed) == 1 else "; ".join(listed)

@@ -136,9 +136,12 @@ TITLES = {
     "CALIB_COMPARE": ("Compared with an earlier calibration", (8,), {1: 5, 2: 5, 3: 4, 4: 4, 5: 4, 6: 3}),
     "CALIB_LIMITS": ("Detection and quantitation limits", (5,), {}),
     "CALIB_WEIGHTING": ("Weighting schemes compared", (6,), {}),
+    "CALIB_ACCEPTANCE": ("Acceptance of the run under a criteria set", (6,), {}),
+    "CALIB_UNCERTAINTY": ("Standard uncertainty of the samples read back", (7,), {}),
 }
 # headerless tables get the values they were computed for as a first column (cells of the workbook too)
-INPUTS = {"CALIB_PREDICT": ("new_x", "new x"), "CALIB_INVERSE": ("reading", "reading")}
+INPUTS = {"CALIB_PREDICT": ("new_x", "new x"), "CALIB_INVERSE": ("reading", "reading"),
+          "CALIB_UNCERTAINTY": ("reading", "reading")}
 
 
 def _numbers(values):

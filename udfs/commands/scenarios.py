@@ -27,6 +27,8 @@ class Scenario:
     excluded: tuple[tuple[int, str], ...] = ()  # (position in x, reason): standards kept on the record only
     reference_y: tuple[float, ...] = ()  # the same standards' responses in an earlier calibration
     check_levels: tuple[float, ...] = ()  # x where today's curve is compared with the earlier one
+    criteria: tuple[float, ...] = ()  # the method's own acceptance numbers (tolerance %, at the lowest level %,
+    # minimum % passing, minimum levels), for CALIB_ACCEPTANCE on a sheet of their own
 
 
 def _round(values, digits):
@@ -60,11 +62,12 @@ def straight_probe() -> Scenario:
         "straight", "Probe reading against ion standard M", "ion M (mg/L)", "probe signal (V)",
         _round(x, 3) + (25.0,), _round(y, 5) + (0.40210,), None, 1,
         "R-squared creeps up with every added term, but no term beyond x is significant. One injection is "
-        "excluded with its reason, and today's curve is compared with last month's.",
+        "excluded with its reason, today's curve is compared with last month's, and the run is judged by the "
+        "method's own acceptance criteria (one standard at the lowest level fails them).",
         samples=_round([0.25, 0.9, 1.65], 4),
         blanks=_round(0.0042 + np.random.default_rng(7352).normal(0.0, 0.0035, 6), 5),
         excluded=((12, "air bubble, inj. 3"),),
-        reference_y=_round(earlier, 5), check_levels=(10.0, 50.0, 90.0),
+        reference_y=_round(earlier, 5), check_levels=(10.0, 50.0, 90.0), criteria=(2.0, 3.0, 75.0, 5.0),
     )
 
 

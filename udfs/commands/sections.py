@@ -30,10 +30,11 @@ SETTINGS = {"max_order": ("max order", "default"), "alpha": ("alpha", "0.05 (def
             "level": ("level", "0.95 (default)"), "replicates": ("replicates", "1 (default)"),
             "weights": ("weights", "none"), "exclude": ("exclude", "none"), "blank": ("blank readings", "none"),
             "new_x": ("new x", None), "reading": ("readings", None), "ref_x": ("reference x", None),
-            "ref_y": ("reference y", None), "at": ("compared at", "none")}
+            "ref_y": ("reference y", None), "at": ("compared at", "none"), "criteria": ("criteria", None)}
 GRID = 161  # points of the curve and band in the report's chart
+# tables whose settings say which curve they describe
 CHARTED = ("CALIB_COEFS", "CALIB_STATS", "CALIB_PREDICT", "CALIB_INVERSE", "CALIB_RESIDUALS", "CALIB_CHECKS",
-           "CALIB_LIMITS")  # tables whose settings say which curve they describe
+           "CALIB_LIMITS", "CALIB_ACCEPTANCE", "CALIB_UNCERTAINTY")
 
 
 def where(area: Area) -> str:
@@ -91,7 +92,7 @@ class Table:
         return None
 
 
-HEADERLESS = ("CALIB_PREDICT", "CALIB_INVERSE", "CALIB_RESIDUALS")
+HEADERLESS = ("CALIB_PREDICT", "CALIB_INVERSE", "CALIB_RESIDUALS", "CALIB_UNCERTAINTY")
 
 
 @dataclass
@@ -150,8 +151,8 @@ class Book:
     def block(self, area: Area) -> list:
         """The stored values of ``area``, row by row."""
         sheet = self.refresher.sheet(area.sheet)
-        top, bottom = (area.top, area.bottom) if area.top is not None else (1, max(sheet.max_row, 1))
-        return [[sheet.values.get((r, c)) for c in range(area.left, area.right + 1)] for r in range(top, bottom + 1)]
+        top, bottom = (area.top, area.bottom) if area.top is not None else (1, max(sheet.last_row(), 1))
+        return sheet.block(top, bottom, area.left, area.right)
 
     def cells(self, area: Area) -> list:
         """The values of a one-row or one-column range, in order."""
@@ -161,7 +162,7 @@ class Book:
         """The text above a column of standards (its header), if there is one."""
         if area.top is None or area.top < 2:
             return None
-        value = self.refresher.sheet(area.sheet).values.get((area.top - 1, area.left))
+        value = self.refresher.sheet(area.sheet).value(area.top - 1, area.left)
         return value if isinstance(value, str) else None
 
     def _words(self, value) -> str:
@@ -279,6 +280,20 @@ def summary(s: Section) -> list[str]:
             lines.append(f"  compared with an earlier calibration ({t.where}):")
             for item, *_, p, verdict, detail in t.rows[1:4]:
                 lines.append(f"    {item:<17} {verdict} (p {p_text(p)}): {detail.split('; ')[0]}")
+    for t in s.tables:
+        if t.name == "CALIB_ACCEPTANCE" and t.rows and t.message is None:
+            criteria = next(r[5] for r in t.rows if r[0] == "criteria")
+            failing = [r[0] for r in t.rows if r[5] == "fail"]
+            lines.append(f"  acceptance under {criteria} ({t.where}): " + "; ".join(
+                f"{r[5]}: {r[6]}" for r in t.rows if r[0] == "verdict"))
+            if failing:
+                lines.append(f"    failing: {', '.join(failing)}; could exclude: " + "; ".join(
+                    f"{r[6].split(':')[0]} ({r[5]})" for r in t.rows if r[0].startswith("could exclude ")))
+        if t.name == "CALIB_UNCERTAINTY" and t.rows and t.message is None:
+            lines.append(f"  standard uncertainties of the samples ({t.where}; x estimate, u, U = k u):")
+            for x, u, _, k, big, _, note in t.rows:
+                lines.append(f"    {number(x, 5):>10}  u {number(u, 3)}, U {number(big, 3)} (k = {number(k, 4)})"
+                             if x is not None else f"    {note}")
     weighting = s.first("CALIB_WEIGHTING")
     if weighting:
         for scheme, order, *_, picked, note in weighting.rows[1:]:

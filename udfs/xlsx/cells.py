@@ -5,6 +5,7 @@ from __future__ import annotations
 import functools
 import re
 
+MAX_ROW, MAX_COL = 1_048_576, 16_384  # the last row and column of a sheet (XFD)
 CELL = r"\$?([A-Za-z]{1,3})\$?(\d{1,7})"  # an A1 address, each part optionally absolute: column, row
 
 
