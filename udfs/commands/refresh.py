@@ -806,9 +806,21 @@ def workbooks(paths) -> list[Path]:
     return found
 
 
-def _one(args):
-    path, check, backup = args
-    return refresh_file(path, check, backup, workers=1)
+COLLECT_BOOKS = 50  # workbooks between full garbage collections in a folder run
+_refreshed_here = 0  # workbooks this process refreshed for a folder run
+
+
+def _one(args) -> Report:
+    """One workbook of a folder run, in a worker or in the run's own process. Each workbook leaves cycles
+    (XML parsers and their handlers) that only a full garbage collection frees: every ``COLLECT_BOOKS``
+    workbooks there is one, so that memory stays flat however many workbooks a process refreshes."""
+    global _refreshed_here
+    path, check, backup, workers = args
+    report = refresh_file(path, check, backup, workers=workers)
+    _refreshed_here += 1
+    if _refreshed_here % COLLECT_BOOKS == 0:
+        gc.collect()
+    return report
 
 
 def run(paths, check: bool = False, backup: bool = False, jobs: int | None = None, report_to=None) -> int:
@@ -826,7 +838,7 @@ def run(paths, check: bool = False, backup: bool = False, jobs: int | None = Non
     if not books:
         print("no workbooks (.xlsx, .xlsm) found in " + ", ".join(map(str, paths)))
         return 2
-    tasks = [(f, check, backup) for f in books]
+    tasks = [(f, check, backup, 1 if len(books) > 1 else jobs) for f in books]
     bar = None
     if len(tasks) > 1 and sys.stderr.isatty():
         from tqdm import tqdm
@@ -863,7 +875,7 @@ def run(paths, check: bool = False, backup: bool = False, jobs: int | None = Non
             _in_pool(tasks, jobs, finished)
         else:
             for t in tasks:
-                finished(refresh_file(*t, workers=jobs))
+                finished(_one(t))
         if done > 1:
             summary = (f"{done} workbooks: {done - len(bad)} read and computed, {len(bad)} not refreshed"
                        + (": " + ", ".join(bad) if bad else ""))
