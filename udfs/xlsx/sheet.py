@@ -331,6 +331,11 @@ class Sheet:
         cell = self._row(row).get(col)
         return None if cell is None else cell[0]
 
+    def row_state(self, row: int) -> tuple[dict, dict]:
+        """A row as the refresh has left it so far: {col: (value, style, start, end)} as stored and {col: value}
+        as written since (the writer of a large result reads its rows this way, not cell by cell)."""
+        return self._row(row), self._written.get(row, {})
+
     def style(self, row: int, col: int) -> str | None:
         cell = self._row(row).get(col)
         return None if cell is None else cell[1]
@@ -417,11 +422,10 @@ class Sheet:
     def cell_xml(self, row: int, col: int, value, style: str | None, formula: str | None = None,
                  array_ref: str | None = None, cm: str | None = None, stored_f: tuple | None = None) -> str:
         """XML of one cell holding ``value``, with a formula for an anchor (or ``stored_f``, the (text,
-        attributes) of its stored <f> element)."""
+        attributes) of its stored <f> element). Texts and the file's own attribute values are escaped; a
+        number's repr needs no escaping."""
         p = self.prefix
-        attrs = {"r": f"{column_letters(col)}{row}"}
-        if style is not None:
-            attrs["s"] = style
+        head = f'<{p}c r="{column_letters(col)}{row}"' + ("" if style is None else f" s={quoteattr(style)}")
         f = ""
         if stored_f is not None:
             text, f_attrs = stored_f
@@ -429,20 +433,18 @@ class Sheet:
         elif formula is not None:
             f = tag(p + "f", {"t": "array", "ref": array_ref} if array_ref else {}) + f"{escape(formula)}</{p}f>"
             if cm:
-                attrs["cm"] = cm
+                head += f" cm={quoteattr(cm)}"
         if value is None:
-            body = f
+            return f"{head}>{f}</{p}c>" if f else head + "/>"
+        if isinstance(value, bool):
+            head, text = head + ' t="b"', "1" if value else "0"
+        elif isinstance(value, (int, float)):
+            text = repr(value)
+        elif isinstance(value, str) and value.upper() == "#SPILL!":
+            head, text = head + ' t="e"', value
         else:
-            if isinstance(value, bool):
-                attrs["t"], text = "b", str(int(value))
-            elif isinstance(value, (int, float)):
-                text = repr(value)
-            elif isinstance(value, str) and value.upper() == "#SPILL!":
-                attrs["t"], text = "e", value
-            else:
-                attrs["t"], text = "str", str(value)
-            body = f + f"<{p}v>{escape(text)}</{p}v>"
-        return tag(p + "c", attrs) + body + f"</{p}c>" if body else tag(p + "c", attrs, empty=True)
+            head, text = head + ' t="str"', escape(str(value))
+        return f"{head}>{f}<{p}v>{text}</{p}v></{p}c>"
 
     def render(self) -> bytes:
         """The part: untouched rows as they were stored, edited rows written anew, in row order; the
