@@ -7,11 +7,11 @@ shortest way to one order's coefficients.
 """
 
 from .calibration import Calibration, default_max_order
-from .compare import compare
+from .compare import compare, shared_order
 from .diagnostics import curve_checks, point_diagnostics
 from .errors import CalibrationError, DataError, OptionError, OrderError, WeightError
 from .limits import detection_limits
-from .prediction import inverse, predict, uncertainty
+from .prediction import inverse, predict, uncertainty, why_no_estimate
 from .selection import choose_order, forward_steps, lack_of_fit_words, mandel_test
 from .validation import DEFAULT_RULE, RULES
 from .weight_choice import compare_weightings, spread_exponent
@@ -20,7 +20,7 @@ __all__ = [
     "Calibration", "CalibrationError", "DataError", "DEFAULT_RULE", "OptionError", "OrderError", "RULES",
     "WeightError", "choose_order", "compare", "compare_weightings", "curve_checks", "default_max_order",
     "detection_limits", "fit", "forward_steps", "inverse", "lack_of_fit_words", "mandel_test",
-    "point_diagnostics", "predict", "spread_exponent", "uncertainty",
+    "point_diagnostics", "predict", "shared_order", "spread_exponent", "uncertainty", "why_no_estimate",
 ]
 
 

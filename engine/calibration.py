@@ -37,6 +37,8 @@ DEFAULT_MAX_ORDER = 4
 ROUNDING = 2.0**-42
 # smallest |R_jj| / max |R_jj| of the scaled basis accepted as full rank (far below any real calibration)
 _RANK_TOLERANCE = 1e-12
+# a leverage above this is 1 in double precision: that standard alone fixes the curve at its x
+LEVERAGE_ONE = 1 - 1e-10
 _LN2, _LN_2PI = math.log(2.0), math.log(2.0 * math.pi)
 
 
@@ -66,6 +68,11 @@ def _frozen(a: np.ndarray) -> np.ndarray:
     return a
 
 
+def _own(a: np.ndarray, given) -> np.ndarray:
+    """``a``, copied where it shares memory with the caller's ``given`` (which the caller may change later)."""
+    return a.copy() if isinstance(given, np.ndarray) and np.may_share_memory(a, given) else a
+
+
 def default_max_order(n_points: int, n_distinct: int) -> int:
     """max(min(4, m - 2, n - 5), min(2, m - 2, n - 3)) for n points at m distinct x.
 
@@ -86,8 +93,7 @@ class Calibration:
     """
 
     def __init__(self, x, y, max_order=None, weights=None):
-        x = check_vector(x, "x")
-        y = check_vector(y, "y")
+        x, y = _own(check_vector(x, "x"), x), _own(check_vector(y, "y"), y)
         if x.size != y.size:
             raise DataError(
                 f"x has {x.size} values and y has {y.size}: give one y for every x", argument="y"
@@ -130,7 +136,7 @@ class Calibration:
         else:
             k = check_whole(max_order, "max_order")
             check_order(k, "max_order", n, m)
-        self.x, self.y = x, y
+        self.x, self.y = _frozen(x), _frozen(y)
         self.by_x = by_x  # a stable sort of the points by x
         self.n_points, self.n_distinct, self.max_order = n, m, k
 
@@ -376,6 +382,10 @@ class Calibration:
         exact = (self._all_rss <= self._ss_rounding).nonzero()[0]
         return int(exact[0]) if exact.size else None
 
+    def fits_exactly(self, order: int) -> bool:
+        """The residuals of ``order`` are rounding error (``exact_order``): no statistic rests on their scatter."""
+        return self.exact_order is not None and order >= self.exact_order
+
     @cached_property
     def _ss_lack_of_fit(self) -> np.ndarray:
         return np.maximum(self._all_rss - self._ss_pure, 0.0)
@@ -497,8 +507,8 @@ class Calibration:
 
 
 def _press(e: np.ndarray, h: np.ndarray) -> float:
-    """sum (e_i / (1 - h_i))^2, or nan unless every leverage is below 1 (PRESS)."""
-    if not (h < 1 - 1e-12).all():
+    """sum (e_i / (1 - h_i))^2, or nan unless every leverage is below 1 (``LEVERAGE_ONE``): PRESS."""
+    if not (h <= LEVERAGE_ONE).all():
         return math.nan
     d = 1.0 - h
     np.divide(e, d, out=d)

@@ -33,7 +33,7 @@ import numpy as np
 from numpy.polynomial import polynomial as P
 from scipy import special
 
-from .calibration import Calibration, householder_qr
+from .calibration import LEVERAGE_ONE, Calibration, householder_qr
 from .curve import ENDS, Curve
 from .distributions import beta_cdf, log_factorials, normal_two_sided, t_two_sided
 from .prediction import roots_of
@@ -45,7 +45,6 @@ BACK_CALC_EXTEND = 0.25
 # tests in the checks table besides lack of fit (Mandel, runs, Durbin-Watson, Shapiro-Wilk,
 # Breusch-Pagan, outliers, influential points): each warns below alpha / FAMILY
 FAMILY = 7
-_LEVERAGE_ONE = 1 - 1e-10
 
 
 def check_level(alpha: float) -> float:
@@ -68,7 +67,7 @@ def _influence(cook: np.ndarray, h: np.ndarray, t: np.ndarray, p: int, df: int, 
     S(D_i) holds the standard's own term P(D_i >= D_i) = P(|T_(df-1)| >= |t_i|) (t_i externally
     studentized), so only standards whose own term is below the level can be flagged; among them, by
     falling D, the flagged ones are a prefix (S falls as d grows), found by binary search."""
-    usable = (h < _LEVERAGE_ONE) & np.isfinite(cook)
+    usable = (h <= LEVERAGE_ONE) & np.isfinite(cook)
     if df < 2 or not usable.any():
         return math.nan, []
     hu = h[usable]
@@ -89,11 +88,6 @@ def _influence(cook: np.ndarray, h: np.ndarray, t: np.ndarray, p: int, df: int, 
         else:
             hi = mid
     return p_max, sorted(by_size[:lo].tolist())
-
-
-def _fits_exactly(cal: Calibration, curve: Curve) -> bool:
-    """The residuals of ``curve`` are rounding error (``Calibration.exact_order``)."""
-    return cal.exact_order is not None and curve.order >= cal.exact_order
 
 
 def back_calculate(cal: Calibration, curve: Curve):
@@ -126,7 +120,7 @@ def point_diagnostics(cal: Calibration, order: int, alpha: float = 0.05) -> Poin
     results = cal.order(order)
     curve = results.curve
     h, r, t, cook, bonf = results.influence
-    exact = _fits_exactly(cal, curve)  # then the residuals are rounding, and no standard stands out
+    exact = cal.fits_exactly(curve.order)  # then the residuals are rounding, and no standard stands out
     influential = set() if exact else set(_influence(cook, h, t, curve.order + 1, curve.df, level)[1])
     if exact:
         bonf = np.ones_like(bonf)
@@ -135,7 +129,7 @@ def point_diagnostics(cal: Calibration, order: int, alpha: float = 0.05) -> Poin
     back, count = back_calculate(cal, curve)
     x = cal.x
     notes = [""] * cal.n_points
-    flagged = (count != 1) | (bonf < level) | (h > _LEVERAGE_ONE) | (x == 0)
+    flagged = (count != 1) | (bonf < level) | (h > LEVERAGE_ONE) | (x == 0)
     flagged[list(influential)] = True
     for i in flagged.nonzero()[0].tolist():
         words = []
@@ -147,7 +141,7 @@ def point_diagnostics(cal: Calibration, order: int, alpha: float = 0.05) -> Poin
             words.append(f"outlier (externally studentized {t[i]:.3g}, Bonferroni p = {fmt_p(float(bonf[i]))})")
         if i in influential:
             words.append(f"influential (Cook's distance {cook[i]:.3g})")
-        if h[i] > _LEVERAGE_ONE:
+        if h[i] > LEVERAGE_ONE:
             words.append("leverage 1: this standard alone fixes the curve here")
         if x[i] == 0:
             words.append("deviation % not defined at x = 0")
@@ -362,7 +356,8 @@ def curve_checks(cal: Calibration, order: int, alpha: float = 0.05, point_labels
         misfit = True
         words = (f"{runs} runs of signs of the {per} in x order: the signs cluster along x; "
                  f"the curve shape may be wrong; {at}")
-    rows["runs"] = Check("runs of residual signs", z_runs, p_runs, v, words)
+    # the statistic is the number of runs, whose exact distribution gives p (z only tells the side)
+    rows["runs"] = Check("runs of residual signs", float(runs) if v != "n/a" else math.nan, p_runs, v, words)
 
     if u.size - p < 2 or not u.any():
         rows["DW"] = Check("Durbin-Watson", math.nan, math.nan, "n/a",
@@ -424,7 +419,7 @@ def curve_checks(cal: Calibration, order: int, alpha: float = 0.05, point_labels
     rows["influence"] = Check("influential points", float(len(infl)), p_infl, _verdict(p_infl, level),
                               named(infl) + " (Cook's distance against its distribution under the model, "
                               f"Bonferroni over the standards; p-value is the largest distance's; {at})")
-    if _fits_exactly(cal, curve):  # residuals are rounding: nothing to test in them
+    if cal.fits_exactly(curve.order):  # residuals are rounding: nothing to test in them
         exact = f"the data fit exactly at order {k} (residuals at rounding level): nothing to test"
         for key in ("lack of fit", "runs", "DW", "BP", "outliers", "influence") + (("Mandel",) if k == 1 else ()):
             if key in rows:

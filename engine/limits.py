@@ -39,7 +39,6 @@ from .validation import check_alpha, check_replicates, check_vector
 
 K_QUANTITATION = 3.0  # DIN 32645: 1/k = 33 % relative uncertainty at the quantitation limit
 ICH_DETECTION, ICH_QUANTITATION = 3.3, 10.0
-_EXACT = 2.0**-43  # a residual SD (curve units: the largest |y| is 1/2 to 1) at rounding level: an exact fit
 _NODES = 4001  # grid over [0, twice the highest standard] on which the band's crossings are bracketed
 BAND, ISO, ICH_SD, ICH_SE, BLANK = ("prediction band", "ISO 11843-2", "ICH residual SD", "ICH intercept SE",
                                     "blank readings")
@@ -91,14 +90,30 @@ def _first_root(func, x_end: float) -> float:
     return brentq(lambda v: float(func(np.array([v]))[0]), grid[j - 1], grid[j], xtol=1e-15 * x_end)
 
 
-def _turn_words(cal: Calibration, curve: Curve, hi: float) -> str:
-    """Words when the curve turns between x = 0 and x = hi (empty when it does not)."""
-    turns = curve.turning_points(float(cal.scaled_x(0.0)), float(cal.scaled_x(hi)))
+def branch_words(cal: Calibration, curve: Curve, limit: float = math.nan) -> str:
+    """Words when the curve is not monotonic from the blank (x = 0) through the calibrated range and on to
+    ``limit`` (when that lies beyond the highest standard); empty when it is.
+
+    The one rule for every row: a limit at the blank is read on the branch of the curve that the standards
+    calibrate, so the curve must keep the sign of its slope over the calibrated range all the way down to
+    the blank (and up to the limit). A turn between the blank and the lowest standard puts the blank on
+    another branch (the critical response can then fall below the fitted blank, and S at x = 0 has the
+    wrong sign); a turn inside the range leaves no one sign to keep (common practice: a calibration is
+    used only where it is monotonic)."""
+    lo = min(0.0, curve.x_min)
+    hi = max(curve.x_max, limit) if math.isfinite(limit) else curve.x_max
+    turns = curve.turning_points(float(cal.scaled_x(lo)), float(cal.scaled_x(hi)))
     if not turns.size:
         return ""
-    xs = ", ".join(_g(v) for v in cal.raw_x(turns))
-    return (f"the curve is not monotonic between x = 0 and x = {_g(hi)} (it turns at x = {xs}): a response near "
-            "the blank maps to more than one x, so no limit is given; check the low standards and the order")
+    xs = cal.raw_x(turns)
+    places = []
+    for v in xs.tolist():
+        where = ("between the blank and the lowest standard" if v < curve.x_min else
+                 "beyond the highest standard" if v > curve.x_max else "inside the calibrated range")
+        places.append(f"x = {_g(v)}, {where}")
+    return (f"the curve is not monotonic from the blank (x = 0) to x = {_g(hi)}: it turns at "
+            f"{'; '.join(places)}, so a limit at the blank would not be read on the branch the standards "
+            "calibrate, and no limit is given; check the low standards and the order")
 
 
 def _range_words(named, x_min: float, x_max: float) -> str:
@@ -149,7 +164,7 @@ def _band_row(cal, curve, band: _Band, t1: float, t2: float, sign: float, degene
 
     found = [_first_root(g, x_end) for g in (decision, detection, quantitation)]
     reached = [v for v in found if math.isfinite(v)]
-    turns = _turn_words(cal, curve, max(reached) if len(reached) == 3 else x_end)
+    turns = branch_words(cal, curve, max(reached, default=x_min))  # a limit not reached is left empty
     if turns:
         return Limit(BAND, *none, turns)
     notes = [f"Hubaux-Vos; quantitation in the DIN 32645 form, k = {K_QUANTITATION:g}"]
@@ -221,19 +236,22 @@ def _ich_rows(cal: Calibration, curve: Curve, zero: _AtZero, band: _Band, degene
             rows.append(Limit(name, math.nan, math.nan, math.nan, math.nan, bad))
             continue
         lod, loq = (k * sigma * zero.x_per_response for k in (ICH_DETECTION, ICH_QUANTITATION))
+        turns = branch_words(cal, curve, loq)
+        if turns:
+            rows.append(Limit(name, math.nan, math.nan, math.nan, math.nan, turns))
+            continue
         notes = [f"{ICH_DETECTION:g} sigma/S and {ICH_QUANTITATION:g} sigma/S; {words}; {where}",
-                 _turn_words(cal, curve, loq),
                  _range_words((("detection", lod), ("quantitation", loq)), curve.x_min, curve.x_max)]
         rows.append(Limit(name, math.nan, math.nan, lod, loq, "; ".join(n for n in notes if n)))
     return rows
 
 
 def _blank_row(cal: Calibration, curve: Curve, zero: _AtZero, readings: np.ndarray, m: int, alpha: float,
-               flat: str) -> Limit:
+               bad: str) -> Limit:
     none = (math.nan,) * 4
     n_b = readings.size
-    if flat and curve.s > _EXACT:  # an exact fit still has a slope for the blank readings
-        return Limit(BLANK, *none, flat)
+    if bad:
+        return Limit(BLANK, *none, bad)
     if n_b < 2:
         return Limit(BLANK, *none, f"blank: {n_b} reading{'s' if n_b != 1 else ''}; the blank method needs at "
                                    "least 2 readings to estimate their SD")
@@ -246,10 +264,12 @@ def _blank_row(cal: Calibration, curve: Curve, zero: _AtZero, readings: np.ndarr
     t1, t2 = float(t_quantile(1.0 - alpha, n_b - 1)), float(t_quantile(1.0 - alpha / 2, n_b - 1))
     per = sd * zero.x_per_response  # sb / |S|
     x_c, x_q = t1 * per * root, K_QUANTITATION * t2 * per * root
+    turns = branch_words(cal, curve, x_q)
+    if turns:
+        return Limit(BLANK, *none, turns)
     notes = [f"DIN 32645 blank method; {n_b} readings, mean {_g(float(curve.to_y(mean)))}, SD "
              f"{_g(float(curve.to_y(sd)))}; S = {_g(zero.slope)}, the slope at x = 0; ICH with sigma the blank SD: "
              f"3.3 sigma/S = {_g(ICH_DETECTION * per)}, 10 sigma/S = {_g(ICH_QUANTITATION * per)}",
-             _turn_words(cal, curve, x_q),
              _range_words((("decision", x_c), ("detection", 2 * x_c), ("quantitation", x_q)), curve.x_min,
                           curve.x_max)]
     y_c = float(curve.to_y(mean + zero.sign * t1 * sd * root))
@@ -268,12 +288,16 @@ def detection_limits(cal: Calibration, order: int, blank=None, replicates=1, alp
     t1 = float(t_quantile(1.0 - alpha, curve.df))
     t2 = float(t_quantile(1.0 - alpha / 2, curve.df))
     zero = _at_zero(cal, curve)
-    flat = ""
+    no_slope = ""  # no row has a slope to work with
     if curve.x_max <= 0:
-        flat = f"every standard lies at x <= 0 (the highest is {_g(curve.x_max)}): limits above the blank need x > 0"
-    elif math.isinf(zero.x_per_response):
-        flat = "the curve is flat at x = 0 (slope 0), so no limit follows from it; check the low standards"
-    elif curve.s <= _EXACT:
+        no_slope = (f"every standard lies at x <= 0 (the highest is {_g(curve.x_max)}): limits above the blank "
+                    "need x > 0")
+    else:
+        no_slope = branch_words(cal, curve)
+    if not no_slope and math.isinf(zero.x_per_response):
+        no_slope = "the curve is flat at x = 0 (slope 0), so no limit follows from it; check the low standards"
+    flat = no_slope
+    if not flat and cal.fits_exactly(curve.order):  # the blank readings still have a slope to work with
         flat = ("the curve passes through every standard (residual SD at rounding level), so its scatter gives "
                 "no limit; give blank readings")
     degenerate = flat or _weight_words(cal, band, zero, t1)
@@ -281,5 +305,5 @@ def detection_limits(cal: Calibration, order: int, blank=None, replicates=1, alp
     rows = [_band_row(cal, curve, band, t1, t2, zero.sign, degenerate), iso,
             *_ich_rows(cal, curve, zero, band, degenerate, flat)]
     if readings is not None:
-        rows.append(_blank_row(cal, curve, zero, readings, m, alpha, flat))
+        rows.append(_blank_row(cal, curve, zero, readings, m, alpha, no_slope))
     return tuple(rows)

@@ -138,8 +138,9 @@ def _solve_on_monotonic_band(curve: Curve, cal: Calibration, y0: np.ndarray, m: 
     (f - y0)^2 - half^2 = (f + half - y0)(f - half - y0), the interval ends are the roots of the band's
     edges minus y0 (for a rising curve, the upper edge gives the lower end). Each root is bracketed
     by a binary search of the grid values, and all are refined by one Newton iteration. Readings
-    outside the calibrated response range get nan throughout; an edge that does not reach the
-    reading within the grid leaves that end open (nan).
+    outside the calibrated response range get no estimate (nan) but their interval all the same; an
+    edge that does not reach the reading within the grid leaves that end open (nan). Also returns
+    whether the band holds each reading somewhere on the grid.
     """
     t2, t2s2 = t**2, t**2 * curve.s**2
     band = curve.monotonic_band(t2, m)
@@ -152,10 +153,11 @@ def _solve_on_monotonic_band(curve: Curve, cal: Calibration, y0: np.ndarray, m: 
     rows = ((ys >= table[0, first]) & (ys <= table[0, last])).nonzero()[0]
     inside = ys[rows]
     cell = np.minimum(np.maximum(np.searchsorted(table[0, first: last + 1], inside), 1), last - first) + first
-    j_lo = np.searchsorted(table[1], inside, "left")  # first node where the upper edge reaches the reading
-    j_hi = np.searchsorted(table[2], inside, "right")  # first node where the lower edge passes it
-    lo_rows, hi_rows = (j_lo > 0).nonzero()[0], (j_hi < z.size).nonzero()[0]
-    which = np.concatenate([rows, rows[lo_rows], rows[hi_rows]])
+    j_lo = np.searchsorted(table[1], ys, "left")  # first node where the upper edge reaches the reading
+    j_hi = np.searchsorted(table[2], ys, "right")  # first node where the lower edge passes it
+    held = (j_hi > 0) & (j_lo < z.size)  # the interval [lower, upper] meets the grid
+    lo_rows, hi_rows = (held & (j_lo > 0)).nonzero()[0], (held & (j_hi < z.size)).nonzero()[0]
+    which = np.concatenate([rows, lo_rows, hi_rows])
     kind = np.repeat(_KINDS, [rows.size, lo_rows.size, hi_rows.size])
     right = np.concatenate([cell, j_lo[lo_rows], j_hi[hi_rows]])
     edge = _EDGES[kind]
@@ -183,7 +185,19 @@ def _solve_on_monotonic_band(curve: Curve, cal: Calibration, y0: np.ndarray, m: 
                             table[kind, right] - target)
     out = np.full((3, y0.size), np.nan)
     out[kind, which] = found
-    return out
+    return out, held
+
+
+def _grid_gap(curve: Curve, y0: np.ndarray, m: np.ndarray, t: float):
+    """gap(z) = (f(z) - y0)^2 - t^2 (s^2 / (m w(z)) + Var f(z)) at every grid node for every reading (negative
+    where the band holds the reading), inf where the weights are not defined; and where they are not."""
+    _, f, vm = curve.grid
+    with np.errstate(invalid="ignore"):
+        g = (f[None, :] - y0[:, None]) ** 2 - t**2 * curve.s**2 * curve.grid_variance_factor[None, :] / m[:, None] \
+            - t**2 * vm[None, :]
+    undefined = ~np.isfinite(g)
+    g[undefined] = np.inf  # no weight for a reading there: outside the band
+    return g, undefined
 
 
 def _band_edges(curve: Curve, cal: Calibration, y0: np.ndarray, m: np.ndarray, z_hat: np.ndarray, t: float):
@@ -197,7 +211,7 @@ def _band_edges(curve: Curve, cal: Calibration, y0: np.ndarray, m: np.ndarray, z
     are refined together by Newton's method on gap. A node where the weights
     are not defined counts as outside; a bound in the cell next to it is open.
     """
-    z, f, vm = curve.grid
+    z = curve.grid[0]
     t2, t2s2 = t**2, t**2 * curve.s**2
 
     def gap_and_slope(zz, y, mm):
@@ -206,11 +220,7 @@ def _band_edges(curve: Curve, cal: Calibration, y0: np.ndarray, m: np.ndarray, z
         vf, dvf = _variance_factor_and_slope(curve, zz, fz, dfz)
         return d * d - t2s2 * vf / mm - t2 * vz, 2 * d * dfz - t2s2 * dvf / mm - t2 * dvz
 
-    vf = curve.grid_variance_factor
-    with np.errstate(invalid="ignore"):
-        g = (f[None, :] - y0[:, None]) ** 2 - t2s2 * vf[None, :] / m[:, None] - t2 * vm[None, :]
-    undefined = ~np.isfinite(g)
-    g[undefined] = np.inf  # no weight for a reading there: outside the band
+    g, undefined = _grid_gap(curve, y0, m, t)
     outside = g > 0
     below = outside & (z[None, :] < z_hat[:, None])
     above = outside & (z[None, :] > z_hat[:, None])
@@ -243,8 +253,24 @@ def _domain_edge(cal: Calibration) -> str:
     return "x <= 0" if not cal.weighting.iterative else "a fitted y <= 0"
 
 
+def _outside_anchor(curve: Curve, y0: np.ndarray, m: np.ndarray, t: float):
+    """For readings beyond the response at one end of a calibrated range the curve does not turn in: the
+    grid node at or beyond that end (z = -1 or 1) where the prediction band holds the reading best (the
+    smallest gap, ``_grid_gap``), nan where the band holds it at no such node."""
+    z, f, _ = curve.grid
+    first, last = RANGE_NODES
+    below_end = np.abs(y0 - f[first]) <= np.abs(y0 - f[last])  # the end whose response is nearer
+    g, _ = _grid_gap(curve, y0, m, t)
+    side = np.where(below_end[:, None], np.arange(z.size)[None, :] > first, np.arange(z.size)[None, :] < last)
+    g[side] = np.inf
+    best = np.argmin(g, axis=1)
+    return np.where(g[np.arange(y0.size), best] <= 0, z[best], np.nan)
+
+
 def inverse(cal: Calibration, readings, order: int, replicates=1, level: float = 0.95) -> tuple[InverseEstimate, ...]:
-    """x estimate and interval for each reading (the mean of ``replicates`` readings)."""
+    """x estimate and interval for each reading (the mean of ``replicates`` readings). A reading beyond the
+    responses at the ends of the calibrated range gets no estimate, but its interval (the x whose prediction
+    band holds it) and a note that says on which side of the standards it lies."""
     level = check_level(level)
     y0 = check_vector(readings, "reading", flat=True)
     m = check_replicates(replicates, y0.size)
@@ -254,8 +280,9 @@ def inverse(cal: Calibration, readings, order: int, replicates=1, level: float =
         y0_curve = curve.from_y(y0)
     solved = _solve_on_monotonic_band(curve, cal, y0_curve, m, t)
     at_edge = np.zeros((2, y0.size), bool)  # bounds open at the edge of the weights' domain
+    monotonic = curve.turning_points().size == 0
     if solved is not None:
-        z_hat, lower_z, upper_z = solved
+        (z_hat, lower_z, upper_z), held = solved
         count = np.isfinite(z_hat).astype(np.intp)  # one root or none
     else:
         rows, zs = roots_of(curve, y0_curve, -1.0, 1.0)
@@ -263,28 +290,38 @@ def inverse(cal: Calibration, readings, order: int, replicates=1, level: float =
         z_hat = np.full(y0.size, np.nan)
         single = count[rows] == 1
         z_hat[rows[single]] = zs[single]
-        ok = np.flatnonzero(np.isfinite(z_hat))
+        anchor = z_hat.copy()  # where the band holds each reading: its estimate, or a node beyond the range
+        beyond = np.flatnonzero((count == 0) & monotonic & np.isfinite(y0_curve))
+        if beyond.size:
+            anchor[beyond] = _outside_anchor(curve, y0_curve[beyond], m[beyond], t)
+        ok = np.flatnonzero(np.isfinite(anchor))
+        held = np.isfinite(anchor)
         lower_z, upper_z = np.full(y0.size, np.nan), np.full(y0.size, np.nan)
         if ok.size:
             lower_z[ok], upper_z[ok], at_edge[0, ok], at_edge[1, ok] = _band_edges(
-                curve, cal, y0_curve[ok], m[ok], z_hat[ok], t)
+                curve, cal, y0_curve[ok], m[ok], anchor[ok], t)
     notes = [""] * y0.size
+    lo_resp, hi_resp = sorted(curve.to_y(curve.value(ENDS)).tolist())
+    rising = bool(curve.value(ENDS[1]) >= curve.value(ENDS[0]))
     for i in (count != 1).nonzero()[0].tolist():
         if count[i] > 1:
             xs = ", ".join(f"{v:.6g}" for v in cal.raw_x(zs[rows == i]))
             notes[i] = f"several x in the calibrated range give this reading ({xs}): the curve is not monotonic"
-        elif curve.turning_points().size == 0:
-            lo_resp, hi_resp = sorted(curve.to_y(curve.value(ENDS)).tolist())
-            side = "above" if (y0[i] > hi_resp) else "below"
-            notes[i] = (f"reading {side} the calibrated response range [{lo_resp:.6g}, {hi_resp:.6g}]: "
-                        "no estimate outside the calibrated range")
+        elif monotonic:
+            above = bool(y0[i] > hi_resp)
+            where = "above the highest standard" if above == rising else "below the lowest standard"
+            notes[i] = (f"reading {'above' if above else 'below'} the calibrated response range [{lo_resp:.6g}, "
+                        f"{hi_resp:.6g}], {where}: no estimate outside the calibrated range; "
+                        + ("lower and upper are the x whose prediction band holds the reading" if held[i] else
+                           f"the prediction band does not hold it within {EXTEND:.0%} of the range beyond the "
+                           "calibrated range"))
         else:
             notes[i] = "no x within the calibrated range gives this reading"
-    zz = solved if solved is not None else np.array([z_hat, lower_z, upper_z])
-    # an estimate with a bound that is open (nan) or beyond the calibrated range gets a note
-    flagged = np.isfinite(z_hat) & ~(np.abs(zz[1:]) <= 1).all(axis=0)
+    zz = np.array([z_hat, lower_z, upper_z])
+    # an interval with a bound that is open (nan) or beyond the calibrated range gets a note
+    flagged = held & (count <= 1) & ~(np.abs(zz[1:]) <= 1).all(axis=0)
     for i in flagged.nonzero()[0].tolist():
-        parts = []
+        parts = [notes[i]] if notes[i] else []
         for bound, name, edge in ((lower_z[i], "lower", at_edge[0, i]), (upper_z[i], "upper", at_edge[1, i])):
             if edge:
                 parts.append(f"{name} bound open: the prediction band reaches {_domain_edge(cal)}, where "
@@ -296,6 +333,12 @@ def inverse(cal: Calibration, readings, order: int, replicates=1, level: float =
                 parts.append(f"{name} bound lies beyond the calibrated range")
         notes[i] = "; ".join(parts)
     return tuple(map(InverseEstimate._make, zip(y0.tolist(), *cal.raw_x(zz).tolist(), notes)))
+
+
+def why_no_estimate(note: str) -> str:
+    """Of the note of an inverse row without an x estimate, the reason (its first clause, as ``inverse`` writes
+    it), without the words on the interval: for tables that show no interval."""
+    return note.split("; ", 1)[0]
 
 
 def uncertainty(cal: Calibration, readings, order: int, replicates=1, level: float = 0.95) -> tuple[Uncertainty, ...]:
@@ -316,7 +359,7 @@ def uncertainty(cal: Calibration, readings, order: int, replicates=1, level: flo
             u[ok] = np.sqrt(curve.s**2 * vf / m[ok] + var_mean) / np.abs(dfz / cal.dx_dz)
     rows = []
     for e, ui in zip(found, u.tolist()):
-        note = e.note
+        note = e.note if math.isfinite(e.x) else why_no_estimate(e.note)
         if math.isfinite(e.x) and not math.isfinite(ui):
             note = "the curve is flat at this x (or the weights give no weight there): no first-order uncertainty"
             ui = math.nan

@@ -102,3 +102,22 @@ def test_cook_tail_against_a_monte_carlo():
         rate = (cook >= d).mean(axis=0)
         expected = cook_tail(d, h, 2, x.size - 2)
         np.testing.assert_allclose(rate, expected, atol=4 * np.sqrt(expected * (1 - expected) / 40000).max() + 2e-4)
+
+
+def test_the_runs_row_shows_the_number_of_runs_its_exact_p_belongs_to():
+    """The checks table's statistic is the count of runs of residual signs (not the normal z): its p-value is
+    the two-sided exact one of that count, by enumeration of every arrangement of the signs."""
+    from degreewise import engine
+
+    x = np.arange(1.0, 13.0)
+    y = 2.0 + 0.5 * x + np.array([0.3, 0.2, 0.1, -0.2, -0.3, -0.1, -0.2, 0.1, 0.3, 0.2, 0.25, -0.1])
+    row = next(c for c in engine.curve_checks(engine.Calibration(x, y, max_order=1), 1)
+               if c.name == "runs of residual signs")
+    resid = y - np.polyval(np.polyfit(x, y, 1), x)  # numpy's own least-squares line
+    signs = [v >= 0 for v in resid]
+    runs, n1, n = _runs(signs), sum(signs), len(signs)
+    counts = [_runs([i in plus for i in range(n)]) for plus in itertools.combinations(range(n), n1)]
+    low = sum(c <= runs for c in counts) / len(counts)
+    high = sum(c >= runs for c in counts) / len(counts)
+    assert row.statistic == runs == 4
+    assert row.p_value == pytest.approx(min(1.0, 2 * min(low, high)), rel=1e-12)

@@ -155,3 +155,40 @@ def test_response_weights_need_a_positive_fitted_curve():
         engine.Calibration(x, x - 0.5, max_order=1, weights="1/y")
     assert str(err.value) == ("weights '1/y' need a fitted y > 0 at every standard, but the curve gives -0.5 at "
                               "x = 0 (x[0]); use 1/x weights or none")
+
+
+def test_response_weights_take_an_observed_y_at_or_below_zero_when_the_fitted_curve_is_positive():
+    """weights '1/y' come from the fitted curve (README): a blank-level standard read as -0.02 is no reason to
+    refuse them. The weights are the fixed point w = 1/f(x) of the weighted quadratic f (statsmodels WLS)."""
+    import statsmodels.api as sm
+
+    x = np.array([0.5, 0.5, 1.0, 1.0, 2.0, 2.0, 5.0, 5.0, 10.0, 10.0])
+    y = np.array([-0.02, 0.07, 0.21, 0.16, 0.43, 0.38, 1.02, 1.05, 2.04, 1.98])
+    cal = engine.Calibration(x, y, max_order=2, weights="1/y")
+    w = cal.weighting.values
+    fitted = sm.WLS(y, np.column_stack([np.ones_like(x), x, x**2]), weights=w).fit().fittedvalues
+    assert (fitted > 0).all() and (y <= 0).any()
+    np.testing.assert_allclose(w, 1.0 / fitted, rtol=1e-8)
+
+
+def test_deviation_percent_is_relative_to_the_size_of_the_nominal_x():
+    """Deviation % = 100 (back-calculated - nominal) / |nominal| (common practice: a back-calculated value above
+    the nominal one deviates by a positive %, at negative x too); back-calculated x from numpy's own line."""
+    x = np.array([-30.0, -20.0, -10.0, 10.0, 20.0, 30.0])
+    y = 4.0 + 0.5 * x + np.array([0.2, -0.1, 0.05, -0.15, 0.1, -0.05])
+    d = engine.point_diagnostics(engine.Calibration(x, y, max_order=1), 1)
+    b, a = np.polyfit(x, y, 1)
+    back = (y - a) / b
+    np.testing.assert_allclose(d.back_calculated, back, rtol=1e-10)
+    np.testing.assert_allclose(d.deviation_percent, 100 * (back - x) / np.abs(x), rtol=1e-9)
+    assert back[0] > x[0] and d.deviation_percent[0] > 0  # above the nominal -30: positive
+
+
+def test_a_calibration_keeps_its_own_copy_of_the_standards():
+    x = np.arange(1.0, 9.0)
+    y = 1.0 + 2.0 * x + np.array([0.1, -0.2, 0.15, 0.0, -0.1, 0.2, -0.05, 0.1])
+    cal = engine.Calibration(x, y, max_order=1)
+    before = engine.point_diagnostics(cal, 1)
+    x[0], y[:] = 100.0, 0.0  # the caller reuses its arrays
+    assert cal.x[0] == 1.0 and cal.y[1] == pytest.approx(4.8)
+    assert engine.point_diagnostics(cal, 1) == before

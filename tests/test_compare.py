@@ -8,6 +8,8 @@ import pytest
 import statsmodels.api as sm
 from scipy import stats
 
+import degreewise
+from degreewise import engine
 from degreewise.engine import Calibration, OrderError, inverse
 from degreewise.engine.compare import compare
 
@@ -96,3 +98,42 @@ def test_an_order_the_reference_cannot_support_is_refused_in_words():
         compare(Calibration(x_t, y_t, 3), ref, 3)
     assert str(err.value) == ("reference calibration: order 3 needs at least 4 distinct x values and 5 points; "
                               "there are 4 and 4")
+
+
+def column(values):
+    return [[float(v)] for v in values]
+
+
+def test_one_order_for_both_sets_does_not_depend_on_which_set_is_today():
+    """With the order omitted, CALIB_COMPARE fits both curves at the order the default rule picks for all their
+    standards together, so swapping the sets changes no order. (Chosen from today's standards alone it did: here
+    today's alone gives 2, the reference's alone 1.)"""
+    x = np.repeat([10.0, 20.0, 40.0, 60.0, 80.0, 100.0], 2)
+    rng = np.random.default_rng(5)
+    for _ in range(10):
+        a, b = (1.0 + 0.5 * x + rng.normal(0, 0.3, x.size) for _ in range(2))
+    alone = [engine.choose_order(engine.Calibration(x, v)).order for v in (a, b)]
+    assert alone == [2, 1]
+    rows = [degreewise.calib_compare(column(x), column(u), column(x), column(v)) for u, v in ((a, b), (b, a))]
+    assert [r[1][11].split("; ")[1] for r in rows] == ["both curves of order 1 (the order the default rule picks "
+                                                       "for both sets' standards together)"] * 2
+    assert engine.shared_order(engine.Calibration(x, a), engine.Calibration(x, b)).order == 1
+
+
+def test_identical_curves_are_rejected_near_the_level_with_the_default_order():
+    """Today and reference drawn from one straight line (6 levels x 2, seeded, 800 pairs): with the order chosen
+    for both sets together the rejection rates of 'same curve' and 'same shape' at alpha 0.05 are those at the
+    true order (the choice no longer follows either set's own noise), within the binomial noise of 5 %. (2000
+    pairs in benchmarks/error_rates.py: 4.6 % and 5.9 %; with the order from today's standards alone 5.3 % and
+    6.7 %.)"""
+    x = np.repeat([10.0, 20.0, 40.0, 60.0, 80.0, 100.0], 2)
+    rng = np.random.default_rng(2024)
+    shared, true = np.zeros(2), np.zeros(2)
+    trials = 800
+    for _ in range(trials):
+        today, ref = (engine.Calibration(x, 1.0 + 0.5 * x + rng.normal(0, 0.3, x.size)) for _ in range(2))
+        for counts, order in ((shared, engine.shared_order(today, ref).order), (true, 1)):
+            c = engine.compare(today, ref, order)
+            counts += (c.same_curve.p_value < 0.05, c.same_shape.p_value < 0.05)
+    assert np.abs(shared - true).max() <= 0.005 * trials, (shared, true)
+    assert (shared <= 0.065 * trials).all(), shared  # 5 % plus two binomial standard errors

@@ -212,7 +212,7 @@ def test_the_compare_sheet_holds_last_months_standards_and_their_comparison():
     at = block(ws, "D2", len(sc.check_levels), 1)
     want = degreewise.calib_compare(xs, ys, ref[0::2], ref[1::2], at, None, None, None, e)
     assert [r[0] for r in want[1:4]] == ["same curve", "same shape", "same residual SD"]
-    assert same_numbers(block(ws, "F1", len(want), 9), want)
+    assert same_numbers(block(ws, "F1", len(want), 12), want)
 
 
 def test_result_cells_carry_number_formats_and_every_page_holds_its_rows():
@@ -237,4 +237,4 @@ def test_result_cells_carry_number_formats_and_every_page_holds_its_rows():
             if isinstance(c.value, float) and c.number_format != "General":
                 assert len(_shown(c.value, c.number_format)) + 2 <= width, (c.coordinate, c.number_format)
     compare = wb["Compare"]
-    assert compare.print_area == f"'Compare'!$A$1:$N${len(SCENARIOS['straight'].x) + 1}"
+    assert compare.print_area == f"'Compare'!$A$1:$Q${len(SCENARIOS['straight'].x) + 1}"

@@ -157,24 +157,29 @@ REF_Y = [0.0041, 0.0052, 0.1990, 0.2011, 0.5012, 0.4968, 0.9920, 1.0013, 1.4890,
 def test_compare_rows_carry_the_engine_comparison_in_words():
     rows = degreewise.calib_compare(column(X), column(Y), column(REF_X), column(REF_Y), column([10.0, 80.0]),
                                     None, None, None, EXCLUDE)
-    assert rows[0] == ["item", "reference", "today", "difference", "lower", "upper", "p-value", "verdict", "detail"]
+    assert rows[0] == ["item", "reference", "today", "difference", "lower", "upper", "F", "df num", "df den",
+                       "p-value", "verdict", "detail"]
     assert [r[0] for r in rows[1:]] == ["same curve", "same shape", "same residual SD", "intercept", "x",
                                         "at x = 10", "at x = 80", "caution"]
     today = engine.Calibration(np.delete(X, BAD), np.delete(Y, BAD))
-    order = engine.choose_order(today).order
-    assert order == 1
+    reference = engine.Calibration(REF_X, REF_Y)
+    assert engine.shared_order(today, reference).order == 1
     c = engine.compare(today, engine.Calibration(REF_X, REF_Y, 1), 1, 0.95, [10.0, 80.0])
-    assert rows[1][6] == c.same_curve.p_value and rows[2][6] == c.same_shape.p_value
-    assert rows[1][8].startswith(f"F = {c.same_curve.statistic:.4g} on 2 and 19 df: ")
-    assert rows[1][8].endswith("both curves of order 1 (the order the default rule picks for today's standards); "
-                               "tested at 0.05")
+    for row, test in zip(rows[1:4], (c.same_curve, c.same_shape, c.same_sd)):
+        assert row[6:10] == [test.statistic, test.df_num, test.df_den, test.p_value]  # F and its df in cells
+    assert rows[1][6:9] == [c.same_curve.statistic, 2, 19]
+    assert rows[1][11].startswith(f"F = {c.same_curve.statistic:.4g} on 2 and 19 df: ")
+    assert rows[1][11].endswith("both curves of order 1 (the order the default rule picks for both sets' standards "
+                                "together); tested at 0.05")
     assert rows[3][1:3] == [c.reference_sd, c.today_sd]
     for row, diff in zip(rows[4:6], c.coefficients):
-        assert row[1:7] == [diff.reference, diff.today, diff.difference, diff.lower, diff.upper, diff.p_value]
-        assert row[8] == f"{100 * diff.difference / diff.reference:+.3g} % of the reference"
+        assert row[1:10] == [diff.reference, diff.today, diff.difference, diff.lower, diff.upper, None, None, None,
+                             diff.p_value]
+        assert row[11] == f"{100 * diff.difference / diff.reference:+.3g} % of the reference"
     for row, diff, back in zip(rows[6:8], c.levels, c.read_back):
-        assert row[1:7] == [diff.reference, diff.today, diff.difference, diff.lower, diff.upper, diff.p_value]
-        assert row[8].endswith(f"the reference curve reads today's response as x = {back:.6g}")
+        assert row[1:10] == [diff.reference, diff.today, diff.difference, diff.lower, diff.upper, None, None, None,
+                             diff.p_value]
+        assert row[11].endswith(f"the reference curve reads today's response as x = {back:.6g}")
 
 
 def test_compare_takes_a_scheme_only_and_names_the_reference_in_messages():
@@ -188,3 +193,23 @@ def test_compare_takes_a_scheme_only_and_names_the_reference_in_messages():
         "the cell"]]
     assert degreewise.calib_compare(column(X), column(Y), column(REF_X[:4]), column(REF_Y[:4]), None, 3) == [[
         "reference calibration: order 3 needs at least 4 distinct x values and 5 points; there are 2 and 4"]]
+
+
+def test_an_excluded_standard_beyond_the_responses_says_why_it_has_no_back_calculated_x():
+    x, y = column([1, 2, 3, 4, 5, 6, 7]), column([2.1, 4.0, 6.1, 7.9, 10.2, 11.9, 30.0])
+    rows = degreewise.calib_residuals(x, y, 1, None, [[None]] * 6 + [["spike"]])
+    assert rows[6][2:7] == [None] * 5
+    assert rows[6][7] == ("excluded: spike; reading above the calibrated response range [2.07619, 11.9905], above "
+                          "the highest standard: no estimate outside the calibrated range")
+
+
+def test_a_reference_too_small_to_choose_an_order_on_its_own_is_compared_at_the_shared_order():
+    """Three reference standards cannot choose an order by themselves; with today's six they share order 1
+    (each set fits it with a residual degree of freedom)."""
+    today_x, today_y = column([0, 1, 2, 3, 4, 5]), column([0.1, 1.1, 2.0, 3.1, 4.0, 5.1])
+    rows = degreewise.calib_compare(today_x, today_y, column([0, 1, 2]), column([0.0, 1.0, 2.1]))
+    want = engine.compare(engine.Calibration([0, 1, 2, 3, 4, 5], [0.1, 1.1, 2.0, 3.1, 4.0, 5.1]),
+                          engine.Calibration([0, 1, 2], [0.0, 1.0, 2.1], 1), 1).same_curve
+    assert rows[1][6:10] == [want.statistic, 2, 5, want.p_value]
+    assert rows[1][11].endswith("both curves of order 1 (the order the default rule picks for both sets' standards "
+                                "together); tested at 0.05")

@@ -14,7 +14,8 @@ from pathlib import Path
 import openpyxl
 import pytest
 
-from degreewise.commands import files, freeze as freeze_module, main
+from degreewise.commands import freeze as freeze_module, main
+from degreewise.workbook import files
 from degreewise.commands.refresh import refresh_file
 
 PY = [sys.executable, "-c", "from degreewise.commands import main; raise SystemExit(main())"]

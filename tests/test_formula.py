@@ -11,7 +11,7 @@ from hypothesis import given
 from hypothesis import strategies as st
 
 import degreewise
-from degreewise.commands.formula import Area, Unsupported, parse_call, quote_sheet, shift_references
+from degreewise.workbook.formula import Area, Unsupported, parse_call, quote_sheet, shift_references
 from degreewise.commands.refresh import refresh_file
 
 RNG = np.random.default_rng(1311)

@@ -194,15 +194,73 @@ def test_weights_that_vanish_at_zero_are_answered_in_words():
     assert rows["ICH intercept SE"].detection_limit > 0  # the intercept's standard error still exists
 
 
-def test_curve_that_turns_near_zero_is_answered_in_words():
+def _turn_words(turns: str, up_to: str = "100") -> str:
+    return (f"the curve is not monotonic from the blank (x = 0) to x = {up_to}: it turns at {turns}, so a limit at "
+            "the blank would not be read on the branch the standards calibrate, and no limit is given; check the "
+            "low standards and the order")
+
+
+# Two audit cases (issue 24): order-2 curves that rise over the calibrated range [10, 100] but turn between the
+# blank and the lowest standard. Limits computed at the blank came from the falling branch (critical response
+# 5.130 below the fitted blank 5.175; ICH limits from S = -0.80 or -0.098); every row must refuse, in one wording.
+TURN_BELOW = ([10, 10, 20, 20, 40, 40, 60, 60, 80, 80, 100, 100],
+              [2.184, 2.174, 9.195, 9.208, 53.223, 53.202, 137.189, 137.184, 261.215, 261.233, 425.205, 425.175],
+              "x = 7.99015")
+TURN_BELOW_2 = ([10, 10, 20, 20, 30, 30, 40, 40, 60, 60, 80, 80, 100, 100],
+                [2.2099, 2.1838, 4.2376, 4.271, 8.3068, 8.2555, 14.2224, 14.2108, 32.2874, 32.3317, 58.2636, 58.1883,
+                 92.2021, 92.33], "x = 4.89257")
+
+
+@pytest.mark.parametrize("x,y,turn", [TURN_BELOW, TURN_BELOW_2])
+def test_a_curve_that_turns_between_the_blank_and_the_lowest_standard_gets_words_in_every_row(x, y, turn):
+    cal = engine.Calibration(x, y)
+    assert engine.choose_order(cal).order == 2
+    rows = engine.detection_limits(cal, 2, [2.0, 2.1, 2.05])
+    assert [r.method for r in rows] == ["prediction band", "ISO 11843-2", "ICH residual SD", "ICH intercept SE",
+                                        "blank readings"]
+    for r in rows:
+        assert r.note == _turn_words(f"{turn}, between the blank and the lowest standard")
+        assert all(math.isnan(v) for v in r[1:5])
+
+
+def test_a_curve_that_turns_inside_the_range_near_the_blank_gets_words_in_every_row():
     x = np.repeat([0.0, 1.0, 2.0, 4.0, 6.0, 8.0, 10.0], 2)
-    # falling at x = 0, minimum near x = 0.31 far above the critical response: no limit on the falling side
+    # falling at x = 0, minimum near x = 0.35 far above the critical response: no limit on the falling side
     y = 5.0 - 0.5 * x + 0.8 * x**2 + np.random.default_rng(4).normal(0, 0.3, x.size)
-    band = engine.detection_limits(engine.Calibration(x, y), 2)[0]
-    assert band.note.startswith("the curve is not monotonic between x = 0 and x = ")
-    assert band.note.endswith("a response near the blank maps to more than one x, so no limit is given; check the "
-                              "low standards and the order")
-    assert all(math.isnan(v) for v in band[1:5])
+    for r in engine.detection_limits(engine.Calibration(x, y), 2, [5.0, 5.2, 4.9]):
+        assert r.note == _turn_words("x = 0.345284, inside the calibrated range", "10")
+        assert all(math.isnan(v) for v in r[1:5])
+
+
+def _quadratic_turning_at(vertex: float):
+    """Standards at 10..100 in duplicate on y = 2 + (x - vertex)^2 / 50 (rising over the range when the vertex
+    lies below 10, falling when above 100), with small invented noise."""
+    x = np.repeat([10.0, 20.0, 40.0, 60.0, 80.0, 100.0], 2)
+    y = 2.0 + (x - vertex) ** 2 / 50 + np.random.default_rng(31).normal(0, 0.02, x.size)
+    return engine.Calibration(x, y, max_order=2)
+
+
+def test_a_curve_turning_just_below_the_lowest_standard_gives_no_limit():
+    cal = _quadratic_turning_at(9.0)
+    _, b, c = cal.fit(2).coefficients
+    vertex = -b / (2 * c)  # the fitted quadratic's turn (a published formula)
+    assert 8.9 < vertex < 9.1
+    for r in engine.detection_limits(cal, 2):
+        assert r.note == _turn_words(f"x = {vertex:.6g}, between the blank and the lowest standard")
+        assert all(math.isnan(v) for v in r[1:5])
+
+
+def test_a_curve_turning_just_above_the_highest_standard_keeps_its_limits():
+    """The turn lies beyond the standards, far above the limits: the blank is on the calibrated (falling)
+    branch, and every row gives its numbers (the same rows as the straight branch gives)."""
+    cal = _quadratic_turning_at(101.0)
+    rows = engine.detection_limits(cal, 2)
+    band, _, ich_sd, ich_se = rows
+    assert 0 < band.decision_limit < band.detection_limit < band.quantitation_limit < 10
+    assert band.critical_response < float(engine.predict(cal, [0.0], 2)[0].fitted)  # falling: below the blank
+    assert 0 < ich_se.detection_limit < ich_se.quantitation_limit < 10
+    assert 0 < ich_sd.detection_limit < ich_sd.quantitation_limit < 10
+    assert all("monotonic" not in r.note for r in rows)
 
 
 def test_limits_beyond_the_calibrated_range_are_flagged():
@@ -264,3 +322,40 @@ def test_response_weights_near_a_zero_response_at_the_blank_are_answered_in_word
     assert band.note.endswith(") does not differ significantly from zero, so the prediction band has no reading "
                               "scatter at the blank and no band-based limit exists; use a variance model with a "
                               "blank term (weights as a range, such as 1/(c + x)^2) or give blank readings")
+
+
+# DIN 32645 worked example: data and results as quoted in issue 24 (the standard's example data as distributed
+# with an open-source package; the figures are not checked against the printed standard here). Straight line,
+# one reading per sample, alpha = 0.01.
+DIN_X = np.arange(1, 11) * 0.05
+DIN_Y = np.array([3060.0, 3522.0, 3707.0, 4280.0, 5058.0, 5510.0, 5703.0, 6205.0, 7156.0, 7178.0])
+
+
+def test_din_32645_example_values():
+    cal = engine.Calibration(DIN_X, DIN_Y)
+    assert engine.choose_order(cal).order == 1
+    band, iso = engine.detection_limits(cal, 1, alpha=0.01)[:2]
+    assert band.decision_limit == pytest.approx(0.0698, abs=5e-5)  # DIN 32645 example: decision limit 0.0698
+    assert iso.decision_limit == pytest.approx(0.0698, abs=5e-5)
+    assert band.quantitation_limit == pytest.approx(0.212, abs=5e-4)  # quantitation limit 0.212 (k = 3)
+    assert engine.inverse(cal, [3500.0], 1)[0].x == pytest.approx(0.10548, abs=5e-6)  # x(3500) = 0.10548
+
+
+@settings(max_examples=30, deadline=None)
+@given(vertex=st.floats(-60.0, 160.0), seed=st.integers(0, 50))
+def test_every_row_gives_the_same_answer_about_a_turn(vertex, seed):
+    """Invariant (one rule for a turn): for a quadratic turning anywhere, either no row speaks of a turn, or
+    every row gives the same words and no number; the words appear exactly when the fitted curve turns
+    between the blank and the highest standard (a published formula for the turn: x = -b / 2c)."""
+    x = np.repeat([10.0, 20.0, 40.0, 60.0, 80.0, 100.0], 2)
+    y = 2.0 + (x - vertex) ** 2 / 50 + np.random.default_rng(seed).normal(0, 0.02, x.size)
+    cal = engine.Calibration(x, y, max_order=2)
+    rows = engine.detection_limits(cal, 2, [2.0, 2.1, 2.05])
+    _, b, c = cal.fit(2).coefficients
+    turn = -b / (2 * c)
+    turned = [r for r in rows if r.note.startswith("the curve is not monotonic from the blank")]
+    if 1e-6 < turn < 100.0 - 1e-6:
+        assert len(turned) == len(rows) and len({r.note for r in rows}) == 1
+        assert all(math.isnan(v) for r in rows for v in r[1:5])
+    elif turn < -1e-6 or turn > 100.0 + 1e-6:  # the limits here lie far below the highest standard
+        assert not turned

@@ -11,7 +11,8 @@ from pathlib import Path
 import openpyxl
 import pytest
 
-from degreewise.commands.refresh import AGREE, refresh_file
+from degreewise.commands.refresh import refresh_file
+from degreewise.workbook.audit import AGREE
 
 WORKBOOKS = Path(__file__).parent.parent / "workbooks"
 # the kernels of an older CPU: SSE only in numpy and OpenBLAS (each variable documented by its project)

@@ -40,13 +40,14 @@ def test_the_readme_compare_example_refreshes_to_the_printed_numbers(tmp_path):
     report = refresh_file(path)
     assert (report.left_alone, report.failed, report.error) == ([], [], None)
     ws = openpyxl.load_workbook(path, data_only=True).active
-    rows = {ws.cell(r, 6).value: [ws.cell(r, c).value for c in range(7, 15)] for r in range(1, 11)}
+    rows = {ws.cell(r, 6).value: [ws.cell(r, c).value for c in range(7, 18)] for r in range(1, 11)}
     # the README's figures, to the digits it prints
-    assert rows["same curve"][7].startswith("F = 0.1145 on 2 and 19 df") and round(rows["same curve"][5], 2) == 0.89
-    assert round(rows["same shape"][5], 2) == 0.65 and round(rows["same residual SD"][5], 2) == 0.96
-    assert {rows[k][6] for k in ("same curve", "same shape", "same residual SD")} == {"ok"}
-    assert rows["x"][7].startswith("+0.093")
-    assert rows["at x = 80"][7].endswith("reads today's response as x = 80.0413")
+    assert rows["same curve"][10].startswith("F = 0.1145 on 2 and 19 df") and round(rows["same curve"][8], 2) == 0.89
+    assert round(rows["same curve"][5], 4) == 0.1145 and rows["same curve"][6:8] == [2, 19]  # F and df in cells
+    assert round(rows["same shape"][8], 2) == 0.65 and round(rows["same residual SD"][8], 2) == 0.96
+    assert {rows[k][9] for k in ("same curve", "same shape", "same residual SD")} == {"ok"}
+    assert rows["x"][10].startswith("+0.093")
+    assert rows["at x = 80"][10].endswith("reads today's response as x = 80.0413")
     assert (ws["F21"].value, ws["G21"].value, ws["F23"].value, ws["G23"].value) == (
         "points used", 11, "points excluded", 1)
     assert ws["G24"].value == "standard 6 of 12, x = 25, y = 0.4: air bubble, inj. 3"

@@ -376,9 +376,9 @@ def _many_sheets(path: Path) -> Path:
 
 
 def test_sheets_split_over_processes_give_the_same_file_and_report(tmp_path, monkeypatch):
-    import degreewise.commands.refresh as refresh
+    from degreewise.workbook import processes
 
-    monkeypatch.setattr(refresh, "PARALLEL_FROM", 1)
+    monkeypatch.setattr(processes, "PARALLEL_FROM", 1)
     one = _many_sheets(tmp_path / "one.xlsx")
     three = Path(shutil.copy(one, tmp_path / "three.xlsx"))  # one build: openpyxl stamps the time it saved
     spools = tmp_path / "temporary"
@@ -398,33 +398,39 @@ def test_sheets_split_over_processes_give_the_same_file_and_report(tmp_path, mon
 
 
 def test_changed_parts_are_put_aside_on_disk_and_read_back(tmp_path, monkeypatch):
-    import degreewise.commands.refresh as refresh
+    from degreewise.workbook.audit import Report
+    from degreewise.workbook.compute import Refresher
+    from degreewise.workbook.spool import Kept, Spooled
+    from degreewise.xlsx.package import read_package
 
     spools = tmp_path / "temporary"
     spools.mkdir()
     monkeypatch.setattr(tempfile, "tempdir", str(spools))
-    _, parts = refresh.read_package(_many_sheets(tmp_path / "book.xlsx"))
-    _, in_memory = refresh.read_package(tmp_path / "book.xlsx")
-    expected, _ = refresh.Refresher(in_memory).run(refresh.Report(Path()))
-    with refresh.Spooled(parts, spool=True) as spooled:
-        changed, _ = refresh.Refresher(spooled).run(refresh.Report(Path()))
+    _, parts = read_package(_many_sheets(tmp_path / "book.xlsx"))
+    _, in_memory = read_package(tmp_path / "book.xlsx")
+    expected, _ = Refresher(in_memory).run(Report(Path()))
+    with Spooled(parts, spool=True) as spooled:
+        changed, _ = Refresher(spooled).run(Report(Path()))
         sheets = [name for name in changed if name.startswith("xl/worksheets/")]
-        assert len(sheets) == 6 and all(isinstance(parts[name], refresh.Kept) for name in sheets)
+        assert len(sheets) == 6 and all(isinstance(parts[name], Kept) for name in sheets)
         assert {name: spooled[name] for name in changed} == expected
         assert [len(list(folder.iterdir())) for folder in spools.iterdir()] == [1]  # one process, one file
     assert list(spools.iterdir()) == []
 
 
 def test_sheets_that_refer_to_each_other_share_a_process(tmp_path):
-    import degreewise.commands.refresh as refresh
+    from degreewise.workbook.compute import Refresher
+    from degreewise.workbook.formula import parse_call
+    from degreewise.workbook.processes import shares_of
+    from degreewise.xlsx.package import read_package
 
-    book = refresh.Refresher(refresh.read_package(_many_sheets(tmp_path / "book.xlsx"))[1])
+    book = Refresher(read_package(_many_sheets(tmp_path / "book.xlsx"))[1])
     by_cell = {}
     for f in book.formulas:
-        f.call = refresh.parse_call(f.text, f.sheet, book.book.names)
+        f.call = parse_call(f.text, f.sheet, book.book.names)
         by_cell[(f.sheet, f.row, f.col)] = f
     order = sorted(by_cell)
-    shares = refresh._shares(order, by_cell, 3)
+    shares = shares_of(order, by_cell, 3)
     assert len(shares) == 3 and sorted(k for s in shares for k in s) == order
     home = {k[0]: i for i, s in enumerate(shares) for k in s}
     assert home["Check"] == home["Cal 4"]
@@ -476,3 +482,28 @@ def test_a_progress_bar_shows_on_a_terminal_for_several_workbooks(tmp_path, monk
     run([str(tmp_path)], jobs=1)
     assert "| 2/2 [" in sys.stderr.getvalue()
     assert "one.xlsx" in capsys.readouterr().out
+
+
+@pytest.mark.parametrize("merged,blocked", [("J6:K8", True), ("N4:O5", True), ("J1:K3", True), ("F4:H5", True),
+                                            ("J7:K8", False), ("O4:P5", False), ("J1:K2", False), ("F4:G5", False)])
+def test_a_merged_block_touching_any_edge_of_the_result_blocks_it(tmp_path, merged, blocked):
+    """The result H3:N6 (4 x 7) meets a merged block on its bottom, right, top or left edge by one row or
+    column: the spreadsheet program refuses the spill (#SPILL!); one row or column further off it spills."""
+    path = tmp_path / "merged.xlsx"
+    wb = openpyxl.Workbook()
+    ws = wb.active
+    for i, (a, b) in enumerate(zip(X, Y), start=2):
+        ws.cell(i, 1, float(a)), ws.cell(i, 2, float(b))
+    ws["H3"] = "=CALIB_COEFS(A2:A13,B2:B13,2)"
+    ws.merge_cells(merged)
+    wb.save(path)
+    report = refresh_file(path)
+    if blocked:
+        assert report.blocked == [("Sheet!H3", f"the result (4 x 7) would spill into the merged cells {merged}, "
+                                               "where the spreadsheet program does not allow a spilled result; "
+                                               "nothing was written")]
+        assert values(path, "Sheet", "H3", 1, 1) == [["#SPILL!"]]
+    else:
+        assert report.blocked == [] and report.refreshed == ["Sheet!H3"]
+        assert values(path, "Sheet", "H3", 1, 7) == [["term", "coefficient", "std error", "t", "p-value", "lower",
+                                                       "upper"]]

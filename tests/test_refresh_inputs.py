@@ -11,9 +11,9 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from degreewise.commands.arithmetic import evaluate_arithmetic
-from degreewise.commands.dependencies import graph_of
-from degreewise.commands.formula import Area, Call, areas_of
+from degreewise.workbook.arithmetic import evaluate_arithmetic
+from degreewise.workbook.dependencies import graph_of
+from degreewise.workbook.formula import Area, Call, areas_of
 from degreewise.commands.refresh import refresh_file
 
 X = [0.0, 5.0, 10.0, 20.0, 40.0, 60.0, 80.0, 100.0, 120.0, 140.0, 160.0, 200.0]

@@ -26,7 +26,7 @@ from degreewise.commands.freeze import freeze
 from degreewise.commands.refresh import refresh_file
 from degreewise.commands.report import write_report
 from degreewise.commands.scenarios import all_scenarios
-from degreewise.commands.sections import number
+from degreewise.workbook.sections import number
 
 FOLDER = Path(__file__).resolve().parent.parent / "workbooks"
 SCENARIOS = {sc.name: sc for sc in all_scenarios()}
@@ -97,7 +97,7 @@ def test_report_shows_what_the_functions_return(reports, name, paper):
 def test_report_pages_render_none_blank_nothing_beyond_the_margins(reports, name, paper, tmp_path):
     pdf = reports[name, paper]
     pages = page_count(pdf)
-    assert pages == {"weighted": 6, "straight": 6}.get(name, 5)  # every CALIB_* cell, the 41-point prediction table too
+    assert pages == {"straight": 6}.get(name, 5)  # every CALIB_* cell, the 41-point prediction table too
     subprocess.run(["pdftoppm", "-r", "30", "-png", str(pdf), str(tmp_path / "p")], check=True)
     assert len(list(tmp_path.glob("p-*.png"))) == pages
     for page in range(1, pages + 1):
@@ -246,6 +246,7 @@ def test_limits_and_weighting_appear_with_the_workbooks_blank_readings(tmp_path)
     text = words(pdf_text(write_report(book, tmp_path / "report.pdf")[0]))
     assert "Detection and quantitation limits" in text and "Weighting schemes compared" in text
     assert "DIN 32645 blank method; 6 readings" in text
+    assert "Calibration 1: sheet 'Weighted'" in text and "Calibration 2" not in text  # WEIGHTING takes no weights
     straight = words(pdf_text(write_report(FOLDER / "degreewise-demo-straight.xlsx", tmp_path / "s.pdf")[0]))
     assert "Detection and quantitation limits" in straight and "Weighting schemes compared" not in straight
 
@@ -254,9 +255,10 @@ def test_limits_and_weighting_appear_with_the_workbooks_blank_readings(tmp_path)
 def test_report_shows_the_comparison_with_an_earlier_calibration(reports):
     text = words(pdf_text(reports["straight", "a4"]))
     wb = openpyxl.load_workbook(FOLDER / "degreewise-demo-straight.xlsx", data_only=True)
-    same_curve = [c.value for c in wb["Compare"][2]][5:13]  # F2:M2, as the refresh stored them
+    same_curve = [c.value for c in wb["Compare"][2]][5:16]  # F2:P2, as the refresh stored them
     assert "Compared with an earlier calibration: Compare!F1" in text
-    assert f"same curve {number(same_curve[6], 3)} {same_curve[7]} F = " in text  # p to 3 digits
+    f, df_num, df_den, p, verdict = same_curve[6:11]  # F to 4 digits, its df, p to 3 digits
+    assert f"same curve {number(f, 4)} {df_num} {df_den} {number(p, 3)} {verdict} F = " in text
 
 
 @needs_poppler
@@ -326,3 +328,11 @@ def test_a_frozen_cell_keeps_its_value_style_and_prefix(cell, p, frozen):
     from degreewise.commands.freeze import frozen_cell
 
     assert frozen_cell(cell, p) == frozen
+
+
+def test_report_on_a_missing_workbook_is_one_line(tmp_path, capsys, monkeypatch):
+    """A path that does not exist: one line naming it, exit 1, no traceback (the error path once referred to a
+    local list by the module's name)."""
+    monkeypatch.chdir(tmp_path)
+    assert main(["report", "nothere.xlsx"]) == 1
+    assert capsys.readouterr().out == "nothere.xlsx: no report: No such file or directory (nothere.xlsx); nothing was changed\n"

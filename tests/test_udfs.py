@@ -368,3 +368,16 @@ def test_blank_new_x_and_readings_keep_their_rows_in_cached_results(data):
     assert first[0] == moved[0] and first[2] == moved[1]
     readings = degreewise.calib_inverse(xs, ys, [[None], [200.0]], None, 2)
     assert readings[0] == [None] * 4 and readings[1] == degreewise.calib_inverse(xs, ys, [[200.0], [None]], None, 2)[0]
+
+
+def test_response_weights_accept_a_standard_read_at_or_below_zero():
+    """weights "1/y" read the fitted curve (README): a blank-level standard read as -0.02 is used, and the
+    coefficients are those of statsmodels' WLS under the settled weights."""
+    x = [0.5, 0.5, 1.0, 1.0, 2.0, 2.0, 5.0, 5.0, 10.0, 10.0]
+    y = [-0.02, 0.07, 0.21, 0.16, 0.43, 0.38, 1.02, 1.05, 2.04, 1.98]
+    rows = degreewise.calib_coefs([[v] for v in x], [[v] for v in y], 1, None, "1/y")
+    w = engine.Calibration(x, y, weights="1/y").weighting.values
+    ref = sm.WLS(np.array(y), sm.add_constant(np.array(x)), weights=w).fit()
+    assert [r[0] for r in rows[1:]] == ["intercept", "x"]
+    np.testing.assert_allclose([r[1] for r in rows[1:]], ref.params, rtol=1e-10)
+    np.testing.assert_allclose([r[2] for r in rows[1:]], ref.bse, rtol=1e-8)

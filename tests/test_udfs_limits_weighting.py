@@ -15,8 +15,8 @@ import pytest
 
 import degreewise
 from degreewise import catalogue, engine, functions
-from degreewise.catalogue import HEADERS
-from degreewise.commands import refresh
+from degreewise.catalogue import HEADERS, LIMITS_AFTER_CHOICE, WEIGHTING_AFTER_CHOICE
+from degreewise.workbook import compute
 from degreewise.prepared import clear_caches
 
 # Miller & Miller's fluorescence standards (recalled from memory; see test_limits.py)
@@ -44,6 +44,9 @@ def test_limits_table_equals_the_engine():
         assert got[1:5] == [None if math.isnan(v) else v for v in r[1:5]] and got[5] == r.note
     assert rows[2][4] is None and rows[3][1:3] == [None, None]  # ISO: no quantitation; ICH: no decision limit
     assert rows[-1][5].startswith("estimates from one calibration: confirm them with samples near the limit")
+    # the order was chosen from the same standards: the caution states the false-positive rate that gives
+    assert f"; {LIMITS_AFTER_CHOICE}. " in rows[-1][5]
+    assert f"; {LIMITS_AFTER_CHOICE}. " not in degreewise.calib_limits(X, Y, None, None, 1)[-1][5]
 
 
 def test_blank_cells_skip_as_everywhere_and_bad_blank_readings_are_answered_in_words():
@@ -85,8 +88,9 @@ def test_weighting_table_equals_the_engine():
     assert all(len(r) == 7 for r in rows)
     assert [r[5] for r in rows[1:]].count("picked") == 1
     for got, r in zip(rows[1:], engine.compare_weightings(x, y)):
+        after = f"; {WEIGHTING_AFTER_CHOICE}" if r.picked else ""  # the measured cost of picking from the data
         assert got == [r.scheme, r.order, r.sum_abs_deviation, r.max_abs_deviation, r.spread_p,
-                       "picked" if r.picked else None, r.note or None]
+                       "picked" if r.picked else None, (r.note + after) or None]
 
 
 def test_weighting_with_a_blank_standard_says_which_schemes_cannot_apply():
@@ -109,7 +113,7 @@ def test_the_catalogue_is_the_one_list_of_the_family():
     names = list(catalogue.FUNCTIONS)
     defined = [n for n, f in vars(functions).items() if n.startswith("calib_") and inspect.isfunction(f)]
     assert sorted(defined) == sorted(names) and degreewise.FUNCTIONS is catalogue.FUNCTIONS
-    assert {n: f.__name__ for n, f in refresh.CALLABLE.items()} == {n.upper(): n for n in names}
+    assert {n: f.__name__ for n, f in compute.CALLABLE.items()} == {n.upper(): n for n in names}
     assert set(catalogue.TEXT_ANSWERS) <= set(names)
     for n in names:
         assert set(inspect.signature(getattr(functions, n)).parameters) <= set(catalogue.ARGUMENTS), n

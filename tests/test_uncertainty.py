@@ -119,8 +119,8 @@ def test_the_worksheet_table_keeps_rows_aligned_and_leaves_what_does_not_apply_e
     assert rows[1] == [None] * 6 + ["reading, row 2 of 4: the text 'n.d.' is not a number; enter a number or "
                                     "clear the cell"]
     assert rows[2] == [None] * 7
-    assert rows[3] == [None] * 6 + ["reading above the calibrated response range [0.0328, 0.2256]: no estimate "
-                                    "outside the calibrated range"]
+    assert rows[3] == [None] * 6 + ["reading above the calibrated response range [0.0328, 0.2256], above the "
+                                    "highest standard: no estimate outside the calibrated range"]
     assert degreewise.calib_uncertainty(x, y, [[None]]) == [
         [None] * 6 + ["reading: no values yet; the results appear when the cells are filled"]]
     # the level sets the coverage factor only

@@ -14,7 +14,7 @@ from degreewise.commands.demo import _exclude_cells
 from degreewise.commands.refresh import refresh_file
 from degreewise.commands.report import write_report
 from degreewise.commands.scenarios import straight_probe
-from degreewise.commands.sections import sections, summary
+from degreewise.workbook.sections import sections, summary
 
 BOOK = Path(__file__).resolve().parent.parent / "workbooks" / "degreewise-demo-straight.xlsx"
 X = [1.0, 1.0, 2.0, 2.0, 5.0, 5.0, 10.0, 10.0, 20.0, 20.0, 50.0, 50.0, 100.0, 100.0]

@@ -24,7 +24,7 @@ import numpy as np
 import scipy
 
 from . import VERSION, engine
-from .catalogue import ARGUMENTS, CAUTION, HEADERS, LIMITS_CAUTION, term
+from .catalogue import ARGUMENTS, CAUTION, HEADERS, LIMITS_AFTER_CHOICE, LIMITS_CAUTION, WEIGHTING_AFTER_CHOICE, term
 from .coercion import (ERROR_TEXTS, CellError, cell_numbers, describe, flatten, is_omitted, number_option,
                        numbers_or_blank, scalar, text_option)
 from .engine import acceptance
@@ -354,7 +354,7 @@ def _excluded_rows(cal, order: int, excluded) -> list[list]:
         read = engine.inverse(cal, [e.y], order)[0]
         back = read.x
         if not math.isfinite(back) and read.note:
-            note = f"{note}; {read.note}"
+            note = f"{note}; {engine.why_no_estimate(read.note)}"
         deviation = 100.0 * (back - e.x) / abs(e.x) if e.x != 0 else math.nan
         rows.append([_cell(fitted), _cell(e.y - fitted), None, None, None, _cell(back), _cell(deviation), note])
     return rows
@@ -425,7 +425,8 @@ def _scheme_only(weights):
 def _test_row(item: str, test, alpha: float, differ: str, agree: str, extra: str = "") -> list:
     verdict, words = ("warning", differ) if test.p_value < alpha else ("ok", agree)
     detail = f"F = {test.statistic:.4g} on {test.df_num} and {test.df_den} df: {words}{extra}"
-    return [item, None, None, None, None, None, _cell(test.p_value), verdict, detail]
+    return [item, None, None, None, None, None, _cell(test.statistic), test.df_num, test.df_den, _cell(test.p_value),
+            verdict, detail]
 
 
 def _percent(difference: float, reference: float) -> str:
@@ -447,14 +448,23 @@ def calib_compare(x, y, ref_x, ref_y, at=None, order=None, level=None, weights=N
     values, blank = numbers_or_blank(flatten(at, "at"))
     values = values[~blank]
 
-    def compute():
-        today, chosen, _ = _fitted(prep, k)
-        how = "given as the order argument" if k is not None else "the order the default rule picks for today's standards"
-        limit = order_limit(ref.x.size, np.unique(ref.x).size)
+    def reference_fitted(max_order: int):
         try:
-            reference = calibration(ref, max_order=max(1, min(chosen, limit)))
+            return calibration(ref, max_order=max_order)
         except CellError as err:
             raise CellError(f"reference calibration (ref_x, ref_y): {err}") from None
+
+    def compute():
+        if k is None:  # one order for both sets, chosen from all their standards together
+            today = calibration(prep)
+            chosen = engine.shared_order(today, reference_fitted(1)).order
+            how = "the order the default rule picks for both sets' standards together"
+            if chosen > today.max_order:
+                today = calibration(prep, max_order=chosen)
+        else:
+            today, chosen, _ = _fitted(prep, k)
+            how = "given as the order argument"
+        reference = reference_fitted(max(1, min(chosen, order_limit(ref.x.size, np.unique(ref.x).size))))
         c = engine.compare(today, reference, chosen, lev, values)
         alpha = 1.0 - lev
         shared = f"; both curves of order {chosen} ({how}); tested at {alpha:.3g}"
@@ -474,14 +484,15 @@ def calib_compare(x, y, ref_x, ref_y, at=None, order=None, level=None, weights=N
         rows.append(sd)
         for r in c.coefficients:
             rows.append([term(r.item), _cell(r.reference), _cell(r.today), _cell(r.difference), _cell(r.lower),
-                         _cell(r.upper), _cell(r.p_value), None, _percent(r.difference, r.reference)])
+                         _cell(r.upper), None, None, None, _cell(r.p_value), None,
+                         _percent(r.difference, r.reference)])
         for r, back in zip(c.levels, c.read_back):
             reads = (f"the reference curve reads today's response as x = {back:.6g}" if math.isfinite(back)
                      else "today's response lies outside the reference's calibrated range")
             rows.append([f"at x = {r.item:g}", _cell(r.reference), _cell(r.today), _cell(r.difference),
-                         _cell(r.lower), _cell(r.upper), _cell(r.p_value), None,
+                         _cell(r.lower), _cell(r.upper), None, None, None, _cell(r.p_value), None,
                          f"{_percent(r.difference, r.reference)} response; {reads}"])
-        rows.append(["caution", None, None, None, None, None, None, None, CAUTION])
+        rows.append(["caution", *[None] * 10, CAUTION])
         return rows
 
     return _cached("compare", prep, (ref.key, k, lev, values.tobytes()), compute)
@@ -518,7 +529,8 @@ def calib_limits(x, y, blank=None, replicates=None, order=None, alpha=None, weig
                                              r.quantitation_limit)), r.note or None])
         if problem:
             rows.append(["blank readings", None, None, None, None, problem])
-        rows.append(["caution", None, None, None, None, f"{LIMITS_CAUTION}. {CAUTION}"])
+        chosen_here = f"; {LIMITS_AFTER_CHOICE}" if k is None else ""
+        rows.append(["caution", None, None, None, None, f"{LIMITS_CAUTION}{chosen_here}. {CAUTION}"])
         return rows
 
     key = (reps, k, a, None if readings is None else readings.tobytes(), problem)
@@ -537,8 +549,9 @@ def calib_weighting(x, y, order=None, alpha=None, exclude=None):
         _fitted(prep, k)  # the standards' own problems, in the family's words
         rows = [list(HEADERS["weighting"])]
         for r in engine.compare_weightings(prep.x, prep.y, k, a):
+            note = f"{r.note}; {WEIGHTING_AFTER_CHOICE}" if r.picked else r.note
             rows.append([r.scheme, r.order, *_column((r.sum_abs_deviation, r.max_abs_deviation, r.spread_p)),
-                         "picked" if r.picked else None, prep.located(r.note) or None])
+                         "picked" if r.picked else None, prep.located(note) or None])
         return rows
 
     return _cached("weighting", prep, (k, a), compute)

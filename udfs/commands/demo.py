@@ -350,16 +350,23 @@ def compare_sheet(wb: Workbook, sc: Scenario) -> None:
     at = f"$D$2:$D${len(sc.check_levels) + 1}"
     ws["F1"] = _formula("CALIB_COMPARE", x, y, ref_x, ref_y, at, "", "", "", e)
     rows = 5 + 2 + len(sc.check_levels)
-    for h in (_span("A1", 1, 2), _span("D1", 1, 1), _span("F1", 1, 9)):
+    width = len(HEADERS["compare"])
+    for h in (_span("A1", 1, 2), _span("D1", 1, 1), _span("F1", 1, width)):
         _header(ws, h)
-    _wrap(ws, _span("F2", rows, 9))
-    for letter, width in {"A": 14, "B": 17, "C": 2, "D": 11, "E": 2, "F": 16, "N": 60}.items():
-        ws.column_dimensions[letter].width = width
-    for col in range(7, 14):
+    _wrap(ws, _span("F2", rows, width))
+    detail = get_column_letter(5 + width)
+    for letter, wide in {"A": 14, "B": 17, "C": 2, "D": 11, "E": 2, "F": 16, detail: 60}.items():
+        ws.column_dimensions[letter].width = wide
+    for col in range(7, 5 + width):
         ws.column_dimensions[get_column_letter(col)].width = NUMBER_WIDTH
     for r in range(2, rows + 2):
         ws.row_dimensions[r].height = LINE * 3
-    _page_setup(ws, f"A1:N{max(rows, len(sc.x), len(sc.reference_y)) + 1}", ())  # every standard of both runs
+    from .. import functions
+
+    cells = [[[v] for v in values] for values in (sc.x, sc.y, sc.x[: len(sc.reference_y)], sc.reference_y,
+                                                 sc.check_levels)]
+    _number_formats(ws, [("F1", functions.calib_compare(*cells, None, None, None, _exclude_cells(sc)))])
+    _page_setup(ws, f"A1:{detail}{max(rows, len(sc.x), len(sc.reference_y)) + 1}", ())  # every standard of both runs
 
 
 def acceptance_sheet(wb: Workbook, sc: Scenario) -> None:
@@ -574,7 +581,7 @@ def write_demo(folder: Path) -> list[Path]:
 def run(folder) -> int:
     """degreewise demo: write and refresh the demo workbooks, and print each calibration (and its report
     when the report extra is installed)."""
-    from .sections import sections, summary
+    from ..workbook.sections import sections, summary
 
     folder = Path(folder)
     if folder.exists() and not folder.is_dir():

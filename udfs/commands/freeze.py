@@ -22,8 +22,9 @@ from lxml import etree
 from .. import VERSION
 from ..xlsx.package import (MAIN, PackageError, Workbook, add_part, edit_xml, read_package, write_package,
                             xml_bytes)
-from . import files
-from .refresh import Refresher, Report
+from ..workbook import files
+from ..workbook.audit import Report
+from ..workbook.compute import Refresher
 
 CORE = "docProps/core.xml"
 CORE_TYPE = "application/vnd.openxmlformats-package.core-properties+xml"

@@ -34,11 +34,11 @@ from reportlab.platypus import Image, PageBreak, Paragraph, SimpleDocTemplate, S
 from .. import VERSION, functions
 from ..catalogue import CAUTION
 from ..xlsx.package import PackageError
+from ..workbook import files
+from ..workbook.formula import Area, Constant
+from ..workbook.sections import Section, number, sections
+from ..workbook.sections import Table as CellTable
 from .refresh import workbooks
-from . import files
-from .formula import Area, Constant
-from .sections import Section, number, sections
-from .sections import Table as CellTable
 
 PAPER = {"a4": A4, "letter": LETTER}
 MARGIN = 16 * mm
@@ -133,7 +133,7 @@ TITLES = {
     "CALIB_INVERSE": ("Samples read back", (4,), {}),
     "CALIB_RESIDUALS": ("Back-calculated standards", (9,), {}),
     "CALIB_CHECKS": ("Checks of the curve", (4,), {}),
-    "CALIB_COMPARE": ("Compared with an earlier calibration", (8,), {1: 5, 2: 5, 3: 4, 4: 4, 5: 4, 6: 3}),
+    "CALIB_COMPARE": ("Compared with an earlier calibration", (11,), {1: 5, 2: 5, 3: 4, 4: 4, 5: 4, 6: 4, 9: 3}),
     "CALIB_LIMITS": ("Detection and quantitation limits", (5,), {}),
     "CALIB_WEIGHTING": ("Weighting schemes compared", (6,), {}),
     "CALIB_ACCEPTANCE": ("Acceptance of the run under a criteria set", (6,), {}),
@@ -375,15 +375,15 @@ def report_path(book: Path, folder: Path | None) -> Path:
 
 def run(paths, out: str | None = None, paper: str = "a4") -> int:
     """The command: one report per workbook; exit 0 only when every report was written."""
-    files = workbooks(paths)
-    if not files:
+    books = workbooks(paths)
+    if not books:
         print("no workbooks (.xlsx, .xlsm) found in " + ", ".join(map(str, paths)))
         return 2
     folder = Path(out) if out else None
     if folder:
         folder.mkdir(parents=True, exist_ok=True)
     status = 0
-    for book in files:
+    for book in books:
         try:
             written, count = write_report(book, report_path(book, folder), paper)
             print(f"{book}: report with {count} calibration{'s' if count != 1 else ''} written to {written}")

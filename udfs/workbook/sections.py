@@ -20,7 +20,8 @@ from ..xlsx.cells import column_letters
 from ..xlsx.package import read_package
 from . import files
 from .formula import Area, Call, Constant
-from .refresh import Refresher, Report, parameters
+from .audit import Report
+from .compute import Refresher, parameters
 
 STANDARDS = ("x", "y", "weights", "exclude")
 DATA = ("x", "y")  # shown once, in the section's heading
@@ -203,11 +204,15 @@ class Book:
         return out
 
     def sections(self) -> list[Section]:
+        """One section per set of standards (x, y, weights, exclude). A table whose function takes no weights
+        (CALIB_WEIGHTING compares the schemes itself) joins the first section on the same x, y and exclude."""
         found: dict[tuple, Section] = {}
-        for t in self.tables():
-            if not t.name:
-                continue
+        tables = [t for t in self.tables() if t.name]
+        own = [t for t in tables if "weights" in parameters(t.name)]
+        for t in own + [t for t in tables if "weights" not in parameters(t.name)]:
             key = tuple(t.args.get(n) for n in STANDARDS)
+            if "weights" not in parameters(t.name):
+                key = next((k for k in found if (k[0], k[1], k[3]) == (key[0], key[1], key[3])), key)
             s = found.get(key)
             if s is None:
                 x, y = t.args["x"], t.args["y"]
