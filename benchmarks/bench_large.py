@@ -65,7 +65,8 @@ def function_call(name: str, n: int):
     calls = {"ORDER": lambda: d.calib_order(xs, ys), "ORDERS": lambda: d.calib_orders(xs, ys),
              "SEQF": lambda: d.calib_seqf(xs, ys), "COEFS": lambda: d.calib_coefs(xs, ys, 1),
              "STATS": lambda: d.calib_stats(xs, ys, 1), "PREDICT": lambda: d.calib_predict(xs, ys, few, 1),
-             "INVERSE": lambda: d.calib_inverse(xs, ys, few, None, 1), "RESIDUALS": lambda: d.calib_residuals(xs, ys, 1),
+             "INVERSE": lambda: d.calib_inverse(xs, ys, few, None, 1),
+             "RESIDUALS": lambda: d.calib_residuals(xs, ys, 1),
              "CHECKS": lambda: d.calib_checks(xs, ys, 1), "LIMITS": lambda: d.calib_limits(xs, ys, None, None, 1),
              "WEIGHTING": lambda: d.calib_weighting(xs, ys, 1),
              "COMPARE": lambda: d.calib_compare(xs, ys, xs, ry, few[:3], 1)}

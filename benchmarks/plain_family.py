@@ -1,12 +1,12 @@
 """A plain numpy/scipy floor for one sheet's 12 CALIB_* functions (ORDER, ORDERS, SEQF, COEFS, STATS,
 PREDICT, INVERSE, RESIDUALS, CHECKS, LIMITS, WEIGHTING, COMPARE): the same numbers, computed directly.
 
-Timed against the worksheet functions by bench_family.py beside it. Everything is O(n) or O(n log n) in the number of points n
-(no n x n or m x m matrices): one Householder QR (numpy.linalg.qr) of the raw Vandermonde design of
-order K serves every order 0..K (nested column spaces), roots are companion-matrix eigenvalues
-(batched numpy.linalg.eigvals), distributions through scipy.special, Shapiro-Wilk through
-scipy.stats.shapiro (as the engine), Durbin-Watson's beta approximation from trace identities,
-the Cook's-distance tail sum with the same binary search as the engine.
+Timed against the worksheet functions by bench_family.py beside it. Everything is O(n) or O(n log n)
+in the number of points n (no n x n or m x m matrices): one Householder QR (numpy.linalg.qr) of the raw
+Vandermonde design of order K serves every order 0..K (nested column spaces), roots are companion-matrix
+eigenvalues (batched numpy.linalg.eigvals), distributions through scipy.special, Shapiro-Wilk through
+scipy.stats.shapiro without its wrapper (as the engine), Durbin-Watson's beta approximation from trace
+identities, the Cook's-distance tail sum with the same binary search as the engine.
 
 Left out against the worksheet functions: input validation and messages, texts/notes/verdicts, the
 centred scaled basis and power-of-two scaling, double-double refinement, excluded standards,
@@ -206,13 +206,15 @@ def family(xs, ys, new_x, readings, ref_x, ref_y, at):
     mu4, v4 = mean / 4, var / 16
     size = mu4 * (1 - mu4) / v4 - 1
     p_dw = special.betainc(mu4 * size, (1 - mu4) * size, dw / 4)
-    sw = getattr(stats.shapiro, "__wrapped__", stats.shapiro)(e)  # as the engine: without the axis/nan-policy wrapper (~160 us)
+    # as the engine: Shapiro-Wilk without the axis/nan-policy wrapper (~160 us)
+    sw = getattr(stats.shapiro, "__wrapped__", stats.shapiro)(e)
     e2 = e**2
     d2 = e2 - e2.mean()
     qk = F.q[:, : k + 1]
     lm = n * float(((qk.T @ d2) ** 2).sum()) / float(d2 @ d2)
     p_bp = special.chdtrc(k, lm)
-    turns = np.count_nonzero(~np.isnan(real_roots(np.polynomial.polynomial.polyder(b)[None, :], lo, hi))) if k > 1 else 0
+    slope = np.polynomial.polynomial.polyder(b)[None, :]
+    turns = np.count_nonzero(~np.isnan(real_roots(slope, lo, hi))) if k > 1 else 0
     bonf = np.minimum(1.0, n * 2 * special.stdtr(dfk - 1, -np.abs(t_ext)))
 
     def tail(d):

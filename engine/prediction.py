@@ -70,9 +70,9 @@ def predict(cal: Calibration, new_x, order: int, level: float = 0.95) -> tuple[P
 def roots_of(curve: Curve, readings: np.ndarray, z_lo: float, z_hi: float):
     """Every z in [z_lo, z_hi] (grid nodes) with f(z) = reading (in curve units): (reading index, z), sorted.
 
-    The grid cells where f - reading changes sign (a zero counts as positive, so a root on a node is found once) are
-    found run by run: between the grid's turning nodes f is monotonic, so each reading changes sign at
-    most once in a run, at the node a binary search of the run's values finds. Memory stays O(n)."""
+    The grid cells where f - reading changes sign (a zero counts as positive, so a root on a node is found
+    once) are found run by run: between the grid's turning nodes f is monotonic, so each reading changes
+    sign at most once in a run, at the node a binary search of the run's values finds. Memory stays O(n)."""
     z, f, _ = curve.grid
     inside = (z[:-1] >= z_lo) & (z[1:] <= z_hi)
     rows, cells = [], []

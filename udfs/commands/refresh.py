@@ -159,17 +159,17 @@ def run(paths, check: bool = False, backup: bool = False, jobs: int | None = Non
         print("no workbooks (.xlsx, .xlsm) found in " + ", ".join(map(str, paths)))
         return 2
     tasks = [(f, check, backup, 1 if len(books) > 1 else jobs) for f in books]
-    bar = None
-    if len(tasks) > 1 and sys.stderr.isatty():
-        from tqdm import tqdm
-
-        bar = tqdm(total=len(tasks), unit="workbook", file=sys.stderr)
     try:
         out = sys.stdout if report_to is None else open(report_to, "a", encoding="utf-8")
     except OSError as err:
         print(f"degreewise refresh: --report-to: cannot write {report_to} ({err.strerror}); nothing was refreshed",
               file=sys.stderr)
         return 2
+    bar = None
+    if len(tasks) > 1 and sys.stderr.isatty():
+        from tqdm import tqdm
+
+        bar = tqdm(total=len(tasks), unit="workbook", file=sys.stderr)
     done, bad, all_ok = 0, [], True
 
     def say(line: str) -> None:
