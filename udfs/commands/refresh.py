@@ -16,7 +16,6 @@ whose bytes would not change is not written at all.
 
 from __future__ import annotations
 
-import gc
 import os
 import re
 import stat
@@ -126,21 +125,10 @@ def workbooks(paths) -> list[Path]:
     return found
 
 
-COLLECT_BOOKS = 50  # workbooks between full garbage collections in a folder run
-_refreshed_here = 0  # workbooks this process refreshed for a folder run
-
-
 def _one(args) -> Report:
-    """One workbook of a folder run, in a worker or in the run's own process. Each workbook leaves cycles
-    (XML parsers and their handlers) that only a full garbage collection frees: every ``COLLECT_BOOKS``
-    workbooks there is one, so that memory stays flat however many workbooks a process refreshes."""
-    global _refreshed_here
+    """One workbook of a folder run, in a worker or in the run's own process."""
     path, check, backup, workers = args
-    report = refresh_file(path, check, backup, workers=workers)
-    _refreshed_here += 1
-    if _refreshed_here % COLLECT_BOOKS == 0:
-        gc.collect()
-    return report
+    return refresh_file(path, check, backup, workers=workers)
 
 
 def run(paths, check: bool = False, backup: bool = False, jobs: int | None = None, report_to=None) -> int:

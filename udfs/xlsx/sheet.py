@@ -31,6 +31,15 @@ NOT_UTF8 = ("part {} is not UTF-8 text; the refresh edits only UTF-8 parts (save
 AGAIN = "open and save the workbook in the spreadsheet program, then refresh it"
 
 
+def _release(parser) -> None:
+    """The parser's handlers dropped: they are closures that refer back to it, a cycle that only a full
+    collection would free (about 64 KB a workbook in a folder run)."""
+    for handler in ("StartElementHandler", "EndElementHandler", "CharacterDataHandler", "CommentHandler",
+                    "ProcessingInstructionHandler", "StartCdataSectionHandler", "StartDoctypeDeclHandler",
+                    "XmlDeclHandler"):
+        setattr(parser, handler, None)
+
+
 def tag(name: str, attrs: dict, empty: bool = False) -> str:
     """A start tag (or an empty element) with its attributes escaped."""
     inner = "".join(f" {k}={quoteattr(v)}" for k, v in attrs.items())
@@ -184,6 +193,8 @@ class Sheet:
             parser.Parse(data, True)
         except expat.ExpatError as err:
             raise PackageError(f"broken XML in {part}: {err}") from None
+        finally:
+            _release(parser)
         if self._data_start is None:
             raise PackageError(f"part {part} has no sheetData element")
         self._empty_data = self._data_end_at == self._end(self._data_end_at, self._data_end)  # <sheetData/>
@@ -270,6 +281,8 @@ class Sheet:
             parser.Parse(b"</w>", True)
         except expat.ExpatError as err:
             raise PackageError(f"broken XML in {self.part}: {err}") from None
+        finally:
+            _release(parser)
         return out, rows
 
     def _value(self, attrs: dict, text: str | None, col: int, row: int):
