@@ -31,7 +31,8 @@ def median_time(func, *args, repeat=200):
 def side_by_side(ours, reference, args, rounds=60, ours_per_round=10):
     """Both measured in alternating rounds (ours ``ours_per_round`` times, then the reference once),
     so that machine drift hits both alike. Returns the medians of our times and of the reference's,
-    and the median and quartiles of the per-round ratios (reference / our median in that round)."""
+    and the median and quartiles of the per-round ratios (our median in that round / reference: below 1,
+    ours is faster)."""
     for _ in range(5):
         ours(*args)
         reference(*args)
@@ -46,14 +47,14 @@ def side_by_side(ours, reference, args, rounds=60, ours_per_round=10):
         reference(*args)
         theirs.append(time.perf_counter() - t0)
         mine += this_round
-        ratios.append(theirs[-1] / statistics.median(this_round))
+        ratios.append(statistics.median(this_round) / theirs[-1])
     quartiles = statistics.quantiles(ratios, n=4)
     return statistics.median(mine), statistics.median(theirs), (statistics.median(ratios), quartiles[0], quartiles[2])
 
 
 def ratio_words(ratio) -> str:
     middle, low, high = ratio
-    return f"{middle:8.1f} x faster (median of per-round ratios; quartiles {low:.1f} to {high:.1f})"
+    return f"{middle:8.3f} ours / statsmodels (median of per-round ratios; quartiles {low:.3f} to {high:.3f})"
 
 
 def main():

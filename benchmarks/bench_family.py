@@ -1,119 +1,151 @@
-"""One sheet's CALIB_* family after an edit, against a plain numpy implementation of the same numbers.
+"""One sheet's whole CALIB_* family after an edit, against a plain numpy/scipy computation of the same numbers.
 
-After an edit every cached result is stale: each round clears the worksheet layer's caches and makes the
-nine calls of ``bench_udfs.family`` (CALIB_ORDER, then the eight tables), inputs as the desktop runtime
-hands them over (lists of one-cell rows of floats; the typical calibration of ``workloads``: 8 levels x 3
-replicates, 10 new x, 10 readings). ``plain_family.family`` computes the same numbers plainly, without
-refinement (its docstring says what else it leaves out). First the two are compared number by number (to
-1e-6 relative); then timed in alternating rounds (reference then ours, ours then reference, ...), each
-round the median of a few calls of each, and the ratio (ours / reference) taken per round. Times are CPU
-time of this process (``time.process_time``): on a shared machine, wall time mostly measures the others.
+Ours: the twelve worksheet functions in sheet order (CALIB_ORDER, ORDERS, SEQF, COEFS, STATS, PREDICT, INVERSE,
+RESIDUALS, CHECKS, LIMITS, WEIGHTING, COMPARE), every cache cleared first (after an edit every cached result is
+stale), inputs as the desktop runtime hands them over (lists of one-cell rows of floats): n standards at n / 5
+levels (8 levels of 3 at n = 24), 10 new x, 10 readings, a reference calibration of the same size for COMPARE
+and 3 x to compare at. Reference: ``plain_family.family``, the same numbers from plain numpy and scipy calls
+(its docstring says what it computes and leaves out: messages, texts, refinement, caches).
 
-Run: python benchmarks/bench_family.py [ROUNDS]
+First both sides are compared number by number (``agree``); then timed in alternating rounds (reference then
+ours, ours then reference, ...), each side the median CPU time (``time.process_time``) of a few calls with new
+data, the ratio ours / reference taken per round (below 1: ours faster); the median and quartiles of the
+rounds are printed, with each function's share of our time. BLAS runs one thread unless OPENBLAS_NUM_THREADS
+is set: on a shared machine a threaded QR of more than 5 columns mostly measures the other processes (both
+sides use the same library, so the ratio holds either way).
+
+Run: python benchmarks/bench_family.py [N ...]   (default 24 1000 100000)
 """
 
 from __future__ import annotations
 
-import math
-import statistics
-import sys
-import time
-from pathlib import Path
+import os
+
+os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
+
+import statistics  # noqa: E402
+import sys  # noqa: E402
+import time  # noqa: E402
+import warnings  # noqa: E402
+from pathlib import Path  # noqa: E402
+
+import numpy as np  # noqa: E402
 
 sys.path.insert(0, str(Path(__file__).resolve().parent))
 import plain_family  # noqa: E402
-import workloads  # noqa: E402
-from bench_udfs import desktop, family  # noqa: E402
 
-import degreewise  # noqa: E402
+import degreewise as d  # noqa: E402
 from degreewise.prepared import clear_caches  # noqa: E402
 
+warnings.filterwarnings("ignore")  # scipy's shapiro warns above 5000 points (both sides)
+NAMES = ("ORDER", "ORDERS", "SEQF", "COEFS", "STATS", "PREDICT", "INVERSE", "RESIDUALS", "CHECKS", "LIMITS",
+         "WEIGHTING", "COMPARE")
+PLAN = {24: (30, 5), 1000: (15, 3), 100_000: (5, 1)}  # rounds, calls per side per round
 
-def ours(xs, ys, new_x, readings):
+
+def desktop(v):
+    return [[float(a)] for a in v]
+
+
+def cells(n: int, variant: int):
+    """x, y, new x, readings, reference x, reference y, x to compare at (desktop shape)."""
+    levels = 8 if n == 24 else n // 5
+    x = np.repeat(np.linspace(1.0, 50.0, levels), n // levels)
+    rng = np.random.default_rng(1000 + variant)
+    y = 2.0 + 3.0 * x + 0.01 * x**2 + rng.normal(0.0, 1.0, x.size)
+    ry = 2.3 + 2.97 * x + 0.011 * x**2 + rng.normal(0.0, 1.0, x.size)
+    return tuple(map(desktop, (x, y, np.linspace(2.0, 48.0, 10), np.linspace(12.0, 170.0, 10), x, ry,
+                               [5.0, 25.0, 45.0])))
+
+
+def ours(c, clock=time.process_time):
+    """The twelve calls in sheet order after clearing the caches; each call's time."""
+    xs, ys, nx, rd, rx, ry, at = c
     clear_caches()
-    family(xs, ys, new_x, readings)
+    t = [clock()]
+    k = d.calib_order(xs, ys)
+    for call in (lambda: d.calib_orders(xs, ys), lambda: d.calib_seqf(xs, ys), lambda: d.calib_coefs(xs, ys, k),
+                 lambda: d.calib_stats(xs, ys, k), lambda: d.calib_predict(xs, ys, nx, k),
+                 lambda: d.calib_inverse(xs, ys, rd, None, k), lambda: d.calib_residuals(xs, ys, k),
+                 lambda: d.calib_checks(xs, ys, k), lambda: d.calib_limits(xs, ys, None, None, k),
+                 lambda: d.calib_weighting(xs, ys, k), lambda: d.calib_compare(xs, ys, rx, ry, at, k)):
+        t.append(clock())
+        call()
+    t.append(clock())
+    return np.diff(t)
 
 
-def _numbers(row) -> list:
-    return [v for v in row if not isinstance(v, str)]
+def _close(a, b, rtol=1e-6):
+    a, b = np.asarray(a, float), np.asarray(b, float)
+    return bool(np.all((np.isnan(a) & np.isnan(b)) | (np.abs(a - b) <= rtol * np.maximum(np.abs(a), np.abs(b)))))
 
 
-def _agree(a, b, where: str, rtol: float = 1e-6) -> None:
-    a = [math.nan if v is None else float(v) for v in a]
-    b = [math.nan if v is None else float(v) for v in b]
-    assert len(a) == len(b), f"{where}: {len(a)} numbers against {len(b)}"
-    for i, (u, v) in enumerate(zip(a, b)):
-        same = (u != u and v != v) or abs(u - v) <= rtol * max(abs(u), abs(v)) + 1e-300
-        assert same, f"{where}, number {i + 1}: {u!r} against {v!r}"
+def agree(c) -> None:
+    """Both sides give the same order, coefficients, order table, predictions, inverse readings, residual
+    table, check p-values, limits and weighting deviations (1e-6 relative)."""
+    xs, ys, nx, rd, rx, ry, at = c
+    clear_caches()
+    got = plain_family.family(*c)
+    k = d.calib_order(xs, ys)
+    assert k == got[0], (k, got[0])
+
+    def nums(rows, cols):
+        return [[np.nan if r[j] is None else r[j] for j in cols] for r in rows]
+
+    pairs = {
+        "coefs": (nums(d.calib_coefs(xs, ys, k)[1:], range(1, 7)), got[3]),
+        "orders": (nums(d.calib_orders(xs, ys)[1:], range(1, 10)), [r[1:10] for r in got[1]]),
+        "predict": (nums(d.calib_predict(xs, ys, nx, k), range(5)), got[5]),
+        "inverse": (nums(d.calib_inverse(xs, ys, rd, None, k), range(3)), got[6]),
+        "residuals": (nums(d.calib_residuals(xs, ys, k), range(2)), got[7][:, :2]),
+        "checks": (nums(d.calib_checks(xs, ys, k)[1:6], [2]), [[g[1]] for g in got[8][:5]]),
+        "limits": (nums(d.calib_limits(xs, ys, None, None, k)[1:2], range(1, 5)), [got[9][0]]),
+        "weighting": (nums(d.calib_weighting(xs, ys, k)[1:], range(1, 4)), [r[1:4] for r in got[10]]),
+    }
+    for name, (a, b) in pairs.items():
+        assert _close(a, b, 1e-5 if name == "limits" else 1e-6), (name, a, b)
 
 
-def compare(cells) -> int:
-    """Check that the worksheet functions and the plain reference give the same numbers; how many were compared."""
-    xs, ys, new_x, readings = cells
-    k, orders, seqf, coefs, st, predict, inverse, residuals, checks = plain_family.family(*cells)
-    assert degreewise.calib_order(xs, ys) == k
-    pairs = [
-        ("CALIB_ORDERS", [r[:11] for r in degreewise.calib_orders(xs, ys)[1:]], [r[:11] for r in orders]),
-        ("CALIB_SEQF", [r[1:] for r in degreewise.calib_seqf(xs, ys)[1:]], seqf),
-        ("CALIB_COEFS", [r[1:] for r in degreewise.calib_coefs(xs, ys, k)[1:]], coefs),
-        ("CALIB_PREDICT", [r[:5] for r in degreewise.calib_predict(xs, ys, new_x, k)], predict),
-        ("CALIB_INVERSE", [r[:3] for r in degreewise.calib_inverse(xs, ys, readings, None, k)], inverse),
-        ("CALIB_RESIDUALS", [r[:7] for r in degreewise.calib_residuals(xs, ys, k)], residuals),
-        ("CALIB_CHECKS", [r[1:3] for r in degreewise.calib_checks(xs, ys, k)[1:-1]], checks),
-    ]
-    stats = {r[0]: r[1] for r in degreewise.calib_stats(xs, ys, k)[1:]}
-    pairs.append(("CALIB_STATS", [[stats[label] for label in st]], [list(st.values())]))
-    count = 1
-    for name, mine, plain in pairs:
-        assert len(mine) == len(plain), f"{name}: {len(mine)} rows against {len(plain)}"
-        for i, (a, b) in enumerate(zip(mine, plain)):
-            _agree(_numbers(a), _numbers(b), f"{name} row {i + 1}")
-            count += len(_numbers(a))
-        if name == "CALIB_ORDERS":  # the rules' picks, as text
-            assert [r[11] for r in degreewise.calib_orders(xs, ys)[1:]] == [r[11] for r in orders]
-    return count
+def quartiles(v):
+    q = statistics.quantiles(v, n=4) if len(v) > 2 else [statistics.median(v)] * 3
+    return q[1], q[0], q[2]
 
 
-def _median_of(func, args, calls: int) -> float:
-    times = []
-    for _ in range(calls):
-        t0 = time.process_time()
-        func(*args)
-        times.append(time.process_time() - t0)
-    return statistics.median(times)
-
-
-def side_by_side(cells, rounds: int = 60, calls: int = 5):
-    """Medians of our times and the reference's, and the per-round ratios ours / reference."""
-    for _ in range(20):
-        ours(*cells)
-        plain_family.family(*cells)
-    mine, plain, ratios = [], [], []
+def side_by_side(n: int, rounds: int, per: int) -> dict:
+    data = [cells(n, v) for v in range(per + 1)]
+    ours(data[0]), plain_family.family(*data[0])  # warm up
+    ratios, mine, plain, shares = [], [], [], []
     for r in range(rounds):
-        if r % 2:
-            a = _median_of(ours, cells, calls)
-            b = _median_of(plain_family.family, cells, calls)
-        else:
-            b = _median_of(plain_family.family, cells, calls)
-            a = _median_of(ours, cells, calls)
-        mine.append(a)
-        plain.append(b)
-        ratios.append(a / b)
-    return mine, plain, ratios
+        took = {}
+        for side in (("ours", "plain") if r % 2 else ("plain", "ours")):
+            times = []
+            for c in data[1:]:
+                t0 = time.process_time()
+                if side == "ours":
+                    shares.append(ours(c))
+                else:
+                    plain_family.family(*c)
+                times.append(time.process_time() - t0)
+            took[side] = statistics.median(times)
+        mine.append(took["ours"])
+        plain.append(took["plain"])
+        ratios.append(took["ours"] / took["plain"])
+    share = np.median(np.array(shares), axis=0)
+    return dict(ratio=quartiles(ratios), ours=statistics.median(mine), plain=statistics.median(plain),
+                share=dict(zip(NAMES, share / share.sum())))
 
 
-def main():
-    rounds = int(sys.argv[1]) if len(sys.argv) > 1 else 60
-    cells = tuple(desktop(v) for v in workloads.typical())
-    print(f"numbers compared with the plain reference: {compare(cells)}, all within 1e-6 relative")
-    mine, plain, ratios = side_by_side(cells, rounds)
-    q1, q2, q3 = statistics.quantiles(ratios, n=4)
-    print("one sheet's family after an edit (caches cleared; 9 calls; 24 rows, desktop 2-D)")
-    print(f"  degreewise     {statistics.median(mine) * 1e3:7.3f} ms (median of round medians)")
-    print(f"  plain numpy    {statistics.median(plain) * 1e3:7.3f} ms")
-    print(f"  ratio ours / plain: median {q2:.2f} (quartiles {q1:.2f} to {q3:.2f}; {rounds} rounds)")
-    print("  per round: " + " ".join(f"{r:.2f}" for r in ratios))
+def main(sizes):
+    print("one sheet's twelve CALIB_* functions after an edit (caches cleared, desktop cells) against plain "
+          f"numpy/scipy computing the same numbers; CPU time, BLAS threads {os.environ['OPENBLAS_NUM_THREADS']}")
+    for n in sizes:
+        agree(cells(n, 0))
+        rounds, per = PLAN.get(n, (9, 1))
+        r = side_by_side(n, rounds, per)
+        (med, q1, q3), top = r["ratio"], sorted(r["share"].items(), key=lambda kv: -kv[1])[:4]
+        print(f"  n = {n:>7,}: ours / plain {med:.2f} (quartiles {q1:.2f} to {q3:.2f}; {rounds} rounds); "
+              "largest shares of ours: " + ", ".join(f"{k} {v:.0%}" for k, v in top), flush=True)
 
 
 if __name__ == "__main__":
-    main()
+    main([int(float(a)) for a in sys.argv[1:]] or list(PLAN))

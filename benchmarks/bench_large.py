@@ -1,27 +1,32 @@
-"""One million points: order choice and coefficients against statsmodels OLS, side by side.
+"""Large calibrations: time and memory against numpy, and every worksheet function's memory per point.
 
-Ours: ``Calibration(x, y)`` (default max order K), the default rule's order and that order's fit
-(coefficients and standard errors: what CALIB_ORDER and CALIB_COEFS need). Reference: statsmodels OLS
-of every order 0..K on the raw power design ``np.vander(x, k + 1, increasing=True)``, params and bse
-(what an analyst fits to make the same choice and read the same coefficients).
+1. One million points (10 levels): ours is ``Calibration(x, y)`` (default max order K), the default rule's
+   order and that order's fit (coefficients and standard errors: what CALIB_ORDER and CALIB_COEFS need);
+   the reference is ``numpy.linalg.lstsq`` of every order 0..K on the raw power design
+   ``np.vander(x, k + 1, increasing=True)`` (the least squares an analyst runs to compare the same orders).
+   Ratios ours / reference per round, time and peak memory (below 1: ours faster or smaller).
+2. Each of the twelve worksheet functions alone on 300,000 points (desktop cells, caches cleared): the growth
+   of the peak resident set over the one before the call, per point, the returned table included (the
+   input cells are built before). CALIB_COMPARE's input is twice as many points (today and the reference).
 
-Each measurement runs in a fresh subprocess, reference and ours alternating round by round. In the
-subprocess both libraries are imported and warmed up on 100 points first; then the time of one call
-(perf_counter) and its peak memory, the growth of the process's peak resident set
-(``resource.getrusage(RUSAGE_SELF).ru_maxrss``, KiB on Linux) over its value just before the call,
-are taken. The ratios are reference / ours per round (above 1: ours faster or smaller).
+Every measurement runs in a fresh subprocess (``ru_maxrss``, KiB on Linux), one BLAS thread unless
+OPENBLAS_NUM_THREADS is set; reference and ours alternate round by round.
 
-Run: python benchmarks/bench_large.py [rounds]   (needs the test extra: statsmodels)
+Run: python benchmarks/bench_large.py [rounds]
 """
 
 from __future__ import annotations
 
 import json
+import os
 import statistics
 import subprocess
 import sys
 
-N = 1_000_000
+N, N_TABLE = 1_000_000, 300_000
+FUNCTIONS = ("ORDER", "ORDERS", "SEQF", "COEFS", "STATS", "PREDICT", "INVERSE", "RESIDUALS", "CHECKS", "LIMITS",
+             "WEIGHTING", "COMPARE")
+ENV = {**os.environ, "OPENBLAS_NUM_THREADS": os.environ.get("OPENBLAS_NUM_THREADS", "1")}
 
 
 def data(n: int):
@@ -42,51 +47,81 @@ def ours(x, y):
 
 def reference(x, y, max_order=4):
     import numpy as np
-    import statsmodels.api as sm
 
-    fits = [sm.OLS(y, np.vander(x, k + 1, increasing=True)).fit() for k in range(max_order + 1)]
-    return [(f.params, f.bse) for f in fits]
+    return [np.linalg.lstsq(np.vander(x, k + 1, increasing=True), y, rcond=None)[0] for k in range(max_order + 1)]
+
+
+def function_call(name: str, n: int):
+    """The worksheet function ``name`` on n desktop cells (x from 1 to 100 at 10 levels; nothing at x = 0)."""
+    import numpy as np
+
+    import degreewise as d
+
+    x, y = data(n)
+    x = x + 1.0
+    cells = [[[float(v)] for v in a] for a in (x, y, y * 1.01 + 0.1)]
+    xs, ys, ry = cells
+    few = [[float(v)] for v in np.linspace(2.0, 90.0, 10)]
+    calls = {"ORDER": lambda: d.calib_order(xs, ys), "ORDERS": lambda: d.calib_orders(xs, ys),
+             "SEQF": lambda: d.calib_seqf(xs, ys), "COEFS": lambda: d.calib_coefs(xs, ys, 1),
+             "STATS": lambda: d.calib_stats(xs, ys, 1), "PREDICT": lambda: d.calib_predict(xs, ys, few, 1),
+             "INVERSE": lambda: d.calib_inverse(xs, ys, few, None, 1),
+             "RESIDUALS": lambda: d.calib_residuals(xs, ys, 1),
+             "CHECKS": lambda: d.calib_checks(xs, ys, 1), "LIMITS": lambda: d.calib_limits(xs, ys, None, None, 1),
+             "WEIGHTING": lambda: d.calib_weighting(xs, ys, 1),
+             "COMPARE": lambda: d.calib_compare(xs, ys, xs, ry, few[:3], 1)}
+    return calls[name]
 
 
 def measure(which: str) -> dict:
-    """One call of ``which`` on a million points, in this (fresh) process."""
+    """One call of ``which`` in this (fresh) process: seconds and peak growth in MiB."""
     import resource
     import time
+    import warnings
 
-    import statsmodels.api  # noqa: F401  both libraries loaded before the baseline
+    from degreewise import engine  # noqa: F401  loaded before the baseline
+    from degreewise.prepared import clear_caches
 
-    from degreewise import engine  # noqa: F401
-
-    func = {"ours": ours, "reference": reference}[which]
-    func(*data(100))
-    x, y = data(N)
+    warnings.filterwarnings("ignore")  # scipy's Shapiro-Wilk warns above 5000 points
+    if which in ("ours", "reference"):
+        func = {"ours": ours, "reference": reference}[which]
+        func(*data(100))
+        args = data(N)
+        call = lambda: func(*args)  # noqa: E731
+    else:
+        function_call(which, 100)()
+        clear_caches()
+        call = function_call(which, N_TABLE)
     before = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
-    t0 = time.perf_counter()
-    func(x, y)
-    seconds = time.perf_counter() - t0
+    t0 = time.process_time()
+    result = call()
+    seconds = time.process_time() - t0
     peak = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss - before
+    del result
     return {"seconds": seconds, "mib": peak / 1024}
 
 
 def run(which: str) -> dict:
-    out = subprocess.run([sys.executable, __file__, "--measure", which], check=True, capture_output=True, text=True)
+    out = subprocess.run([sys.executable, __file__, "--measure", which], check=True, capture_output=True, text=True,
+                         env=ENV)
     return json.loads(out.stdout)
 
 
-def main(rounds: int = 7):
-    rows = []
-    for _ in range(rounds):
-        ref, mine = run("reference"), run("ours")
-        rows.append((ref, mine))
-        print(f"  round {len(rows)}: statsmodels {ref['seconds']:.3f} s {ref['mib']:6.1f} MiB | ours "
-              f"{mine['seconds']:.3f} s {mine['mib']:6.1f} MiB | time ratio {ref['seconds'] / mine['seconds']:.2f}"
-              f", memory ratio {ref['mib'] / mine['mib']:.2f}", flush=True)
+def main(rounds: int = 5):
     med = statistics.median
-    print(f"one million points, default max order: order choice + coefficients against statsmodels OLS of orders 0..K")
-    print(f"  median time    statsmodels {med(r['seconds'] for r, _ in rows):.3f} s, ours {med(m['seconds'] for _, m in rows):.3f} s;"
-          f" median per-round ratio {med(r['seconds'] / m['seconds'] for r, m in rows):.2f}")
-    print(f"  median peak    statsmodels {med(r['mib'] for r, _ in rows):.1f} MiB, ours {med(m['mib'] for _, m in rows):.1f} MiB"
-          f" (growth of ru_maxrss); median per-round ratio {med(r['mib'] / m['mib'] for r, m in rows):.2f}")
+    print(f"one million points: order choice + fit (ours) against numpy lstsq of orders 0..K (reference); CPU time")
+    rows = []
+    for r in range(rounds):
+        pair = (run("reference"), run("ours")) if r % 2 == 0 else tuple(reversed((run("ours"), run("reference"))))
+        rows.append(pair)
+    for key, what in (("seconds", "time"), ("mib", "peak memory")):
+        ratios = [m[key] / ref[key] for ref, m in rows]
+        print(f"  {what:<12} ours / lstsq: median {med(ratios):.2f} (rounds: {' '.join(f'{v:.2f}' for v in ratios)})")
+    print(f"each worksheet function alone on {N_TABLE:,} points (desktop cells): peak memory growth per point, "
+          "returned table included")
+    for name in FUNCTIONS:
+        got = run(name)
+        print(f"  CALIB_{name:<10} {got['mib'] * 2**20 / N_TABLE:6.0f} bytes per point", flush=True)
 
 
 if __name__ == "__main__":

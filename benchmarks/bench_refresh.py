@@ -6,8 +6,8 @@ Each run is a fresh process (imports included) on a fresh copy, which also repor
 (max RSS of the process plus its largest child, if any). The refresh runs as the command
 `degreewise refresh BOOK > report.txt` does (the audit trail goes to a file), with pandas hidden as
 in an install from the README's first command. Rounds alternate (openpyxl then refresh, refresh
-then openpyxl, ...); each round gives a time ratio (openpyxl / refresh: above 1 means the refresh is
-faster) and a memory ratio (refresh / openpyxl); the medians and quartiles of the per-round ratios
+then openpyxl, ...); each round gives a time ratio and a memory ratio, both refresh / openpyxl (below 1:
+the refresh is faster or smaller); the medians and quartiles of the per-round ratios
 are what to quote on a noisy machine.
 Run: python benchmarks/bench_refresh.py [SHEETS|BOOK.xlsx] [ROUNDS] [--jobs N]   (default 200, 5 rounds)
 """
@@ -104,11 +104,11 @@ def main(book: str = str(SHEETS), rounds: int = 5, extra: list[str] | None = Non
             order = ("openpyxl", "refresh") if i % 2 == 0 else ("refresh", "openpyxl")
             got = {kind: measure(kind, source, Path(tmp), extra if kind == "refresh" else []) for kind in order}
             (ot, om), (rt, rm) = got["openpyxl"], got["refresh"]
-            time_ratios.append(ot / rt)
+            time_ratios.append(rt / ot)
             memory_ratios.append(rm / om)
             print(f"  round {i + 1}: openpyxl {ot:6.2f} s {om:6.1f} MiB | refresh {rt:6.2f} s {rm:6.1f} MiB | "
-                  f"time openpyxl/refresh {ot / rt:5.2f}  memory refresh/openpyxl {rm / om:5.2f}")
-        print(f"median time ratio openpyxl/refresh {quartiles(time_ratios)}; "
+                  f"time refresh/openpyxl {rt / ot:5.2f}  memory refresh/openpyxl {rm / om:5.2f}")
+        print(f"median time ratio refresh/openpyxl {quartiles(time_ratios)}; "
               f"median memory ratio refresh/openpyxl {quartiles(memory_ratios)}")
 
 

@@ -83,6 +83,8 @@ def main(runs: int) -> int:
         failures += bool(bad)
         print(f"{n:2d} {command:7s} {signal.Signals(sig).name:7s} at {delay:4.2f} s: exit {run.returncode:4d}, "
               f"{state}; leftovers {left or 'none'}, spool {len(spool)}, orphan {orphan}" + ("  FAIL" if bad else ""))
+        if bad and err.strip():
+            print("   " + "\n   ".join(err.strip().splitlines()[-3:]))  # what the killed run printed last
     shutil.rmtree(work)
     print(f"{runs} runs, {failures} failures")
     return 1 if failures else 0

@@ -26,8 +26,8 @@ from . import doubledouble as dd
 from . import selection
 from .distributions import f_sf
 from .errors import DataError, OrderError
-from .linalg import LEVERAGE_ONE, householder_qr, triangular_inverse
-from .orders import OrderResults
+from .linalg import householder_qr, triangular_inverse
+from .orders import OrderResults, prediction_sum_of_squares
 from .refine import TARGET, PlainBounds, conversion_matrix, plain_bounds, refine, rss_bounds
 from .results import FTest, LackOfFit, OrderChoice, OrderFit, OrderStats, SequentialRow, SequentialTable
 from .validation import check_alpha, check_order, check_pair, check_rule, check_whole
@@ -147,10 +147,11 @@ class Calibration:
         self._refined_coefficients: dict[int, np.ndarray] = {}
 
     def _factorise(self, basis: np.ndarray) -> None:
-        """Q and R of the weighted basis (refused where R is numerically singular), Q'y, R^-1 and every
-        order's leverages."""
+        """Q and R of the weighted basis (refused where R is numerically singular), Q'y and R^-1."""
         weighted = self.weighting.weighted
-        self._q, self._r = householder_qr(basis * self.sqrt_w[:, None] if weighted else basis)
+        if weighted:
+            basis *= self.sqrt_w[:, None]  # in place: the basis is not needed again
+        self._q, self._r = householder_qr(basis)
         size = np.abs(self._r.diagonal())
         if not size.min() > _RANK_TOLERANCE * size.max():
             k, x = self.max_order, self.x
@@ -163,7 +164,6 @@ class Calibration:
         self._yw = self._ys * self.sqrt_w if weighted else self._ys
         self._qty = self._q.T @ self._yw
         self._r_inv = triangular_inverse(self._r)
-        self._leverage = np.cumsum(self._q.T ** 2, axis=0)  # row k: the leverages of order k
 
     def _sums_of_squares(self, inverse: np.ndarray) -> None:
         """The (weighted) total and pure-error sums of squares of the scaled y (``inverse``: each point's
@@ -255,6 +255,15 @@ class Calibration:
 
     def leverage(self, order: int) -> np.ndarray:
         return self._leverage[order]
+
+    @cached_property
+    def _leverage(self) -> np.ndarray:
+        """Row k: the leverages of order k (cumulative row sums of squares of Q)."""
+        h = np.empty((self.max_order + 1, self.n_points))
+        np.square(self._q[:, 0], out=h[0])
+        for k in range(1, self.max_order + 1):
+            np.add(h[k - 1], self._q[:, k] ** 2, out=h[k])
+        return h
 
     def scaled_residuals(self, order: int) -> np.ndarray:
         """sqrt(w) (y - fitted) times 2^-e (e fixed per calibration, y scaled into [-1, 1]): for statistics
@@ -434,12 +443,7 @@ class Calibration:
         rss, e, h = self._all_rss, self._residual_rows, self._leverage
         orders = np.arange(big_k + 1)
         df = n - orders - 1
-        defined = (h <= LEVERAGE_ONE).all(axis=1)  # PRESS needs every leverage below 1
-        if defined.all():
-            press = ((e / (1.0 - h)) ** 2).sum(axis=1)
-        else:
-            with np.errstate(divide="ignore", invalid="ignore"):
-                press = np.where(defined, ((e / (1.0 - h)) ** 2).sum(axis=1), math.nan)
+        press = np.array([prediction_sum_of_squares(ek, hk) for ek, hk in zip(e, h)])
         tests = self._f_tests
         lack = self._lack_of_fit_tests(tests)
         ey2 = 2 * self._ey
@@ -490,4 +494,3 @@ class Calibration:
     def step_tests(self) -> tuple[FTest, ...]:
         """``step_test`` of every order 1 .. max_order."""
         return self._f_tests["step"]
-

@@ -66,14 +66,18 @@ class Curve:
         for column, c in enumerate((self.a, self._da, self._var_poly, self._dvar)):
             self.local_polynomials[: c.size, column] = c
         self._turns_in: dict[tuple[float, float], np.ndarray] = {}
-        self.stats = cal.stats(self.order)
         self.s = cal.scaled_residual_sd(self.order)  # in curve units
         self._s_var = math.ldexp(self.s, g)  # Var(mean f(z)) = _s_var^2 times the variance polynomial
-        self.df = self.stats.df_resid
+        self.df = cal.n_points - order - 1
         self.x_min = float(cal.x[cal.by_x[0]])
         self.x_max = float(cal.x[cal.by_x[-1]])
         self._t: dict[float, float] = {}
         self._bands: dict[tuple[float, float], tuple | None] = {}
+
+    @cached_property
+    def stats(self):
+        """``cal.stats(order)``: made on first use (back-calculation and bands need only s and df)."""
+        return self.cal.stats(self.order)
 
     def to_y(self, values) -> np.ndarray:
         """Curve units to the units of y."""
@@ -181,17 +185,6 @@ def _derivative(c: np.ndarray) -> np.ndarray:
     """Coefficients of the derivative of sum_j c_j z^j (as numpy.polynomial.polynomial.polyder, without its
     argument handling)."""
     return c[1:] * np.arange(1.0, c.size) if c.size > 1 else np.zeros(1)
-
-
-def sign_changes(values: np.ndarray, z: np.ndarray, lo: float, hi: float):
-    """Cells [z_j, z_j+1] inside [lo, hi] where a row of ``values`` (on the grid z) changes sign.
-
-    A zero counts as positive, so a root on a node is found once. Returns row and
-    cell indices.
-    """
-    up = values >= 0
-    inside = (z[:-1] >= lo) & (z[1:] <= hi)
-    return np.nonzero((up[:, :-1] != up[:, 1:]) & inside[None, :])
 
 
 def newton_in_cells(func, lo, hi, f_lo, f_hi, steps: int = 8):

@@ -92,7 +92,7 @@ def _influence(cook: np.ndarray, h: np.ndarray, t: np.ndarray, p: int, df: int, 
     return p_max, sorted(by_size[:lo].tolist())
 
 
-def _back_calculate(cal: Calibration, curve: Curve):
+def back_calculate(cal: Calibration, curve: Curve):
     """x solving f(x) = y_i for each standard, nearest its own x, and how many solutions there are."""
     rows, zs = roots_of(curve, curve.from_y(cal.y), -1 - 2 * BACK_CALC_EXTEND, 1 + 2 * BACK_CALC_EXTEND)
     count = np.bincount(rows, minlength=cal.n_points)
@@ -105,6 +105,14 @@ def _back_calculate(cal: Calibration, curve: Curve):
         rows, zs = rows[first], zs[first]
     back[rows] = cal.raw_x(zs)
     return back, count
+
+
+def deviation_percent(back: np.ndarray, x: np.ndarray) -> np.ndarray:
+    """100 (back-calculated x - x) / |x| per standard; nan at x = 0."""
+    dev = np.full(x.size, np.nan)
+    with np.errstate(over="ignore"):  # a back-calculated x near the double range: an empty cell
+        np.divide(100.0 * (back - x), np.abs(x), out=dev, where=x != 0)
+    return dev
 
 
 def point_diagnostics(cal: Calibration, order: int, alpha: float = 0.05) -> PointDiagnostics:
@@ -121,7 +129,7 @@ def point_diagnostics(cal: Calibration, order: int, alpha: float = 0.05) -> Poin
         bonf = np.ones_like(bonf)
     fitted = cal.y - cal.weighted_residuals(curve.order) / cal.sqrt_w
     resid = cal.y - fitted
-    back, count = _back_calculate(cal, curve)
+    back, count = back_calculate(cal, curve)
     x = cal.x
     notes = [""] * cal.n_points
     flagged = (count != 1) | (bonf < warn_below) | (h > LEVERAGE_ONE) | (x == 0)
@@ -141,10 +149,7 @@ def point_diagnostics(cal: Calibration, order: int, alpha: float = 0.05) -> Poin
         if x[i] == 0:
             words.append("deviation % not defined at x = 0")
         notes[i] = "; ".join(words)
-    dev = np.full(cal.n_points, np.nan)
-    with np.errstate(over="ignore"):  # a back-calculated x near the double range: an empty cell
-        np.divide(100.0 * (back - x), np.abs(x), out=dev, where=x != 0)
-    columns = (fitted, resid, r, t, h, cook, back, dev)
+    columns = (fitted, resid, r, t, h, cook, back, deviation_percent(back, x))
     return PointDiagnostics(*map(tuple, np.array(columns).tolist()), tuple(notes))
 
 

@@ -11,11 +11,21 @@ import numpy as np
 from .curve import Curve
 from .diagnostics import point_diagnostics
 from .doubledouble import ldexp
+from .linalg import LEVERAGE_ONE
 from .distributions import t_two_sided
 from .results import Influence, OrderFit, OrderStats, PointDiagnostics
 
 if TYPE_CHECKING:  # a Calibration makes its OrderResults
     from .calibration import Calibration
+
+
+def prediction_sum_of_squares(e: np.ndarray, h: np.ndarray) -> float:
+    """PRESS of one order: sum (e_i / (1 - h_i))^2, or nan unless every leverage is below 1 (``LEVERAGE_ONE``)."""
+    if not (h <= LEVERAGE_ONE).all():
+        return math.nan
+    d = 1.0 - h
+    np.divide(e, d, out=d)
+    return float(np.square(d, out=d).sum())
 
 
 class OrderResults:

@@ -22,7 +22,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 from numpy.polynomial import polynomial as P
 
-from .curve import ENDS, EXTEND, RANGE_NODES, Curve, newton_in_cells, sign_changes
+from .curve import ENDS, EXTEND, RANGE_NODES, Curve, newton_in_cells
 from .results import InverseEstimate, Prediction, Uncertainty
 from .validation import check_level, check_replicates, check_vector
 
@@ -71,19 +71,45 @@ def predict(cal: Calibration, new_x, order: int, level: float = 0.95) -> tuple[P
 
 
 def roots_of(curve: Curve, readings: np.ndarray, z_lo: float, z_hi: float):
-    """Every z in [z_lo, z_hi] (grid nodes) with f(z) = reading (in curve units): (reading index, z), sorted."""
+    """Every z in [z_lo, z_hi] (grid nodes) with f(z) = reading (in curve units): (reading index, z), sorted.
+
+    The grid cells where f - reading changes sign (a zero counts as positive, so a root on a node is found
+    once) are found run by run: between the grid's turning nodes f is monotonic, so each reading changes
+    sign at most once in a run, at the node a binary search of the run's values finds. Memory stays O(n)."""
     z, f, _ = curve.grid
-    g = f[None, :] - readings[:, None]
-    rows, cells = sign_changes(g, z, z_lo, z_hi)
+    inside = (z[:-1] >= z_lo) & (z[1:] <= z_hi)
+    rows, cells = [], []
+    for start, stop, rising in _monotonic_runs(f):
+        run = f[start: stop + 1]
+        # the first node of the run where f >= reading (rising) or f < reading (falling)
+        j = np.searchsorted(run, readings, "left") if rising else run.size - np.searchsorted(
+            run[::-1], readings, "left")
+        hit = np.flatnonzero((j > 0) & (j < run.size))
+        cell = start + j[hit] - 1
+        keep = inside[cell]
+        rows.append(hit[keep])
+        cells.append(cell[keep])
+    rows, cells = np.concatenate(rows), np.concatenate(cells)
     zs = newton_in_cells(lambda zz: (curve.value(zz) - readings[rows], curve.slope(zz)), z[cells], z[cells + 1],
-                         g[rows, cells], g[rows, cells + 1])
+                         f[cells] - readings[rows], f[cells + 1] - readings[rows])
     # a root exactly on the lower end node is not seen as a change within the range
     first = np.searchsorted(z, z_lo)
-    on_end = np.flatnonzero((g[:, first] == 0) & (first + 1 < z.size) & (g[:, min(first + 1, z.size - 1)] >= 0))
-    if on_end.size:
-        rows, zs = np.concatenate([rows, on_end]), np.concatenate([zs, np.full(on_end.size, z[first])])
+    if first + 1 < z.size:
+        on_end = np.flatnonzero((f[first] - readings == 0) & (f[first + 1] - readings >= 0))
+        if on_end.size:
+            rows, zs = np.concatenate([rows, on_end]), np.concatenate([zs, np.full(on_end.size, z[first])])
     order = np.lexsort((zs, rows))
     return rows[order], zs[order]
+
+
+def _monotonic_runs(f: np.ndarray):
+    """(first node, last node, rising) of each stretch of the grid values f over which they do not fall
+    (rising) or do not rise: consecutive runs share their end node, and every cell lies in one run."""
+    step = np.diff(f)
+    up = step >= 0
+    ends = np.concatenate([np.flatnonzero(up[1:] != up[:-1]) + 1, [step.size]])
+    starts = np.concatenate([[0], ends[:-1]])
+    return [(int(a), int(b), bool(up[a])) for a, b in zip(starts, ends)]
 
 
 def _weight_response(curve: Curve, zz: np.ndarray, fz: np.ndarray) -> np.ndarray:

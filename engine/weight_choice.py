@@ -32,6 +32,7 @@ import numpy as np
 from scipy import special
 
 from .calibration import Calibration
+from .diagnostics import back_calculate, deviation_percent
 from .distributions import chi2_sf, t_quantile
 from .errors import WeightError
 from .results import SchemeResult, SpreadExponent
@@ -78,7 +79,7 @@ def _judge(x, y, scheme: str, weights, order, note: str = "") -> SchemeResult:
     except WeightError as err:
         return _not_applied(scheme, note, err.message)
     k = order if order is not None else choose_order(cal).order
-    dev = np.asarray(cal.order(k).diagnostics().deviation_percent)[cal.x != 0]
+    dev = deviation_percent(back_calculate(cal, cal.order(k).curve)[0], cal.x)[cal.x != 0]
     words = [note]
     if not np.isfinite(dev).all():
         words.append(f"{np.count_nonzero(~np.isfinite(dev))} standards cannot be back-calculated, so the "

@@ -41,7 +41,7 @@ def _validate(args) -> int:
 def _refresh(args) -> int:
     from .refresh import run
 
-    return run(args.paths, check=args.check, backup=args.backup, jobs=args.jobs)
+    return run(args.paths, check=args.check, backup=args.backup, jobs=args.jobs, report_to=args.report_to)
 
 
 def _freeze(args) -> int:
@@ -85,6 +85,8 @@ def main(argv=None) -> int:
     p.add_argument("--jobs", type=_jobs, default=None,
                    help="processes to use (default: one per CPU core): several workbooks at a time, "
                         "or the sheets of one large workbook")
+    p.add_argument("--report-to", metavar="FILE",
+                   help="append each workbook's report to FILE as it finishes (default: print it)")
     p.set_defaults(run=_refresh)
     p = sub.add_parser("freeze", help="write a copy whose CALIB_* formulas are replaced by their values")
     p.add_argument("book", help="the workbook (.xlsx, .xlsm); it is not changed")

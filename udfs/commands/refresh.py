@@ -125,48 +125,102 @@ def workbooks(paths) -> list[Path]:
     return found
 
 
-def _one(args):
-    path, check, backup = args
-    return refresh_file(path, check, backup, workers=1)
+def _one(args) -> Report:
+    """One workbook of a folder run, in a worker or in the run's own process."""
+    path, check, backup, workers = args
+    return refresh_file(path, check, backup, workers=workers)
 
 
-def run(paths, check: bool = False, backup: bool = False, jobs: int | None = None) -> int:
-    """Refresh every workbook; print each one's report; 0 only when everything succeeded.
+def run(paths, check: bool = False, backup: bool = False, jobs: int | None = None, report_to=None) -> int:
+    """Refresh every workbook; each one's report is printed (or appended to the file ``report_to``) as soon as
+    it finishes; 0 only when everything succeeded.
 
-    ``jobs`` processes (default: one per CPU core): several workbooks are refreshed
-    that many at a time; a single large workbook has its sheets split over them.
+    ``jobs`` processes (default: one per CPU core): several workbooks are refreshed that many at a time, with
+    at most twice that many handed out, so memory stays flat however many workbooks there are; a single large
+    workbook has its sheets split over them. A progress bar counts the workbooks on a terminal (stderr). A run
+    stopped part way is resumed by running it again: the workbooks it finished are up to date and are left as
+    they are (their reports say "nothing changed").
     """
     jobs = jobs or os.cpu_count() or 1
     books = workbooks(paths)
     if not books:
         print("no workbooks (.xlsx, .xlsm) found in " + ", ".join(map(str, paths)))
         return 2
-    tasks = [(f, check, backup) for f in books]
-
-    def progress(items):  # a bar on a terminal when there are several workbooks
-        if len(tasks) < 2 or not sys.stderr.isatty():
-            return items
+    tasks = [(f, check, backup, 1 if len(books) > 1 else jobs) for f in books]
+    try:
+        out = sys.stdout if report_to is None else open(report_to, "a", encoding="utf-8")
+    except OSError as err:
+        print(f"degreewise refresh: --report-to: cannot write {report_to} ({err.strerror}); nothing was refreshed",
+              file=sys.stderr)
+        return 2
+    bar = None
+    if len(tasks) > 1 and sys.stderr.isatty():
         from tqdm import tqdm
 
-        return tqdm(items, total=len(tasks), unit="workbook")
+        bar = tqdm(total=len(tasks), unit="workbook", file=sys.stderr)
+    done, bad, all_ok = 0, [], True
 
-    if jobs > 1 and len(tasks) > 1:
-        from concurrent.futures import ProcessPoolExecutor
+    def say(line: str) -> None:
+        if bar is not None and out is sys.stdout:
+            bar.write(line, file=out)  # above the bar
+        else:
+            print(line, file=out)
 
-        reports = []
-        with ProcessPoolExecutor(max_workers=jobs, initializer=files.die_with_parent) as pool:
-            for task, future in progress(list(zip(tasks, [pool.submit(_one, t) for t in tasks]))):
-                try:
-                    reports.append(future.result())
-                except Exception as err:  # a worker that died: the others are still reported  # noqa: BLE001
-                    reports.append(Report(task[0], error=f"the process refreshing it stopped ({err!r})"))
-    else:
-        reports = [refresh_file(*t, workers=jobs) for t in progress(tasks)]
-    for r in reports:
+    def finished(r: Report) -> None:  # written out and dropped: no report is kept
+        nonlocal done, all_ok
         for line in r.each_line(check):
-            print(line)
-    bad = [r for r in reports if r.error]
-    if len(reports) > 1:
-        print(f"{len(reports)} workbooks: {len(reports) - len(bad)} read and computed, {len(bad)} not refreshed"
-              + (": " + ", ".join(str(r.path) for r in bad) if bad else ""))
-    return 0 if all(r.ok for r in reports) else 1
+            say(line)
+        out.flush()
+        done += 1
+        all_ok = all_ok and r.ok
+        if r.error:
+            bad.append(str(r.path))
+        if bar is not None:
+            bar.update()
+
+    try:
+        if jobs > 1 and len(tasks) > 1:
+            _in_pool(tasks, jobs, finished)
+        else:
+            for t in tasks:
+                finished(_one(t))
+        if done > 1:
+            summary = (f"{done} workbooks: {done - len(bad)} read and computed, {len(bad)} not refreshed"
+                       + (": " + ", ".join(bad) if bad else ""))
+            say(summary)
+            if out is not sys.stdout:
+                print(summary)
+    finally:
+        if bar is not None:
+            bar.close()
+        if out is not sys.stdout:
+            out.close()
+    return 0 if all_ok else 1
+
+
+def _in_pool(tasks: list, jobs: int, finished) -> None:
+    """``_one`` of every task in ``jobs`` processes, at most 2 ``jobs`` tasks handed out at a time; ``finished``
+    gets each report as it comes back (a worker that died: a report saying so)."""
+    from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
+    from concurrent.futures.process import BrokenProcessPool
+    from itertools import islice
+
+    waiting = iter(tasks)
+    with ProcessPoolExecutor(max_workers=jobs, initializer=files.die_with_parent) as pool:
+        running = {}
+        while True:
+            for task in islice(waiting, 2 * jobs - len(running)):
+                try:
+                    running[pool.submit(_one, task)] = task[0]
+                except BrokenProcessPool as err:
+                    finished(Report(task[0], error=f"the process refreshing it stopped ({err!r})"))
+            if not running:
+                return
+            done, _ = wait(running, return_when=FIRST_COMPLETED)
+            for future in done:
+                path = running.pop(future)
+                try:
+                    report = future.result()
+                except Exception as err:  # a worker that died: the others are still reported  # noqa: BLE001
+                    report = Report(path, error=f"the process refreshing it stopped ({err!r})")
+                finished(report)

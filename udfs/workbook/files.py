@@ -77,9 +77,17 @@ def _alive(pid: int) -> bool:
     return True
 
 
+_SWEPT: set = set()  # folders this process has swept: a run that dies leaves its leftovers before, not during
+
+
 def sweep(folder: Path) -> list[Path]:
-    """Remove the temporary files (and spool folders) that runs which died left in ``folder``; their paths."""
+    """Remove the temporary files (and spool folders) that runs which died left in ``folder``; their paths.
+    Once per folder and process, so a folder run does not list its folder again for every workbook."""
     gone = []
+    key = os.path.abspath(folder)
+    if key in _SWEPT:
+        return gone
+    _SWEPT.add(key)
     try:
         entries = list(os.scandir(folder))
     except OSError:

@@ -85,11 +85,13 @@ def write(sheet: Sheet, f, rows, cm, report: Report) -> bool:
         if len(row) < width:
             row = list(row) + [None] * (width - len(row))
         cells = {}
+        stored, written = sheet.row_state(r)
         for j, value in enumerate(row):
             c = f.col + j
             key = (r, c)
-            style = sheet.style(r, c)
-            old = sheet.value(r, c)
+            cell = stored.get(c)
+            style = None if cell is None else cell[1]
+            old = written[c] if c in written else None if cell is None else cell[0]
             if agrees(old, value):  # another machine's last digits: the stored value stays
                 value = old
             if i == 0 and j == 0:

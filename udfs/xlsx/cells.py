@@ -1,9 +1,11 @@
-"""Cell addresses: column letters and numbers, A1 names, and (row, column) from an A1 name."""
+"""Cell addresses: column letters and numbers, A1 names, (row, column) from an A1 name, ranges, the sheet's limits."""
 
 from __future__ import annotations
 
 import functools
 import re
+
+from . import PackageError
 
 MAX_ROW, MAX_COL = 1_048_576, 16_384  # the last row and column of a sheet (XFD)
 CELL = r"\$?([A-Za-z]{1,3})\$?(\d{1,7})"  # an A1 address, each part optionally absolute: column, row
@@ -36,3 +38,17 @@ def parse_cell(ref: str) -> tuple[int, int]:
     if not m:
         raise ValueError(f"not a cell reference: {ref}")
     return int(m.group(2)), column_number(m.group(1))
+
+
+def letters_column(ref: str) -> int:
+    """The column of a cell reference like "AB12" (its letters; cached by them)."""
+    return column_number(ref.rstrip("0123456789"))
+
+
+def box(part: str, ref: str) -> tuple[int, int, int, int]:
+    """(top, left, bottom, right) of a range like B2:D6 stored in ``part``."""
+    try:
+        (top, left), (bottom, right) = (parse_cell(c.replace("$", "")) for c in (ref.split(":") + [ref])[:2])
+    except ValueError:
+        raise PackageError(f"part {part} holds the range {ref!r}, which is not a cell range") from None
+    return min(top, bottom), min(left, right), max(top, bottom), max(left, right)

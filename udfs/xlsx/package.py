@@ -21,7 +21,8 @@ from defusedxml.common import DefusedXmlException
 from lxml import etree
 
 from . import PackageError
-from .sheet import MAIN, REL, Sheet, box
+from .cells import box
+from .sheet import MAIN, REL, Sheet
 
 STRICT_MAIN = "http://purl.oclc.org/ooxml/spreadsheetml/main"
 METADATA_REL = "http://schemas.openxmlformats.org/officeDocument/2006/relationships/sheetMetadata"

@@ -17,7 +17,7 @@ from xml.parsers import expat
 from xml.sax.saxutils import escape, quoteattr
 
 from . import PackageError
-from .cells import MAX_COL, cell_name, column_letters, column_number, parse_cell
+from .cells import MAX_COL, box, cell_name, column_letters, letters_column, parse_cell
 
 MAIN = "http://schemas.openxmlformats.org/spreadsheetml/2006/main"
 REL = "http://schemas.openxmlformats.org/officeDocument/2006/relationships"
@@ -29,6 +29,15 @@ CACHED_ROWS = 1000
 NOT_UTF8 = ("part {} is not UTF-8 text; the refresh edits only UTF-8 parts (save the workbook again in a "
             "spreadsheet program)")
 AGAIN = "open and save the workbook in the spreadsheet program, then refresh it"
+
+
+def _release(parser) -> None:
+    """The parser's handlers dropped: they are closures that refer back to it, a cycle that only a full
+    collection would free (about 64 KB a workbook in a folder run)."""
+    for handler in ("StartElementHandler", "EndElementHandler", "CharacterDataHandler", "CommentHandler",
+                    "ProcessingInstructionHandler", "StartCdataSectionHandler", "StartDoctypeDeclHandler",
+                    "XmlDeclHandler"):
+        setattr(parser, handler, None)
 
 
 def tag(name: str, attrs: dict, empty: bool = False) -> str:
@@ -135,7 +144,7 @@ class Sheet:
             if name == ROW:
                 self.ends.append(self._end(parser.CurrentByteIndex, self._row_end))
                 if ref is not None:  # cells stand in column order: the row's first and last give its extent
-                    lo, hi = min(lo, _letters(first)), max(hi, _letters(ref) + since)
+                    lo, hi = min(lo, letters_column(first)), max(hi, letters_column(ref) + since)
             elif f is not None:
                 if name == C:
                     key = (row, self._column(ref, since))
@@ -184,6 +193,8 @@ class Sheet:
             parser.Parse(data, True)
         except expat.ExpatError as err:
             raise PackageError(f"broken XML in {part}: {err}") from None
+        finally:
+            _release(parser)
         if self._data_start is None:
             raise PackageError(f"part {part} has no sheetData element")
         self._empty_data = self._data_end_at == self._end(self._data_end_at, self._data_end)  # <sheetData/>
@@ -202,12 +213,15 @@ class Sheet:
 
     def _column(self, ref: str | None, since: int) -> int:
         """The column of a cell: its reference, or so many cells after the last one that had one."""
-        if ref is None:
-            return since
+        return since if ref is None else self._cell_at(ref, since)[1]
+
+    def _cell_at(self, ref: str, since: int = 0) -> tuple[int, int]:
+        """(row, column) of a cell ``since`` cells after the reference ``ref``."""
         try:
-            return parse_cell(ref)[1] + since
+            row, col = parse_cell(ref)
         except ValueError:
             raise PackageError(f"part {self.part} has a cell at {ref!r}, which is not a cell reference") from None
+        return row, col + since
 
     # --- cells, parsed when asked for ----------------------------------------------------------------------
 
@@ -248,8 +262,7 @@ class Sheet:
                 row = self.numbers[state["i"]]
                 ref = state["ref"]
                 if ref is not None:
-                    r, col = self._cell_at(ref)
-                    col += state["since"]
+                    r, col = self._cell_at(ref, state["since"])
                     if r != row:
                         raise PackageError(f"part {self.part} has the cell {ref} in row {row}")
                 else:
@@ -268,13 +281,9 @@ class Sheet:
             parser.Parse(b"</w>", True)
         except expat.ExpatError as err:
             raise PackageError(f"broken XML in {self.part}: {err}") from None
+        finally:
+            _release(parser)
         return out, rows
-
-    def _cell_at(self, ref: str) -> tuple[int, int]:
-        try:
-            return parse_cell(ref)
-        except ValueError:
-            raise PackageError(f"part {self.part} has a cell at {ref!r}, which is not a cell reference") from None
 
     def _value(self, attrs: dict, text: str | None, col: int, row: int):
         """A cell's value from its type and text (shared text looked up, booleans, numbers)."""
@@ -335,13 +344,14 @@ class Sheet:
         cell = self._row(row).get(col)
         return None if cell is None else cell[0]
 
+    def row_state(self, row: int) -> tuple[dict, dict]:
+        """A row as the refresh has left it so far: {col: (value, style, start, end)} as stored and {col: value}
+        as written since (the writer of a large result reads its rows this way, not cell by cell)."""
+        return self._row(row), self._written.get(row, {})
+
     def style(self, row: int, col: int) -> str | None:
         cell = self._row(row).get(col)
         return None if cell is None else cell[1]
-
-    def occupied(self, row: int, col: int) -> bool:
-        """Whether the cell holds a value or a formula."""
-        return (row, col) in self.formulas or self.value(row, col) is not None
 
     def last_row(self) -> int:
         """The last row that holds a value (0 for an empty sheet)."""
@@ -425,11 +435,10 @@ class Sheet:
     def cell_xml(self, row: int, col: int, value, style: str | None, formula: str | None = None,
                  array_ref: str | None = None, cm: str | None = None, stored_f: tuple | None = None) -> str:
         """XML of one cell holding ``value``, with a formula for an anchor (or ``stored_f``, the (text,
-        attributes) of its stored <f> element)."""
+        attributes) of its stored <f> element). Texts and the file's own attribute values are escaped; a
+        number's repr needs no escaping."""
         p = self.prefix
-        attrs = {"r": f"{column_letters(col)}{row}"}
-        if style is not None:
-            attrs["s"] = style
+        head = f'<{p}c r="{column_letters(col)}{row}"' + ("" if style is None else f" s={quoteattr(style)}")
         f = ""
         if stored_f is not None:
             text, f_attrs = stored_f
@@ -437,20 +446,18 @@ class Sheet:
         elif formula is not None:
             f = tag(p + "f", {"t": "array", "ref": array_ref} if array_ref else {}) + f"{escape(formula)}</{p}f>"
             if cm:
-                attrs["cm"] = cm
+                head += f" cm={quoteattr(cm)}"
         if value is None:
-            body = f
+            return f"{head}>{f}</{p}c>" if f else head + "/>"
+        if isinstance(value, bool):
+            head, text = head + ' t="b"', "1" if value else "0"
+        elif isinstance(value, (int, float)):
+            text = repr(value)
+        elif isinstance(value, str) and value.upper() == "#SPILL!":
+            head, text = head + ' t="e"', value
         else:
-            if isinstance(value, bool):
-                attrs["t"], text = "b", str(int(value))
-            elif isinstance(value, (int, float)):
-                text = repr(value)
-            elif isinstance(value, str) and value.upper() == "#SPILL!":
-                attrs["t"], text = "e", value
-            else:
-                attrs["t"], text = "str", str(value)
-            body = f + f"<{p}v>{escape(text)}</{p}v>"
-        return tag(p + "c", attrs) + body + f"</{p}c>" if body else tag(p + "c", attrs, empty=True)
+            head, text = head + ' t="str"', escape(str(value))
+        return f"{head}>{f}<{p}v>{text}</{p}v></{p}c>"
 
     def render(self) -> bytes:
         """The part: untouched rows as they were stored, edited rows written anew, in row order; the
@@ -468,8 +475,8 @@ class Sheet:
             attrs, cells, _ = self._edits[r]
             i = bisect_left(self.numbers, r)
             stored = i < len(self.numbers) and self.numbers[i] == r
-            out.append(data[at: self.starts[i] if i < len(self.numbers) else self._rows_end()])
-            at = self.ends[i] if stored else (self.starts[i] if i < len(self.numbers) else self._rows_end())
+            out.append(data[at: self.starts[i] if i < len(self.numbers) else self._data_end_at])
+            at = self.ends[i] if stored else (self.starts[i] if i < len(self.numbers) else self._data_end_at)
             attrs = {k: v for k, v in attrs.items() if k != "spans"}
             if cells:
                 out.append((tag(p + "row", attrs) + "".join(cells[c] for c in sorted(cells)) + f"</{p}row>").encode())
@@ -481,10 +488,6 @@ class Sheet:
         else:
             out.append(data[at:])
         return b"".join(out)
-
-    def _rows_end(self) -> int:
-        """Where a row after the last stored one goes: before </sheetData>."""
-        return self._data_end_at
 
     def _dimension_tag(self, changed: list[int]) -> str:
         start, end, attrs = self._dimension
@@ -503,17 +506,3 @@ class Sheet:
         left, right = min(c0, *(c for _, c in cells)), max(c1, *(c for _, c in cells))
         ref = f"{cell_name(top, left)}:{cell_name(bottom, right)}"
         return old if ref == attrs.get("ref") else tag(self.prefix + "dimension", {**attrs, "ref": ref}, empty=True)
-
-
-def _letters(ref: str) -> int:
-    """The column of a cell reference like "AB12" (its letters; cached by them)."""
-    return column_number(ref.rstrip("0123456789"))
-
-
-def box(part: str, ref: str) -> tuple[int, int, int, int]:
-    """(top, left, bottom, right) of a range like B2:D6 stored in ``part``."""
-    try:
-        (top, left), (bottom, right) = (parse_cell(c.replace("$", "")) for c in (ref.split(":") + [ref])[:2])
-    except ValueError:
-        raise PackageError(f"part {part} holds the range {ref!r}, which is not a cell range") from None
-    return min(top, bottom), min(left, right), max(top, bottom), max(left, right)
