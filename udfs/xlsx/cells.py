@@ -52,3 +52,22 @@ def box(part: str, ref: str) -> tuple[int, int, int, int]:
     except ValueError:
         raise PackageError(f"part {part} holds the range {ref!r}, which is not a cell range") from None
     return min(top, bottom), min(left, right), max(top, bottom), max(left, right)
+
+
+def cell_value(t: str, text: str | None, shared: list[str], where: str, row: int, col: int):
+    """A stored cell's value from its type ``t`` and text: shared text looked up, booleans, numbers."""
+    if text is None:
+        return None
+    if t == "s":
+        if not text.strip().isdigit() or int(text) >= len(shared):
+            raise PackageError(f"{where} has a cell ({cell_name(row, col)}) that refers to shared text {text!r}, "
+                               f"but the workbook has {len(shared)}")
+        return shared[int(text)]
+    if t == "b":
+        return text.strip() == "1"
+    if t in ("inlineStr", "e", "str", "d"):
+        return text
+    try:
+        return float(text)
+    except ValueError:
+        return text

@@ -17,7 +17,7 @@ from xml.parsers import expat
 from xml.sax.saxutils import escape, quoteattr
 
 from . import PackageError
-from .cells import MAX_COL, box, cell_name, column_letters, letters_column, parse_cell
+from .cells import MAX_COL, box, cell_name, cell_value, column_letters, letters_column, parse_cell
 
 MAIN = "http://schemas.openxmlformats.org/spreadsheetml/2006/main"
 REL = "http://schemas.openxmlformats.org/officeDocument/2006/relationships"
@@ -34,10 +34,9 @@ AGAIN = "open and save the workbook in the spreadsheet program, then refresh it"
 def _release(parser) -> None:
     """The parser's handlers dropped: they are closures that refer back to it, a cycle that only a full
     collection would free (about 64 KB a workbook in a folder run)."""
-    for handler in ("StartElementHandler", "EndElementHandler", "CharacterDataHandler", "CommentHandler",
-                    "ProcessingInstructionHandler", "StartCdataSectionHandler", "StartDoctypeDeclHandler",
-                    "XmlDeclHandler"):
-        setattr(parser, handler, None)
+    for kind in ("StartElement", "EndElement", "CharacterData", "Comment", "ProcessingInstruction",
+                 "StartCdataSection", "StartDoctypeDecl", "XmlDecl"):
+        setattr(parser, kind + "Handler", None)
 
 
 def tag(name: str, attrs: dict, empty: bool = False) -> str:
@@ -267,7 +266,8 @@ class Sheet:
                         raise PackageError(f"part {self.part} has the cell {ref} in row {row}")
                 else:
                     col = state["since"]
-                out.append((row, col, self._value(attrs, text, col, row), attrs.get("s"), state["at"],
+                value = cell_value(attrs.get("t", "n"), text, self.shared, f"part {self.part}", row, col)
+                out.append((row, col, value, attrs.get("s"), state["at"],
                             self._end(parser.CurrentByteIndex + base, self._cell_end)))
             elif name == v_tag or name == t_tag:
                 parser.CharacterDataHandler = None
@@ -284,27 +284,6 @@ class Sheet:
         finally:
             _release(parser)
         return out, rows
-
-    def _value(self, attrs: dict, text: str | None, col: int, row: int):
-        """A cell's value from its type and text (shared text looked up, booleans, numbers)."""
-        if text is None:
-            return None
-        t = attrs.get("t", "n")
-        if t == "inlineStr":
-            return text
-        if t == "s":
-            if not text.strip().isdigit() or int(text) >= len(self.shared):
-                raise PackageError(f"part {self.part} has a cell ({cell_name(row, col)}) that refers to shared text "
-                                 f"{text!r}, but the workbook has {len(self.shared)}")
-            return self.shared[int(text)]
-        if t == "b":
-            return text.strip() == "1"
-        if t in ("e", "str", "d"):
-            return text
-        try:
-            return float(text)
-        except ValueError:
-            return text
 
     @property
     def edited(self) -> bool:
@@ -345,8 +324,7 @@ class Sheet:
         return None if cell is None else cell[0]
 
     def row_state(self, row: int) -> tuple[dict, dict]:
-        """A row as the refresh has left it so far: {col: (value, style, start, end)} as stored and {col: value}
-        as written since (the writer of a large result reads its rows this way, not cell by cell)."""
+        """A row as left so far: {col: (value, style, start, end)} as stored, {col: value} as written since."""
         return self._row(row), self._written.get(row, {})
 
     def style(self, row: int, col: int) -> str | None:
