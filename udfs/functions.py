@@ -327,6 +327,13 @@ def _replicates(v):
 @_guarded()
 def calib_inverse(x, y, reading, replicates=None, order=None, level=None, weights=None, exclude=None):
     """One row per reading cell (no header): x estimate, lower, upper, note."""
+    return _per_reading("inverse", x, y, reading, replicates, order, level, weights, exclude, 4, engine.inverse,
+                        lambda e: _column((e.x, e.lower, e.upper)) + [e.note or None])
+
+
+def _per_reading(kind, x, y, reading, replicates, order, level, weights, exclude, width, answers, row):
+    """One row of ``width`` cells per reading cell: ``answers(cal, readings, order, replicates, level)`` gives
+    each usable reading's result and ``row`` its cells; an empty or unusable reading keeps its note."""
     prep = prepare(x, y, weights, exclude)
     reps = _replicates(replicates)
     k, lev = _order(order), _level(level)
@@ -334,12 +341,12 @@ def calib_inverse(x, y, reading, replicates=None, order=None, level=None, weight
 
     def compute():
         cal, chosen, _ = _fitted(prep, k)
-        rows = _rows(size, 4, notes)
-        for i, e in zip(filled, engine.inverse(cal, values, chosen, reps, lev) if values.size else ()):
-            rows[i] = _column((e.x, e.lower, e.upper)) + [e.note or None]
+        rows = _rows(size, width, notes)
+        for i, answer in zip(filled, answers(cal, values, chosen, reps, lev) if values.size else ()):
+            rows[i] = row(answer)
         return rows
 
-    return _cached("inverse", prep, (reps, k, lev, values.tobytes(), filled, size, tuple(notes.items())), compute)
+    return _cached(kind, prep, (reps, k, lev, values.tobytes(), filled, size, tuple(notes.items())), compute)
 
 
 def _excluded_rows(cal, order: int, excluded) -> list[list]:
@@ -663,22 +670,13 @@ def _exclusion_rows(prep, cal, order: int, crit, excluded: int) -> list[list]:
 def calib_uncertainty(x, y, reading, replicates=None, order=None, level=None, weights=None, exclude=None):
     """One row per reading cell (no header): x estimate, standard uncertainty, df, coverage factor, expanded
     uncertainty, relative uncertainty %, note."""
-    prep = prepare(x, y, weights, exclude)
-    reps = _replicates(replicates)
-    k, lev = _order(order), _level(level)
-    values, filled, size, notes = _aligned(reading, "reading")
+    def row(u):
+        given = math.isfinite(u.x)
+        return [_cell(u.x), _cell(u.u), u.df if given else None, _cell(u.k) if given else None,
+                _cell(u.expanded), _cell(u.relative_percent), u.note or None]
 
-    def compute():
-        cal, chosen, _ = _fitted(prep, k)
-        rows = _rows(size, 7, notes)
-        for i, u in zip(filled, engine.uncertainty(cal, values, chosen, reps, lev) if values.size else ()):
-            given = math.isfinite(u.x)
-            rows[i] = [_cell(u.x), _cell(u.u), u.df if given else None, _cell(u.k) if given else None,
-                       _cell(u.expanded), _cell(u.relative_percent), u.note or None]
-        return rows
-
-    return _cached("uncertainty", prep, (reps, k, lev, values.tobytes(), filled, size, tuple(notes.items())),
-                   compute)
+    return _per_reading("uncertainty", x, y, reading, replicates, order, level, weights, exclude, 7,
+                        engine.uncertainty, row)
 
 
 @worksheet_function
