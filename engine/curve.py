@@ -48,31 +48,36 @@ class Curve:
         self.order = order
         self.e = cal.y_exponent
         self.a = cal.scaled_coefficients(self.order)
-        r_inv = cal.r_factor_inverse(self.order)
-        self.r_inv = r_inv
-        # Var(mean f(z)) / s^2 = b(z)' C b(z) with C = R^-1 R^-T: a polynomial in z of degree 2k, kept as
-        # C 2^-2g (R^-1 scaled exactly by 2^-g to entries below 1), so that it cannot overflow where weights
-        # near the ends of the double range make R tiny; s 2^g (``_s_var``) puts 2^2g back
-        g = math.frexp(float(np.abs(r_inv).max()))[1]
-        r_scaled = np.ldexp(r_inv, -g)
-        c = r_scaled @ r_scaled.T
-        p = np.arange(self.order + 1)
-        self._var_poly = np.bincount(np.add.outer(p, p).ravel(), c.ravel())  # z^i z^j = z^(i+j)
-        self._dvar = _derivative(self._var_poly)
         self._da = _derivative(self.a)
-        # f, f', Var(mean f)/s^2 and its slope as the columns of one matrix over z^0 .. z^2k
-        width = self._var_poly.size
-        self.local_polynomials = np.zeros((width, 4))
-        for column, c in enumerate((self.a, self._da, self._var_poly, self._dvar)):
-            self.local_polynomials[: c.size, column] = c
         self._turns_in: dict[tuple[float, float], np.ndarray] = {}
         self.s = cal.scaled_residual_sd(self.order)  # in curve units
-        self._s_var = math.ldexp(self.s, g)  # Var(mean f(z)) = _s_var^2 times the variance polynomial
         self.df = cal.n_points - order - 1
         self.x_min = float(cal.x[cal.by_x[0]])
         self.x_max = float(cal.x[cal.by_x[-1]])
         self._t: dict[float, float] = {}
         self._bands: dict[tuple[float, float], tuple | None] = {}
+
+    @cached_property
+    def _variance(self) -> tuple[np.ndarray, float]:
+        """Var(mean f(z)) / s^2 = b(z)' C b(z) with C = R^-1 R^-T: a polynomial in z of degree 2k, kept as
+        C 2^-2g (R^-1 scaled exactly by 2^-g to entries below 1), so that it cannot overflow where weights
+        near the ends of the double range make R tiny; and s 2^g, whose square puts 2^2g back (made on first
+        use: back-calculation needs only the curve)."""
+        r_inv = self.cal.r_factor_inverse(self.order)
+        g = math.frexp(float(np.abs(r_inv).max()))[1]
+        r_scaled = np.ldexp(r_inv, -g)
+        c = r_scaled @ r_scaled.T
+        p = np.arange(self.order + 1)
+        return np.bincount(np.add.outer(p, p).ravel(), c.ravel()), math.ldexp(self.s, g)  # z^i z^j = z^(i+j)
+
+    @cached_property
+    def local_polynomials(self) -> np.ndarray:
+        """f, f', Var(mean f)/s^2 and its slope as the columns of one matrix over z^0 .. z^2k."""
+        var_poly = self._variance[0]
+        out = np.zeros((var_poly.size, 4))
+        for column, c in enumerate((self.a, self._da, var_poly, _derivative(var_poly))):
+            out[: c.size, column] = c
+        return out
 
     @cached_property
     def stats(self):
@@ -97,12 +102,13 @@ class Curve:
 
     def mean_variance(self, z) -> np.ndarray:
         """Var of the fitted mean at z, in curve units squared."""
-        return self._s_var**2 * np.maximum(P.polyval(z, self._var_poly), 0.0)
+        var_poly, s_var = self._variance
+        return s_var**2 * np.maximum(P.polyval(z, var_poly), 0.0)
 
     def local(self, z: np.ndarray):
         """f(z), f'(z), the variance of the fitted mean and its slope, at the points z (1-D), in curve units."""
         v = P.polyvander(z, self.local_polynomials.shape[0] - 1) @ self.local_polynomials
-        s2 = self._s_var**2
+        s2 = self._variance[1] ** 2
         return v[:, 0], v[:, 1], s2 * np.maximum(v[:, 2], 0.0), s2 * v[:, 3]
 
     def t_value(self, level: float) -> float:
@@ -135,8 +141,13 @@ class Curve:
 
     @cached_property
     def grid(self):
-        """z nodes over the extended range, with the curve and mean variance there (curve units)."""
-        return GRID_Z, self.value(GRID_Z), self.mean_variance(GRID_Z)
+        """z nodes over the extended range, with the curve there (curve units)."""
+        return GRID_Z, self.value(GRID_Z)
+
+    @cached_property
+    def grid_mean_variance(self) -> np.ndarray:
+        """The variance of the fitted mean at every grid node (curve units squared)."""
+        return self.mean_variance(GRID_Z)
 
     @property
     def weight_curve(self) -> "Curve":
@@ -151,7 +162,7 @@ class Curve:
         weighting = self.cal.weighting
         if not weighting.weighted:
             return np.ones(1)
-        z, f, _ = self.weight_curve.grid
+        z, f = self.weight_curve.grid
         return weighting.variance_factor(self.cal.raw_x(z), self.to_y(f))
 
     def monotonic_band(self, t2: float, m: np.ndarray):
@@ -164,7 +175,7 @@ class Curve:
         key = (t2, float(m[0]))
         if key not in self._bands:
             t2s2 = t2 * self.s**2
-            z, f, vm = self.grid
+            (z, f), vm = self.grid, self.grid_mean_variance
             sign = 1.0 if f[-1] >= f[0] else -1.0
             table = np.empty((3, f.size))
             curve_row, upper, lower = table
@@ -175,7 +186,7 @@ class Curve:
             np.subtract(curve_row, half, out=lower)
             rising = bool((upper[1:] > upper[:-1]).all() and (lower[1:] > lower[:-1]).all())
             # sign f, sign f', t^2 Var(mean f) and its slope, as polynomials in z (columns)
-            t2s2_var = t2 * self._s_var**2
+            t2s2_var = t2 * self._variance[1] ** 2
             local = self.local_polynomials * np.array([sign, sign, t2s2_var, t2s2_var])
             self._bands[key] = (sign, table, local) if rising else None
         return self._bands[key]

@@ -74,17 +74,22 @@ class _Band:
         return f, dfz / self.cal.dx_dz, s_new
 
 
-def _first_root(func, x_end: float) -> float:
-    """Smallest x in (0, x_end] where func (negative just above 0) reaches zero; nan if it does not."""
+def _first_root(func, band: _Band, grid: np.ndarray, on_grid: tuple) -> float:
+    """Smallest x of (0, grid[-1]] where func(x, f, dy/dx, s_new) (negative just above 0) reaches zero, bracketed
+    on the grid (``on_grid``: the band there) and refined by brentq; nan if it does not."""
     from scipy.optimize import brentq
 
-    grid = np.linspace(0.0, x_end, _NODES)
     with np.errstate(invalid="ignore"):
-        up = np.flatnonzero(func(grid) >= 0)
+        up = np.flatnonzero(func(grid, *on_grid) >= 0)
     if not up.size or up[0] == 0:
         return math.nan
     j = int(up[0])
-    return brentq(lambda v: float(func(np.array([v]))[0]), grid[j - 1], grid[j], xtol=1e-15 * x_end)
+
+    def at(v):
+        x = np.array([v])
+        return float(func(x, *band(x))[0])
+
+    return brentq(at, grid[j - 1], grid[j], xtol=1e-15 * float(grid[-1]))
 
 
 def branch_words(cal: Calibration, curve: Curve, limit: float = math.nan) -> str:
@@ -149,18 +154,18 @@ def _band_row(cal, curve, band: _Band, t1: float, t2: float, sign: float, degene
     f0, _, s0 = band(0.0)
     y_c = float(f0[0] + sign * t1 * s0[0])
 
-    def decision(x):
-        return sign * (band(x)[0] - y_c)
+    def decision(x, f, d, s):
+        return sign * (f - y_c)
 
-    def detection(x):
-        f, _, s = band(x)
+    def detection(x, f, d, s):
         return sign * (f - y_c) - t1 * s
 
-    def quantitation(x):
-        _, d, s = band(x)
+    def quantitation(x, f, d, s):
         return x * sign * d - K_QUANTITATION * t2 * s
 
-    found = [_first_root(g, x_end) for g in (decision, detection, quantitation)]
+    grid = np.linspace(0.0, x_end, _NODES)
+    on_grid = band(grid)  # once, for the three limits' brackets
+    found = [_first_root(g, band, grid, on_grid) for g in (decision, detection, quantitation)]
     reached = [v for v in found if math.isfinite(v)]
     turns = branch_words(cal, curve, max(reached, default=x_min))  # a limit not reached is left empty
     if turns:

@@ -76,7 +76,7 @@ def roots_of(curve: Curve, readings: np.ndarray, z_lo: float, z_hi: float):
     The grid cells where f - reading changes sign (a zero counts as positive, so a root on a node is found
     once) are found run by run: between the grid's turning nodes f is monotonic, so each reading changes
     sign at most once in a run, at the node a binary search of the run's values finds. Memory stays O(n)."""
-    z, f, _ = curve.grid
+    z, f = curve.grid
     inside = (z[:-1] >= z_lo) & (z[1:] <= z_hi)
     rows, cells = [], []
     for start, stop, rising in _monotonic_runs(f):
@@ -194,7 +194,7 @@ def _solve_on_monotonic_band(curve: Curve, cal: Calibration, y0: np.ndarray, m: 
 def _grid_gap(curve: Curve, y0: np.ndarray, m: np.ndarray, t: float):
     """gap(z) = (f(z) - y0)^2 - t^2 (s^2 / (m w(z)) + Var f(z)) at every grid node for every reading (negative
     where the band holds the reading), inf where the weights are not defined; and where they are not."""
-    _, f, vm = curve.grid
+    (_, f), vm = curve.grid, curve.grid_mean_variance
     with np.errstate(invalid="ignore"):
         g = (f[None, :] - y0[:, None]) ** 2 - t**2 * curve.s**2 * curve.grid_variance_factor[None, :] / m[:, None] \
             - t**2 * vm[None, :]
@@ -260,7 +260,7 @@ def _outside_anchor(curve: Curve, y0: np.ndarray, m: np.ndarray, t: float):
     """For readings beyond the response at one end of a calibrated range the curve does not turn in: the
     grid node at or beyond that end (z = -1 or 1) where the prediction band holds the reading best (the
     smallest gap, ``_grid_gap``), nan where the band holds it at no such node."""
-    z, f, _ = curve.grid
+    z, f = curve.grid
     first, last = RANGE_NODES
     below_end = np.abs(y0 - f[first]) <= np.abs(y0 - f[last])  # the end whose response is nearer
     g, _ = _grid_gap(curve, y0, m, t)

@@ -96,10 +96,11 @@ def _judge(x, y, scheme: str, weights, order, note: str = "") -> SchemeResult:
 def harvey_p(e: np.ndarray, u: np.ndarray) -> float:
     """p-value of Harvey's test (module docstring): ESS of log e^2 on [1, u], over pi^2 / 2, against chi2(1)."""
     keep = e != 0
-    if np.unique(u[keep]).size < 2:
+    u = u[keep]
+    if not u.size or u.min() == u.max():  # fewer than 2 distinct u
         return math.nan
     log_e2 = 2.0 * np.log(np.abs(e[keep]))  # scale-free: a common factor of e only shifts the intercept
-    uc = u[keep] - u[keep].mean()
+    uc = u - u.mean()
     ess = float((uc @ (log_e2 - log_e2.mean())) ** 2 / (uc @ uc))
     return float(chi2_sf(ess / (math.pi**2 / 2), 1))
 
