@@ -103,7 +103,7 @@ def agree(c) -> None:
         "weighting": (nums(d.calib_weighting(xs, ys, k)[1:], range(1, 4)), [r[1:4] for r in got[10]]),
     }
     for name, (a, b) in pairs.items():
-        assert _close(a, b, 1e-5 if name == "limits" else 1e-6), (name, a, b)
+        assert _close(a, b), (name, a, b)
 
 
 def quartiles(v):

@@ -19,6 +19,7 @@ import math
 
 import numpy as np
 from scipy import special, stats
+from scipy.optimize import brentq
 
 ALPHA, LEVEL, FAMILY = 0.05, 0.95, 7
 
@@ -246,15 +247,13 @@ def family(xs, ys, new_x, readings, ref_x, ref_y, at):
 
 
 def _first_root(g, x_end):
+    """Bracketed on the 4001-node grid, then brentq to the engine's tolerance (the same limit to full precision)."""
     grid = np.linspace(0.0, x_end, 4001)
-    v = g(grid)
-    up = np.flatnonzero(v >= 0)
+    up = np.flatnonzero(g(grid) >= 0)
     if not up.size or up[0] == 0:
         return math.nan
     j = int(up[0])
-    a, bb = grid[j - 1], grid[j]
-    va, vb = v[j - 1], v[j]
-    return a - va * (bb - a) / (vb - va)  # one secant step in the bracket (the engine uses brentq)
+    return brentq(lambda v: float(g(v)), grid[j - 1], grid[j], xtol=1e-15 * x_end)
 
 
 def _limits(F, x, k, b, c, s, dfk, alpha=ALPHA):
@@ -275,7 +274,6 @@ def _limits(F, x, k, b, c, s, dfk, alpha=ALPHA):
     quant = _first_root(lambda v: v * band(v)[1] - 3 * t2 * band(v)[2], x_end)
     iso = None
     if k == 1:
-        from scipy.optimize import brentq
         delta = brentq(lambda d: special.nctdtr(dfk, d, t1) - alpha, t1, t1 + 1.645 * (1 + t1) + 10, xtol=1e-14)
         root = math.sqrt(1 + 1 / x.size + x.mean() ** 2 / ((x - x.mean()) ** 2).sum())
         iso = (t1 * s * root / d0, delta * s * root / d0)
