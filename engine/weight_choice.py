@@ -31,7 +31,7 @@ import math
 import numpy as np
 from scipy import special
 
-from .calibration import Calibration
+from .calibration import Calibration, default_max_order
 from .diagnostics import back_calculate, deviation_percent
 from .distributions import chi2_sf, t_quantile
 from .errors import WeightError
@@ -69,13 +69,14 @@ def spread_exponent(x, y, level: float = 0.95) -> SpreadExponent | str:
     return SpreadExponent(b, b - half, b + half, level, int(u.size))
 
 
-def _judge(x, y, scheme: str, weights, order, note: str = "") -> SchemeResult:
-    """One scheme fitted and judged; a scheme that cannot apply gets the engine's reason in the note (other
-    errors, such as too few points, concern every scheme and are raised)."""
+def _judge(x, y, scheme: str, weights, order, max_order, note: str = "") -> SchemeResult:
+    """One scheme fitted up to ``max_order`` and judged at ``order`` (chosen when None); a scheme that cannot
+    apply gets the engine's reason in the note (other errors, such as too few points, concern every scheme
+    and are raised)."""
     try:
         if scheme.startswith("1/x"):
             check_scheme_base(scheme, "x", x)
-        cal = Calibration(x, y, max_order=order, weights=weights)
+        cal = Calibration(x, y, max_order=max_order, weights=weights)
     except WeightError as err:
         return _not_applied(scheme, note, err.message)
     k = order if order is not None else choose_order(cal).order
@@ -137,7 +138,10 @@ def compare_weightings(x, y, order=None, alpha: float = 0.05) -> tuple[SchemeRes
     """One row per scheme (``SCHEMES``, then ``FROM_REPLICATES`` when x repeats), the picked one marked."""
     alpha = check_alpha(alpha)
     x, y = check_pair(x, y)
-    rows = [_judge(x, y, s, None if s == "none" else s, order) for s in SCHEMES]
+    # the default max order unless a given order needs more: a 1/y scheme's weights come from the same
+    # curve (order min(2, max order)) as in every other function's fit under that scheme
+    max_order = None if order is None or order <= default_max_order(x.size, np.unique(x).size) else order
+    rows = [_judge(x, y, s, None if s == "none" else s, order, max_order) for s in SCHEMES]
     if np.unique(x).size < x.size:
         fit = spread_exponent(x, y, 1.0 - alpha)
         if isinstance(fit, str):
@@ -145,5 +149,5 @@ def compare_weightings(x, y, order=None, alpha: float = 0.05) -> tuple[SchemeRes
         else:
             words = (f"b = {fit.b:.3g} ({1 - alpha:.0%} interval {fit.lower:.3g} to {fit.upper:.3g}) from the "
                      f"replicate SDs at {fit.levels} levels: weights 1/x^{2 * fit.b:.3g}")
-            rows.append(_judge(x, y, FROM_REPLICATES, np.abs(x) ** (-2.0 * fit.b), order, words))
+            rows.append(_judge(x, y, FROM_REPLICATES, np.abs(x) ** (-2.0 * fit.b), order, max_order, words))
     return tuple(_pick(rows, alpha))

@@ -89,6 +89,22 @@ def test_weighting_table_equals_the_engine():
                        "picked" if r.picked else None, (r.note + after) or None]
 
 
+def test_weighting_rows_at_a_given_order_are_the_residual_tables_under_each_scheme():
+    """At a given order every scheme's deviation sums are CALIB_RESIDUALS' deviation % under that scheme: a 1/y
+    scheme's weights come from the same curve in both (order min(2, max order), the default max order here)."""
+    rng = np.random.default_rng(41)
+    x = np.repeat([1.0, 2.0, 5.0, 10.0, 20.0, 50.0], 3)
+    y = 0.2 + 1.8 * x + 0.004 * x**2 + x * rng.normal(0, 0.05, x.size)
+    rows = degreewise.calib_weighting([[v] for v in x], [[v] for v in y], 1)
+    for row in rows[1:6]:
+        weights = None if row[0] == "none" else row[0]
+        table = degreewise.calib_residuals([[v] for v in x], [[v] for v in y], 1, weights)
+        deviation = np.abs([r[6] for r in table])
+        assert row[1] == 1
+        assert row[2] == pytest.approx(deviation.sum(), rel=1e-12) and row[3] == pytest.approx(deviation.max(),
+                                                                                                 rel=1e-12)
+
+
 def test_weighting_with_a_blank_standard_says_which_schemes_cannot_apply():
     rows = degreewise.calib_weighting(X, Y)
     assert rows[2] == ["1/x", None, None, None, None, None,
