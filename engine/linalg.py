@@ -1,16 +1,20 @@
-"""The factorisations the engine uses, each through numpy.linalg (LAPACK), and the leverage that counts as 1."""
+"""The factorisations the engine uses, each through LAPACK (scipy.linalg, numpy.linalg), and the leverage that
+counts as 1."""
 
 from __future__ import annotations
 
 import numpy as np
+import scipy.linalg
 
 # a leverage above this is 1 in double precision: that standard alone fixes the curve at its x
 LEVERAGE_ONE = 1 - 1e-10
 
 
 def householder_qr(a: np.ndarray):
-    """Reduced Householder QR (numpy.linalg.qr: LAPACK dgeqrf and dorgqr)."""
-    return np.linalg.qr(a, mode="reduced")
+    """Reduced Householder QR (scipy.linalg.qr: LAPACK dgeqrf and dorgqr). ``a`` is a temporary the caller
+    does not read again: a Fortran-ordered one (as numpy.polynomial's Vandermonde matrices are) is factorised
+    in place, with no copy (numpy.linalg.qr copies a million-point basis twice)."""
+    return scipy.linalg.qr(a, mode="economic", overwrite_a=True, check_finite=False)
 
 
 def triangular_inverse(r: np.ndarray) -> np.ndarray:
