@@ -276,28 +276,26 @@ class Calibration:
 
     # -- raw power solution: plain, refined where the plain one may miss the target ----------
 
-    def _powers(self, order: int):
-        """Weighted raw powers u^0 .. u^order in double-double (n, order + 1)."""
-        hi, lo = dd.powers(self._u, order)
-        if not self.weighting.weighted:
-            return hi, lo
-        return dd.mul_double(hi, lo, self.sqrt_w[:, None])
-
     def _refine_fits(self, orders: list[int]) -> np.ndarray:
         """The refined scaled weighted residuals of ``orders`` (one row each); their refined raw coefficients
         are kept for ``raw_coefficients``. One call: each order is the right-hand side y with a mask that keeps
         its solution to its own powers; the leading blocks of Q, R^-1 and T are those of the lower order."""
         p, m = max(orders) + 1, len(orders)
+        shape = (m, self.n_points)
         if not self.weighting.weighted:
-            rhs_hi, rhs_lo = np.tile(self._ys, (m, 1)), None
+            rhs_hi, rhs_lo = np.broadcast_to(self._ys, shape), None
         else:
-            rhs_hi, rhs_lo = (np.tile(a, (m, 1)) for a in dd.two_prod(self._ys, self.sqrt_w))
-        v_hi, v_lo = self._powers(p - 1)
-        (b_hi, b_lo), (e_hi, e_lo) = refine(v_hi, v_lo, self._q[:, :p], self._r_inv[:p, :p], self._t[:p, :p],
-                                            rhs_hi, rhs_lo, np.zeros((m, p)), np.tri(p)[orders])
+            rhs_hi, rhs_lo = (np.broadcast_to(a, shape) for a in dd.two_prod(self._ys, self.sqrt_w))
+        (b_hi, b_lo), (e_hi, e_lo) = refine(self._u, self._sqrt_w_or_none, self._q[:, :p], self._r_inv[:p, :p],
+                                            self._t[:p, :p], rhs_hi, rhs_lo, np.zeros((m, p)), np.tri(p)[orders])
         for k, b in zip(orders, b_hi + b_lo):
             self._refined_coefficients[k] = _frozen(b[: k + 1])
         return e_hi + e_lo
+
+    @property
+    def _sqrt_w_or_none(self):
+        """sqrt(w), or None unweighted (the refinement then makes the raw design without it)."""
+        return self.sqrt_w if self.weighting.weighted else None
 
     @cached_property
     def _residuals_and_bounds(self) -> tuple[np.ndarray, np.ndarray]:
@@ -340,13 +338,12 @@ class Calibration:
         """Diagonal of (V'WV)^-1 of ``order`` in the scaled raw powers (u = x 2^-e_x): the row sums of squares
         of T R^-1, or refined where ``plain_bounds`` is above the target (the augmented system with y = 0 and
         c = -I, ``refine``)."""
-        p, n = order + 1, self.n_points
+        p = order + 1
         if self.plain_bounds(order).variances <= TARGET:
             m = self._t[:p, :p] @ self._r_inv[:p, :p]
             return _frozen(np.einsum("ij,ij->i", m, m))
-        v_hi, v_lo = self._powers(order)
-        (b_hi, b_lo), _ = refine(v_hi, v_lo, self._q[:, :p], self._r_inv[:p, :p],
-                                 self._t[:p, :p], np.zeros((p, n)), None, -np.eye(p))
+        (b_hi, b_lo), _ = refine(self._u, self._sqrt_w_or_none, self._q[:, :p], self._r_inv[:p, :p],
+                                 self._t[:p, :p], None, None, -np.eye(p))
         return _frozen(np.maximum(np.diag(b_hi) + np.diag(b_lo), 0.0))
 
     # -- statistics ---------------------------------------------------------------------------

@@ -94,7 +94,8 @@ def powers(x, order):
     hi[0], lo[0] = 1.0, 0.0
     if order >= 1:
         hi[1], lo[1] = x, 0.0
-    xh, xl = _split(x)
+    if order >= 2:
+        xh, xl = _split(x)
     for k in range(2, order + 1):
         a = hi[k - 1]
         p = x * a

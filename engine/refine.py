@@ -49,7 +49,7 @@ _MAX_STEPS = 10
 _TOLERANCE = 2.0**-100
 _ENOUGH = 2.0**-64
 _CONTRACTION = 0.5  # the largest ratio of successive steps taken as contracting (``refine``)
-_BLOCK = 2**18  # elements per temporary array (m, p, rows) in the residual computation
+_BLOCK = 2**15  # elements per temporary array (m, p, rows) in the residual computation: a block stays in cache
 
 
 def conversion_matrix(centre: float, half_width: float, order: int) -> np.ndarray:
@@ -167,64 +167,89 @@ def _sigma(top: np.ndarray, count: int) -> np.ndarray:
     return np.ldexp(1.0, np.frexp(top)[1] + (count + 1).bit_length())
 
 
-def _row_blocks(v_hi, v_lo, m: int) -> list:
-    """The rows of V in blocks that keep the temporaries (m, p, rows) small: each block's rows, its
-    transposed pieces (``_pieces``), its largest |V_ik| per column and overall, and a vector of ones."""
-    n, p = v_hi.shape
+def _design(u: np.ndarray, sqrt_w, p: int):
+    """Rows of the weighted raw design V, transposed: (p, rows) double-double powers u^0 .. u^(p-1)
+    (``dd.powers``), times sqrt(w) when ``sqrt_w`` is given, as ``_pieces``."""
+    hi, lo = dd.powers(u, p - 1)
+    hi, lo = hi.T, lo.T  # (p, rows), each power a contiguous row
+    if sqrt_w is not None:
+        hi, lo = dd.mul_double(hi, lo, sqrt_w)
+    return _pieces(hi, lo)
+
+
+def _blocks(n: int, m: int, p: int) -> list[slice]:
+    """Slices of the n rows that keep each temporary (m, p, rows) array near ``_BLOCK`` elements."""
     rows = max(1024, _BLOCK // (m * p))
-    blocks = []
-    for i in range(0, n, rows):
-        j = min(i + rows, n)
-        v_max = np.abs(v_hi[i:j]).max(axis=0)
-        vt_hi, vt_lo = np.ascontiguousarray(v_hi[i:j].T), np.ascontiguousarray(v_lo[i:j].T)
-        blocks.append((slice(i, j), _pieces(vt_hi, vt_lo), v_max, float(v_max.max()), np.ones(j - i)))
-    return blocks
+    return [slice(i, min(i + rows, n)) for i in range(0, n, rows)]
 
 
-def _residuals(blocks, y_hi, y_lo, c, b, e):
+def _residuals(u, sqrt_w, q, y_hi, y_lo, c, b, e):
     """The residuals f = y - e - V b and g = c - V'e of the augmented system, each rounded once to double
-    (``refine``); b and e as (hi, lo) with lo None for zeros (the first step), y_lo None for zeros."""
+    (``refine``), and Q'f (m, p); b and e as (hi, lo) with lo None for zeros (the first step), y_hi and y_lo
+    None for zeros. Row block by row block, V's rows made afresh in each (``_design``)."""
     (b_hi, b_lo), (e_hi, e_lo) = b, e
-    p = b_hi.shape[1]
-    ones_p = np.ones(p)
-    y_top, e_top = np.abs(y_hi).max(axis=1), np.abs(e_hi).max(axis=1)
+    m, p = b_hi.shape
+    ones_p, ones_n = np.ones(p), np.ones(_BLOCK + 1024)
+    zero = np.zeros(m)
+    y_top = zero if y_hi is None else np.abs(y_hi).max(axis=1)
+    e_top = np.abs(e_hi).max(axis=1)
     f = np.empty_like(e_hi)
+    qf = np.zeros((m, p))
     nb = _pieces(-b_hi[:, :, None], None if b_lo is None else -b_lo[:, :, None])
     g_sum = None  # -V'e, summed over the blocks
-    for s, v, v_max, v_top, ones_n in blocks:
+    for s in _blocks(u.size, m, p):
+        v = _design(u[s], None if sqrt_w is None else sqrt_w[s], p)
+        v_max = np.abs(v[0]).max(axis=1)
         # f = y - e - V b: the p terms of each row plus y and -e; sigma bounds every term
         big, small = _products(v, nb)
         sigma = _sigma(np.maximum(np.maximum(y_top, e_top), np.abs(b_hi) @ v_max), p + 2)[:, None]
         high = _high_parts(big, sigma[:, :, None])
         big += small
-        y_part, e_part = y_hi[:, s], e_hi[:, s]
-        q_y = (sigma + y_part) - sigma
+        e_part = e_hi[:, s]
         q_e = (sigma - e_part) - sigma
-        rest = ones_p @ big + (y_part - q_y) - (e_part + q_e)
+        rest = ones_p @ big - (e_part + q_e)
+        if y_hi is not None:
+            y_part = y_hi[:, s]
+            q_y = (sigma + y_part) - sigma
+            rest += y_part - q_y
+            q_e += q_y
         if y_lo is not None:
-            rest += y_lo[:, s] if e_lo is None else y_lo[:, s] - e_lo[:, s]
-        elif e_lo is not None:
+            rest += y_lo[:, s]
+        if e_lo is not None:
             rest -= e_lo[:, s]
         # the high parts sum exactly; adding the small rest rounds once (the correction needs f in double)
-        f[:, s] = (ones_p @ high + q_y + q_e) + rest
+        f[:, s] = f_part = (ones_p @ high + q_e) + rest
+        qf += f_part @ q[s]
         # -V'e over the rows of the block
-        big, small = _products(v, _pieces(-e_hi[:, None, s], None if e_lo is None else -e_lo[:, None, s]))
-        high = _high_parts(big, _sigma(e_top * v_top, s.stop - s.start)[:, None, None])
+        ones = ones_n[: s.stop - s.start]
+        big, small = _products(v, _pieces(-e_part[:, None], None if e_lo is None else -e_lo[:, None, s]))
+        high = _high_parts(big, _sigma(e_top * float(v_max.max()), ones.size)[:, None, None])
         big += small
-        part = (high @ ones_n, big @ ones_n)  # the exact sum of the high parts, the rest
+        part = (high @ ones, big @ ones)  # the exact sum of the high parts, the rest
         g_sum = part if g_sum is None else dd.add(*dd.two_sum(*g_sum), *dd.two_sum(*part))
     # g = c - V'e in double: c and the high part of -V'e cancel exactly where they nearly cancel
-    return f, (g_sum[0] + c) + g_sum[1]
+    return f, (g_sum[0] + c) + g_sum[1], qf
 
 
-def refine(v_hi, v_lo, q, r_inv, t, y_hi, y_lo, c, mask=None):
+def _correct(e_hi, e_lo, f, u, q, low_only: bool):
+    """e += f - Q u (the residuals' correction) in place, in double-double, block by block; ``low_only``: the
+    correction is far below e and goes to its low parts (the last step)."""
+    for s in _blocks(f.shape[1], *u.shape):
+        de = f[:, s] - u @ q[s].T
+        if low_only:
+            e_lo[:, s] += de
+        else:
+            e_hi[:, s], e_lo[:, s] = dd.add_double(e_hi[:, s], e_lo[:, s], de)
+
+
+def refine(u, sqrt_w, q, r_inv, t, y_hi, y_lo, c, mask=None):
     """Solve the augmented system for each of m right-hand sides.
 
-    v_hi, v_lo: weighted raw design (n, p) in double-double; q (n, p) and r_inv
-    (p, p), the inverse of r: QR of the weighted scaled basis; t (p, p): the
-    conversion matrix; y (m, n) in double-double (y_lo None for zeros) and c (m, p) in double: the
-    right-hand sides, one per row. ``mask`` (m, p) of ones and zeros, when given,
-    keeps each right-hand side to the leading powers it marks: the leading
+    u (n,): the scaled x (the raw design is V_ik = sqrt(w_i) u_i^k, made in double-double a block of rows at a
+    time, ``_design``); sqrt_w (n,) or None for unweighted; q (n, p) and r_inv (p, p), the inverse of r: QR of
+    the weighted scaled basis; t (p, p): the conversion matrix; y (m, n) in double-double (y_lo None for
+    zeros; y_hi None: y = 0) and c (m, p) in double: the right-hand sides, one per row. ``mask`` (m, p) of
+    ones and zeros, when given, keeps each right-hand side to the leading powers it marks: the leading
     blocks of q, r_inv and t are those of the lower order, so one call solves
     nested orders side by side. Returns b (m, p) and the residual e (m, n),
     each as an unevaluated sum hi + lo (the last, tiny correction is added to
@@ -247,18 +272,17 @@ def refine(v_hi, v_lo, q, r_inv, t, y_hi, y_lo, c, mask=None):
     to_raw = (t @ r_inv).T
     from_raw = to_raw.T
     keep = 1.0 if mask is None else mask
-    y = y_hi if y_lo is None else y_hi + y_lo
-    u = (y @ q - c @ from_raw) * keep
-    b_hi, b_lo = u @ to_raw, np.zeros((y_hi.shape[0], v_hi.shape[1]))
-    e_hi, e_lo = y - u @ q.T, np.zeros_like(y_hi)
-    blocks = _row_blocks(v_hi, v_lo, y_hi.shape[0])
-    plain = b_hi, 0.0, e_hi, 0.0  # b and e of the plain solution (hi, lo)
+    m, p = c.shape
+    y = np.zeros((m, q.shape[0])) if y_hi is None else y_hi if y_lo is None else y_hi + y_lo
+    start = (y @ q - c @ from_raw) * keep  # the plain solution in the scaled basis
+    plain = start @ to_raw
+    b_hi, b_lo = plain.copy(), np.zeros((m, p))
+    e_hi, e_lo = y - start @ q.T, None
     previous = None  # each right-hand side's last step, once one is taken
-    for step_count in range(_MAX_STEPS):
-        first = step_count == 0  # b_lo and e_lo still hold zeros
-        f, g = _residuals(blocks, y_hi, y_lo, c, (b_hi, None if first else b_lo), (e_hi, None if first else e_lo))
-        u = (f @ q - (g * keep) @ from_raw) * keep
-        db, de = u @ to_raw, f - u @ q.T
+    for _ in range(_MAX_STEPS):
+        f, g, qf = _residuals(u, sqrt_w, q, y_hi, y_lo, c, (b_hi, None if previous is None else b_lo), (e_hi, e_lo))
+        step_u = (qf - (g * keep) @ from_raw) * keep
+        db = step_u @ to_raw
         scale = np.abs(b_hi).max(axis=1)
         scale[scale == 0] = 1.0
         step = np.abs(db).max(axis=1) / scale
@@ -269,15 +293,19 @@ def refine(v_hi, v_lo, q, r_inv, t, y_hi, y_lo, c, mask=None):
             with np.errstate(divide="ignore", invalid="ignore"):
                 ratio = step / previous  # the measured contraction
             converged |= (step <= _TOLERANCE) | ((ratio <= _CONTRACTION) & (step * ratio <= _ENOUGH))
+        if e_lo is None:
+            e_lo = np.zeros_like(e_hi)
         if converged.all():
             # the last correction, far below b and e, only needs adding to their low parts
-            b_lo, e_lo = b_lo + db, e_lo + de
+            b_lo += db
+            _correct(e_hi, e_lo, f, step_u, q, low_only=True)
             break
         b_hi, b_lo = dd.add_double(b_hi, b_lo, db)
-        e_hi, e_lo = dd.add_double(e_hi, e_lo, de)
+        _correct(e_hi, e_lo, f, step_u, q, low_only=False)
         previous = step
     # where the corrections did not contract they were no better than the plain solution's error
     astray = ~(converged | (largest <= _CONTRACTION * first_step))
-    for refined, start in zip((b_hi, b_lo, e_hi, e_lo), plain):
-        refined[astray] = start[astray] if np.ndim(start) else start
+    if astray.any():
+        b_hi[astray], b_lo[astray] = plain[astray], 0.0
+        e_hi[astray], e_lo[astray] = y[astray] - start[astray] @ q.T, 0.0
     return (b_hi, b_lo), (e_hi, e_lo)
