@@ -16,6 +16,7 @@ nor underflow in sums of squares.
 from __future__ import annotations
 
 import functools
+import itertools
 import math
 from functools import cached_property
 
@@ -254,16 +255,17 @@ class Calibration:
         return self._r_inv[: order + 1, : order + 1]
 
     def leverage(self, order: int) -> np.ndarray:
-        return self._leverage[order]
+        """The leverages of ``order``, made afresh (``OrderResults.leverage`` keeps them)."""
+        return _frozen(next(itertools.islice(self._running_leverages(), order, None)).copy())
 
-    @cached_property
-    def _leverage(self) -> np.ndarray:
-        """Row k: the leverages of order k (cumulative row sums of squares of Q)."""
-        h = np.empty((self.max_order + 1, self.n_points))
-        np.square(self._q[:, 0], out=h[0])
+    def _running_leverages(self):
+        """The leverages of orders 0, 1, .., max_order in turn, the running row sums of squares of Q, in one array
+        updated in place (so that no order's leverages are kept that are not asked for)."""
+        h = np.square(self._q[:, 0])
+        yield h
         for k in range(1, self.max_order + 1):
-            np.add(h[k - 1], self._q[:, k] ** 2, out=h[k])
-        return h
+            h += self._q[:, k] ** 2
+            yield h
 
     def scaled_residuals(self, order: int) -> np.ndarray:
         """sqrt(w) (y - fitted) times 2^-e (e fixed per calibration, y scaled into [-1, 1]): for statistics
@@ -437,10 +439,10 @@ class Calibration:
     def _all_stats(self) -> None:
         """OrderStats of every order at once (formulas in ``results.OrderStats``)."""
         n, big_k = self.n_points, self.max_order
-        rss, e, h = self._all_rss, self._residual_rows, self._leverage
+        rss, e = self._all_rss, self._residual_rows
         orders = np.arange(big_k + 1)
         df = n - orders - 1
-        press = np.array([prediction_sum_of_squares(ek, hk) for ek, hk in zip(e, h)])
+        press = np.array([prediction_sum_of_squares(ek, hk) for ek, hk in zip(e, self._running_leverages())])
         tests = self._f_tests
         lack = self._lack_of_fit_tests(tests)
         ey2 = 2 * self._ey

@@ -69,7 +69,7 @@ class OrderResults:
     def curve(self) -> Curve:
         return Curve(self.cal, self.order)
 
-    @property
+    @cached_property
     def leverage(self) -> np.ndarray:
         """h_i: the diagonal of the hat matrix, the running sums of squared Q entries up to this order."""
         return self.cal.leverage(self.order)
