@@ -14,7 +14,9 @@
    input cells are built before). CALIB_COMPARE's input is twice as many points (today and the reference).
 
 Every measurement runs in a fresh subprocess (``ru_maxrss``, KiB on Linux), one BLAS thread unless
-OPENBLAS_NUM_THREADS is set; reference and ours alternate round by round.
+OPENBLAS_NUM_THREADS is set. Each round of part 1 runs reference, ours, ours, reference and compares the sums of
+each side: on the shared development machine, with pairs in alternating order, the per-round ratios
+alternated between about 0.7 and 1.6 with which side ran first (11 rounds, December 2026).
 
 Run: python benchmarks/bench_large.py [rounds]
 """
@@ -114,14 +116,14 @@ def run(which: str) -> dict:
 
 def main(rounds: int = 5):
     med = statistics.median
-    print("one million points, CPU time and peak memory growth, fresh processes in alternating rounds\n"
+    print("one million points, CPU time and peak memory growth, fresh processes (each round: reference, ours, ours, reference)\n"
           "  ours: QR up to order K, every order's sums of squares, F tests, AICc, BIC, PRESS, the order choice,\n"
           "        the chosen order's refined raw coefficients and standard errors\n"
           "  reference: numpy lstsq of orders 0..K on one raw power design (coefficients, residual sums of squares)")
     rows = []
-    for r in range(rounds):
-        pair = (run("reference"), run("ours")) if r % 2 == 0 else tuple(reversed((run("ours"), run("reference"))))
-        rows.append(pair)
+    for _ in range(rounds):
+        first, a, b, last = run("reference"), run("ours"), run("ours"), run("reference")
+        rows.append(tuple({key: x[key] + y[key] for key in x} for x, y in ((first, last), (a, b))))
     for key, what in (("seconds", "time"), ("mib", "peak memory")):
         ratios = [m[key] / ref[key] for ref, m in rows]
         print(f"  {what:<12} ours / lstsq: median {med(ratios):.2f} (rounds: {' '.join(f'{v:.2f}' for v in ratios)})")
