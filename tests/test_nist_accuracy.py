@@ -66,15 +66,22 @@ def test_validate_report_passes():
     assert text.splitlines()[-2] == "PASS: every quantity reaches LRE 12"
 
 
-def test_refinement_in_blocks_of_rows_keeps_the_certified_digits(monkeypatch):
+@pytest.mark.parametrize("weight", [None, 4.0])
+def test_refinement_in_blocks_of_rows_keeps_the_certified_digits(monkeypatch, weight):
     """Large problems refine block by block (bounded temporaries): Filip's data repeated 40 times
     (3280 points, the same least-squares solution) in blocks of 1024 rows keeps LRE >= 12 on the
-    certified coefficients (NIST StRD Filip)."""
+    certified coefficients and standard errors (NIST StRD Filip), also through the weighted path with equal
+    weights (which change nothing). Repeating the data 40 times divides (V'V)^-1 by 40 and multiplies the
+    residual sum of squares by 40, so each standard error is the certified one times sqrt(71 / 3269)
+    (residual df 82 - 11 and 3280 - 11)."""
     import degreewise.engine.refine
 
     monkeypatch.setattr(engine.refine, "_BLOCK", 1)  # every block at the 1024-row minimum
     x, y, cert = load_strd("filip")
-    fit = engine.fit(np.tile(x, 40), np.tile(y, 40), cert["degree"])
+    weights = None if weight is None else np.full(x.size * 40, weight)
+    fit = engine.fit(np.tile(x, 40), np.tile(y, 40), cert["degree"], weights=weights)
     rms = float(np.sqrt(np.mean(y**2)))
     for k, (est, c) in enumerate(zip(fit.coefficients, cert["coefficients"])):
         _check(est, c, rms, f"filip x40 b{k}")
+    for k, (est, c) in enumerate(zip(fit.std_errors, cert["std_errors"])):
+        _check(est, float(c) * math.sqrt(71 / 3269), rms, f"filip x40 se(b{k})")
