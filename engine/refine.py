@@ -189,15 +189,15 @@ def _residuals(u, sqrt_w, q, y_hi, y_lo, c, b, e):
     None for zeros. Row block by row block, V's rows made afresh in each (``_design``)."""
     (b_hi, b_lo), (e_hi, e_lo) = b, e
     m, p = b_hi.shape
-    ones_p, ones_n = np.ones(p), np.ones(_BLOCK + 1024)
-    zero = np.zeros(m)
-    y_top = zero if y_hi is None else np.abs(y_hi).max(axis=1)
+    blocks = _blocks(u.size, m, p)
+    ones_p, ones_n = np.ones(p), np.ones(blocks[0].stop)  # the first block is the largest
+    y_top = np.zeros(m) if y_hi is None else np.abs(y_hi).max(axis=1)
     e_top = np.abs(e_hi).max(axis=1)
     f = np.empty_like(e_hi)
     qf = np.zeros((m, p))
     nb = _pieces(-b_hi[:, :, None], None if b_lo is None else -b_lo[:, :, None])
     g_sum = None  # -V'e, summed over the blocks
-    for s in _blocks(u.size, m, p):
+    for s in blocks:
         v = _design(u[s], None if sqrt_w is None else sqrt_w[s], p)
         v_max = np.abs(v[0]).max(axis=1)
         # f = y - e - V b: the p terms of each row plus y and -e; sigma bounds every term
