@@ -116,7 +116,8 @@ def run(which: str) -> dict:
 
 def main(rounds: int = 5):
     med = statistics.median
-    print("one million points, CPU time and peak memory growth, fresh processes (each round: reference, ours, ours, reference)\n"
+    print("one million points, CPU time and peak memory growth, fresh processes\n"
+          "(each round: reference, ours, ours, reference)\n"
           "  ours: QR up to order K, every order's sums of squares, F tests, AICc, BIC, PRESS, the order choice,\n"
           "        the chosen order's refined raw coefficients and standard errors\n"
           "  reference: numpy lstsq of orders 0..K on one raw power design (coefficients, residual sums of squares)")
