@@ -32,6 +32,7 @@ import numpy as np
 from scipy import special
 
 from .calibration import Calibration, default_max_order
+from .curve import Curve
 from .diagnostics import back_calculate, deviation_percent
 from .distributions import chi2_sf, t_quantile
 from .errors import WeightError
@@ -80,7 +81,9 @@ def _judge(x, y, scheme: str, weights, order, max_order, note: str = "") -> Sche
     except WeightError as err:
         return _not_applied(scheme, note, err.message)
     k = order if order is not None else choose_order(cal).order
-    dev = deviation_percent(back_calculate(cal, cal.order(k).curve)[0], cal.x)[cal.x != 0]
+    # the curve alone, not cal.order(k): an order's results and its calibration refer to each other, so each
+    # scheme's calibration would stay in memory until the cycle collector runs (6 sets of n-long arrays)
+    dev = deviation_percent(back_calculate(cal, Curve(cal, k))[0], cal.x)[cal.x != 0]
     words = [note]
     if not np.isfinite(dev).all():
         words.append(f"{np.count_nonzero(~np.isfinite(dev))} standards cannot be back-calculated, so the "
