@@ -117,7 +117,7 @@ class Calibration:
     def __init__(self, x, y, max_order=None, weights=None):
         checked_x, checked_y = check_pair(x, y)
         x, y = _own(checked_x, x), _own(checked_y, y)
-        by_x, inverse, m = _standards(x, y)
+        by_x, self._level_index, m = _standards(x, y)
         n = x.size
         self.weighting = Weighting(weights, x, y)
         k = _max_order(max_order, n, m)
@@ -140,8 +140,6 @@ class Calibration:
             self.weighting.settle(x, y, functools.partial(self._fitted_under, basis[:, : weight_order(k) + 1]))
         self.sqrt_w = np.sqrt(self.weighting.values) if self.weighting.weighted else np.ones(n)
         self._factorise(basis)
-        self._sums_of_squares(inverse)
-        self._t = conversion_matrix(self.centre, self.half_width, k)
         self._stats: dict[int, OrderStats] = {}
         self._orders: dict[int, OrderResults] = {}
         self._choices: dict[tuple[str, float], OrderChoice] = {}
@@ -166,21 +164,37 @@ class Calibration:
         self._qty = self._q.T @ self._yw
         self._r_inv = triangular_inverse(self._r)
 
-    def _sums_of_squares(self, inverse: np.ndarray) -> None:
-        """The (weighted) total and pure-error sums of squares of the scaled y (``inverse``: each point's
-        distinct x), and the size of a sum of squares that is rounding error (``ROUNDING``)."""
+    @cached_property
+    def _tss(self) -> float:
+        """The (weighted) total sum of squares of the scaled y."""
         ys = self._ys
         if not self.weighting.weighted:
-            gmean = np.bincount(inverse, ys) / np.bincount(inverse)
-            d_mean, d_level = ys - ys.sum() / self.n_points, ys - gmean[inverse]
-            self._tss, self._ss_pure = float((d_mean * d_mean).sum()), float((d_level * d_level).sum())
-        else:
-            sw2 = self.sqrt_w**2
-            wy = sw2 * ys
-            gmean = np.bincount(inverse, wy) / np.bincount(inverse, sw2)
-            self._tss = float((sw2 * (ys - wy.sum() / sw2.sum()) ** 2).sum())
-            self._ss_pure = float((sw2 * (ys - gmean[inverse]) ** 2).sum())
-        self._ss_rounding = self.n_points * (ROUNDING * float(np.abs(self._yw).max())) ** 2
+            d_mean = ys - ys.sum() / self.n_points
+            return float((d_mean * d_mean).sum())
+        sw2 = self.sqrt_w**2
+        wy = sw2 * ys
+        return float((sw2 * (ys - wy.sum() / sw2.sum()) ** 2).sum())
+
+    @cached_property
+    def _ss_pure(self) -> float:
+        """The (weighted) pure-error sum of squares of the scaled y, about the mean of each distinct x."""
+        ys, levels = self._ys, self._level_index
+        if not self.weighting.weighted:
+            d_level = ys - (np.bincount(levels, ys) / np.bincount(levels))[levels]
+            return float((d_level * d_level).sum())
+        sw2 = self.sqrt_w**2
+        gmean = np.bincount(levels, sw2 * ys) / np.bincount(levels, sw2)
+        return float((sw2 * (ys - gmean[levels]) ** 2).sum())
+
+    @cached_property
+    def _ss_rounding(self) -> float:
+        """The size of a sum of squares that is rounding error (``ROUNDING``)."""
+        return self.n_points * (ROUNDING * float(np.abs(self._yw).max())) ** 2
+
+    @cached_property
+    def _t(self) -> np.ndarray:
+        """T, raw coefficients from scaled ones (``refine.conversion_matrix``)."""
+        return conversion_matrix(self.centre, self.half_width, self.max_order)
 
     def _fitted_under(self, basis: np.ndarray, w: np.ndarray) -> np.ndarray:
         """Fitted y of the standards on ``basis`` under weights w (one QR; for ``Weighting.settle``)."""
@@ -280,7 +294,7 @@ class Calibration:
 
     def _refine_fits(self, orders: list[int]) -> np.ndarray:
         """The refined scaled weighted residuals of ``orders`` (one row each); their refined raw coefficients
-        are kept for ``raw_coefficients``. One call: each order is the right-hand side y with a mask that keeps
+        are kept for ``raw_solution``. One call: each order is the right-hand side y with a mask that keeps
         its solution to its own powers; the leading blocks of Q, R^-1 and T are those of the lower order."""
         p, m = max(orders) + 1, len(orders)
         shape = (m, self.n_points)
@@ -326,27 +340,26 @@ class Calibration:
                                          self.scaled_coefficients(order), self._rss(order), self.n_points),
                            float(self._residuals_and_bounds[1][order]))
 
-    def raw_coefficients(self, order: int) -> np.ndarray:
+    def raw_solution(self, order: int) -> tuple[np.ndarray, np.ndarray]:
         """Coefficients of ``order`` in raw powers of x, times 2^(j e_x - e_y) for the power j (``x_exponent``,
-        ``y_exponent``): T a, or refined where ``plain_bounds`` is above the target."""
-        if order not in self._refined_coefficients:
-            if self.plain_bounds(order).coefficients <= TARGET:
-                p = order + 1
-                return _frozen(self._t[:p, :p] @ self.scaled_coefficients(order))
-            self._refine_fits([order])
-        return self._refined_coefficients[order]
-
-    def covariance_diagonal(self, order: int) -> np.ndarray:
-        """Diagonal of (V'WV)^-1 of ``order`` in the scaled raw powers (u = x 2^-e_x): the row sums of squares
-        of T R^-1, or refined where ``plain_bounds`` is above the target (the augmented system with y = 0 and
-        c = -I, ``refine``)."""
+        ``y_exponent``): T a; and the diagonal of (V'WV)^-1 in the scaled raw powers (u = x 2^-e_x): the row sums
+        of squares of T R^-1. Each is refined where its estimate in ``plain_bounds`` is above the target (the
+        covariance on the augmented system with y = 0 and c = -I, ``refine``)."""
         p = order + 1
-        if self.plain_bounds(order).variances <= TARGET:
+        bounds = self.plain_bounds(order)
+        if order in self._refined_coefficients:
+            coefficients = self._refined_coefficients[order]
+        elif bounds.coefficients <= TARGET:
+            coefficients = _frozen(self._t[:p, :p] @ self.scaled_coefficients(order))
+        else:
+            self._refine_fits([order])
+            coefficients = self._refined_coefficients[order]
+        if bounds.variances <= TARGET:
             m = self._t[:p, :p] @ self._r_inv[:p, :p]
-            return _frozen(np.einsum("ij,ij->i", m, m))
+            return coefficients, _frozen(np.einsum("ij,ij->i", m, m))
         (b_hi, b_lo), _ = refine(self._u, self._sqrt_w_or_none, self._q[:, :p], self._r_inv[:p, :p],
                                  self._t[:p, :p], None, None, -np.eye(p))
-        return _frozen(np.maximum(np.diag(b_hi) + np.diag(b_lo), 0.0))
+        return coefficients, _frozen(np.maximum(np.diag(b_hi) + np.diag(b_lo), 0.0))
 
     # -- statistics ---------------------------------------------------------------------------
 

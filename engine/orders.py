@@ -50,7 +50,7 @@ class OrderResults:
     def fit(self) -> OrderFit:
         cal, k = self.cal, self.order
         stats = self.stats
-        coef, diag = cal.raw_coefficients(k), cal.covariance_diagonal(k)
+        coef, diag = cal.raw_solution(k)
         sd = cal.scaled_residual_sd(k)
         coefs, ses, ts = [], [], []
         exact = cal.exact_order is not None and k >= cal.exact_order  # no t test on rounding error

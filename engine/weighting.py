@@ -68,6 +68,7 @@ class Weighting:
             if var == "y":  # set by ``settle`` from the fitted curve
                 self.values = np.ones_like(x)
                 return
+            check_scheme_base(key, var, x)
             self.values = _from_base(key, x)
         else:
             self.values = check_weights(weights, x.size)
@@ -148,9 +149,9 @@ class Weighting:
 
 
 def _from_base(key: str, base: np.ndarray) -> np.ndarray:
-    """The weights base^-power of scheme ``key``, each a positive finite number."""
-    var, power = SCHEMES[key]
-    check_scheme_base(key, var, base)
+    """The weights base^-power of scheme ``key`` (base > 0, checked by the caller), each a positive finite
+    number."""
+    power = SCHEMES[key][1]
     with np.errstate(over="ignore"):
         values = base ** (-float(power))
     return positive_weights(values, "works out as")
