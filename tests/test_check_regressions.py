@@ -7,7 +7,7 @@ import pytest
 
 from conftest import load_strd
 from degreewise import engine
-from degreewise.commands.scenarios import curved_detector, weighted_assay
+from degreewise.commands.demo.scenarios import curved_detector, weighted_assay
 
 
 def _checks(cal, order):
