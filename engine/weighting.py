@@ -94,7 +94,7 @@ class Weighting:
                 raise WeightError(
                     f"weights '{self.scheme}' need a fitted y > 0 at every standard, but the curve gives "
                     f"{float(fitted[i]):.6g} at x = {float(x[i]):g} (x[{i}]); use 1/x weights or none",
-                    argument="weights",
+                    argument="x",
                     index=i,
                 )
             new = _from_base(self.scheme, fitted)

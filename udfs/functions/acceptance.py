@@ -35,7 +35,7 @@ def _criteria(value) -> acceptance.Criteria:
         return acceptance.custom(values.tolist())
     except engine.CalibrationError as err:
         i = err.index if err.index is not None and err.index < cells.size else cells.size - 1
-        raise CellError(err.message.replace(f"criteria[{err.index}]", cells.where(i))) from None
+        raise CellError(err.located(cells.where(i))) from None
 
 
 def _verdict_words(verdict) -> tuple[str, str]:

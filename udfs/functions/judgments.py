@@ -87,9 +87,10 @@ def calib_weighting(x, y, order=None, alpha=None, exclude=None):
         curve_for(prep, k)  # the standards' own problems, in the family's words
         rows = [list(HEADERS["weighting"])]
         for r in engine.compare_weightings(prep.x, prep.y, k, a):
-            note = f"{r.note}; {WEIGHTING_AFTER_CHOICE}" if r.picked else r.note
+            note = r.note if r.problem is None else r.note.replace(r.problem.message, prep.located(r.problem))
+            note = f"{note}; {WEIGHTING_AFTER_CHOICE}" if r.picked else note
             rows.append([r.scheme, r.order, *column((r.sum_abs_deviation, r.max_abs_deviation, r.spread_p)),
-                         "picked" if r.picked else None, prep.located(note) or None])
+                         "picked" if r.picked else None, note or None])
         return rows
 
     return cached("weighting", prep, (k, a), compute)
