@@ -100,7 +100,7 @@ def run(per_file: int = 12, seed: int = 0) -> int:
                 try:
                     done = subprocess.run([sys.executable, "-m", "pytest", "-q", "-x", "-p", "no:cacheprovider",
                                            *(f"tests/{t}" for t in tests)], cwd=ROOT, env=env,
-                                          capture_output=True, timeout=600)
+                                          capture_output=True, timeout=300)
                     killed = done.returncode != 0
                 except subprocess.TimeoutExpired:
                     killed = True
