@@ -555,3 +555,19 @@ def test_a_one_cell_result_in_a_merged_block_is_written(tmp_path):
     report = refresh_file(path)
     assert report.blocked == [] and report.refreshed == ["Sheet!D2"]
     assert values(path, "Sheet", "D2", 1, 1) == [[degreewise.calib_order([[v] for v in X], [[v] for v in Y])]]
+
+
+def test_a_result_beyond_the_last_column_that_ends_on_the_last_row_names_the_column(tmp_path):
+    path = workbook(tmp_path / "corner.xlsx", {1: X.tolist(), 2: Y.tolist()},
+                    {"XFA1048573": "=CALIB_COEFS(A1:A12,B1:B12,2)"})
+    assert refresh_file(path).blocked == [("Sheet!XFA1048573", "the result (4 x 7) would reach beyond the sheet's "
+                                                               "last column XFD; nothing was written")]
+
+
+def test_the_audit_trail_gives_a_one_cell_change_alone_and_a_tables_changes_cell_by_cell(tmp_path):
+    path = workbook(tmp_path / "trail.xlsx", {1: X.tolist(), 2: Y.tolist()},
+                    {"D1": "=CALIB_ORDER(A1:A12,B1:B12,1)", "F1": '=CALIB_LABELS("predict")'})
+    assert refresh_file(path).changes == [
+        ("Sheet!D1", (1, 1), 1, "empty -> 1"),
+        ("Sheet!F1", (1, 6), 6, 'F1 empty -> "predicted y"; G1 empty -> "mean lower"; H1 empty -> "mean upper"; '
+                                'I1 empty -> "prediction lower"; J1 empty -> "prediction upper"; K1 empty -> "note"')]

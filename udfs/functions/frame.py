@@ -32,7 +32,7 @@ def cell(v):
 
 
 def column(values) -> list:
-    """_cell of each of a sequence of Python floats."""
+    """``cell`` of each of a sequence of Python floats."""
     if all(map(math.isfinite, values)):
         return list(values)
     finite = math.isfinite
@@ -108,6 +108,11 @@ def parse_order(v):
                    lambda k: check_count(k, "order"))
 
 
+def parse_replicates(v):
+    return _option(v, "replicates", "a whole number such as 3", 1,
+                   lambda m: int(check_replicates(m, 1)[0]))
+
+
 def curve_for(prep, order):
     """The calibration to use, the order, and a function that says why this order and with which
     settings (in words: only CALIB_STATS shows them)."""
@@ -139,11 +144,6 @@ def curve_for(prep, order):
                 f"{choice.order}: {engine.order_reason(default, choice)}", settings)
 
     return cal, order, why
-
-
-def parse_replicates(v):
-    return _option(v, "replicates", "a whole number such as 3", 1,
-                   lambda m: int(check_replicates(m, 1)[0]))
 
 
 def aligned(cells_arg, name: str):
