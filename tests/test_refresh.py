@@ -512,13 +512,7 @@ def test_a_merged_block_touching_any_edge_of_the_result_blocks_it(tmp_path, merg
 def test_a_result_that_outgrows_its_previous_spill_keeps_the_cell_just_beyond_it(tmp_path, before, after, note, size):
     """Only the cells of the previous spill may be written over: a value in the first row below it or the first
     column right of it blocks the larger result (the spreadsheet program's #SPILL!)."""
-    path = tmp_path / "grows.xlsx"
-    wb = openpyxl.Workbook()
-    ws = wb.active
-    for i, (a, b) in enumerate(zip(X, Y), start=2):
-        ws.cell(i, 1, float(a)), ws.cell(i, 2, float(b))
-    ws["D3"] = f"={before}"
-    wb.save(path)
+    path = workbook(tmp_path / "grows.xlsx", {1: X.tolist(), 2: Y.tolist()}, {"D3": f"={before}"}, first_row=2)
     assert refresh_file(path).ok
     wb = openpyxl.load_workbook(path)
     ws = wb.active
@@ -544,13 +538,10 @@ def test_a_result_that_ends_on_the_sheets_last_row_or_column_is_written(tmp_path
 def test_a_one_cell_result_in_a_merged_block_is_written(tmp_path):
     """A single-cell result does not spill, so a merged block at its anchor is no obstacle (common practice: the
     spreadsheet program shows it in the merged cell)."""
-    path = tmp_path / "merged_one.xlsx"
-    wb = openpyxl.Workbook()
-    ws = wb.active
-    for i, (a, b) in enumerate(zip(X, Y), start=2):
-        ws.cell(i, 1, float(a)), ws.cell(i, 2, float(b))
-    ws["D2"] = "=CALIB_ORDER(A2:A13,B2:B13)"
-    ws.merge_cells("D2:E3")
+    path = workbook(tmp_path / "merged_one.xlsx", {1: X.tolist(), 2: Y.tolist()}, {"D2": "=CALIB_ORDER(A2:A13,B2:B13)"},
+                    first_row=2)
+    wb = openpyxl.load_workbook(path)
+    wb.active.merge_cells("D2:E3")
     wb.save(path)
     report = refresh_file(path)
     assert report.blocked == [] and report.refreshed == ["Sheet!D2"]
