@@ -74,8 +74,9 @@ class Weighting:
         if self.scheme is None:
             ux, inv = np.unique(x, return_inverse=True)
             self._grid = ux
-            self._var = np.bincount(inv, 1.0 / self.values) / np.bincount(inv)
-            with np.errstate(over="ignore"):  # at x spacings near the double range the slope is inf, as it is
+            # a subnormal weight's 1/w and a slope over x spacings near the double range are inf, as they are
+            with np.errstate(over="ignore"):
+                self._var = np.bincount(inv, 1.0 / self.values) / np.bincount(inv)
                 self._slopes = np.diff(self._var) / np.diff(ux)
 
     @property
