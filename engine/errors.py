@@ -7,7 +7,9 @@ class CalibrationError(ValueError):
     """Base of every error the engine raises on bad input.
 
     ``argument`` names the offending argument ("x", "y", "weights", "order", ...)
-    and ``index`` the 0-based position within it, when one value is to blame.
+    and ``index`` the 0-based position within it, when one value is to blame; the message then
+    names that value as ``argument[index]`` (``position``), which a caller with its own idea of
+    positions (the worksheet layer: a cell) replaces through ``located``.
     """
 
     def __init__(self, message: str, argument: str | None = None, index: int | None = None):
@@ -15,6 +17,15 @@ class CalibrationError(ValueError):
         self.message = message
         self.argument = argument
         self.index = index
+
+    @property
+    def position(self) -> str | None:
+        """The blamed value as the message names it ("x[3]"), or None when no one value is to blame."""
+        return None if self.index is None else f"{self.argument}[{self.index}]"
+
+    def located(self, where: str) -> str:
+        """The message with the blamed value named as ``where`` instead (e.g. "x, row 5 of 12")."""
+        return self.message if self.position is None else self.message.replace(self.position, where, 1)
 
 
 class DataError(CalibrationError):

@@ -11,6 +11,7 @@ from typing import NamedTuple
 import numpy as np
 
 from .distributions import t_quantile
+from .errors import CalibrationError
 
 
 class FTest(NamedTuple):
@@ -233,7 +234,8 @@ class SpreadExponent(NamedTuple):
 class SchemeResult(NamedTuple):
     """One weighting scheme fitted to the standards: the order used (None where the scheme does not
     apply), the summed and largest |back-calculated deviation %|, the p-value of the check for a trend
-    in the spread of the weighted residuals, whether it is the picked scheme, and a note."""
+    in the spread of the weighted residuals, whether it is the picked scheme, and a note; ``problem``: the
+    error that keeps the scheme from applying (its message ends the note)."""
 
     scheme: str
     order: int | None
@@ -242,6 +244,7 @@ class SchemeResult(NamedTuple):
     spread_p: float
     picked: bool
     note: str
+    problem: CalibrationError | None = None
 
 
 class Uncertainty(NamedTuple):

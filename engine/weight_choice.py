@@ -79,7 +79,7 @@ def _judge(x, y, scheme: str, weights, order, max_order, note: str = "") -> Sche
             check_scheme_base(scheme, "x", x)
         cal = Calibration(x, y, max_order=max_order, weights=weights)
     except WeightError as err:
-        return _not_applied(scheme, note, err.message)
+        return _not_applied(scheme, note, err.message, err)
     k = order if order is not None else choose_order(cal).order
     # the curve alone, not cal.order(k): an order's results and its calibration refer to each other, so each
     # scheme's calibration would stay in memory until the cycle collector runs (6 sets of n-long arrays)
@@ -109,9 +109,9 @@ def harvey_p(e: np.ndarray, u: np.ndarray) -> float:
     return float(chi2_sf(ess / (math.pi**2 / 2), 1))
 
 
-def _not_applied(scheme: str, note: str, why: str) -> SchemeResult:
+def _not_applied(scheme: str, note: str, why: str, problem: WeightError | None = None) -> SchemeResult:
     return SchemeResult(scheme, None, math.nan, math.nan, math.nan, False,
-                        "; ".join(n for n in (note, f"does not apply: {why}") if n))
+                        "; ".join(n for n in (note, f"does not apply: {why}") if n), problem)
 
 
 def _pick(rows: list[SchemeResult], alpha: float) -> list[SchemeResult]:

@@ -75,8 +75,9 @@ class Weighting:
         if self.scheme is None:
             ux, inv = np.unique(x, return_inverse=True)
             self._grid = ux
-            self._var = np.bincount(inv, 1.0 / self.values) / np.bincount(inv)
-            with np.errstate(over="ignore"):  # at x spacings near the double range the slope is inf, as it is
+            # a subnormal weight's 1/w and a slope over x spacings near the double range are inf, as they are
+            with np.errstate(over="ignore"):
+                self._var = np.bincount(inv, 1.0 / self.values) / np.bincount(inv)
                 self._slopes = np.diff(self._var) / np.diff(ux)
 
     @property
@@ -95,7 +96,7 @@ class Weighting:
                 raise WeightError(
                     f"weights '{self.scheme}' need a fitted y > 0 at every standard, but the curve gives "
                     f"{float(fitted[i]):.6g} at x = {float(x[i]):g} (x[{i}]); use 1/x weights or none",
-                    argument="weights",
+                    argument="x",
                     index=i,
                 )
             new = _from_base(self.scheme, fitted)

@@ -76,8 +76,10 @@ def test_the_worksheet_functions_load_neither_the_file_format_nor_the_command_li
     first, loaded = map(set, eval(subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
                                                  check=True).stdout))
     ours = sorted(m for m in loaded if m.startswith("degreewise") and not m.startswith("degreewise.engine"))
+    rooms = ["about", "acceptance", "compare", "fit", "frame", "judgments", "points"]
     assert ours == ["degreewise", "degreewise.catalogue", "degreewise.coercion", "degreewise.functions",
-                    "degreewise.prepared", "degreewise.registration"]
+                    *(f"degreewise.functions.{room}" for room in rooms), "degreewise.prepared",
+                    "degreewise.registration"]
     unneeded = {"openpyxl", "defusedxml", "tqdm", "multiprocessing", "reportlab", "matplotlib", "pandas"}
     assert "scipy.special" in first and not first & ({"scipy.stats", "scipy.optimize"} | unneeded)
     assert {"scipy.stats", "scipy.optimize"} <= loaded and not loaded & unneeded

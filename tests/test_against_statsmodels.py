@@ -186,9 +186,10 @@ def test_shapiro_wilk_of_an_exact_fit_is_scale_free():
     assert checks["Shapiro-Wilk"].p_value == pytest.approx(wp, rel=1e-10)
 
 
-def test_mandel_is_the_quadratic_step_test(replicated):
+@pytest.mark.parametrize("max_order", [None, 2])  # 2: the smallest calibration Mandel's test applies to
+def test_mandel_is_the_quadratic_step_test(replicated, max_order):
     x, y = replicated
-    cal = engine.Calibration(x, y)
+    cal = engine.Calibration(x, y, max_order=max_order)
     data = pd.DataFrame({"x": x, "y": y})
     ref = anova_lm(smf.ols("y ~ x", data).fit(), smf.ols("y ~ x + I(x**2)", data).fit())
     m = engine.mandel_test(cal)

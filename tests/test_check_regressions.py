@@ -6,8 +6,9 @@ import numpy as np
 import pytest
 
 from conftest import load_strd
+import degreewise
 from degreewise import engine
-from degreewise.commands.scenarios import curved_detector, weighted_assay
+from degreewise.commands.demo.scenarios import curved_detector, weighted_assay
 
 
 def _checks(cal, order):
@@ -192,3 +193,33 @@ def test_a_calibration_keeps_its_own_copy_of_the_standards():
     x[0], y[:] = 100.0, 0.0  # the caller reuses its arrays
     assert cal.x[0] == 1.0 and cal.y[1] == pytest.approx(4.8)
     assert engine.point_diagnostics(cal, 1) == before
+
+
+def test_a_cubic_that_turns_twice_in_the_range_is_not_monotonic():
+    """y = 100 + (x - 5)^3 - 12 (x - 5) turns where its slope 3 (x - 5)^2 - 12 is zero, at x = 3 and x = 7
+    (calculus, exact); fitted at order 3 to standards from 0 to 10 with small scatter, the curve's turning
+    points are those, and the monotonic check warns and counts both."""
+    x = np.repeat(np.linspace(0.0, 10.0, 11), 2)
+    y = 100 + (x - 5) ** 3 - 12 * (x - 5) + np.random.default_rng(5).normal(0, 0.05, x.size)
+    cal = engine.Calibration(x, y, max_order=3)
+    assert cal.raw_x(cal.order(3).curve.turning_points()) == pytest.approx([3.0, 7.0], abs=0.01)
+    check = {c.name: c for c in engine.curve_checks(cal, 3)}["monotonic over the range"]
+    assert (check.statistic, check.verdict) == (2.0, "warning")
+    shown = check.detail.removeprefix("the curve turns at x = ").split(": a reading")[0].split(", ")
+    assert [float(v) for v in shown] == pytest.approx([3.0, 7.0], abs=0.01)
+
+
+@pytest.mark.parametrize("seed,flagged", [(58, []), (186, [11])])
+def test_the_residual_notes_flag_the_influential_standards_the_checks_table_names(seed, flagged):
+    """CALIB_RESIDUALS notes a standard as influential exactly when CALIB_CHECKS' influential row names it (one
+    rule, Cook's distance against its distribution with k + 1 parameters); these seeds put a standard near the
+    threshold, where a count of parameters off by one changes the verdict."""
+    rng = np.random.default_rng(seed)
+    x = np.repeat([1.0, 2, 4, 8, 16, 32], 2)
+    y = 1 + 3 * x + rng.normal(0, 0.5, x.size)
+    y[rng.integers(x.size)] += rng.normal(0, 2.5)
+    cells = [[v] for v in x], [[v] for v in y]
+    checks = {row[0]: row for row in degreewise.calib_checks(*cells, 1)}
+    notes = [row[-1] or "" for row in degreewise.calib_residuals(*cells, 1)]
+    assert checks["influential points"][1] == len(flagged)
+    assert [i for i, note in enumerate(notes) if "influential" in note] == flagged

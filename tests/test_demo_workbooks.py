@@ -12,9 +12,11 @@ from openpyxl.utils import get_column_letter
 import degreewise
 from degreewise.catalogue import CAUTION_SENTENCE
 from degreewise.commands import main
-from degreewise.commands.demo import GRID, LAYOUT, P_FORMAT, _runs, _shown, limits_anchors, samples_anchor
+from degreewise.commands.demo.charts import runs_of
+from degreewise.commands.demo.formats import P_FORMAT, shown
+from degreewise.commands.demo.layout import GRID, LAYOUT, limits_anchors, samples_anchor
 from degreewise.commands.refresh import refresh_file
-from degreewise.commands.scenarios import all_scenarios
+from degreewise.commands.demo.scenarios import all_scenarios
 from degreewise.engine.words import fmt_p
 
 FOLDER = Path(__file__).resolve().parent.parent / "workbooks"
@@ -123,7 +125,7 @@ def test_charts_read_ranges_that_hold_numbers_with_visible_markers(name):
             assert where == f"'{sheet}'"
             block = ws[cells.replace("$", "")]
             values = [c.value for row in block for c in row] if isinstance(block, tuple) else [block.value]
-            assert len(values) in {GRID} | {count for runs in _runs(sc) for _, count in runs}, ref
+            assert len(values) in {GRID} | {count for runs in runs_of(sc) for _, count in runs}, ref
             assert all(isinstance(v, (int, float)) and math.isfinite(v) for v in values), ref
         first = re.search(r"<(?:c:)?ser>.*?</(?:c:)?ser>", chart, re.S).group(0)  # the standards
         assert re.search(r'<(?:c:)?marker><(?:c:)?symbol val="circle"/><(?:c:)?size val="6"/><(?:c:)?spPr>'
@@ -134,7 +136,7 @@ def test_charts_read_ranges_that_hold_numbers_with_visible_markers(name):
     column = 6 if sc.weights else 1
     resid = ws[LAYOUT["residuals"]].offset(0, column).column_letter
     top = ws[LAYOUT["residuals"]].row
-    used, excluded = _runs(sc)
+    used, excluded = runs_of(sc)
     for first, count in used:  # the standards the fit uses, and no excluded one
         assert f"'{sheet}'!${resid}${top + first}:${resid}${top + first + count - 1}" in charts[1]
     for first, _ in excluded:
@@ -239,6 +241,6 @@ def test_result_cells_carry_number_formats_and_every_page_holds_its_rows():
         for row in ws.iter_rows(min_col=col, max_col=col):
             c = row[0]
             if isinstance(c.value, float) and c.number_format != "General":
-                assert len(_shown(c.value, c.number_format)) + 2 <= width, (c.coordinate, c.number_format)
+                assert len(shown(c.value, c.number_format)) + 2 <= width, (c.coordinate, c.number_format)
     compare = wb["Compare"]
     assert compare.print_area == f"'Compare'!$A$1:$Q${len(SCENARIOS['straight'].x) + 1}"

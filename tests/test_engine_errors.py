@@ -6,7 +6,7 @@ import numpy as np
 import pytest
 
 from degreewise import engine
-from degreewise.engine import DataError, OptionError, OrderError, WeightError
+from degreewise.engine import DataError, OptionError, OrderError, WeightError, acceptance
 
 X = [1.0, 2.0, 3.0, 4.0, 5.0, 6.0]
 Y = [1.1, 2.0, 2.9, 4.2, 5.0, 6.1]
@@ -38,10 +38,36 @@ def test_bad_data(x, y, kind, message):
     assert str(err.value) == message
 
 
-def test_error_carries_argument_and_index():
-    with pytest.raises(DataError) as err:
-        engine.Calibration([1, 2, 3, 4], [1, 2, math.nan, 4])
-    assert (err.value.argument, err.value.index) == ("y", 2)
+@pytest.mark.parametrize("call,kind,argument,index,located", [
+    (lambda: engine.Calibration([1, 2, 3, 4], [1, 2, math.nan, 4]), DataError, "y", 2,
+     "CELL is nan: every value must be a finite number"),
+    (lambda: engine.Calibration(X, Y, weights=[1, 1, 1, 1, 0, 1]), WeightError, "weights", 4,
+     "CELL is 0: every weight must be a positive finite number"),
+    (lambda: engine.Calibration([-1.0] + X[1:], Y, weights="1/x^2"), WeightError, "x", 0,
+     "weights '1/x^2' need every x > 0, but CELL is -1"),
+    (lambda: engine.Calibration([0.0, 1, 2, 3, 4, 5], [-0.5, 2.1, 3.9, 6.2, 8.0, 9.9], weights="1/y"), WeightError,
+     "x", 0, "weights '1/y' need a fitted y > 0 at every standard, but the curve gives -0.417857 at x = 0 (CELL); "
+     "use 1/x weights or none"),
+    (lambda: acceptance.custom([15, 20, 175]), OptionError, "criteria", 2,
+     "CELL: the minimum % passing 175 is in percent, from 1 to 100 (75 for 75 %; a cell formatted as % holds 0.75, "
+     "which would read as 0.75 %)"),
+])
+def test_an_error_that_blames_one_value_names_it_once_for_the_caller_to_place(call, kind, argument, index, located):
+    """The one validation path: the engine names the value as argument[index] and carries both; the worksheet
+    layer puts its cell in that place (``located``), reading nothing out of the text."""
+    with pytest.raises(kind) as err:
+        call()
+    e = err.value
+    assert (e.argument, e.index, e.position) == (argument, index, f"{argument}[{index}]")
+    assert e.located("CELL") == located
+    assert e.message == located.replace("CELL", e.position) == str(e)
+
+
+def test_an_error_that_blames_no_single_value_is_located_as_it_is():
+    with pytest.raises(OrderError) as err:
+        engine.Calibration(X, Y, max_order=0)
+    assert (err.value.index, err.value.position) == (None, None)
+    assert err.value.located("CELL") == "max_order must be at least 1, not 0"
 
 
 @pytest.mark.parametrize("order,message", [

@@ -359,3 +359,16 @@ def test_every_row_gives_the_same_answer_about_a_turn(vertex, seed):
         assert all(math.isnan(v) for r in rows for v in r[1:5])
     elif turn < -1e-6 or turn > 100.0 + 1e-6:  # the limits here lie far below the highest standard
         assert not turned
+
+
+def test_standards_that_end_at_the_blank_give_no_limit_above_it():
+    """Standards from x = -5 up to x = 0 exactly: nothing above the blank was calibrated, so no row gives a number
+    (limits are read above the blank within the calibrated range: common practice)."""
+    x = np.repeat([-5.0, -4, -3, -2, -1, 0], 2)
+    y = 3 + 2 * x + np.random.default_rng(1).normal(0, 0.05, x.size)
+    rows = engine.detection_limits(engine.Calibration(x, y), 1, blank=[2.9, 3.1, 3.0])
+    words = "every standard lies at x <= 0 (the highest is 0): limits above the blank need x > 0"
+    assert [r.method for r in rows] == ["prediction band", "ISO 11843-2", "ICH residual SD", "ICH intercept SE",
+                                        "blank readings"]
+    for r in rows:
+        assert all(math.isnan(v) for v in r[1:5]) and r.note == words, r

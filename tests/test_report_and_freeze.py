@@ -26,7 +26,7 @@ from degreewise.commands import main
 from degreewise.commands.freeze import freeze
 from degreewise.commands.refresh import refresh_file
 from degreewise.commands.report import write_report
-from degreewise.commands.scenarios import all_scenarios
+from degreewise.commands.demo.scenarios import all_scenarios
 from degreewise.workbook.sections import number
 from conftest import workbook
 

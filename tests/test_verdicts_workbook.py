@@ -10,10 +10,10 @@ import openpyxl
 import pytest
 
 import degreewise
-from degreewise.commands.demo import _exclude_cells
+from degreewise.commands.demo.layout import exclude_cells
 from degreewise.commands.refresh import refresh_file
 from degreewise.commands.report import write_report
-from degreewise.commands.scenarios import straight_probe
+from degreewise.commands.demo.scenarios import straight_probe
 from degreewise.workbook.sections import sections, summary
 
 BOOK = Path(__file__).resolve().parent.parent / "workbooks" / "degreewise-demo-straight.xlsx"
@@ -60,7 +60,7 @@ def test_the_refresh_computes_a_named_criteria_set_and_a_second_refresh_changes_
 
 def test_the_probe_workbook_shows_a_verdict_with_a_failing_standard_and_the_samples_uncertainty():
     sc = straight_probe()
-    x, y, e = [[v] for v in sc.x], [[v] for v in sc.y], _exclude_cells(sc)
+    x, y, e = [[v] for v in sc.x], [[v] for v in sc.y], exclude_cells(sc)
     want = degreewise.calib_acceptance(x, y, [[v] for v in sc.criteria], None, None, e)
     ws = openpyxl.load_workbook(BOOK, data_only=True)["Acceptance"]
     assert same(block(ws, 1, 4, len(want), 7), want)

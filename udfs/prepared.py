@@ -12,7 +12,6 @@ factorisation and a changed cell is never served stale.
 
 from __future__ import annotations
 
-import re
 from collections import OrderedDict
 from dataclasses import dataclass, field
 
@@ -26,6 +25,7 @@ from .coercion import (ERROR_TEXTS, CellError, Cells, describe, flatten, is_blan
 
 CACHE_SIZE = 128
 SCHEMES = tuple(WEIGHT_SCHEMES)
+POINTWISE = ("x", "y", "weights")  # engine arguments indexed by the points used
 
 
 @dataclass(frozen=True)
@@ -61,17 +61,13 @@ class Prepared:
     def skipped(self) -> int:
         return self.n_input - self.used.size - len(self.excluded)
 
-    def located(self, text: str) -> str:
-        """An engine message or note with each point it names ("x[3]", "weights[0]": the engine's argument
-        and index) given as its cell ("x, row 5 of 12")."""
-        if "[" not in text:
-            return text
-
-        def cell(m: re.Match) -> str:
-            cells = self.x_cells._replace(name=self.names.get(m[1], m[1]))
-            return cells.where(int(self.used[int(m[2])]))
-
-        return re.sub(r"\b(x|y|weights)\[(\d+)\]", cell, text)
+    def located(self, err: engine.CalibrationError) -> str:
+        """The engine's message, the point it blames (``err.argument`` x, y or weights and ``err.index``,
+        a point used) named as its cell ("x, row 5 of 12")."""
+        if err.index is None or err.argument not in POINTWISE:
+            return err.message
+        cells = self.x_cells._replace(name=self.names.get(err.argument, err.argument))
+        return err.located(cells.where(int(self.used[err.index])))
 
     def label(self, point: int) -> str:
         """Position of engine point ``point`` in the input range (e.g. 'standard 7 of 24')."""
@@ -221,8 +217,8 @@ def calibration(prep: Prepared, max_order=None) -> engine.Calibration:
             return engine.Calibration(prep.x, prep.y, max_order=max_order, weights=prep.weights)
         except engine.DataError as err:
             extra = f" ({prep.skipped} of {prep.n_input} rows skipped as blank)" if prep.skipped else ""
-            raise CellError(f"{prep.located(err.message)}{extra}") from None
+            raise CellError(f"{prep.located(err)}{extra}") from None
         except engine.CalibrationError as err:
-            raise CellError(prep.located(err.message)) from None
+            raise CellError(prep.located(err)) from None
 
     return CALIBRATIONS.get((prep.key, max_order), make)

@@ -6,6 +6,9 @@ ranges (same or other sheet, absolute or relative, whole columns), defined
 names that stand for a reference, array constants ({1;25;60}, {"1/x"}), or nested
 CALIB_* calls. Anything else (an operator, another function, a spill reference) is
 `Unsupported`.
+
+Not openpyxl's tokenizer: importing it adds 0.14-0.19 s to every refresh (about 15 % of the command's own
+imports, measured with -X importtime), and its tokens would still need this scanner's grammar on top.
 """
 
 from __future__ import annotations
