@@ -117,7 +117,7 @@ class Calibration:
     def __init__(self, x, y, max_order=None, weights=None):
         checked_x, checked_y = check_pair(x, y)
         x, y = _own(checked_x, x), _own(checked_y, y)
-        by_x, self._level_index, m = _standards(x, y)
+        by_x, level, m = _standards(x, y)
         n = x.size
         self.weighting = Weighting(weights, x, y)
         k = _max_order(max_order, n, m)
@@ -140,6 +140,7 @@ class Calibration:
             self.weighting.settle(x, y, functools.partial(self._fitted_under, basis[:, : weight_order(k) + 1]))
         self.sqrt_w = np.sqrt(self.weighting.values) if self.weighting.weighted else np.ones(n)
         self._factorise(basis)
+        self._ss_pure = self._pure_error(level)
         self._stats: dict[int, OrderStats] = {}
         self._orders: dict[int, OrderResults] = {}
         self._choices: dict[tuple[str, float], OrderChoice] = {}
@@ -175,10 +176,10 @@ class Calibration:
         wy = sw2 * ys
         return float((sw2 * (ys - wy.sum() / sw2.sum()) ** 2).sum())
 
-    @cached_property
-    def _ss_pure(self) -> float:
-        """The (weighted) pure-error sum of squares of the scaled y, about the mean of each distinct x."""
-        ys, levels = self._ys, self._level_index
+    def _pure_error(self, levels: np.ndarray) -> float:
+        """The (weighted) pure-error sum of squares of the scaled y, about the mean at each distinct x (``levels``:
+        each point's distinct x, not kept)."""
+        ys = self._ys
         if not self.weighting.weighted:
             d_level = ys - (np.bincount(levels, ys) / np.bincount(levels))[levels]
             return float((d_level * d_level).sum())
