@@ -9,7 +9,7 @@
    increasing=True)`` (the least squares an analyst runs to compare the same orders): coefficients and
    residual sums of squares only, no standard errors, tests or choice. Ratios ours / reference per round,
    time and peak memory (below 1: ours faster or smaller).
-2. Each of the twelve worksheet functions alone on 300,000 points (desktop cells, caches cleared): the growth
+2. Each of the fourteen worksheet functions alone on 300,000 points (desktop cells, caches cleared): the growth
    of the peak resident set over the one before the call, per point, the returned table included (the
    input cells are built before). CALIB_COMPARE's input is twice as many points (today and the reference).
 
@@ -30,8 +30,8 @@ import subprocess
 import sys
 
 N, N_TABLE = 1_000_000, 300_000
-FUNCTIONS = ("ORDER", "ORDERS", "SEQF", "COEFS", "STATS", "PREDICT", "INVERSE", "RESIDUALS", "CHECKS", "LIMITS",
-             "WEIGHTING", "COMPARE")
+FUNCTIONS = ("ORDER", "ORDERS", "SEQF", "COEFS", "STATS", "PREDICT", "INVERSE", "UNCERTAINTY", "RESIDUALS",
+             "CHECKS", "LIMITS", "WEIGHTING", "COMPARE", "ACCEPTANCE")
 ENV = {**os.environ, "OPENBLAS_NUM_THREADS": os.environ.get("OPENBLAS_NUM_THREADS", "1")}
 
 
@@ -73,10 +73,12 @@ def function_call(name: str, n: int):
              "SEQF": lambda: d.calib_seqf(xs, ys), "COEFS": lambda: d.calib_coefs(xs, ys, 1),
              "STATS": lambda: d.calib_stats(xs, ys, 1), "PREDICT": lambda: d.calib_predict(xs, ys, few, 1),
              "INVERSE": lambda: d.calib_inverse(xs, ys, few, None, 1),
+             "UNCERTAINTY": lambda: d.calib_uncertainty(xs, ys, few, None, 1),
              "RESIDUALS": lambda: d.calib_residuals(xs, ys, 1),
              "CHECKS": lambda: d.calib_checks(xs, ys, 1), "LIMITS": lambda: d.calib_limits(xs, ys, None, None, 1),
              "WEIGHTING": lambda: d.calib_weighting(xs, ys, 1),
-             "COMPARE": lambda: d.calib_compare(xs, ys, xs, ry, few[:3], 1)}
+             "COMPARE": lambda: d.calib_compare(xs, ys, xs, ry, few[:3], 1),
+             "ACCEPTANCE": lambda: d.calib_acceptance(xs, ys, "relative standard error", 1)}
     return calls[name]
 
 
