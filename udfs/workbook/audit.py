@@ -3,10 +3,12 @@ count as the same."""
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from dataclasses import dataclass, field
 from pathlib import Path
 
 from .formula import Area
+from .spool import Kept, read
 
 # Two machines' results agree when they differ by at most this relative amount: numpy's and OpenBLAS's
 # kernels (AVX2, AVX-512, SSE) round differently in the last digits. Measured on the demo workbooks
@@ -63,6 +65,19 @@ class Report:
     written: bool = False  # the file was rewritten
     error: str | None = None
     backup: Path | None = None
+    # puts a formula's line of the audit trail aside until the report is printed (``Spooled.keep``): a first
+    # refresh of 3000 sheets writes 25 MB of it; ``settle`` reads the lines back before the spool goes
+    keep: Callable[[bytes], Kept] | None = field(default=None, repr=False, compare=False)
+
+    def add_change(self, anchor: str, shape: tuple[int, int], cells: int, text: str) -> None:
+        """One formula's changed cells in the audit trail, as text (put aside if ``keep`` is set)."""
+        self.changes.append((anchor, shape, cells, text if self.keep is None else self.keep(text.encode())))
+
+    def settle(self) -> None:
+        """The audit trail's lines put aside read back, and nothing more put aside."""
+        self.changes = [(a, shape, n, read(t).decode() if isinstance(t, Kept) else t)
+                        for a, shape, n, t in self.changes]
+        self.keep = None
 
     @property
     def ok(self) -> bool:

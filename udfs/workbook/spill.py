@@ -110,6 +110,6 @@ def write(sheet: Sheet, f, rows, cm, report: Report) -> bool:
     listed += cleared
     if listed:  # one line of text per formula, however large its table (no object per cell is kept)
         trail = listed[0].split(" ", 1)[1] if height == width == len(listed) == 1 else "; ".join(listed)
-        report.changes.append((f.where, (height, width), len(listed), trail))
+        report.add_change(f.where, (height, width), len(listed), trail)
     report.changed |= changed or bool(listed)
     return own_cm is not None

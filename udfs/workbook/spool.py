@@ -65,11 +65,7 @@ class Spooled(MutableMapping):
 
     def __getitem__(self, name: str) -> bytes:
         value = self.parts[name]
-        if isinstance(value, Kept):
-            with open(value.file, "rb") as f:
-                f.seek(value.offset)
-                return f.read(value.size)
-        return value
+        return read(value) if isinstance(value, Kept) else value
 
     def __contains__(self, name) -> bool:  # without reading a part put aside
         return name in self.parts
@@ -85,3 +81,10 @@ class Spooled(MutableMapping):
 
     def __len__(self) -> int:
         return len(self.parts)
+
+
+def read(kept: Kept) -> bytes:
+    """The bytes put aside at ``kept`` (by this process or a forked one: the spool folder is shared)."""
+    with open(kept.file, "rb") as f:
+        f.seek(kept.offset)
+        return f.read(kept.size)
