@@ -39,8 +39,6 @@ def _show(value, digits: int = 6) -> str:
 
 def change(old, new) -> str:
     """``old -> new``, to 6 significant digits, or as many more as it takes to tell them apart."""
-    if old is None and type(new) is float:  # a first refresh: most of its trail
-        return "empty -> %.6g" % new
     a, b, digits = _show(old), _show(new), 6
     while a == b and digits < 17:
         digits += 1

@@ -365,12 +365,10 @@ class Sheet:
                         rows[row - top][col - left] = cell[0]
         written = self._written
         for row in (range(top, filled + 1) if filled - top < len(written) else list(written)):
-            cells = written.get(row) if top <= row <= filled else None
-            if cells:  # the values written since, looked up by the fewer of its cells and the block's columns
-                target = rows[row - top]
-                for col in (cells if len(cells) <= width else range(left, right + 1)):
-                    if left <= col <= right and col in cells:
-                        target[col - left] = cells[col]
+            if top <= row <= filled and row in written:
+                for col, value in written[row].items():
+                    if left <= col <= right:
+                        rows[row - top][col - left] = value
         rows += [[None] * width] * (bottom - filled)
         return rows
 
