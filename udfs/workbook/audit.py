@@ -8,7 +8,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from .formula import Area
-from .spool import Kept, read
+from .spool import Kept, read_each
 
 # Two machines' results agree when they differ by at most this relative amount: numpy's and OpenBLAS's
 # kernels (AVX2, AVX-512, SSE) round differently in the last digits. Measured on the demo workbooks
@@ -73,7 +73,8 @@ class Report:
 
     def settle(self) -> None:
         """The audit trail's lines put aside read back, and nothing more put aside."""
-        self.changes = [(a, shape, n, read(t).decode() if isinstance(t, Kept) else t)
+        kept = iter(read_each([t for *_, t in self.changes if isinstance(t, Kept)]))
+        self.changes = [(a, shape, n, next(kept).decode() if isinstance(t, Kept) else t)
                         for a, shape, n, t in self.changes]
         self.keep = None
 

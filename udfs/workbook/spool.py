@@ -65,7 +65,7 @@ class Spooled(MutableMapping):
 
     def __getitem__(self, name: str) -> bytes:
         value = self.parts[name]
-        return read(value) if isinstance(value, Kept) else value
+        return read_each([value])[0] if isinstance(value, Kept) else value
 
     def __contains__(self, name) -> bool:  # without reading a part put aside
         return name in self.parts
@@ -83,8 +83,17 @@ class Spooled(MutableMapping):
         return len(self.parts)
 
 
-def read(kept: Kept) -> bytes:
-    """The bytes put aside at ``kept`` (by this process or a forked one: the spool folder is shared)."""
-    with open(kept.file, "rb") as f:
-        f.seek(kept.offset)
-        return f.read(kept.size)
+def read_each(kept: list[Kept]) -> list[bytes]:
+    """The bytes put aside at each of ``kept`` (by this process or a forked one: the spool folder is shared),
+    each spool file opened once."""
+    opened: dict = {}
+    try:
+        out = []
+        for k in kept:
+            f = opened.get(k.file) or opened.setdefault(k.file, open(k.file, "rb"))  # noqa: SIM115
+            f.seek(k.offset)
+            out.append(f.read(k.size))
+        return out
+    finally:
+        for f in opened.values():
+            f.close()
