@@ -91,7 +91,7 @@ def write(sheet: Sheet, f, rows, cm, report: Report) -> bool:
             cell = stored.get(c)
             style = None if cell is None else cell[1]
             old = written[c] if c in written else None if cell is None else cell[0]
-            if old is not None and agrees(old, value):  # another machine's last digits: the stored value stays
+            if agrees(old, value):  # another machine's last digits: the stored value stays
                 value = old
             if i == 0 and j == 0:
                 if f.shift is not None:  # a filled formula keeps its stored <f> element as it is

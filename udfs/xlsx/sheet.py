@@ -291,7 +291,8 @@ class Sheet:
 
     def parse_rows(self, top: int, bottom: int) -> None:
         """Parse the stored rows ``top`` to ``bottom`` in one pass, for the cell questions that follow."""
-        i, j, parsed, numbers = bisect_left(self.numbers, top), bisect_right(self.numbers, bottom) - 1, self._parsed, self.numbers
+        numbers, parsed = self.numbers, self._parsed
+        i, j = bisect_left(numbers, top), bisect_right(numbers, bottom) - 1
         while i <= j and numbers[i] in parsed:  # only the stretch not parsed yet: each row is parsed once
             i += 1
         while j >= i and numbers[j] in parsed:
