@@ -65,7 +65,7 @@ class Spooled(MutableMapping):
 
     def __getitem__(self, name: str) -> bytes:
         value = self.parts[name]
-        return read_each([value])[0] if isinstance(value, Kept) else value
+        return b"".join(read_each([value])) if isinstance(value, Kept) else value
 
     def __contains__(self, name) -> bool:  # without reading a part put aside
         return name in self.parts
@@ -83,17 +83,15 @@ class Spooled(MutableMapping):
         return len(self.parts)
 
 
-def read_each(kept: list[Kept]) -> list[bytes]:
-    """The bytes put aside at each of ``kept`` (by this process or a forked one: the spool folder is shared),
-    each spool file opened once."""
+def read_each(kept: list[Kept]):
+    """The bytes put aside at each of ``kept``, one by one (by this process or a forked one: the spool folder is
+    shared), each spool file opened once."""
     opened: dict = {}
     try:
-        out = []
         for k in kept:
             f = opened.get(k.file) or opened.setdefault(k.file, open(k.file, "rb"))  # noqa: SIM115
             f.seek(k.offset)
-            out.append(f.read(k.size))
-        return out
+            yield f.read(k.size)
     finally:
         for f in opened.values():
             f.close()
