@@ -104,7 +104,7 @@ def refresh_file(path: Path, check: bool = False, backup: bool = False, workers:
                 parts.update(changed)
                 _replace(real, infos, parts, added, backup, report, seen)
             finally:
-                report.settle()
+                report.settle(parts.folder)  # the report's lines go where the spool may write
         report.written = True
     except (PackageError, files.Changed) as err:
         report.error = str(err)

@@ -73,18 +73,19 @@ class Report:
         """One formula's changed cells in the audit trail, as text (put aside if ``keep`` is set)."""
         self.changes.append((anchor, shape, cells, text if self.keep is None else self.keep(text.encode())))
 
-    def settle(self) -> None:
-        """The lines put aside moved one by one to an anonymous temporary file of the report's own (gone with
-        the report), before the spool goes; nothing more is put aside."""
+    def settle(self, folder: str | None = None) -> None:
+        """The lines put aside moved one by one to an anonymous temporary file of the report's own in ``folder``
+        (gone with the report), before the spool goes; nothing more is put aside."""
         kept = [t for *_, t in self.changes if isinstance(t, Kept)]
         if kept:
-            self._trail, spans = tempfile.TemporaryFile(), []
+            self._trail, spans = tempfile.TemporaryFile(dir=folder), []
             for data in read_each(kept):
                 spans.append((self._trail.tell(), len(data)))
                 self._trail.write(data)
             self._trail.flush()
             where = iter(spans)
-            self.changes = [(a, shape, n, next(where) if isinstance(t, Kept) else t) for a, shape, n, t in self.changes]
+            self.changes = [(a, shape, n, next(where) if isinstance(t, Kept) else t)
+                            for a, shape, n, t in self.changes]
         self.keep = None
 
     def _text(self, line) -> str:

@@ -42,6 +42,11 @@ class Spooled(MutableMapping):
                 self.note = f"the temporary folder {system} cannot be written; {near} was used instead"
         self._out, self._pid = None, None
 
+    @property
+    def folder(self) -> str | None:
+        """The spool folder (None without a spool)."""
+        return None if self._folder is None else self._folder.name
+
     def __enter__(self) -> Spooled:
         return self
 
