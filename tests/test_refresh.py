@@ -558,7 +558,7 @@ def test_a_result_beyond_the_last_column_that_ends_on_the_last_row_names_the_col
 def test_the_audit_trail_gives_a_one_cell_change_alone_and_a_tables_changes_cell_by_cell(tmp_path):
     path = workbook(tmp_path / "trail.xlsx", {1: X.tolist(), 2: Y.tolist()},
                     {"D1": "=CALIB_ORDER(A1:A12,B1:B12,1)", "F1": '=CALIB_LABELS("predict")'})
-    assert refresh_file(path).changes == [
+    assert list(refresh_file(path).trail()) == [
         ("Sheet!D1", (1, 1), 1, "empty -> 1"),
         ("Sheet!F1", (1, 6), 6, 'F1 empty -> "predicted y"; G1 empty -> "mean lower"; H1 empty -> "mean upper"; '
                                 'I1 empty -> "prediction lower"; J1 empty -> "prediction upper"; K1 empty -> "note"')]

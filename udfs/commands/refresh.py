@@ -96,11 +96,15 @@ def refresh_file(path: Path, check: bool = False, backup: bool = False, workers:
         with Spooled(parts, spool=True, near=real.parent) as parts:
             if parts.note:
                 report.notes.append(parts.note)
-            changed, added = Refresher(parts).run(report, (os.cpu_count() or 1) if workers is None else workers)
-            if check or not changed:
-                return report
-            parts.update(changed)
-            _replace(real, infos, parts, added, backup, report, seen)
+            report.keep = parts.keep
+            try:
+                changed, added = Refresher(parts).run(report, (os.cpu_count() or 1) if workers is None else workers)
+                if check or not changed:
+                    return report
+                parts.update(changed)
+                _replace(real, infos, parts, added, backup, report, seen)
+            finally:
+                report.settle(parts.folder)  # the report's lines go where the spool may write
         report.written = True
     except (PackageError, files.Changed) as err:
         report.error = str(err)

@@ -3,10 +3,13 @@ count as the same."""
 
 from __future__ import annotations
 
+import tempfile
+from collections.abc import Callable
 from dataclasses import dataclass, field
 from pathlib import Path
 
 from .formula import Area
+from .spool import Kept, read_each
 
 # Two machines' results agree when they differ by at most this relative amount: numpy's and OpenBLAS's
 # kernels (AVX2, AVX-512, SSE) round differently in the last digits. Measured on the demo workbooks
@@ -51,7 +54,7 @@ class Report:
     path: Path
     refreshed: list[str] = field(default_factory=list)
     messages: list[tuple[str, str]] = field(default_factory=list)  # refreshed cells whose result is a message
-    changes: list[tuple[str, tuple[int, int], int, str]] = field(default_factory=list)  # anchor, shape, cells, text
+    changes: list[tuple] = field(default_factory=list)  # anchor, shape, cells, text or where it is kept (``trail``)
     blocked: list[tuple[str, str]] = field(default_factory=list)
     left_alone: list[tuple[str, str]] = field(default_factory=list)
     failed: list[tuple[str, str]] = field(default_factory=list)
@@ -61,6 +64,47 @@ class Report:
     written: bool = False  # the file was rewritten
     error: str | None = None
     backup: Path | None = None
+    # puts a formula's line of the audit trail aside while the sheets are computed (``Spooled.keep``): a first
+    # refresh of 3000 sheets writes 25 MB of it; ``settle`` moves the lines to the report's own file
+    keep: Callable[[bytes], Kept] | None = field(default=None, repr=False, compare=False)
+    _trail: object = field(default=None, repr=False, compare=False)  # the lines' file, read as they are printed
+
+    def add_change(self, anchor: str, shape: tuple[int, int], cells: int, text: str) -> None:
+        """One formula's changed cells in the audit trail, as text (put aside if ``keep`` is set)."""
+        self.changes.append((anchor, shape, cells, text if self.keep is None else self.keep(text.encode())))
+
+    def settle(self, folder: str | None = None) -> None:
+        """The lines put aside moved one by one to an anonymous temporary file of the report's own in ``folder``
+        (gone with the report), before the spool goes; nothing more is put aside."""
+        kept = [t for *_, t in self.changes if isinstance(t, Kept)]
+        if kept:
+            self._trail, spans = tempfile.TemporaryFile(dir=folder), []
+            for data in read_each(kept):
+                spans.append((self._trail.tell(), len(data)))
+                self._trail.write(data)
+            self._trail.flush()
+            where = iter(spans)
+            self.changes = [(a, shape, n, next(where) if isinstance(t, Kept) else t)
+                            for a, shape, n, t in self.changes]
+        self.keep = None
+
+    def _text(self, line) -> str:
+        """A line of the audit trail: its text, or where it is in the report's file."""
+        if isinstance(line, str):
+            return line
+        self._trail.seek(line[0])
+        return self._trail.read(line[1]).decode()
+
+    def trail(self):
+        """(anchor, shape, cells changed, their changes as text) of each formula whose cells changed, in order."""
+        for anchor, shape, n, line in self.changes:
+            yield anchor, shape, n, self._text(line)
+
+    def __getstate__(self) -> dict:  # a report sent from a worker process carries its lines as text
+        state = dict(self.__dict__)
+        state["changes"] = list(self.trail())
+        state["_trail"] = None
+        return state
 
     @property
     def ok(self) -> bool:
@@ -86,7 +130,7 @@ class Report:
             head += "only stored formulas would change" if check else "only stored formulas changed"
         yield head
         verb = "would change" if check else "changed"
-        for anchor, (height, width), n, listed in self.changes:
+        for anchor, (height, width), n, listed in self.trail():
             shape = "" if height == width == n == 1 else f" (result {height} x {width}), {n} cells"
             yield f"  {verb} {anchor}{shape}: {listed}"
         yield from (f"  message {c}: {text}" for c, text in self.messages)

@@ -71,6 +71,9 @@ class Refresher:
         self.sheets: dict[str, Sheet] = {}  # the sheets in memory
         self.formulas: list[Formula] = []
         self._unstored_of: dict[str, tuple[Sheet, dict]] = {}  # by sheet name, for the sheet in memory
+        self._names_of: dict[str, list[str]] = {}  # part -> the names of the sheets stored in it
+        for name, part in self.book.sheet_parts.items():
+            self._names_of.setdefault(part, []).append(name)
         for name in self.book.sheet_parts:
             sheet = self.sheets[name] = self.book.read_sheet(name)  # kept until its last formula is done
             masters = {attrs.get("si"): (r, c, text) for (r, c), (text, attrs) in sheet.formulas.items()
@@ -168,7 +171,7 @@ class Refresher:
 
             value = evaluate_arithmetic(text, cell, refused)
             if value is not None:
-                sheet.write(*key, value)
+                sheet.write(key[0], {key[1]: value})
 
     def run(self, report: Report, workers: int = 1) -> tuple[dict[str, bytes], list[str]]:
         """Compute every CALIB_* cell; return the changed parts and the names of new parts.
@@ -279,10 +282,10 @@ class Refresher:
 
     def _finish(self, part: str, changed: dict) -> None:
         """Forget the sheets of ``part``; store its XML in ``parts`` (and ``changed``) if its bytes change."""
-        for name in [n for n, s in self.sheets.items() if s.part == part]:
-            sheet = self.sheets.pop(name)
+        for name in self._names_of.get(part, ()):
+            sheet = self.sheets.pop(name, None)
             self._unstored_of.pop(name, None)
-            if sheet.edited:
+            if sheet is not None and sheet.edited:
                 data = sheet.render()
                 if data != self.parts[part]:
                     self.parts[part] = changed[part] = self.parts.keep(data)

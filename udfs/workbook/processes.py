@@ -51,8 +51,8 @@ def shares_of(order, by_cell, workers: int) -> list[list]:
 
 
 def _compute_share(index: int):
-    refresher, plan, shares = _FORKED
-    report = Report(Path())
+    refresher, plan, shares, keep = _FORKED
+    report = Report(Path(), keep=keep)  # a forked process puts its audit trail aside in a spool file of its own
     parts, arrays = refresher._compute(shares[index], plan, report)
     lists = {name: getattr(report, name) for name in LISTS}
     return parts, arrays, lists, report.changed
@@ -65,7 +65,7 @@ def compute_in_processes(refresher, shares, plan, report: Report, order):
     from concurrent.futures import ProcessPoolExecutor
 
     global _FORKED
-    _FORKED = refresher, plan, shares
+    _FORKED = refresher, plan, shares, report.keep
     try:
         with ProcessPoolExecutor(len(shares) - 1, mp_context=multiprocessing.get_context("fork"),
                                  initializer=files.die_with_parent) as pool:

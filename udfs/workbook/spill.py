@@ -75,7 +75,7 @@ def write(sheet: Sheet, f, rows, cm, report: Report) -> bool:
         sheet.set_cells(key[0], {key[1]: sheet.cell_xml(*key, None, style) if style is not None else None})
         old = sheet.value(*key)
         if old is not None:
-            sheet.write(*key, None)
+            sheet.write(key[0], {key[1]: None})
             cleared.append(f"{cell_name(*key)} {change(old, None)}")
     ref = None if not array else (cell_name(f.row, f.col) if height == width == 1 else
                                   f"{cell_name(f.row, f.col)}:{cell_name(new.bottom, new.right)}")
@@ -84,11 +84,10 @@ def write(sheet: Sheet, f, rows, cm, report: Report) -> bool:
         r = f.row + i
         if len(row) < width:
             row = list(row) + [None] * (width - len(row))
-        cells = {}
+        cells, values = {}, {}
         stored, written = sheet.row_state(r)
         for j, value in enumerate(row):
             c = f.col + j
-            key = (r, c)
             cell = stored.get(c)
             style = None if cell is None else cell[1]
             old = written[c] if c in written else None if cell is None else cell[0]
@@ -96,7 +95,7 @@ def write(sheet: Sheet, f, rows, cm, report: Report) -> bool:
                 value = old
             if i == 0 and j == 0:
                 if f.shift is not None:  # a filled formula keeps its stored <f> element as it is
-                    cells[c] = sheet.cell_xml(r, c, value, style, stored_f=sheet.formulas[key])
+                    cells[c] = sheet.cell_xml(r, c, value, style, stored_f=sheet.formulas[anchor])
                 else:
                     cells[c] = sheet.cell_xml(r, c, value, style, f.text, ref, cell_cm)
             elif value is None and style is None:
@@ -105,11 +104,12 @@ def write(sheet: Sheet, f, rows, cm, report: Report) -> bool:
                 cells[c] = sheet.cell_xml(r, c, value, style)
             if old != value or isinstance(old, bool) != isinstance(value, bool):
                 listed.append(f"{letters[j]}{r} {change(old, value)}")
-                sheet.write(r, c, value)
+                values[c] = value
         sheet.set_cells(r, cells)
+        sheet.write(r, values)
     listed += cleared
     if listed:  # one line of text per formula, however large its table (no object per cell is kept)
         trail = listed[0].split(" ", 1)[1] if height == width == len(listed) == 1 else "; ".join(listed)
-        report.changes.append((f.where, (height, width), len(listed), trail))
+        report.add_change(f.where, (height, width), len(listed), trail)
     report.changed |= changed or bool(listed)
     return own_cm is not None

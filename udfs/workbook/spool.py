@@ -42,6 +42,11 @@ class Spooled(MutableMapping):
                 self.note = f"the temporary folder {system} cannot be written; {near} was used instead"
         self._out, self._pid = None, None
 
+    @property
+    def folder(self) -> str | None:
+        """The spool folder (None without a spool)."""
+        return None if self._folder is None else self._folder.name
+
     def __enter__(self) -> Spooled:
         return self
 
@@ -65,11 +70,7 @@ class Spooled(MutableMapping):
 
     def __getitem__(self, name: str) -> bytes:
         value = self.parts[name]
-        if isinstance(value, Kept):
-            with open(value.file, "rb") as f:
-                f.seek(value.offset)
-                return f.read(value.size)
-        return value
+        return b"".join(read_each([value])) if isinstance(value, Kept) else value
 
     def __contains__(self, name) -> bool:  # without reading a part put aside
         return name in self.parts
@@ -85,3 +86,17 @@ class Spooled(MutableMapping):
 
     def __len__(self) -> int:
         return len(self.parts)
+
+
+def read_each(kept: list[Kept]):
+    """The bytes put aside at each of ``kept``, one by one (by this process or a forked one: the spool folder is
+    shared), each spool file opened once."""
+    opened: dict = {}
+    try:
+        for k in kept:
+            f = opened.get(k.file) or opened.setdefault(k.file, open(k.file, "rb"))  # noqa: SIM115
+            f.seek(k.offset)
+            yield f.read(k.size)
+    finally:
+        for f in opened.values():
+            f.close()

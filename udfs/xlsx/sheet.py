@@ -291,8 +291,13 @@ class Sheet:
 
     def parse_rows(self, top: int, bottom: int) -> None:
         """Parse the stored rows ``top`` to ``bottom`` in one pass, for the cell questions that follow."""
-        i, j = bisect_left(self.numbers, top), bisect_right(self.numbers, bottom) - 1
-        if all(self.numbers[k] in self._parsed for k in range(i, j + 1)):
+        numbers, parsed = self.numbers, self._parsed
+        i, j = bisect_left(numbers, top), bisect_right(numbers, bottom) - 1
+        while i <= j and numbers[i] in parsed:  # only the stretch not parsed yet: each row is parsed once
+            i += 1
+        while j >= i and numbers[j] in parsed:
+            j -= 1
+        if i > j:
             return
         found, rows = self._cells(i, j)
         cells: dict = {row: {} for row in rows}
@@ -378,10 +383,12 @@ class Sheet:
         _, _, start, end = self._row(row)[col]
         return self.data[start:end].decode("utf-8")
 
-    def write(self, row: int, col: int, value) -> None:
-        """Record the value the refresh gives a cell (None: the cell is emptied), for later readers."""
-        self._written.setdefault(row, {})[col] = value
-        self._last = max(self._last, row)
+    def write(self, row: int, values: dict) -> None:
+        """Record the values the refresh gives cells of one row ({col: value}; None: the cell is emptied), for
+        later readers."""
+        if values:
+            self._written.setdefault(row, {}).update(values)
+            self._last = max(self._last, row)
 
     def set_cells(self, row: int, cells: dict) -> None:
         """Replace cells of one row: column -> cell XML, or None to remove the cell. A row whose cells come
@@ -470,17 +477,19 @@ class Sheet:
     def _dimension_tag(self, changed: list[int]) -> str:
         start, end, attrs = self._dimension
         old = self.data[start:end].decode("utf-8")
-        cells = [(r, c) for r in changed for c in self._edits[r][1]]
-        if not cells:
+        filled = [r for r in changed if self._edits[r][1]]  # in row order
+        if not filled:
             return old
-        if self.numbers and self.columns:
-            cells += [(r, c) for r in (self.numbers[0], self.numbers[-1]) for c in self.columns]
         try:
             first, *rest = attrs.get("ref", "").replace("$", "").split(":")
             (r0, c0), (r1, c1) = parse_cell(first), parse_cell(rest[0] if rest else first)
         except (ValueError, IndexError):
             return old
-        top, bottom = min(r0, *(r for r, _ in cells)), max(r1, *(r for r, _ in cells))
-        left, right = min(c0, *(c for _, c in cells)), max(c1, *(c for _, c in cells))
+        top, bottom = min(r0, filled[0]), max(r1, filled[-1])
+        left = min(c0, *(min(self._edits[r][1]) for r in filled))
+        right = max(c1, *(max(self._edits[r][1]) for r in filled))
+        if self.numbers and self.columns:
+            top, bottom = min(top, self.numbers[0]), max(bottom, self.numbers[-1])
+            left, right = min(left, self.columns[0]), max(right, self.columns[1])
         ref = f"{cell_name(top, left)}:{cell_name(bottom, right)}"
         return old if ref == attrs.get("ref") else tag(self.prefix + "dimension", {**attrs, "ref": ref}, empty=True)
