@@ -84,7 +84,6 @@ class Fits:
 
 
 def back_calc(b, y, lo, hi, x):
-    k = b.size - 1
     shifted = np.tile(b, (y.size, 1))
     shifted[:, 0] -= y
     roots = real_roots(shifted, lo, hi)

@@ -10,14 +10,14 @@ worksheet layer in ``udfs/`` (the package ``degreewise``) imports it as ``from .
 numpy and scipy only, never the worksheet layer.
 """
 
-from .calibration import Calibration, default_max_order
+from .calibration import Calibration
 from .compare import compare, shared_order
 from .diagnostics import curve_checks, point_diagnostics
 from .errors import CalibrationError, DataError, OptionError, OrderError, WeightError
 from .limits import detection_limits
 from .prediction import inverse, predict, uncertainty, why_no_estimate
 from .selection import choose_order, forward_steps, mandel_test
-from .validation import DEFAULT_RULE, RULES
+from .validation import DEFAULT_RULE, RULES, default_max_order
 from .weight_choice import compare_weightings, spread_exponent
 from .words import lack_of_fit_words, order_reason
 

@@ -31,10 +31,9 @@ from .linalg import householder_qr, triangular_inverse
 from .orders import OrderResults, prediction_sum_of_squares
 from .refine import TARGET, PlainBounds, conversion_matrix, plain_bounds, refine, rss_bounds
 from .results import FTest, LackOfFit, OrderChoice, OrderFit, OrderStats, SequentialRow, SequentialTable
-from .validation import check_alpha, check_order, check_pair, check_rule, check_whole
+from .validation import check_alpha, check_max_order, check_pair, check_rule, check_standards, check_whole
 from .weighting import Weighting, weight_order
 
-DEFAULT_MAX_ORDER = 4
 # a sum of squares of the (weighted) responses at or below n (ROUNDING * max |sqrt(w) y|)^2 is rounding
 # error: about a thousand units in the last place of the largest response per point, far below the noise
 # of any instrument
@@ -55,57 +54,6 @@ def _own(a: np.ndarray, given) -> np.ndarray:
     return a.copy() if isinstance(given, np.ndarray) and np.may_share_memory(a, given) else a
 
 
-def default_max_order(n_points: int, n_distinct: int) -> int:
-    """max(min(4, m - 2, n - 5), min(2, m - 2, n - 3)) for n points at m distinct x.
-
-    The largest model keeps one distinct x beyond its coefficients (so lack of fit stays testable where x
-    repeats) and at least 4 residual degrees of freedom, up to order 4; with fewer than 9 points a
-    quadratic is still offered while it leaves 2 residual degrees of freedom. Below 1 the data are too
-    few to choose an order.
-    """
-    return max(min(DEFAULT_MAX_ORDER, n_distinct - 2, n_points - 5), min(2, n_distinct - 2, n_points - 3))
-
-
-def _distinct(x: np.ndarray) -> tuple[np.ndarray, np.ndarray, int]:
-    """A stable sort of x, the index of each point's distinct x value, and the number of distinct values."""
-    by_x = np.argsort(x, kind="stable")
-    sorted_x = x[by_x]
-    starts = np.empty(x.size, dtype=bool)
-    starts[0] = True
-    np.not_equal(sorted_x[1:], sorted_x[:-1], out=starts[1:])
-    inverse = np.empty(x.size, dtype=np.intp)
-    inverse[by_x] = np.cumsum(starts) - 1
-    return by_x, inverse, int(inverse[by_x[-1]]) + 1
-
-
-def _standards(x: np.ndarray, y: np.ndarray) -> tuple[np.ndarray, np.ndarray, int]:
-    """``_distinct(x)`` of at least 3 points at 2 or more distinct x values, with a response that changes."""
-    n = x.size
-    if n < 3:
-        raise DataError(f"only {n} point{'s' if n != 1 else ''}: a calibration curve needs at least 3", argument="x")
-    by_x, inverse, m = _distinct(x)
-    if m == 1:
-        raise DataError(f"all {n} x values are equal ({float(x[0])!r}): a curve needs at least 2 distinct x values",
-                        argument="x")
-    if y.min() == y.max():
-        raise DataError(f"all {n} y values are equal ({float(y[0])!r}): the response does not change with x, "
-                        "so there is no curve to fit", argument="y")
-    return by_x, inverse, m
-
-
-def _max_order(max_order, n: int, m: int) -> int:
-    """``max_order`` checked against n points at m distinct x, or the default (``default_max_order``)."""
-    if max_order is not None:
-        k = check_whole(max_order, "max_order")
-        check_order(k, "max_order", n, m)
-        return k
-    k = default_max_order(n, m)
-    if k < 1:
-        raise OrderError(f"{n} points at {m} distinct x values are too few to choose an order: "
-                         "it takes at least 3 distinct x values and 4 points", argument="max_order")
-    return k
-
-
 class Calibration:
     """Points (x, y), optional weights, factorised once up to ``max_order``.
 
@@ -117,10 +65,10 @@ class Calibration:
     def __init__(self, x, y, max_order=None, weights=None):
         checked_x, checked_y = check_pair(x, y)
         x, y = _own(checked_x, x), _own(checked_y, y)
-        by_x, level, m = _standards(x, y)
+        by_x, level, m = check_standards(x, y)
         n = x.size
         self.weighting = Weighting(weights, x, y)
-        k = _max_order(max_order, n, m)
+        k = check_max_order(max_order, n, m)
         self.x, self.y = _frozen(x), _frozen(y)
         self.by_x = by_x  # a stable sort of the points by x
         self.n_points, self.n_distinct, self.max_order = n, m, k

@@ -22,13 +22,13 @@ import math
 
 import numpy as np
 
-from .calibration import Calibration, default_max_order
+from .calibration import Calibration
 from .distributions import f_sf, t_quantile, t_two_sided
 from .errors import OrderError
 from .prediction import inverse
 from .results import Comparison, DifferenceRow, FTest, OrderChoice
 from .selection import choose_order
-from .validation import check_count, check_level, check_order, check_vector, order_limit
+from .validation import check_count, check_level, check_order, check_vector, default_max_order, order_limit
 
 
 def _scaled_rss(cal: Calibration, order: int, e: int) -> float:

@@ -175,7 +175,7 @@ class Curve:
         key = (t2, float(m[0]))
         if key not in self._bands:
             t2s2 = t2 * self.s**2
-            (z, f), vm = self.grid, self.grid_mean_variance
+            (_, f), vm = self.grid, self.grid_mean_variance
             sign = 1.0 if f[-1] >= f[0] else -1.0
             table = np.empty((3, f.size))
             curve_row, upper, lower = table

@@ -16,6 +16,7 @@ DEFAULT_RULE = RULES[0]
 # degrees of freedom (measured: alpha 1e-5 fails at 1 and 39-44 df, 1e-6 at 1, 30, 31 and many more; 1e-4
 # holds for every df from 1 to 5000 and at 1e5 and 1e6)
 ALPHA_MIN = 1e-4
+DEFAULT_MAX_ORDER = 4
 
 
 def check_vector(values, name: str, *, flat: bool = False) -> np.ndarray:
@@ -190,3 +191,54 @@ def check_criteria_numbers(values) -> tuple[float, float, float, int]:
             raise OptionError(f"criteria[{i}]: the {CRITERIA_NUMBERS[i]} {_shown(v[i])} {what}", argument="criteria",
                               index=i)
     return tolerance, lowest if lowest == lowest else tolerance, passing, 0 if levels != levels else int(levels)
+
+
+def default_max_order(n_points: int, n_distinct: int) -> int:
+    """max(min(4, m - 2, n - 5), min(2, m - 2, n - 3)) for n points at m distinct x.
+
+    The largest model keeps one distinct x beyond its coefficients (so lack of fit stays testable where x
+    repeats) and at least 4 residual degrees of freedom, up to order 4; with fewer than 9 points a
+    quadratic is still offered while it leaves 2 residual degrees of freedom. Below 1 the data are too
+    few to choose an order.
+    """
+    return max(min(DEFAULT_MAX_ORDER, n_distinct - 2, n_points - 5), min(2, n_distinct - 2, n_points - 3))
+
+
+def distinct(x: np.ndarray) -> tuple[np.ndarray, np.ndarray, int]:
+    """A stable sort of x, the index of each point's distinct x value, and the number of distinct values."""
+    by_x = np.argsort(x, kind="stable")
+    sorted_x = x[by_x]
+    starts = np.empty(x.size, dtype=bool)
+    starts[0] = True
+    np.not_equal(sorted_x[1:], sorted_x[:-1], out=starts[1:])
+    inverse = np.empty(x.size, dtype=np.intp)
+    inverse[by_x] = np.cumsum(starts) - 1
+    return by_x, inverse, int(inverse[by_x[-1]]) + 1
+
+
+def check_standards(x: np.ndarray, y: np.ndarray) -> tuple[np.ndarray, np.ndarray, int]:
+    """``distinct(x)`` of at least 3 points at 2 or more distinct x values, with a response that changes."""
+    n = x.size
+    if n < 3:
+        raise DataError(f"only {n} point{'s' if n != 1 else ''}: a calibration curve needs at least 3", argument="x")
+    by_x, inverse, m = distinct(x)
+    if m == 1:
+        raise DataError(f"all {n} x values are equal ({float(x[0])!r}): a curve needs at least 2 distinct x values",
+                        argument="x")
+    if y.min() == y.max():
+        raise DataError(f"all {n} y values are equal ({float(y[0])!r}): the response does not change with x, "
+                        "so there is no curve to fit", argument="y")
+    return by_x, inverse, m
+
+
+def check_max_order(max_order, n: int, m: int) -> int:
+    """``max_order`` checked against n points at m distinct x, or the default (``default_max_order``)."""
+    if max_order is not None:
+        k = check_whole(max_order, "max_order")
+        check_order(k, "max_order", n, m)
+        return k
+    k = default_max_order(n, m)
+    if k < 1:
+        raise OrderError(f"{n} points at {m} distinct x values are too few to choose an order: "
+                         "it takes at least 3 distinct x values and 4 points", argument="max_order")
+    return k

@@ -31,14 +31,14 @@ import math
 import numpy as np
 from scipy import special
 
-from .calibration import Calibration, default_max_order
+from .calibration import Calibration
 from .curve import Curve
 from .diagnostics import back_calculate, deviation_percent
 from .distributions import chi2_sf, t_quantile
 from .errors import WeightError
 from .results import SchemeResult, SpreadExponent
 from .selection import choose_order
-from .validation import check_alpha, check_level, check_pair, check_scheme_base
+from .validation import check_alpha, check_level, check_pair, check_scheme_base, default_max_order
 from .words import fmt_p
 
 SCHEMES = ("none", "1/x", "1/x^2", "1/y", "1/y^2")

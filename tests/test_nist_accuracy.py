@@ -74,9 +74,9 @@ def test_refinement_in_blocks_of_rows_keeps_the_certified_digits(monkeypatch, we
     weights (which change nothing). Repeating the data 40 times divides (V'V)^-1 by 40 and multiplies the
     residual sum of squares by 40, so each standard error is the certified one times sqrt(71 / 3269)
     (residual df 82 - 11 and 3280 - 11)."""
-    import degreewise.engine.refine
+    from degreewise.engine import refine
 
-    monkeypatch.setattr(engine.refine, "_BLOCK", 1)  # every block at the 1024-row minimum
+    monkeypatch.setattr(refine, "_BLOCK", 1)  # every block at the 1024-row minimum
     x, y, cert = load_strd("filip")
     weights = None if weight is None else np.full(x.size * 40, weight)
     fit = engine.fit(np.tile(x, 40), np.tile(y, 40), cert["degree"], weights=weights)

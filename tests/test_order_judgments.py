@@ -13,7 +13,7 @@ from hypothesis import strategies as st
 
 import degreewise
 from degreewise import engine
-from degreewise.engine.calibration import default_max_order
+from degreewise.engine.validation import default_max_order
 from degreewise.engine.words import lack_of_fit_note
 from test_order_choice_words import X as CURVED_X, Y as CURVED_Y
 from conftest import column

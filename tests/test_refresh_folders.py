@@ -51,7 +51,7 @@ def test_reports_go_to_the_file_given_and_the_summary_is_printed(tmp_path, capsy
 
 
 def test_each_report_is_out_before_the_next_workbook_starts(tmp_path, monkeypatch):
-    books = folder(tmp_path)
+    folder(tmp_path)
     trail = tmp_path / "trail.txt"
     seen = []
     refresh_file = refresh.refresh_file
