@@ -204,3 +204,13 @@ def test_the_engine_modules_import_each_other_without_a_cycle():
     for name in graph:
         visit(name)
     assert graph["calibration"] >= {"orders", "selection"}  # the calibration builds on them, not the reverse
+
+
+def test_no_module_of_the_package_is_over_500_lines():
+    """The house rule (DEVELOPERS.md): a module over 500 lines holds more than one job."""
+    from pathlib import Path
+
+    top = Path(__file__).resolve().parent.parent
+    long = {str(p.relative_to(top)): n for folder in ("engine", "udfs") for p in (top / folder).rglob("*.py")
+            if (n := len(p.read_text(encoding="utf-8").splitlines())) > 500}
+    assert long == {}
