@@ -104,7 +104,7 @@ def refresh_file(path: Path, check: bool = False, backup: bool = False, workers:
                 parts.update(changed)
                 _replace(real, infos, parts, added, backup, report, seen)
             finally:
-                report.settle(parts.folder)  # the report's lines go where the spool may write
+                report.settle(parts.parent)  # the report's lines go beside the spool folder, which is removed
         report.written = True
     except (PackageError, files.Changed) as err:
         report.error = str(err)
@@ -174,6 +174,7 @@ def run(paths, check: bool = False, backup: bool = False, jobs: int | None = Non
         nonlocal done, all_ok
         for line in r.each_line(check):
             say(line)
+        r.close()
         out.flush()
         done += 1
         all_ok = all_ok and r.ok

@@ -18,6 +18,7 @@ from .spool import Kept, read_each
 # engine's 4e-12 of exact. A refresh keeps a stored number that agrees with the new one, so a colleague's
 # machine neither rewrites nor lists it; any larger difference is written and listed.
 AGREE = 1e-10
+LOST = "(this line could not be read back)"
 
 
 def agrees(old, new) -> bool:
@@ -74,19 +75,32 @@ class Report:
         self.changes.append((anchor, shape, cells, text if self.keep is None else self.keep(text.encode())))
 
     def settle(self, folder: str | None = None) -> None:
-        """The lines put aside moved one by one to an anonymous temporary file of the report's own in ``folder``
-        (gone with the report), before the spool goes; nothing more is put aside."""
-        kept = [t for *_, t in self.changes if isinstance(t, Kept)]
-        if kept:
-            self._trail, spans = tempfile.TemporaryFile(dir=folder), []
-            for data in read_each(kept):
-                spans.append((self._trail.tell(), len(data)))
-                self._trail.write(data)
-            self._trail.flush()
-            where = iter(spans)
-            self.changes = [(a, shape, n, next(where) if isinstance(t, Kept) else t)
-                            for a, shape, n, t in self.changes]
+        """The lines put aside moved one by one, before the spool goes, to a temporary file of the report's own
+        in ``folder`` (beside the spool folder, not in it; closed by ``close``); nothing more is put aside. Lines
+        that cannot be read back are replaced by a word saying so, and a note: the cells were written."""
         self.keep = None
+        kept = [t for *_, t in self.changes if isinstance(t, Kept)]
+        if not kept:
+            return
+        trail, spans = tempfile.TemporaryFile(dir=folder), []
+        try:
+            for data in read_each(kept):
+                spans.append((trail.tell(), len(data)))
+                trail.write(data)
+            trail.flush()
+        except OSError as err:
+            trail.close()
+            self.notes.append(f"the audit trail's lines could not be read back ({err.strerror or err}); "
+                              "the refreshed cells are as the head line says")
+            spans, trail = [LOST] * len(kept), None
+        self._trail, where = trail, iter(spans)
+        self.changes = [(a, shape, n, next(where) if isinstance(t, Kept) else t) for a, shape, n, t in self.changes]
+
+    def close(self) -> None:
+        """The report's file of lines closed (the report is printed)."""
+        if self._trail is not None:
+            self._trail.close()
+            self._trail = None
 
     def _text(self, line) -> str:
         """A line of the audit trail: its text, or where it is in the report's file."""

@@ -1,5 +1,5 @@
-"""A package's parts with the changed ones put aside in a temporary file, so that a large workbook's
-refreshed sheets are not all held in memory."""
+"""A package's parts with the changed ones, and the audit trail's lines, put aside in a temporary file, so
+that a large workbook's refreshed sheets and its trail are not all held in memory."""
 
 from __future__ import annotations
 
@@ -13,7 +13,8 @@ from . import files
 
 
 class Kept(NamedTuple):
-    """Where a changed part's bytes were put aside: a file of the spool folder, an offset and a size."""
+    """Where a changed part's bytes (or an audit line) were put aside: a file of the spool folder, an offset and a
+    size."""
 
     file: str
     offset: int
@@ -21,10 +22,10 @@ class Kept(NamedTuple):
 
 
 class Spooled(MutableMapping):
-    """A package's parts (name -> bytes), updated in place. With ``spool``, the changed parts that ``keep``
-    puts aside are written to a temporary file (one per process) and read back when asked for, so that a
-    large workbook's refreshed sheets are not all held in memory and a forked process hands back where
-    its parts are, not their bytes; leaving the ``with`` block removes the files."""
+    """A package's parts (name -> bytes), updated in place. With ``spool``, the changed parts and audit lines
+    that ``keep`` puts aside are written to a temporary file (one per process) and read back when asked for,
+    so that a large workbook's refreshed sheets are not all held in memory and a forked process hands back
+    where they are, not their bytes; leaving the ``with`` block removes the files."""
 
     def __init__(self, parts: dict, spool: bool = False, near: Path | None = None):
         """With ``spool``, the parts put aside go to the system's temporary folder or, where that cannot be
@@ -46,6 +47,11 @@ class Spooled(MutableMapping):
     def folder(self) -> str | None:
         """The spool folder (None without a spool)."""
         return None if self._folder is None else self._folder.name
+
+    @property
+    def parent(self) -> str | None:
+        """The folder the spool folder is in (None without a spool): what outlives the spool goes there."""
+        return None if self._folder is None else str(Path(self._folder.name).parent)
 
     def __enter__(self) -> Spooled:
         return self
