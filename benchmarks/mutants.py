@@ -1,4 +1,4 @@
-"""Mutation check of the judgment code: does a test fail when a rule is broken?
+"""Mutation check of the judgment code and the spill rules: does a test fail when a rule is broken?
 
     python benchmarks/mutants.py [PER_FILE [SEED]]
 
@@ -6,8 +6,9 @@ Each mutant changes one place of one module (a comparison flipped: < and <=, > a
 added to or taken from a count raised by one, the usual off-by-one in degrees of freedom; 1 - a replaced by
 a, alpha for 1 - alpha; a minus sign dropped; + and - swapped between two variables), is written over the
 module, and the module's tests run against it (``TESTS``); a failing run kills the mutant. At most PER_FILE
-(default 12) sites per module, drawn with SEED (default 0). The module is restored after every run, also
-when interrupted. Run it on a clean tree: it rewrites the files it mutates in place.
+(default 12) sites per module, drawn with SEED (default 0). It rewrites the modules in place (an editable
+install's link keeps pointing there), so it refuses to start unless they are as committed, and restores each
+module after its mutants, also when interrupted (Ctrl-C, SIGTERM); after a SIGKILL, `git checkout` them.
 """
 
 from __future__ import annotations
@@ -15,6 +16,7 @@ from __future__ import annotations
 import ast
 import os
 import random
+import signal
 import subprocess
 import sys
 from pathlib import Path
@@ -28,7 +30,8 @@ TESTS = {  # each judgment module and the tests that speak for it
     "engine/limits.py": ["test_limits.py", "test_udfs_limits_weighting.py"],
     "engine/diagnostics.py": ["test_check_procedures.py", "test_check_regressions.py", "test_check_rates.py",
                               "test_against_statsmodels.py"],
-    "udfs/workbook/spill.py": ["test_refresh.py", "test_refresh_inputs.py", "test_refresh_desktop.py"],
+    "udfs/workbook/spill.py": ["test_refresh_spill.py", "test_refresh.py", "test_refresh_inputs.py",
+                               "test_refresh_desktop.py"],
 }
 FLIPS = {ast.Lt: ast.LtE, ast.LtE: ast.Lt, ast.Gt: ast.GtE, ast.GtE: ast.Gt, ast.Eq: ast.NotEq, ast.NotEq: ast.Eq}
 
@@ -85,6 +88,10 @@ def mutated(source: str, site: int) -> str:
 
 
 def run(per_file: int = 12, seed: int = 0) -> int:
+    if subprocess.run(["git", "diff", "--quiet", "--", *TESTS], cwd=ROOT).returncode != 0:
+        print("mutants.py: the modules it mutates differ from the commit; commit or stash first", file=sys.stderr)
+        return 2
+    signal.signal(signal.SIGTERM, lambda *_: sys.exit(143))  # through the finally below, which restores
     rng = random.Random(seed)
     env = dict(os.environ, PYTHONDONTWRITEBYTECODE="1")
     survivors, total = [], 0

@@ -231,11 +231,11 @@ def _residuals(u, sqrt_w, q, y_hi, y_lo, c, b, e):
     return f, (g_sum[0] + c) + g_sum[1], qf
 
 
-def _correct(e_hi, e_lo, f, u, q, low_only: bool):
-    """e += f - Q u (the residuals' correction) in place, in double-double, block by block; ``low_only``: the
-    correction is far below e and goes to its low parts (the last step)."""
-    for s in _blocks(f.shape[1], *u.shape):
-        de = f[:, s] - u @ q[s].T
+def _correct(e_hi, e_lo, f, step, q, low_only: bool):
+    """e += f - Q step (the residuals' correction; ``step`` (m, p) in the scaled basis) in place, in double-double,
+    block by block; ``low_only``: the correction is far below e and goes to its low parts (the last step)."""
+    for s in _blocks(f.shape[1], *step.shape):
+        de = f[:, s] - step @ q[s].T
         if low_only:
             e_lo[:, s] += de
         else:

@@ -117,16 +117,16 @@ def check_replicates(replicates, count: int) -> np.ndarray:
             and replicates == int(replicates):
         return np.full(count, float(replicates))
     m = np.atleast_1d(np.asarray(replicates, dtype=float)).ravel()
-    if m.size == 1:
-        m = np.full(count, m[0])
-    if m.size != count:
+    one = m.size == 1
+    if m.size != count and not one:
         raise OptionError(f"replicates has {m.size} values for {count} readings; give one number or one per reading",
                           argument="replicates")
     i = first_failing(np.isfinite(m) & (m >= 1) & (m == np.round(m)))
-    if i is not None:
-        raise OptionError(f"replicates must be a whole number of at least 1, not {_shown(m[i])}",
-                          argument="replicates", index=i)
-    return m
+    if i is not None:  # one value for every reading is named as given; one of several by its position
+        name, index = ("replicates", None) if one else (f"replicates[{i}]", i)
+        raise OptionError(f"{name} must be a whole number of at least 1, not {_shown(m[i])}",
+                          argument="replicates", index=index)
+    return np.full(count, m[0]) if one else m
 
 
 def check_weights(weights, count: int) -> np.ndarray:
@@ -177,7 +177,7 @@ def check_criteria_numbers(values) -> tuple[float, float, float, int]:
     v = [float(a) for a in values] + [math.nan] * (len(CRITERIA_NUMBERS) - len(values))
     if len(v) > len(CRITERIA_NUMBERS):
         raise OptionError(f"criteria has {len(v)} numbers; give at most {len(CRITERIA_NUMBERS)}: "
-                          + ", ".join(CRITERIA_NUMBERS), argument="criteria", index=len(CRITERIA_NUMBERS))
+                          + ", ".join(CRITERIA_NUMBERS), argument="criteria")
     tolerance, lowest, passing, levels = v
     for i, (ok, what) in enumerate((
             (tolerance > 0, "must be a number above 0 (15 for ±15 %)"),

@@ -51,6 +51,8 @@ def test_bad_data(x, y, kind, message):
     (lambda: acceptance.custom([15, 20, 175]), OptionError, "criteria", 2,
      "CELL: the minimum % passing 175 is in percent, from 1 to 100 (75 for 75 %; a cell formatted as % holds 0.75, "
      "which would read as 0.75 %)"),
+    (lambda: engine.inverse(engine.Calibration(X, Y), [2.0, 3.0], 1, replicates=[2, 1.5]), OptionError,
+     "replicates", 1, "CELL must be a whole number of at least 1, not 1.5"),
 ])
 def test_an_error_that_blames_one_value_names_it_once_for_the_caller_to_place(call, kind, argument, index, located):
     """The one validation path: the engine names the value as argument[index] and carries both; the worksheet
@@ -61,6 +63,12 @@ def test_an_error_that_blames_one_value_names_it_once_for_the_caller_to_place(ca
     assert (e.argument, e.index, e.position) == (argument, index, f"{argument}[{index}]")
     assert e.located("CELL") == located
     assert e.message == located.replace("CELL", e.position) == str(e)
+
+
+def test_a_count_of_criteria_blames_no_single_value():
+    with pytest.raises(OptionError) as err:
+        acceptance.custom([15, 20, 75, 3, 9])
+    assert (err.value.argument, err.value.index) == ("criteria", None)
 
 
 def test_an_error_that_blames_no_single_value_is_located_as_it_is():

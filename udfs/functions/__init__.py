@@ -5,13 +5,10 @@ number (CALIB_ORDER) or text; what they share (errors into words, options, the c
 use, the caches) is in ``frame``.
 """
 
+# re-exported: degreewise.__all__ lists them from the catalogue, the one list of the family
 from .about import calib_labels, calib_version
 from .acceptance import calib_acceptance
 from .compare import calib_compare
 from .fit import calib_coefs, calib_order, calib_orders, calib_seqf, calib_stats
 from .judgments import calib_checks, calib_limits, calib_weighting
 from .points import calib_inverse, calib_predict, calib_residuals, calib_uncertainty
-
-__all__ = ["calib_acceptance", "calib_checks", "calib_coefs", "calib_compare", "calib_inverse", "calib_labels",
-           "calib_limits", "calib_order", "calib_orders", "calib_predict", "calib_residuals", "calib_seqf",
-           "calib_stats", "calib_uncertainty", "calib_version", "calib_weighting"]

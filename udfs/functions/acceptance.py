@@ -34,8 +34,7 @@ def _criteria(value) -> acceptance.Criteria:
     try:
         return acceptance.custom(values.tolist())
     except engine.CalibrationError as err:
-        i = err.index if err.index is not None and err.index < cells.size else cells.size - 1
-        raise CellError(err.located(cells.where(i))) from None
+        raise CellError(err.message if err.index is None else err.located(cells.where(err.index))) from None
 
 
 def _verdict_words(verdict) -> tuple[str, str]:
