@@ -106,7 +106,7 @@ def weighting_picks() -> None:
             match = covered = 0
             for _ in range(n):
                 y = 0.5 + 2.0 * x + rng.normal(0.0, 1.0, x.size) * 0.1 * x**b
-                rows = engine.compare_weightings(x, y)
+                rows = engine.compare_weightings(engine.Calibration(x, y))
                 picked = [r for r in rows if r.picked]
                 scheme = picked[0].scheme if picked else "none"
                 if scheme == "1/x^2b":

@@ -21,13 +21,12 @@ import math
 from functools import cached_property
 
 import numpy as np
-from numpy.polynomial import polynomial as P
 
 from . import doubledouble as dd
 from . import selection
 from .distributions import f_sf
 from .errors import DataError, OrderError
-from .linalg import householder_qr, triangular_inverse
+from .linalg import householder_qr, powers, triangular_inverse
 from .orders import OrderResults, prediction_sum_of_squares
 from .refine import TARGET, PlainBounds, conversion_matrix, plain_bounds, refine, rss_bounds
 from .results import FTest, LackOfFit, OrderChoice, OrderFit, OrderStats, SequentialRow, SequentialTable
@@ -41,6 +40,9 @@ ROUNDING = 2.0**-42
 # smallest |R_jj| / max |R_jj| of the scaled basis accepted as full rank (far below any real calibration)
 _RANK_TOLERANCE = 1e-12
 _LN2, _LN_2PI = math.log(2.0), math.log(2.0 * math.pi)
+# what a calibration knows of its standards before any weights: shared by ``Calibration.reweighted``
+_STANDARDS = ("x", "y", "by_x", "_level", "n_points", "n_distinct", "max_order", "_ex", "_ey", "_u", "_ys", "centre",
+              "half_width", "dx_dz", "z")
 
 
 def _frozen(a: np.ndarray) -> np.ndarray:
@@ -65,9 +67,9 @@ class Calibration:
     def __init__(self, x, y, max_order=None, weights=None):
         checked_x, checked_y = check_pair(x, y)
         x, y = _own(checked_x, x), _own(checked_y, y)
-        by_x, level, m = check_standards(x, y)
+        by_x, self._level, m = check_standards(x, y)  # each point's distinct x, for the pure error
         n = x.size
-        self.weighting = Weighting(weights, x, y)
+        weighting = Weighting(weights, x, y)
         k = check_max_order(max_order, n, m)
         self.x, self.y = _frozen(x), _frozen(y)
         self.by_x = by_x  # a stable sort of the points by x
@@ -83,12 +85,26 @@ class Calibration:
         self.half_width = (umax - umin) / 2
         self.dx_dz = math.ldexp(self.half_width, self._ex)  # x per unit of z
         self.z = (u - self.centre) / self.half_width  # the standards' x in the scaled variable
-        basis = P.polyvander(self.z, k)
-        if self.weighting.iterative:
-            self.weighting.settle(x, y, functools.partial(self._fitted_under, basis[:, : weight_order(k) + 1]))
-        self.sqrt_w = np.sqrt(self.weighting.values) if self.weighting.weighted else np.ones(n)
+        self._weigh(weighting)
+
+    def reweighted(self, weights) -> Calibration:
+        """The same standards and max order under ``weights`` (as ``Calibration(x, y, max_order, weights)``, with
+        the standards checked and scaled once: the weighting schemes compared on one set of standards)."""
+        other = object.__new__(Calibration)
+        other.__dict__.update({name: self.__dict__[name] for name in _STANDARDS})
+        other._weigh(Weighting(weights, self.x, self.y))
+        return other
+
+    def _weigh(self, weighting: Weighting) -> None:
+        """Fit the placed standards under ``weighting``: the weights settled, the factorisation, the pure error."""
+        self.weighting = weighting
+        basis = powers(self.z, self.max_order)
+        if weighting.iterative:
+            weighting.settle(self.x, self.y,
+                             functools.partial(self._fitted_under, basis[:, : weight_order(self.max_order) + 1]))
+        self.sqrt_w = np.sqrt(weighting.values) if weighting.weighted else np.ones(self.n_points)
         self._factorise(basis)
-        self._ss_pure = self._pure_error(level)
+        self._ss_pure = self._pure_error(self._level)
         self._stats: dict[int, OrderStats] = {}
         self._orders: dict[int, OrderResults] = {}
         self._choices: dict[tuple[str, float], OrderChoice] = {}
@@ -126,7 +142,7 @@ class Calibration:
 
     def _pure_error(self, levels: np.ndarray) -> float:
         """The (weighted) pure-error sum of squares of the scaled y, about the mean at each distinct x (``levels``:
-        each point's distinct x, not kept)."""
+        each point's distinct x)."""
         ys = self._ys
         if not self.weighting.weighted:
             d_level = ys - (np.bincount(levels, ys) / np.bincount(levels))[levels]

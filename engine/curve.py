@@ -17,6 +17,7 @@ import numpy as np
 from numpy.polynomial import polynomial as P
 
 from .distributions import t_quantile
+from .linalg import powers
 from .weighting import weight_order
 
 if TYPE_CHECKING:  # the calibration builds on this module
@@ -107,7 +108,7 @@ class Curve:
 
     def local(self, z: np.ndarray):
         """f(z), f'(z), the variance of the fitted mean and its slope, at the points z (1-D), in curve units."""
-        v = P.polyvander(z, self.local_polynomials.shape[0] - 1) @ self.local_polynomials
+        v = powers(z, self.local_polynomials.shape[0] - 1) @ self.local_polynomials
         s2 = self._variance[1] ** 2
         return v[:, 0], v[:, 1], s2 * np.maximum(v[:, 2], 0.0), s2 * v[:, 3]
 

@@ -31,12 +31,11 @@ import math
 from typing import TYPE_CHECKING
 
 import numpy as np
-from numpy.polynomial import polynomial as P
 from scipy import special
 
 from .curve import ENDS, Curve
 from .distributions import beta_cdf, log_factorials, t_two_sided
-from .linalg import LEVERAGE_ONE, householder_qr
+from .linalg import LEVERAGE_ONE, householder_qr, powers
 from .prediction import roots_of
 from .results import Check, PointDiagnostics
 from .selection import mandel_test
@@ -129,7 +128,7 @@ def point_diagnostics(cal: Calibration, order: int, alpha: float = 0.05) -> Poin
         bonf = np.ones_like(bonf)
     fitted = cal.y - cal.weighted_residuals(curve.order) / cal.sqrt_w
     resid = cal.y - fitted
-    back, count = back_calculate(cal, curve)
+    back, count = results.back_calculation
     x = cal.x
     notes = [""] * cal.n_points
     flagged = (count != 1) | (bonf < warn_below) | (h > LEVERAGE_ONE) | (x == 0)
@@ -162,7 +161,7 @@ def level_residuals(cal: Calibration, order: int):
     sw = cal.sqrt_w[by_x]
     u = np.add.reduceat(sw * cal.scaled_residuals(order)[by_x], starts)
     root_w = np.sqrt(np.add.reduceat(sw * sw, starts))
-    q, _ = householder_qr(P.polyvander(cal.z[by_x][starts], order) * root_w[:, None])
+    q, _ = householder_qr(powers(cal.z[by_x][starts], order) * root_w[:, None])
     return u / root_w, q
 
 
@@ -258,7 +257,7 @@ def breusch_pagan(residuals: np.ndarray, z: np.ndarray, order: int, q=None) -> t
     """
     e2 = residuals**2
     if q is None:  # an orthonormal basis of 1, z, ..., z^order
-        q, _ = householder_qr(P.polyvander(z, order))
+        q, _ = householder_qr(powers(z, order))
     d = e2 - e2.sum() / e2.size
     tss = float(d @ d)
     if tss == 0:

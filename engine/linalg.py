@@ -1,20 +1,44 @@
-"""The factorisations the engine uses, each through LAPACK (scipy.linalg, numpy.linalg), and the leverage that
-counts as 1."""
+"""The factorisations the engine uses, each through LAPACK (scipy.linalg.lapack, numpy.linalg), and the
+leverage that counts as 1."""
 
 from __future__ import annotations
 
 import numpy as np
-import scipy.linalg
+from scipy.linalg import lapack
 
 # a leverage above this is 1 in double precision: that standard alone fixes the curve at its x
 LEVERAGE_ONE = 1 - 1e-10
+_GEQRF, _ORGQR = lapack.get_lapack_funcs(("geqrf", "orgqr"), dtype=np.float64)
+# work space per column: at least LAPACK's optimal block size (32 in the reference implementation), so the
+# factors are those scipy.linalg.qr gives after its own work-space query
+_WORK_PER_COLUMN = 64
 
 
 def householder_qr(a: np.ndarray):
-    """Reduced Householder QR (scipy.linalg.qr: LAPACK dgeqrf and dorgqr). ``a`` is a temporary the caller
-    does not read again: a Fortran-ordered one (as numpy.polynomial's Vandermonde matrices are) is factorised
-    in place, with no copy (numpy.linalg.qr copies a million-point basis twice)."""
-    return scipy.linalg.qr(a, mode="economic", overwrite_a=True, check_finite=False)
+    """Reduced Householder QR of a float64 m x n matrix, m >= n (LAPACK dgeqrf and dorgqr, as
+    scipy.linalg.qr(mode="economic") without its argument checks and work-space query, which cost more than
+    the factorisation of a calibration's design). ``a`` is a temporary the caller does not read again: a
+    Fortran-ordered one (as numpy.polynomial's Vandermonde matrices are) is factorised in place, with no copy
+    (numpy.linalg.qr copies a million-point basis twice)."""
+    lwork = _WORK_PER_COLUMN * a.shape[1]
+    qr, tau, _, info = _GEQRF(a, lwork=lwork, overwrite_a=1)
+    if info:
+        raise np.linalg.LinAlgError(f"LAPACK dgeqrf failed (info {info})")
+    r = np.triu(qr[: a.shape[1]])
+    q, _, info = _ORGQR(qr, tau, lwork=lwork, overwrite_a=1)
+    if info:
+        raise np.linalg.LinAlgError(f"LAPACK dorgqr failed (info {info})")
+    return q, r
+
+
+def powers(z: np.ndarray, k: int) -> np.ndarray:
+    """z^0 .. z^k as the columns of a Fortran-ordered matrix, each power the one before times z: the values of
+    numpy.polynomial.polynomial.polyvander(z, k), without its argument handling."""
+    v = np.empty((k + 1, z.size))
+    v[0] = 1.0
+    for j in range(1, k + 1):
+        np.multiply(v[j - 1], z, out=v[j])
+    return v.T
 
 
 def triangular_inverse(r: np.ndarray) -> np.ndarray:

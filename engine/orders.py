@@ -9,7 +9,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from .curve import Curve
-from .diagnostics import point_diagnostics
+from .diagnostics import back_calculate, point_diagnostics
 from .doubledouble import ldexp
 from .linalg import LEVERAGE_ONE
 from .distributions import t_two_sided
@@ -68,6 +68,11 @@ class OrderResults:
     @cached_property
     def curve(self) -> Curve:
         return Curve(self.cal, self.order)
+
+    @cached_property
+    def back_calculation(self) -> tuple[np.ndarray, np.ndarray]:
+        """``diagnostics.back_calculate``: the back-calculated x and how many x give each standard's response."""
+        return back_calculate(self.cal, self.curve)
 
     @cached_property
     def leverage(self) -> np.ndarray:

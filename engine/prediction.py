@@ -20,9 +20,9 @@ import math
 from typing import TYPE_CHECKING
 
 import numpy as np
-from numpy.polynomial import polynomial as P
 
 from .curve import ENDS, EXTEND, RANGE_NODES, Curve, newton_in_cells
+from .linalg import powers
 from .results import InverseEstimate, Prediction, Uncertainty
 from .validation import check_level, check_replicates, check_vector
 
@@ -172,7 +172,7 @@ def _solve_on_monotonic_band(curve: Curve, cal: Calibration, y0: np.ndarray, m: 
     open_edges = weighted or t2s2 == 0  # where the band's half-width can be zero, or undefined
 
     def value_and_slope(zz):  # called inside newton_in_cells, which ignores division warnings
-        f, df, var, dvar = local_rows @ P.polyvander(zz, local_rows.shape[1] - 1).T
+        f, df, var, dvar = local_rows @ powers(zz, local_rows.shape[1] - 1).T
         var = np.maximum(var, 0.0)
         if weighted:
             vfz, dvf = _variance_factor_and_slope(curve, zz, sign * f, sign * df)

@@ -38,7 +38,7 @@ from .distributions import chi2_sf, t_quantile
 from .errors import WeightError
 from .results import SchemeResult, SpreadExponent
 from .selection import choose_order
-from .validation import check_alpha, check_level, check_pair, check_scheme_base, default_max_order
+from .validation import check_alpha, check_level, check_pair, check_scheme_base
 from .words import fmt_p
 
 SCHEMES = ("none", "1/x", "1/x^2", "1/y", "1/y^2")
@@ -70,20 +70,26 @@ def spread_exponent(x, y, level: float = 0.95) -> SpreadExponent | str:
     return SpreadExponent(b, b - half, b + half, level, int(u.size))
 
 
-def _judge(x, y, scheme: str, weights, order, max_order, note: str = "") -> SchemeResult:
-    """One scheme fitted up to ``max_order`` and judged at ``order`` (chosen when None); a scheme that cannot
-    apply gets the engine's reason in the note (other errors, such as too few points, concern every scheme
-    and are raised)."""
-    try:
-        if scheme.startswith("1/x"):
-            check_scheme_base(scheme, "x", x)
-        cal = Calibration(x, y, max_order=max_order, weights=weights)
-    except WeightError as err:
-        return _not_applied(scheme, note, err.message, err)
-    k = order if order is not None else choose_order(cal).order
-    # the curve alone, not cal.order(k): an order's results and its calibration refer to each other, so each
-    # scheme's calibration would stay in memory until the cycle collector runs (6 sets of n-long arrays)
-    dev = deviation_percent(back_calculate(cal, Curve(cal, k))[0], cal.x)[cal.x != 0]
+def _judge(cal: Calibration, scheme: str, weights, order, note: str = "") -> SchemeResult:
+    """``cal``'s standards under one scheme, judged at ``order`` (chosen when None); a scheme that cannot apply
+    gets the engine's reason in the note (other errors, such as too few points, concern every scheme and are
+    raised). Unweighted (weights None), ``cal`` itself: its order's results are kept and shared."""
+    if weights is None:
+        fitted = cal
+    else:
+        try:
+            if scheme.startswith("1/x"):
+                check_scheme_base(scheme, "x", cal.x)
+            fitted = cal.reweighted(weights)
+        except WeightError as err:
+            return _not_applied(scheme, note, err.message, err)
+    k = order if order is not None else choose_order(fitted).order
+    # a scheme's own calibration reads the curve alone, not fitted.order(k): an order's results and its
+    # calibration refer to each other, so each scheme's calibration would stay in memory until the cycle
+    # collector runs (6 sets of n-long arrays)
+    back = cal.order(k).back_calculation[0] if fitted is cal else back_calculate(fitted, Curve(fitted, k))[0]
+    x = cal.x
+    dev = deviation_percent(back, x)[x != 0]
     words = [note]
     if not np.isfinite(dev).all():
         words.append(f"{np.count_nonzero(~np.isfinite(dev))} standards cannot be back-calculated, so the "
@@ -91,9 +97,9 @@ def _judge(x, y, scheme: str, weights, order, max_order, note: str = "") -> Sche
         total = largest = math.nan
     else:
         total, largest = float(np.abs(dev).sum()), float(np.abs(dev).max(initial=0.0))
-    if (cal.x == 0).any():
+    if (x == 0).any():
         words.append("deviation % leaves out the standards at x = 0")
-    p = harvey_p(cal.scaled_residuals(k), np.log(cal.x) if (cal.x > 0).all() else cal.z)
+    p = harvey_p(fitted.scaled_residuals(k), np.log(x) if (x > 0).all() else cal.z)
     return SchemeResult(scheme, k, total, largest, p, False, "; ".join(w for w in words if w))
 
 
@@ -137,20 +143,24 @@ def _pick(rows: list[SchemeResult], alpha: float) -> list[SchemeResult]:
     return out
 
 
-def compare_weightings(x, y, order=None, alpha: float = 0.05) -> tuple[SchemeResult, ...]:
-    """One row per scheme (``SCHEMES``, then ``FROM_REPLICATES`` when x repeats), the picked one marked."""
+def compare_weightings(cal: Calibration, order=None, alpha: float = 0.05) -> tuple[SchemeResult, ...]:
+    """One row per scheme (``SCHEMES``, then ``FROM_REPLICATES`` when x repeats), the picked one marked: ``cal``'s
+    standards refitted under each scheme at ``cal``'s max order. ``cal`` is unweighted; the worksheet's has the
+    default max order unless a given order needs more, so that a 1/y scheme's weights come from the same curve
+    (order min(2, max order)) as in every other function's fit under that scheme."""
     alpha = check_alpha(alpha)
-    x, y = check_pair(x, y)
-    # the default max order unless a given order needs more: a 1/y scheme's weights come from the same
-    # curve (order min(2, max order)) as in every other function's fit under that scheme
-    max_order = None if order is None or order <= default_max_order(x.size, np.unique(x).size) else order
-    rows = [_judge(x, y, s, None if s == "none" else s, order, max_order) for s in SCHEMES]
-    if np.unique(x).size < x.size:
-        fit = spread_exponent(x, y, 1.0 - alpha)
+    if cal.weighting.weighted:
+        raise WeightError("compare_weightings needs the unweighted calibration; each scheme is fitted from it",
+                          argument="weights")
+    if order is not None:
+        order = cal.resolve_order(order)
+    rows = [_judge(cal, s, None if s == "none" else s, order) for s in SCHEMES]
+    if cal.n_distinct < cal.n_points:
+        fit = spread_exponent(cal.x, cal.y, 1.0 - alpha)
         if isinstance(fit, str):
             rows.append(_not_applied(FROM_REPLICATES, "", fit))
         else:
             words = (f"b = {fit.b:.3g} ({1 - alpha:.0%} interval {fit.lower:.3g} to {fit.upper:.3g}) from the "
                      f"replicate SDs at {fit.levels} levels: weights 1/x^{2 * fit.b:.3g}")
-            rows.append(_judge(x, y, FROM_REPLICATES, np.abs(x) ** (-2.0 * fit.b), order, max_order, words))
+            rows.append(_judge(cal, FROM_REPLICATES, np.abs(cal.x) ** (-2.0 * fit.b), order, words))
     return tuple(_pick(rows, alpha))

@@ -284,10 +284,14 @@ def test_engine_entry_points_check_what_they_are_given():
     with pytest.raises(engine.OptionError) as err:
         engine.spread_exponent(x, y, level=5)
     assert err.value.message == "level must be between 0 and 1 (for example 0.95), not 5"
-    for entry in (engine.spread_exponent, engine.compare_weightings):  # the standards checked as a pair
+    for entry in (engine.spread_exponent, engine.Calibration):  # the standards checked as a pair
         with pytest.raises(engine.DataError) as err:
             entry(x, y[:-1])
         assert (err.value.message, err.value.argument) == ("x has 12 values and y has 11: give one y for every x", "y")
+    with pytest.raises(engine.WeightError) as err:  # each scheme is fitted from the unweighted standards
+        engine.compare_weightings(engine.Calibration(x, y, weights="1/x"))
+    assert (err.value.message, err.value.argument) == (
+        "compare_weightings needs the unweighted calibration; each scheme is fitted from it", "weights")
 
 
 # ---- the fuzz: random cells through the functions, directly and through xlwings' own code ----

@@ -83,7 +83,7 @@ def test_weighting_table_equals_the_engine():
     assert [r[0] for r in rows[1:]] == ["none", "1/x", "1/x^2", "1/y", "1/y^2", "1/x^2b"]
     assert all(len(r) == 7 for r in rows)
     assert [r[5] for r in rows[1:]].count("picked") == 1
-    for got, r in zip(rows[1:], engine.compare_weightings(x, y)):
+    for got, r in zip(rows[1:], engine.compare_weightings(engine.Calibration(x, y))):
         after = f"; {WEIGHTING_AFTER_CHOICE}" if r.picked else ""  # the measured cost of picking from the data
         assert got == [r.scheme, r.order, r.sum_abs_deviation, r.max_abs_deviation, r.spread_p,
                        "picked" if r.picked else None, (r.note + after) or None]

@@ -72,7 +72,7 @@ def test_picked_scheme_matches_the_variance_structure_in_most_calibrations():
         rng = np.random.default_rng(314 + int(10 * b))
         hits, counts[b] = 0, collections.Counter()  # picks, for the message of a failure
         for _ in range(100):
-            rows = engine.compare_weightings(X, simulate(rng, b))
+            rows = engine.compare_weightings(engine.Calibration(X, simulate(rng, b)))
             picked = [r for r in rows if r.picked]
             assert len(picked) <= 1
             if not picked:  # a miss; the first row says why
@@ -90,7 +90,7 @@ def test_picked_scheme_matches_the_variance_structure_in_most_calibrations():
 def test_rows_against_statsmodels():
     rng = np.random.default_rng(21)
     y = simulate(rng, 1.0)
-    rows = {r.scheme: r for r in engine.compare_weightings(X, y, order=1)}
+    rows = {r.scheme: r for r in engine.compare_weightings(engine.Calibration(X, y), order=1)}
     assert [r for r in rows] == [*SCHEMES, FROM_REPLICATES]
     exog = sm.add_constant(np.log(X))
     for scheme, w in (("none", np.ones_like(X)), ("1/x^2", X**-2.0), ("1/x", 1 / X)):
@@ -110,12 +110,32 @@ def test_rows_against_statsmodels():
 def test_schemes_that_cannot_apply_say_why():
     x = np.repeat([0.0, 1.0, 2.0, 5.0, 10.0, 20.0], 2)
     y = 0.3 + 2.0 * x + np.random.default_rng(9).normal(0, 0.2, x.size)
-    rows = {r.scheme: r for r in engine.compare_weightings(x, y)}
+    rows = {r.scheme: r for r in engine.compare_weightings(engine.Calibration(x, y))}
     for scheme in ("1/x", "1/x^2"):
         assert rows[scheme].order is None and math.isnan(rows[scheme].sum_abs_deviation)
         assert rows[scheme].note == f"does not apply: weights '{scheme}' need every x > 0, but x[0] is 0"
     assert rows["none"].note.endswith("deviation % leaves out the standards at x = 0")
     assert rows[FROM_REPLICATES].note.endswith("does not apply: weights '1/x^2b' need every x > 0, but x[0] is 0")
     assert rows[FROM_REPLICATES].note.startswith("b = ")
-    single = engine.compare_weightings(np.arange(1.0, 8.0), 2.0 * np.arange(1.0, 8.0) + [0.1, -0.1, 0, 0.2, -0.2, 0.1, 0])
+    single = engine.compare_weightings(
+        engine.Calibration(np.arange(1.0, 8.0), 2.0 * np.arange(1.0, 8.0) + [0.1, -0.1, 0, 0.2, -0.2, 0.1, 0]))
     assert [r.scheme for r in single] == list(SCHEMES)  # no replicates: no row from replicate SDs
+
+
+@pytest.mark.parametrize("weights", [None, "1/x", "1/x^2", "1/y", "1/y^2", "explicit"])
+def test_a_reweighted_calibration_is_the_calibration_under_those_weights(weights):
+    """``cal.reweighted(w)`` checks and scales the standards once; every figure is that of ``Calibration(x, y,
+    max_order, w)``, bit for bit (the same arithmetic on the same numbers: the definition, no outside source)."""
+    rng = np.random.default_rng(5)
+    x = np.repeat([0.5, 1.0, 2.0, 5.0, 10.0, 20.0], 3)
+    y = 0.2 + 1.5 * x + 0.01 * x**2 + rng.normal(0, 0.02, x.size) * x
+    w = 1.0 / x**1.4 if weights == "explicit" else weights
+    base = engine.Calibration(x, y, max_order=3, weights="1/x")
+    got, want = base.reweighted(w), engine.Calibration(x, y, max_order=3, weights=w)
+    assert got.weighting.label == want.weighting.label
+    for k in range(4):
+        assert got.fit(k) == want.fit(k)
+        assert got.stats(k) == want.stats(k)
+        assert np.array_equal(got.weighted_residuals(k), want.weighted_residuals(k))
+    assert got.sequential_table() == want.sequential_table()
+    assert base.fit(2) == engine.Calibration(x, y, max_order=3, weights="1/x").fit(2)  # the base is unchanged

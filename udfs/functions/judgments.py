@@ -84,9 +84,9 @@ def calib_weighting(x, y, order=None, alpha=None, exclude=None):
     k, a = parse_order(order), parse_alpha(alpha)
 
     def compute():
-        curve_for(prep, k)  # the standards' own problems, in the family's words
+        cal = curve_for(prep, k)[0]  # the standards' own problems, in the family's words
         rows = [list(HEADERS["weighting"])]
-        for r in engine.compare_weightings(prep.x, prep.y, k, a):
+        for r in engine.compare_weightings(cal, k, a):
             note = r.note if r.problem is None else r.note.replace(r.problem.message, prep.located(r.problem))
             note = f"{note}; {WEIGHTING_AFTER_CHOICE}" if r.picked else note
             rows.append([r.scheme, r.order, *column((r.sum_abs_deviation, r.max_abs_deviation, r.spread_p)),
