@@ -25,7 +25,7 @@ import numpy as np
 from .calibration import Calibration
 from .distributions import f_sf, t_quantile, t_two_sided
 from .errors import OrderError
-from .prediction import inverse
+from .prediction import read_x
 from .results import Comparison, DifferenceRow, FTest, OrderChoice
 from .selection import choose_order
 from .validation import check_count, check_level, check_order, check_vector, default_max_order, order_limit
@@ -139,5 +139,5 @@ def compare(today: Calibration, reference: Calibration, order: int, level: float
             unscaled.append(curve.mean_variance(zz) / curve.s**2)  # Var(fitted mean) / sigma^2
         responses = tuple(row(float(x0), float(r), float(t), float(vt + vr))
                        for x0, t, r, vt, vr in zip(at, *fitted, *unscaled))
-        read_back = tuple(e.x for e in inverse(reference, fitted[0], k, 1, level))
+        read_back = tuple(read_x(reference, fitted[0], k).tolist())
     return Comparison(k, level, same_curve, same_shape, same_sd, s_r, s_t, coefficients, responses, read_back)

@@ -14,7 +14,6 @@ from functools import cached_property
 from typing import TYPE_CHECKING
 
 import numpy as np
-from numpy.polynomial import polynomial as P
 
 from .distributions import t_quantile
 from .linalg import powers
@@ -95,16 +94,16 @@ class Curve:
 
     def value(self, z) -> np.ndarray:
         """f(z) in curve units."""
-        return P.polyval(z, self.a)
+        return _horner(self.a, z)
 
     def slope(self, z) -> np.ndarray:
         """dy/dz."""
-        return P.polyval(z, self._da)
+        return _horner(self._da, z)
 
     def mean_variance(self, z) -> np.ndarray:
         """Var of the fitted mean at z, in curve units squared."""
         var_poly, s_var = self._variance
-        return s_var**2 * np.maximum(P.polyval(z, var_poly), 0.0)
+        return s_var**2 * np.maximum(_horner(var_poly, z), 0.0)
 
     def local(self, z: np.ndarray):
         """f(z), f'(z), the variance of the fitted mean and its slope, at the points z (1-D), in curve units."""
@@ -191,6 +190,16 @@ class Curve:
             local = self.local_polynomials * np.array([sign, sign, t2s2_var, t2s2_var])
             self._bands[key] = (sign, table, local) if rising else None
         return self._bands[key]
+
+
+def _horner(c: np.ndarray, z):
+    """sum_j c_j z^j by Horner's rule: numpy.polynomial.polynomial.polyval(z, c), step for step (so the same
+    numbers, nan at an infinite z included), without its argument handling, which costs more than the sum at
+    a calibration's few points."""
+    v = c[-1] + z * 0.0
+    for a in c[-2::-1]:
+        v = a + v * z
+    return v
 
 
 def _derivative(c: np.ndarray) -> np.ndarray:

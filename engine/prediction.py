@@ -107,6 +107,8 @@ def _monotonic_runs(f: np.ndarray):
     (rising) or do not rise: consecutive runs share their end node, and every cell lies in one run."""
     step = np.diff(f)
     up = step >= 0
+    if up.all() or not up.any():  # the usual case: one run
+        return [(0, step.size, bool(up[0]))]
     ends = np.concatenate([np.flatnonzero(up[1:] != up[:-1]) + 1, [step.size]])
     starts = np.concatenate([[0], ends[:-1]])
     return [(int(a), int(b), bool(up[a])) for a, b in zip(starts, ends)]
@@ -270,6 +272,25 @@ def _outside_anchor(curve: Curve, y0: np.ndarray, m: np.ndarray, t: float):
     return np.where(g[np.arange(y0.size), best] <= 0, z[best], np.nan)
 
 
+def _estimates(curve: Curve, y0: np.ndarray):
+    """Every root of f(z) = y0 in the calibrated range ([-1, 1]; ``roots_of``: reading index, z), the number of
+    roots of each reading, and its z estimate: its one root (nan with none or several)."""
+    rows, zs = roots_of(curve, y0, -1.0, 1.0)
+    count = np.bincount(rows, minlength=y0.size)
+    z_hat = np.full(y0.size, np.nan)
+    single = count[rows] == 1
+    z_hat[rows[single]] = zs[single]
+    return rows, zs, count, z_hat
+
+
+def read_x(cal: Calibration, responses: np.ndarray, order: int) -> np.ndarray:
+    """The x estimate of each response on the curve of ``order`` (nan outside the calibrated range or where several
+    x give it): ``inverse``'s estimate, without the interval."""
+    curve = cal.order(order).curve
+    with np.errstate(over="ignore"):  # a response far beyond the scale of y is inf: outside the range
+        return cal.raw_x(_estimates(curve, curve.from_y(responses))[3])
+
+
 def inverse(cal: Calibration, readings, order: int, replicates=1, level: float = 0.95) -> tuple[InverseEstimate, ...]:
     """x estimate and interval for each reading (the mean of ``replicates`` readings). A reading beyond the
     responses at the ends of the calibrated range gets no estimate, but its interval (the x whose prediction
@@ -288,11 +309,7 @@ def inverse(cal: Calibration, readings, order: int, replicates=1, level: float =
         (z_hat, lower_z, upper_z), held = solved
         count = np.isfinite(z_hat).astype(np.intp)  # one root or none
     else:
-        rows, zs = roots_of(curve, y0_curve, -1.0, 1.0)
-        count = np.bincount(rows, minlength=y0.size)
-        z_hat = np.full(y0.size, np.nan)
-        single = count[rows] == 1
-        z_hat[rows[single]] = zs[single]
+        rows, zs, count, z_hat = _estimates(curve, y0_curve)
         anchor = z_hat.copy()  # where the band holds each reading: its estimate, or a node beyond the range
         beyond = np.flatnonzero((count == 0) & monotonic & np.isfinite(y0_curve))
         if beyond.size:

@@ -163,8 +163,9 @@ def _shown(value) -> str:
 
 def first_failing(ok: np.ndarray) -> int | None:
     """The position of the first value that fails a check (``ok`` False there), or None."""
-    bad = np.flatnonzero(~ok)
-    return int(bad[0]) if bad.size else None
+    if ok.all():  # the usual case, cheaper than a search
+        return None
+    return int(np.flatnonzero(~ok)[0])
 
 
 CRITERIA_NUMBERS = ("tolerance %", "tolerance at the lowest level %", "minimum % passing", "minimum levels")
