@@ -26,7 +26,7 @@ from . import doubledouble as dd
 from . import selection
 from .distributions import f_sf
 from .errors import DataError, OrderError
-from .linalg import householder_qr, powers, triangular_inverse
+from .linalg import householder_qr, orthonormal_columns, powers, triangular_inverse
 from .orders import OrderResults, prediction_sum_of_squares
 from .refine import TARGET, PlainBounds, conversion_matrix, plain_bounds, refine, rss_bounds
 from .results import FTest, LackOfFit, OrderChoice, OrderFit, OrderStats, SequentialRow, SequentialTable
@@ -164,7 +164,7 @@ class Calibration:
     def _fitted_under(self, basis: np.ndarray, w: np.ndarray) -> np.ndarray:
         """Fitted y of the standards on ``basis`` under weights w (one QR; for ``Weighting.settle``)."""
         sw = np.sqrt(w)
-        q, _ = householder_qr(basis * sw[:, None])
+        q = orthonormal_columns(basis * sw[:, None])
         return np.ldexp(q @ (q.T @ (self._ys * sw)) / sw, self._ey)
 
     # -- orders ---------------------------------------------------------------------------
@@ -431,7 +431,7 @@ class Calibration:
             log_rss = (math.log(r) if r > 0 else -math.inf) + ey2 * _LN2
             llf = -0.5 * n * (_LN_2PI + log_rss - math.log(n) + 1) + 0.5 * log_w
             aicc = -2 * llf + 2 * npar + (2 * npar * (npar + 1) / (n - npar - 1) if n - npar - 1 > 0 else math.nan)
-            r2 = 1.0 - r / self._tss if self._tss else math.nan  # 0 only where weights near 1e-322 underflow
+            r2 = self.r_squared(k)
             made[k] = OrderStats(
                 order=k, n_points=n, df_resid=d, rss=dd.ldexp(r, ey2),
                 residual_sd=math.ldexp(math.sqrt(r / d), self._ey),
@@ -442,6 +442,10 @@ class Calibration:
                 lack_of_fit=lack[k],
             )
         self._stats = made
+
+    def r_squared(self, order: int) -> float:
+        """R^2 = 1 - RSS / TSS of ``order``; nan where the weighted TSS is 0 (weights near 1e-322 underflow)."""
+        return 1.0 - self._rss(order) / self._tss if self._tss else math.nan
 
     def fit(self, order) -> OrderFit:
         """Coefficients of ``order`` in raw powers of x, with standard errors, t and p."""

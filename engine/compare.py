@@ -107,7 +107,7 @@ def compare(today: Calibration, reference: Calibration, order: int, level: float
 
     fit_t, fit_r = today.fit(k), reference.fit(k)
     s_t, s_r = fit_t.residual_sd, fit_r.residual_sd
-    df_t, df_r = fit_t.stats.df_resid, fit_r.stats.df_resid
+    df_t, df_r = fit_t.df_resid, fit_r.df_resid
     ratio = (s_t / s_r) ** 2
     one_tail = float(f_sf(ratio, df_t, df_r))
     same_sd = FTest(ratio, df_t, df_r, min(1.0, 2 * min(one_tail, 1 - one_tail)))

@@ -35,7 +35,7 @@ from scipy import special
 
 from .curve import ENDS, Curve
 from .distributions import beta_cdf, log_factorials, t_two_sided
-from .linalg import LEVERAGE_ONE, householder_qr, powers
+from .linalg import LEVERAGE_ONE, orthonormal_columns, powers
 from .prediction import roots_of
 from .results import Check, PointDiagnostics
 from .selection import mandel_test
@@ -161,7 +161,7 @@ def level_residuals(cal: Calibration, order: int):
     sw = cal.sqrt_w[by_x]
     u = np.add.reduceat(sw * cal.scaled_residuals(order)[by_x], starts)
     root_w = np.sqrt(np.add.reduceat(sw * sw, starts))
-    q, _ = householder_qr(powers(cal.z[by_x][starts], order) * root_w[:, None])
+    q = orthonormal_columns(powers(cal.z[by_x][starts], order) * root_w[:, None])
     return u / root_w, q
 
 
@@ -257,7 +257,7 @@ def breusch_pagan(residuals: np.ndarray, z: np.ndarray, order: int, q=None) -> t
     """
     e2 = residuals**2
     if q is None:  # an orthonormal basis of 1, z, ..., z^order
-        q, _ = householder_qr(powers(z, order))
+        q = orthonormal_columns(powers(z, order))
     d = e2 - e2.sum() / e2.size
     tss = float(d @ d)
     if tss == 0:

@@ -20,15 +20,30 @@ def householder_qr(a: np.ndarray):
     the factorisation of a calibration's design). ``a`` is a temporary the caller does not read again: a
     Fortran-ordered one (as numpy.polynomial's Vandermonde matrices are) is factorised in place, with no copy
     (numpy.linalg.qr copies a million-point basis twice)."""
-    lwork = _WORK_PER_COLUMN * a.shape[1]
-    qr, tau, _, info = _GEQRF(a, lwork=lwork, overwrite_a=1)
+    reflectors, tau = _geqrf(a)
+    r = reflectors[: a.shape[1]].copy()  # the upper triangle; below it, zeros row by row (numpy.triu costs more)
+    for i in range(1, r.shape[0]):
+        r[i, :i] = 0.0
+    return _orgqr(reflectors, tau), r
+
+
+def orthonormal_columns(a: np.ndarray) -> np.ndarray:
+    """Q alone of ``householder_qr(a)`` (the same numbers), for a fit that needs no R."""
+    return _orgqr(*_geqrf(a))
+
+
+def _geqrf(a: np.ndarray):
+    qr, tau, _, info = _GEQRF(a, lwork=_WORK_PER_COLUMN * a.shape[1], overwrite_a=1)
     if info:
         raise np.linalg.LinAlgError(f"LAPACK dgeqrf failed (info {info})")
-    r = np.triu(qr[: a.shape[1]])
-    q, _, info = _ORGQR(qr, tau, lwork=lwork, overwrite_a=1)
+    return qr, tau
+
+
+def _orgqr(reflectors: np.ndarray, tau: np.ndarray) -> np.ndarray:
+    q, _, info = _ORGQR(reflectors, tau, lwork=_WORK_PER_COLUMN * reflectors.shape[1], overwrite_a=1)
     if info:
         raise np.linalg.LinAlgError(f"LAPACK dorgqr failed (info {info})")
-    return q, r
+    return q
 
 
 def powers(z: np.ndarray, k: int) -> np.ndarray:

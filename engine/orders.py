@@ -49,7 +49,6 @@ class OrderResults:
     @cached_property
     def fit(self) -> OrderFit:
         cal, k = self.cal, self.order
-        stats = self.stats
         coef, diag = cal.raw_solution(k)
         sd = cal.scaled_residual_sd(k)
         coefs, ses, ts = [], [], []
@@ -62,8 +61,10 @@ class OrderResults:
             e = cal.y_exponent - cal.x_exponent * j
             coefs.append(ldexp(b, e))
             ses.append(ldexp(se, e))
-        p_values = t_two_sided(np.array(ts), stats.df_resid).tolist()
-        return OrderFit(k, tuple(coefs), tuple(ses), tuple(ts), tuple(p_values), stats)
+        df = cal.n_points - k - 1
+        p_values = t_two_sided(np.array(ts), df).tolist()
+        return OrderFit(k, tuple(coefs), tuple(ses), tuple(ts), tuple(p_values), math.ldexp(sd, cal.y_exponent), df,
+                        cal.r_squared(k))
 
     @cached_property
     def curve(self) -> Curve:

@@ -64,26 +64,21 @@ class OrderStats(NamedTuple):
 
 
 class OrderFit(NamedTuple):
-    """Coefficients of one order in raw powers of x, intercept first."""
+    """Coefficients of one order in raw powers of x, intercept first, with the residual SD and df they rest on
+    and R^2 (the order's other figures: ``Calibration.stats``)."""
 
     order: int
     coefficients: tuple[float, ...]
     std_errors: tuple[float, ...]
     t_values: tuple[float, ...]
     p_values: tuple[float, ...]
-    stats: OrderStats
-
-    @property
-    def residual_sd(self) -> float:
-        return self.stats.residual_sd
-
-    @property
-    def r_squared(self) -> float:
-        return self.stats.r_squared
+    residual_sd: float
+    df_resid: int
+    r_squared: float
 
     def interval(self, level: float = 0.95) -> tuple[tuple[float, float], ...]:
         """Two-sided confidence interval of each coefficient at ``level``."""
-        q = float(t_quantile(0.5 + level / 2, self.stats.df_resid))
+        q = float(t_quantile(0.5 + level / 2, self.df_resid))
         return tuple((b - q * s, b + q * s) for b, s in zip(self.coefficients, self.std_errors))
 
 
