@@ -155,3 +155,18 @@ def test_a_bad_new_x_cell_gets_a_note_in_its_own_row_and_the_others_are_computed
         "new_x, row 3 of 4: the logical value TRUE is not a number; enter a number or clear the cell"]
     assert rows[1][:5] == rows[2][:5] == [None] * 5
     assert [rows[0], rows[3]] == degreewise.calib_predict(x, y, [[2.5], [3.5]], 1)
+
+
+@settings(max_examples=300, deadline=None)
+@given(st.lists(st.one_of(st.floats(allow_nan=True, allow_infinity=True), st.integers(-10**6, 10**6)), max_size=40))
+def test_numbers_read_as_the_cell_by_cell_rule_reads_them(cells):
+    """The all-numbers path against a cell-by-cell reading of the same cells: huge finite values are numbers,
+    an inf or nan is a problem at its own position."""
+    from degreewise.coercion import Cells, cell_numbers
+
+    out, blank, problems = cell_numbers(Cells("x", tuple(cells), "row", len(cells)))
+    assert not blank.any()
+    assert [i for i, _ in problems] == [i for i, v in enumerate(cells) if not math.isfinite(v)]
+    finite = [i for i, v in enumerate(cells) if math.isfinite(v)]
+    assert out[finite].tolist() == [float(cells[i]) for i in finite]
+    assert cell_numbers(Cells("x", (1e308, 1e308, 5.0), "row", 3))[0].tolist() == [1e308, 1e308, 5.0]

@@ -53,6 +53,8 @@ class Cells(NamedTuple):
 
     def padded(self, n: int) -> "Cells":
         """The first n cells, blanks added where the cut left fewer."""
+        if n == len(self.values):  # the usual case: nothing to add
+            return self
         return self._replace(values=self.values + (None,) * (n - len(self.values)))
 
 
