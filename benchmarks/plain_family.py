@@ -306,7 +306,7 @@ def _weighting(x, y, big_k, levels, inv, per_level, order=None):
         use = (per_level >= 2) & (levels > 0) & (ss > 0)
         kk = per_level[use] - 1.0
         log_s = 0.5 * np.log(ss[use] / kk) - 0.5 * (special.digamma(kk / 2) + np.log(2.0 / kk))
-        w = 4.0 / special.polygamma(1, kk / 2)
+        w = 4.0 / special.zeta(2.0, kk / 2)  # psi'(kk/2), as the engine
         u = np.log(levels[use])
         ub = (w * u).sum() / w.sum()
         bexp = float((w * (u - ub) * log_s).sum() / (w * (u - ub) ** 2).sum())

@@ -96,7 +96,7 @@ class Calibration:
         return other
 
     def _weigh(self, weighting: Weighting) -> None:
-        """Fit the placed standards under ``weighting``: the weights settled, the factorisation, the pure error."""
+        """Fit the placed standards under ``weighting``: the weights settled and the factorisation."""
         self.weighting = weighting
         basis = powers(self.z, self.max_order)
         if weighting.iterative:
@@ -104,7 +104,6 @@ class Calibration:
                              functools.partial(self._fitted_under, basis[:, : weight_order(self.max_order) + 1]))
         self.sqrt_w = np.sqrt(weighting.values) if weighting.weighted else np.ones(self.n_points)
         self._factorise(basis)
-        self._ss_pure = self._pure_error(self._level)
         self._stats: dict[int, OrderStats] = {}
         self._orders: dict[int, OrderResults] = {}
         self._choices: dict[tuple[str, float], OrderChoice] = {}
@@ -140,10 +139,10 @@ class Calibration:
         wy = sw2 * ys
         return float((sw2 * (ys - wy.sum() / sw2.sum()) ** 2).sum())
 
-    def _pure_error(self, levels: np.ndarray) -> float:
-        """The (weighted) pure-error sum of squares of the scaled y, about the mean at each distinct x (``levels``:
-        each point's distinct x)."""
-        ys = self._ys
+    @cached_property
+    def _ss_pure(self) -> float:
+        """The (weighted) pure-error sum of squares of the scaled y, about the mean at each distinct x."""
+        ys, levels = self._ys, self._level
         if not self.weighting.weighted:
             d_level = ys - (np.bincount(levels, ys) / np.bincount(levels))[levels]
             return float((d_level * d_level).sum())

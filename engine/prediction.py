@@ -90,8 +90,9 @@ def roots_of(curve: Curve, readings: np.ndarray, z_lo: float, z_hi: float):
         rows.append(hit[keep])
         cells.append(cell[keep])
     rows, cells = np.concatenate(rows), np.concatenate(cells)
-    zs = newton_in_cells(lambda zz: (curve.value(zz) - readings[rows], curve.slope(zz)), z[cells], z[cells + 1],
-                         f[cells] - readings[rows], f[cells + 1] - readings[rows])
+    target = readings[rows]
+    zs = newton_in_cells(lambda zz: (curve.value(zz) - target, curve.slope(zz)), z[cells], z[cells + 1],
+                         f[cells] - target, f[cells + 1] - target)
     # a root exactly on the lower end node is not seen as a change within the range
     first = np.searchsorted(z, z_lo)
     if first + 1 < z.size:
