@@ -286,7 +286,7 @@ class Calibration:
         e = self._yw
         for k in range(self.max_order + 1):
             rows[k] = e = e - self._q[:, k] * self._qty[k]
-        bounds = rss_bounds(np.einsum("ij,ij->i", rows, rows), float(np.linalg.norm(self._yw)))
+        bounds = rss_bounds(np.einsum("ij,ij->i", rows, rows), math.sqrt(self._yw @ self._yw))
         worse = (~(bounds <= TARGET)).nonzero()[0].tolist()
         if worse:
             rows[worse] = self._refine_fits(worse)

@@ -77,7 +77,9 @@ def roots_of(curve: Curve, readings: np.ndarray, z_lo: float, z_hi: float):
     once) are found run by run: between the grid's turning nodes f is monotonic, so each reading changes
     sign at most once in a run, at the node a binary search of the run's values finds. Memory stays O(n)."""
     z, f = curve.grid
-    inside = (z[:-1] >= z_lo) & (z[1:] <= z_hi)
+    # the cells that lie in [z_lo, z_hi]: from the first node at or above z_lo to the cell ending at the last
+    # node at or below z_hi (the nodes rise)
+    first, last = int(np.searchsorted(z, z_lo, "left")), int(np.searchsorted(z, z_hi, "right")) - 2
     rows, cells = [], []
     for start, stop, rising in _monotonic_runs(f):
         run = f[start: stop + 1]
@@ -86,7 +88,7 @@ def roots_of(curve: Curve, readings: np.ndarray, z_lo: float, z_hi: float):
             run[::-1], readings, "left")
         hit = np.flatnonzero((j > 0) & (j < run.size))
         cell = start + j[hit] - 1
-        keep = inside[cell]
+        keep = (cell >= first) & (cell <= last)
         rows.append(hit[keep])
         cells.append(cell[keep])
     rows, cells = np.concatenate(rows), np.concatenate(cells)
@@ -94,7 +96,6 @@ def roots_of(curve: Curve, readings: np.ndarray, z_lo: float, z_hi: float):
     zs = newton_in_cells(lambda zz: (curve.value(zz) - target, curve.slope(zz)), z[cells], z[cells + 1],
                          f[cells] - target, f[cells + 1] - target)
     # a root exactly on the lower end node is not seen as a change within the range
-    first = np.searchsorted(z, z_lo)
     if first + 1 < z.size:
         on_end = np.flatnonzero((f[first] - readings == 0) & (f[first + 1] - readings >= 0))
         if on_end.size:
