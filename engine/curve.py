@@ -196,6 +196,7 @@ def _horner(c: np.ndarray, z):
     """sum_j c_j z^j by Horner's rule: numpy.polynomial.polynomial.polyval(z, c), step for step (so the same
     numbers, nan at an infinite z included), without its argument handling, which costs more than the sum at
     a calibration's few points."""
+    c = c.tolist()  # Python floats: cheaper to combine with an array than numpy scalars, the same sums
     v = c[-1] + z * 0.0
     for a in c[-2::-1]:
         v = a + v * z

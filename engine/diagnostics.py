@@ -180,9 +180,10 @@ def runs_distribution(n1: int, n2: int) -> tuple[np.ndarray, np.ndarray]:
         return np.where(inside, ln_fact[n] - ln_fact[j] - ln_fact[n - j], -np.inf)
 
     total = ln_fact[n1 + n2] - ln_fact[n1] - ln_fact[n2]
+    a_less, b_less = lc(n1 - 1, k - 1), lc(n2 - 1, k - 1)
     with np.errstate(divide="ignore"):
-        even = math.log(2.0) + lc(n1 - 1, k - 1) + lc(n2 - 1, k - 1)
-        odd = np.logaddexp(lc(n1 - 1, k - 1) + lc(n2 - 1, k), lc(n1 - 1, k) + lc(n2 - 1, k - 1))
+        even = math.log(2.0) + a_less + b_less
+        odd = np.logaddexp(a_less + lc(n2 - 1, k), lc(n1 - 1, k) + b_less)
     return r, np.exp(np.where(r % 2 == 0, even, odd) - total)
 
 

@@ -70,10 +70,11 @@ def spread_exponent(x, y, level: float = 0.95) -> SpreadExponent | str:
     return SpreadExponent(b, b - half, b + half, level, int(u.size))
 
 
-def _judge(cal: Calibration, scheme: str, weights, order, note: str = "") -> SchemeResult:
-    """``cal``'s standards under one scheme, judged at ``order`` (chosen when None); a scheme that cannot apply
-    gets the engine's reason in the note (other errors, such as too few points, concern every scheme and are
-    raised). Unweighted (weights None), ``cal`` itself: its order's results are kept and shared."""
+def _judge(cal: Calibration, u: np.ndarray, scheme: str, weights, order, note: str = "") -> SchemeResult:
+    """``cal``'s standards under one scheme, judged at ``order`` (chosen when None), u the regressor of Harvey's
+    test (the same for every scheme); a scheme that cannot apply gets the engine's reason in the note (other
+    errors, such as too few points, concern every scheme and are raised). Unweighted (weights None), ``cal``
+    itself: its order's results are kept and shared."""
     if weights is None:
         fitted = cal
     else:
@@ -89,7 +90,8 @@ def _judge(cal: Calibration, scheme: str, weights, order, note: str = "") -> Sch
     # collector runs (6 sets of n-long arrays)
     back = cal.order(k).back_calculation[0] if fitted is cal else back_calculate(fitted, Curve(fitted, k))[0]
     x = cal.x
-    dev = deviation_percent(back, x)[x != 0]
+    nonzero = x != 0
+    dev = deviation_percent(back, x)[nonzero]
     words = [note]
     if not np.isfinite(dev).all():
         words.append(f"{np.count_nonzero(~np.isfinite(dev))} standards cannot be back-calculated, so the "
@@ -97,9 +99,9 @@ def _judge(cal: Calibration, scheme: str, weights, order, note: str = "") -> Sch
         total = largest = math.nan
     else:
         total, largest = float(np.abs(dev).sum()), float(np.abs(dev).max(initial=0.0))
-    if (x == 0).any():
+    if not nonzero.all():
         words.append("deviation % leaves out the standards at x = 0")
-    p = harvey_p(fitted.scaled_residuals(k), np.log(x) if (x > 0).all() else cal.z)
+    p = harvey_p(fitted.scaled_residuals(k), u)
     return SchemeResult(scheme, k, total, largest, p, False, "; ".join(w for w in words if w))
 
 
@@ -154,7 +156,8 @@ def compare_weightings(cal: Calibration, order=None, alpha: float = 0.05) -> tup
                           argument="weights")
     if order is not None:
         order = cal.resolve_order(order)
-    rows = [_judge(cal, s, None if s == "none" else s, order) for s in SCHEMES]
+    u = np.log(cal.x) if (cal.x > 0).all() else cal.z  # Harvey's regressor: log x, or x (scaled) when some x <= 0
+    rows = [_judge(cal, u, s, None if s == "none" else s, order) for s in SCHEMES]
     if cal.n_distinct < cal.n_points:
         fit = spread_exponent(cal.x, cal.y, 1.0 - alpha)
         if isinstance(fit, str):
@@ -162,5 +165,5 @@ def compare_weightings(cal: Calibration, order=None, alpha: float = 0.05) -> tup
         else:
             words = (f"b = {fit.b:.3g} ({1 - alpha:.0%} interval {fit.lower:.3g} to {fit.upper:.3g}) from the "
                      f"replicate SDs at {fit.levels} levels: weights 1/x^{2 * fit.b:.3g}")
-            rows.append(_judge(cal, FROM_REPLICATES, np.abs(cal.x) ** (-2.0 * fit.b), order, words))
+            rows.append(_judge(cal, u, FROM_REPLICATES, np.abs(cal.x) ** (-2.0 * fit.b), order, words))
     return tuple(_pick(rows, alpha))

@@ -79,7 +79,8 @@ def calib_compare(x, y, ref_x, ref_y, at=None, order=None, level=None, weights=N
         alpha = 1.0 - lev
         shared = f"; both curves of order {chosen} ({how}); tested at {alpha:.3g}"
         approximate = ("; approximate, since the residual SDs differ" if c.same_sd.p_value < alpha else "")
-        no_replicates = [name for name, p in (("today's", prep), ("the reference", ref)) if np.unique(p.x).size == p.x.size]
+        no_replicates = [name for name, cal in (("today's", today), ("the reference", reference))
+                         if cal.n_distinct == cal.n_points]
         sd_extra = "".join(f"; {name} standards have no replicates, so their residual SD includes any lack of fit"
                            for name in no_replicates)
         rows = [list(HEADERS["compare"]),
