@@ -76,16 +76,21 @@ class _Band:
 
 def _first_root(func, band: _Band, grid: np.ndarray, on_grid: tuple) -> float:
     """Smallest x of (0, grid[-1]] where func(x, f, dy/dx, s_new) (negative just above 0) reaches zero, bracketed
-    on the grid (``on_grid``: the band there) and refined by brentq; nan if it does not."""
+    on the grid (``on_grid``: the band there) and refined by brentq; nan if it does not. The bracket's ends are
+    the grid's values (brentq asks for them first), so that brentq sees the change of sign the grid found."""
     from scipy.optimize import brentq
 
     with np.errstate(invalid="ignore"):
-        up = np.flatnonzero(func(grid, *on_grid) >= 0)
+        values = func(grid, *on_grid)
+    up = np.flatnonzero(values >= 0)
     if not up.size or up[0] == 0:
         return math.nan
     j = int(up[0])
+    ends = {float(grid[j - 1]): float(values[j - 1]), float(grid[j]): float(values[j])}
 
     def at(v):
+        if v in ends:
+            return ends[v]
         x = np.array([v])
         return float(func(x, *band(x))[0])
 
