@@ -29,6 +29,7 @@ from typing import NamedTuple
 import numpy as np
 
 from .calibration import Calibration
+from .diagnostics import deviation_percent
 from .errors import CalibrationError
 from .results import CriterionResult, ExclusionStep, StandardVerdict, Verdict
 from .validation import check_criteria_numbers
@@ -124,14 +125,14 @@ def _g(v: float) -> str:
 def _standards(cal: Calibration, order: int, criteria: Criteria) -> tuple[StandardVerdict, ...]:
     """Each standard read back through the curve and judged by its level's limit (module docstring)."""
     x = cal.x
-    back = np.array(cal.order(order).diagnostics().back_calculated)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        dev = np.where(x != 0, 100.0 * (back - x) / np.abs(x), NAN)
+    back = cal.order(order).back_calculation[0]  # the back-calculation alone, not every point diagnostic
+    dev = deviation_percent(back, x)
     levels = np.unique(x[x != 0])
     ends = {levels[0]: (criteria.lowest, " (lowest level)")} if levels.size else {}
     if levels.size:
         ends.setdefault(levels[-1], (criteria.highest, " (highest level)"))
     per_standard = criteria.tolerance == criteria.tolerance
+    words: dict[tuple, str] = {}  # one text for each verdict and limit, shared by the standards it describes
     out = []
     for i, (xi, bi, di) in enumerate(zip(x.tolist(), back.tolist(), dev.tolist())):
         limit, where = ends.get(xi, (criteria.tolerance, ""))
@@ -145,7 +146,9 @@ def _standards(cal: Calibration, order: int, criteria: Criteria) -> tuple[Standa
             ok, reason = False, "no x near the calibrated range gives this response"
         else:
             ok = abs(di) <= limit
-            reason = f"{'within' if ok else 'outside'} ±{limit:g} %{where}"
+            reason = words.get((ok, limit, where))
+            if reason is None:
+                reason = words[ok, limit, where] = f"{'within' if ok else 'outside'} ±{limit:g} %{where}"
         out.append(StandardVerdict(i, xi, bi, di, limit, ok, reason))
     return tuple(out)
 

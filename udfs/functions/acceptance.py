@@ -57,16 +57,16 @@ def calib_acceptance(x, y, criteria, order=None, weights=None, exclude=None):
         how = "given as the order argument" if k is not None else "the order the default rule picks"
         rows = [list(HEADERS["acceptance"]),
                 ["criteria", None, None, None, None, crit.name, f"{crit.numbers()}. Source: {crit.source}"]]
-        standards = {int(prep.used[s.point]): [prep.label(s.point), cell(s.x), cell(s.back_calculated),
-                                               cell(s.deviation), cell(s.limit),
-                                               None if s.passed is None else ("pass" if s.passed else "fail"),
-                                               s.reason]
-                     for s in verdict.standards}
+        standards = [None] * prep.n_input  # in input order: a row per position, used or excluded
+        for s in verdict.standards:
+            standards[prep.used[s.point]] = [prep.label(s.point), cell(s.x), cell(s.back_calculated),
+                                             cell(s.deviation), cell(s.limit),
+                                             None if s.passed is None else ("pass" if s.passed else "fail"), s.reason]
         counted = ("; counted as not passing" if crit.min_passing == crit.min_passing else "")
         for e, row in zip(prep.excluded, excluded_rows(cal, chosen, prep.excluded)):
             standards[e.position] = [f"standard {e.position + 1} of {prep.n_input}", cell(e.x), row[5], row[6],
                                      None, "excluded", f"{row[7]}{counted}"]
-        rows += [standards[i] for i in sorted(standards)]
+        rows += [row for row in standards if row is not None]
         for c in verdict.criteria:
             rows.append([c.name, None, None, cell(c.value), cell(c.limit), "met" if c.met else "not met",
                          c.detail])
