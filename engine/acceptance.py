@@ -1,8 +1,8 @@
 """Acceptance of a calibration run under a stated set of criteria, and which standards the set would let
 the analyst exclude (never excluded here: exclusion stays the analyst's decision).
 
-Every standard is read back through the curve (``OrderResults.diagnostics``: the x solving
-f(x) = y nearest its own x) and judged by its deviation 100 (x' - x) / x against the set's limit.
+Every standard is read back through the curve (``OrderResults.back_calculation``: the x solving
+f(x) = y nearest its own x) and judged by its deviation 100 (x' - x) / |x| against the set's limit.
 
 - ICH M10 (Bioanalytical Method Validation and Study Sample Analysis, 2022), chromatographic methods:
   within ±15 %, ±20 % at the lowest level; at least 75 % of the standards and at least six levels pass;

@@ -433,7 +433,7 @@ class Calibration:
             r2 = self.r_squared(k)
             made[k] = OrderStats(
                 order=k, n_points=n, df_resid=d, rss=dd.ldexp(r, ey2),
-                residual_sd=math.ldexp(math.sqrt(r / d), self._ey),
+                residual_sd=math.ldexp(self.scaled_residual_sd(k), self._ey),
                 r_squared=r2, adj_r_squared=1.0 - (1.0 - r2) * (n - 1) / d,
                 press=dd.ldexp(pr, ey2), predicted_r_squared=1.0 - pr / self._tss if self._tss else math.nan,
                 aicc=aicc, bic=-2 * llf + npar * math.log(n),
@@ -442,9 +442,9 @@ class Calibration:
             )
         self._stats = made
 
-    def r_squared(self, order: int) -> float:
+    def r_squared(self, order) -> float:
         """R^2 = 1 - RSS / TSS of ``order``; nan where the weighted TSS is 0 (weights near 1e-322 underflow)."""
-        return 1.0 - self._rss(order) / self._tss if self._tss else math.nan
+        return 1.0 - self._rss(self.resolve_order(order)) / self._tss if self._tss else math.nan
 
     def fit(self, order) -> OrderFit:
         """Coefficients of ``order`` in raw powers of x, with standard errors, t and p."""

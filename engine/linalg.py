@@ -28,7 +28,8 @@ def householder_qr(a: np.ndarray):
 
 
 def orthonormal_columns(a: np.ndarray) -> np.ndarray:
-    """Q alone of ``householder_qr(a)`` (the same numbers), for a fit that needs no R."""
+    """Q alone of ``householder_qr(a)`` (the same numbers), for a fit that needs no R; ``a`` is a temporary,
+    overwritten as there."""
     return _orgqr(*_geqrf(a))
 
 

@@ -32,7 +32,8 @@ class OrderResults:
     """One order of a calibration; every figure is computed from the calibration's one factorisation on
     first use and then kept (as statsmodels' regression results compute derived statistics).
 
-    ``stats`` (goodness of fit), ``fit`` (raw power coefficients with standard errors, t and p),
+    ``stats`` (goodness of fit), ``fit`` (raw power coefficients with standard errors, t and p, and the
+    residual SD, df and R^2 they rest on),
     ``curve`` (values, band and roots in the scaled variable: ``curve.Curve``), ``leverage``, ``influence``
     (leverages, studentized residuals, Cook's distances and the outliers' Bonferroni p-values) and
     ``diagnostics(alpha)`` (each standard's figures and notes, ``diagnostics.point_diagnostics``).

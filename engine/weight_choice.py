@@ -58,7 +58,7 @@ def spread_exponent(x, y, level: float = 0.95) -> SpreadExponent | str:
         return "needs replicate SDs at 3 or more levels with x > 0"
     k = counts[use] - 1.0
     log_s = 0.5 * np.log(ss[use] / k) - 0.5 * (special.digamma(k / 2) + np.log(2.0 / k))
-    w = 4.0 / special.zeta(2.0, k / 2)  # psi'(k/2), as scipy's polygamma(1, k/2) computes it, without its wrapper
+    w = 4.0 / special.zeta(2.0, k / 2)  # psi'(k/2) = zeta(2, k/2), Hurwitz's zeta (what polygamma(1, .) returns)
     u = np.log(levels[use])
     ubar = (w * u).sum() / w.sum()
     quw = (w * (u - ubar) ** 2).sum()

@@ -13,7 +13,6 @@ def test_the_qr_is_scipys_economic_qr_bit_for_bit(n, p, seed):
     q_ref, r_ref = scipy.linalg.qr(a, mode="economic")
     q, r = householder_qr(np.asfortranarray(a))
     assert np.array_equal(q, q_ref) and np.array_equal(r, r_ref)
-    assert not np.tril(r, -1).any()  # below the diagonal: zeros only
     assert np.array_equal(orthonormal_columns(np.asfortranarray(a)), q_ref)
 
 

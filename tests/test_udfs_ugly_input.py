@@ -160,8 +160,8 @@ def test_a_bad_new_x_cell_gets_a_note_in_its_own_row_and_the_others_are_computed
 @settings(max_examples=300, deadline=None)
 @given(st.lists(st.one_of(st.floats(allow_nan=True, allow_infinity=True), st.integers(-10**6, 10**6)), max_size=40))
 def test_numbers_read_as_the_cell_by_cell_rule_reads_them(cells):
-    """The all-numbers path against a cell-by-cell reading of the same cells: huge finite values are numbers,
-    an inf or nan is a problem at its own position."""
+    """Every finite number (a float or a whole number) is read as itself, and an inf or nan is a problem at its
+    own position, whichever way the cells are read (all numbers at once, or cell by cell when one is not)."""
     from degreewise.coercion import Cells, cell_numbers
 
     out, blank, problems = cell_numbers(Cells("x", tuple(cells), "row", len(cells)))
@@ -169,4 +169,10 @@ def test_numbers_read_as_the_cell_by_cell_rule_reads_them(cells):
     assert [i for i, _ in problems] == [i for i, v in enumerate(cells) if not math.isfinite(v)]
     finite = [i for i, v in enumerate(cells) if math.isfinite(v)]
     assert out[finite].tolist() == [float(cells[i]) for i in finite]
-    assert cell_numbers(Cells("x", (1e308, 1e308, 5.0), "row", 3))[0].tolist() == [1e308, 1e308, 5.0]
+
+
+def test_huge_numbers_are_numbers():
+    from degreewise.coercion import Cells, cell_numbers
+
+    out, blank, problems = cell_numbers(Cells("x", (1e308, 1e308, -1e308, 5.0), "row", 4))
+    assert out.tolist() == [1e308, 1e308, -1e308, 5.0] and not blank.any() and problems == []
