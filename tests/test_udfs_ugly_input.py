@@ -159,7 +159,7 @@ def test_a_bad_new_x_cell_gets_a_note_in_its_own_row_and_the_others_are_computed
 
 @settings(max_examples=300, deadline=None)
 @given(st.lists(st.one_of(st.floats(allow_nan=True, allow_infinity=True), st.integers(-10**6, 10**6)), max_size=40))
-def test_numbers_read_as_the_cell_by_cell_rule_reads_them(cells):
+def test_every_finite_number_is_itself_and_an_inf_or_nan_is_named_at_its_place(cells):
     """Every finite number (a float or a whole number) is read as itself, and an inf or nan is a problem at its
     own position, whichever way the cells are read (all numbers at once, or cell by cell when one is not)."""
     from degreewise.coercion import Cells, cell_numbers
